@@ -1,0 +1,250 @@
+//! Calendar CSV import (schema in calendars/README.md).
+//!
+//! Columns (renamed with `--calendar-map field=Column`): `released_at`, or
+//! `date` plus optional `time`; `title`; `currency`; `tier`; optional
+//! `category`, `region`, `all_day`, `id`. Times without an offset are local
+//! to `--calendar-tz`. A row with a date but no time, or `all_day` true, is
+//! an all-day release covering its local day.
+
+use super::rules::Draft;
+use super::{CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency};
+use crate::table::{Cell, ColumnSource, Table};
+use crate::timefmt::{Stamp, TimeFormat, parse_stamp, scan_date, scan_time};
+use crate::zones::{LocalPolicy, naive_to_ms};
+use chrono::NaiveTime;
+use std::path::Path;
+
+pub const FIELDS: &[&str] = &["released_at", "date", "time", "title", "currency", "tier", "category", "region", "all_day", "id"];
+
+pub fn read(
+    path: &Path,
+    opts: &CalendarOptions,
+    out: &mut Vec<Release>,
+    summary: &mut CalendarSummary,
+) -> Result<(), CalendarError> {
+    let table = Table::read(path, opts.delimiter).map_err(|message| CalendarError::Format { path: path.into(), message })?;
+    let name_of = |f: &str| opts.columns.get(f).cloned().unwrap_or_else(|| f.to_string());
+    let missing = |f: &str| CalendarError::MissingColumn {
+        path: path.into(),
+        field: f.into(),
+        column: name_of(f),
+        available: table.names().join(", "),
+    };
+    let get = |f: &str| table.column(&name_of(f));
+    let released = get("released_at");
+    let date = get("date");
+    let time = get("time");
+    if released.is_none() && date.is_none() {
+        return Err(missing("released_at"));
+    }
+    let title = get("title").ok_or_else(|| missing("title"))?;
+    let currency = get("currency");
+    if currency.is_none() && opts.rules.0.is_empty() {
+        return Err(missing("currency"));
+    }
+    let tier = get("tier");
+    let (category, region, all_day, id) = (get("category"), get("region"), get("all_day"), get("id"));
+    let file = path.display().to_string();
+    let text = |c: Option<&ColumnSource>, i: usize| -> Option<String> {
+        match c?.get(i) {
+            Cell::Str(s) => Some(s.trim().to_string()),
+            Cell::Num(v) => Some(if v.fract() == 0.0 { format!("{}", v as i64) } else { v.to_string() }),
+            _ => None,
+        }
+    };
+    for i in 0..table.height() {
+        summary.rows_read += 1;
+        let row = (|| -> Result<Release, (&'static str, &'static str, String)> {
+            let t = text(Some(&title), i).filter(|s| !s.is_empty()).ok_or(("title", "missing_value", "empty".to_string()))?;
+            let flagged_all_day = match text(all_day.as_ref(), i).map(|s| s.to_ascii_lowercase()) {
+                None => false,
+                Some(s) => match s.as_str() {
+                    "true" | "1" | "yes" | "y" => true,
+                    "false" | "0" | "no" | "n" | "" => false,
+                    _ => return Err(("all_day", "bad_value", format!("'{s}' is not true/false"))),
+                },
+            };
+            // The instant, or the local day for an all-day release.
+            let (at, end, is_all_day) = resolve_time(&released, &date, &time, i, flagged_all_day, opts)?;
+            let mut cur = text(currency.as_ref(), i).filter(|s| !s.is_empty());
+            let mut tr = match text(tier.as_ref(), i).filter(|s| !s.is_empty()) {
+                None => None,
+                Some(s) => Some(Tier::parse(&s).ok_or(("tier", "bad_tier", format!("'{s}' is not high, medium or low")))?),
+            };
+            let mut cat = text(category.as_ref(), i).filter(|s| !s.is_empty()).map(|s| s.to_lowercase());
+            opts.rules.fill(Draft { title: &t, currency: &mut cur, tier: &mut tr, category: &mut cat });
+            let cur = cur.ok_or(("currency", "missing_currency", "empty; add a currency or a title rule".to_string()))?;
+            if !is_currency(&cur) {
+                return Err(("currency", "bad_currency", format!("'{cur}' is not an ISO 4217 code")));
+            }
+            let tr = tr.ok_or(("tier", "missing_value", "empty; give high, medium or low (or a title rule)".to_string()))?;
+            Ok(Release {
+                id: text(id.as_ref(), i).filter(|s| !s.is_empty()).unwrap_or_else(|| format!("{file}:{}", i + 1)),
+                at,
+                end,
+                all_day: is_all_day,
+                title: t,
+                currency: cur.to_ascii_uppercase(),
+                tier: tr,
+                category: cat,
+                region: text(region.as_ref(), i).filter(|s| !s.is_empty()),
+            })
+        })();
+        match row {
+            Ok(r) => out.push(r),
+            Err((field, reason, message)) => summary.reject(CalendarRejection {
+                file: file.clone(),
+                row: i + 1,
+                field: opts.columns.get(field).cloned().unwrap_or_else(|| field.to_string()),
+                reason,
+                message,
+            }),
+        }
+    }
+    Ok(())
+}
+
+type RowErr = (&'static str, &'static str, String);
+
+fn resolve_time(
+    released: &Option<ColumnSource>,
+    date: &Option<ColumnSource>,
+    time: &Option<ColumnSource>,
+    i: usize,
+    all_day: bool,
+    opts: &CalendarOptions,
+) -> Result<(i64, i64, bool), RowErr> {
+    let zone_err = |field: &'static str| {
+        move |e: crate::zones::ZoneError| {
+            let reason = match e {
+                crate::zones::ZoneError::Gap { .. } => "local_time_gap",
+                crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
+                _ => "bad_time",
+            };
+            (field, reason, e.to_string())
+        }
+    };
+    let day_bounds = |d: chrono::NaiveDate| -> Result<(i64, i64, bool), RowErr> {
+        let p = LocalPolicy::Rfc5545;
+        let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p).map_err(zone_err("date"))?;
+        let b = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), p).map_err(zone_err("date"))?;
+        Ok((a, b, true))
+    };
+    if let Some(rc) = released {
+        match rc.get(i) {
+            Cell::Instant(ms) => return Ok((ms, ms, false)),
+            Cell::Str(s) => {
+                let s = s.trim();
+                if s.len() == 10 && let Some((d, 10)) = scan_date(s.as_bytes()) {
+                    return day_bounds(d);
+                }
+                let stamp = parse_stamp(s, &TimeFormat::Auto).map_err(|e| ("released_at", "bad_time", e.to_string()))?;
+                if all_day {
+                    let d = match stamp {
+                        Stamp::Local(l) => l.date(),
+                        Stamp::Instant(ms) => opts.zone.local_date(ms),
+                    };
+                    return day_bounds(d);
+                }
+                let ms = stamp.resolve(&opts.zone, opts.policy).map_err(zone_err("released_at"))?;
+                return Ok((ms, ms, false));
+            }
+            Cell::Num(_) => return Err(("released_at", "bad_time", "a number where a time was expected".into())),
+            Cell::Null if date.is_none() => return Err(("released_at", "missing_value", "empty".into())),
+            Cell::Null => {}
+        }
+    }
+    let dc = date.as_ref().ok_or(("released_at", "missing_value", "empty".to_string()))?;
+    let d = match dc.get(i) {
+        Cell::Str(s) => match scan_date(s.trim().as_bytes()) {
+            Some((d, n)) if n == s.trim().len() => d,
+            _ => return Err(("date", "bad_time", format!("'{s}' is not a date YYYY-MM-DD"))),
+        },
+        Cell::Instant(ms) => opts.zone.local_date(ms),
+        _ => return Err(("date", "missing_value", "empty".into())),
+    };
+    let t = match time.as_ref().map(|c| c.get(i)) {
+        None | Some(Cell::Null) => None,
+        Some(Cell::Str(s)) => {
+            let s = s.trim();
+            match s.to_ascii_lowercase().as_str() {
+                "all day" | "all-day" | "tentative" | "" => None,
+                _ => {
+                    let (tm, used) = scan_time(s.as_bytes()).ok_or(("time", "bad_time", format!("'{s}' is not a time HH:MM[:SS]")))?;
+                    let rest = s[used..].trim();
+                    if rest.is_empty() {
+                        Some(Stamp::Local(d.and_time(tm)))
+                    } else if rest == "Z" {
+                        Some(Stamp::Instant(naive_to_ms(&d.and_time(tm))))
+                    } else {
+                        let off = crate::zones::parse_offset(rest).ok_or(("time", "bad_time", format!("'{s}' has an unreadable offset")))?;
+                        Some(Stamp::Instant(naive_to_ms(&d.and_time(tm)) - off as i64 * 1000))
+                    }
+                }
+            }
+        }
+        Some(_) => return Err(("time", "bad_time", "not a time HH:MM[:SS]".into())),
+    };
+    match t {
+        None => day_bounds(d),
+        Some(_) if all_day => day_bounds(d),
+        Some(stamp) => {
+            let ms = stamp.resolve(&opts.zone, opts.policy).map_err(zone_err("time"))?;
+            Ok((ms, ms, false))
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use chrono::NaiveDateTime;
+
+    fn utc(s: &str) -> i64 {
+        naive_to_ms(&NaiveDateTime::parse_from_str(s, "%Y-%m-%d %H:%M").unwrap())
+    }
+
+    fn load(content: &str, opts: &CalendarOptions) -> (Vec<Release>, CalendarSummary) {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("c.csv");
+        std::fs::write(&p, content).unwrap();
+        let mut out = Vec::new();
+        let mut s = CalendarSummary::default();
+        read(&p, opts, &mut out, &mut s).unwrap();
+        (out, s)
+    }
+
+    /// BLS CPI for September 2025 was published 2025-10-24 at 08:30 Eastern
+    /// (bls.gov/bls/092025-cpi-reschedule-notice.htm, REFERENCES.md §3.2):
+    /// 12:30Z under EDT. ONS market-sensitive releases are at 07:00 UK time
+    /// (REFERENCES.md §3.3): 06:00Z in BST.
+    #[test]
+    fn date_and_time_columns_in_calendar_zone() {
+        let csv = "date,time,title,currency,tier,category\n2025-10-24,08:30,Consumer prices,USD,high,inflation\n2025-10-24,,Holiday,USD,low,\n";
+        let opts = CalendarOptions { zone: "America/New_York".parse().unwrap(), ..Default::default() };
+        let (rs, s) = load(csv, &opts);
+        assert_eq!(s.rows_rejected, 0);
+        assert_eq!(rs[0].at, utc("2025-10-24 12:30"));
+        assert_eq!(rs[0].category.as_deref(), Some("inflation"));
+        assert!(rs[1].all_day && rs[1].at == utc("2025-10-24 04:00") && rs[1].end == utc("2025-10-25 04:00"));
+        let csv = "released_at,title,currency,tier\n2025-06-18 07:00,UK consumer prices,GBP,high\n2025-06-18T07:00:00+01:00,Same with offset,GBP,high\n";
+        let opts = CalendarOptions { zone: "Europe/London".parse().unwrap(), ..Default::default() };
+        let (rs, _) = load(csv, &opts);
+        assert_eq!(rs[0].at, utc("2025-06-18 06:00"));
+        assert_eq!(rs[1].at, utc("2025-06-18 06:00"));
+    }
+
+    #[test]
+    fn rejections_name_field_and_reason() {
+        let csv = "released_at,title,currency,tier\n2024-01-05 08:30,A,USD,urgent\n2024-01-05 08:30,B,XYZ,high\n,C,USD,high\n2024-03-10 02:30,D,USD,high\n";
+        let opts = CalendarOptions { zone: "America/New_York".parse().unwrap(), ..Default::default() };
+        let (rs, s) = load(csv, &opts);
+        assert!(rs.is_empty());
+        assert_eq!(s.rows_rejected, 4);
+        let reasons: Vec<_> = s.rejections.iter().map(|r| (r.row, r.field.as_str(), r.reason)).collect();
+        assert_eq!(
+            reasons,
+            vec![(1, "tier", "bad_tier"), (2, "currency", "bad_currency"), (3, "released_at", "missing_value"), (4, "released_at", "local_time_gap")]
+        );
+    }
+}

@@ -1,0 +1,305 @@
+//! Release calendars: the `Release` record, importing ICS and CSV files,
+//! title rules, and merging several files into one list (SPEC §1).
+//!
+//! Invariant: every calendar row or VEVENT read is either a release (possibly
+//! expanded into many by RRULE), a merged duplicate, or a counted rejection.
+
+pub mod contentline;
+pub mod csv;
+pub mod ics;
+pub mod rules;
+pub mod vtimezone;
+
+use crate::zones::{LocalPolicy, Zone};
+use serde::Serialize;
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
+
+/// Release importance (RFC 5545's three-level PRIORITY scheme).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Tier {
+    Low,
+    Medium,
+    High,
+}
+
+impl Tier {
+    pub fn parse(s: &str) -> Option<Tier> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "high" | "h" | "3" => Some(Tier::High),
+            "medium" | "med" | "m" | "2" => Some(Tier::Medium),
+            "low" | "l" | "1" => Some(Tier::Low),
+            _ => None,
+        }
+    }
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Tier::High => "high",
+            Tier::Medium => "medium",
+            Tier::Low => "low",
+        }
+    }
+    /// RFC 5545 §3.8.1.9: 1–4 high, 5 medium, 6–9 low; 0 = undefined.
+    pub fn from_priority(p: u8) -> Option<Tier> {
+        match p {
+            1..=4 => Some(Tier::High),
+            5 => Some(Tier::Medium),
+            6..=9 => Some(Tier::Low),
+            _ => None,
+        }
+    }
+}
+
+/// One economic release.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Release {
+    /// Identifier: the file's `id`/`UID` (with the occurrence date for RRULE
+    /// expansions), else `file:row`.
+    pub id: String,
+    /// Release instant, ms since epoch UTC. For an all-day release, the start
+    /// of its local day.
+    pub at: i64,
+    /// End of an all-day release's local day (exclusive); equals `at` otherwise.
+    pub end: i64,
+    pub all_day: bool,
+    pub title: String,
+    /// ISO 4217 code, upper case.
+    pub currency: String,
+    pub tier: Tier,
+    pub category: Option<String>,
+    pub region: Option<String>,
+}
+
+/// A calendar row or event that was not imported.
+#[derive(Debug, Clone, Serialize)]
+pub struct CalendarRejection {
+    pub file: String,
+    /// Row (CSV data row, from 1) or physical line (ICS) of the problem.
+    pub row: usize,
+    pub field: String,
+    pub reason: &'static str,
+    pub message: String,
+}
+
+/// What was read from the calendar files.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct CalendarSummary {
+    pub files: Vec<String>,
+    /// CSV rows plus ICS VEVENTs read.
+    pub rows_read: usize,
+    /// Releases after RRULE expansion and duplicate merging.
+    pub releases: usize,
+    /// Occurrences added by RRULE expansion beyond the first.
+    pub recurrences_expanded: usize,
+    pub duplicates_merged: usize,
+    pub rows_rejected: usize,
+    pub rejected_by_reason: BTreeMap<String, usize>,
+    /// The first rejections (at most [`KEEP_REJECTIONS`]), in file order.
+    pub rejections: Vec<CalendarRejection>,
+}
+
+/// How many rejections a summary keeps verbatim.
+pub const KEEP_REJECTIONS: usize = 1000;
+
+impl CalendarSummary {
+    pub(crate) fn reject(&mut self, r: CalendarRejection) {
+        self.rows_rejected += 1;
+        *self.rejected_by_reason.entry(r.reason.to_string()).or_default() += 1;
+        if self.rejections.len() < KEEP_REJECTIONS {
+            self.rejections.push(r);
+        }
+    }
+}
+
+/// Imported, merged calendar, sorted by instant.
+#[derive(Debug, Clone, Default)]
+pub struct Calendar {
+    pub releases: Vec<Release>,
+    pub summary: CalendarSummary,
+}
+
+/// Errors that stop a calendar import.
+#[derive(Debug, thiserror::Error)]
+pub enum CalendarError {
+    #[error("cannot read calendar {path}: {source}")]
+    Io { path: PathBuf, source: std::io::Error },
+    #[error("calendar {path}: {message}")]
+    Format { path: PathBuf, message: String },
+    #[error("calendar {path}: column '{column}' for field {field} not found (columns: {available}); map it with --calendar-map {field}=<column>")]
+    MissingColumn { path: PathBuf, field: String, column: String, available: String },
+    #[error("{count} calendar row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them)")]
+    Rejected { count: usize, examples: String },
+    #[error("rules file {path}: {message}")]
+    Rules { path: PathBuf, message: String },
+}
+
+/// Settings for reading calendars.
+#[derive(Debug, Clone)]
+pub struct CalendarOptions {
+    /// Zone of times without an offset (CSV) and floating ICS times.
+    pub zone: Zone,
+    /// DST policy for CSV local times (ICS always follows RFC 5545 §3.3.5).
+    pub policy: LocalPolicy,
+    /// CSV column mapping: field → column name.
+    pub columns: HashMap<String, String>,
+    pub delimiter: Option<u8>,
+    pub rules: rules::TitleRules,
+    /// RRULE expansion span [from, to] in ms; `None` means rules must end.
+    pub span: Option<(i64, i64)>,
+    /// Upper bound on occurrences one RRULE may produce.
+    pub max_occurrences: usize,
+    pub skip_bad_rows: bool,
+}
+
+impl Default for CalendarOptions {
+    fn default() -> Self {
+        CalendarOptions {
+            zone: Zone::Utc,
+            policy: LocalPolicy::Error,
+            columns: HashMap::new(),
+            delimiter: None,
+            rules: rules::TitleRules::default(),
+            span: None,
+            max_occurrences: 50_000,
+            skip_bad_rows: false,
+        }
+    }
+}
+
+/// Lower-cased title with punctuation dropped and spaces collapsed, for
+/// duplicate detection.
+pub fn normalise_title(t: &str) -> String {
+    let mut out = String::with_capacity(t.len());
+    for w in t.split(|c: char| !c.is_alphanumeric()).filter(|w| !w.is_empty()) {
+        if !out.is_empty() {
+            out.push(' ');
+        }
+        out.push_str(&w.to_lowercase());
+    }
+    out
+}
+
+/// Reads and merges calendar files (ICS by `.ics`/`.ical` extension, else CSV).
+pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, CalendarError> {
+    let mut summary = CalendarSummary::default();
+    let mut releases = Vec::new();
+    for path in paths {
+        summary.files.push(path.display().to_string());
+        if is_ics(path) {
+            ics::read(path, opts, &mut releases, &mut summary)?;
+        } else {
+            csv::read(path, opts, &mut releases, &mut summary)?;
+        }
+    }
+    if summary.rows_rejected > 0 && !opts.skip_bad_rows {
+        let examples = summary
+            .rejections
+            .iter()
+            .take(20)
+            .map(|r| format!("  {} row {}: {}: {}", r.file, r.row, r.field, r.message))
+            .collect::<Vec<_>>()
+            .join("\n");
+        return Err(CalendarError::Rejected { count: summary.rows_rejected, examples });
+    }
+    let releases = merge_duplicates(releases, &mut summary);
+    summary.releases = releases.len();
+    Ok(Calendar { releases, summary })
+}
+
+fn is_ics(path: &Path) -> bool {
+    matches!(
+        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
+        Some("ics" | "ical" | "ifb" | "icalendar")
+    )
+}
+
+/// Sorts by instant and merges releases with the same instant, currency and
+/// normalised title. The merged release keeps the first one's fields and the
+/// higher tier.
+fn merge_duplicates(mut rs: Vec<Release>, summary: &mut CalendarSummary) -> Vec<Release> {
+    rs.sort_by(|a, b| a.at.cmp(&b.at).then_with(|| a.currency.cmp(&b.currency)));
+    let mut out: Vec<Release> = Vec::with_capacity(rs.len());
+    let mut seen: HashMap<(i64, String, String), usize> = HashMap::new();
+    for r in rs {
+        let key = (r.at, r.currency.clone(), normalise_title(&r.title));
+        if let Some(&i) = seen.get(&key) {
+            summary.duplicates_merged += 1;
+            let kept = &mut out[i];
+            kept.tier = kept.tier.max(r.tier);
+            if kept.category.is_none() {
+                kept.category = r.category;
+            }
+            continue;
+        }
+        seen.insert(key, out.len());
+        out.push(r);
+    }
+    out
+}
+
+/// ISO 4217 alphabetic codes of current currencies and the precious metals
+/// (list recalled from memory of the ISO 4217 table, not checked against
+/// the current amendment); used to tell a currency from a category word.
+pub const ISO_4217: &[&str] = &[
+    "AED", "AFN", "ALL", "AMD", "ANG", "AOA", "ARS", "AUD", "AWG", "AZN", "BAM", "BBD", "BDT", "BGN", "BHD", "BIF",
+    "BMD", "BND", "BOB", "BRL", "BSD", "BTN", "BWP", "BYN", "BZD", "CAD", "CDF", "CHF", "CLP", "CNY", "COP", "CRC",
+    "CUP", "CVE", "CZK", "DJF", "DKK", "DOP", "DZD", "EGP", "ERN", "ETB", "EUR", "FJD", "FKP", "GBP", "GEL", "GHS",
+    "GIP", "GMD", "GNF", "GTQ", "GYD", "HKD", "HNL", "HTG", "HUF", "IDR", "ILS", "INR", "IQD", "IRR", "ISK", "JMD",
+    "JOD", "JPY", "KES", "KGS", "KHR", "KMF", "KPW", "KRW", "KWD", "KYD", "KZT", "LAK", "LBP", "LKR", "LRD", "LSL",
+    "LYD", "MAD", "MDL", "MGA", "MKD", "MMK", "MNT", "MOP", "MRU", "MUR", "MVR", "MWK", "MXN", "MYR", "MZN", "NAD",
+    "NGN", "NIO", "NOK", "NPR", "NZD", "OMR", "PAB", "PEN", "PGK", "PHP", "PKR", "PLN", "PYG", "QAR", "RON", "RSD",
+    "RUB", "RWF", "SAR", "SBD", "SCR", "SDG", "SEK", "SGD", "SHP", "SLE", "SOS", "SRD", "SSP", "STN", "SVC", "SYP",
+    "SZL", "THB", "TJS", "TMT", "TND", "TOP", "TRY", "TTD", "TWD", "TZS", "UAH", "UGX", "USD", "UYU", "UZS", "VES",
+    "VND", "VUV", "WST", "XAF", "XAG", "XAU", "XCD", "XOF", "XPD", "XPF", "XPT", "YER", "ZAR", "ZMW", "ZWL",
+];
+
+/// Whether `s` is an ISO 4217 code (case-insensitive).
+pub fn is_currency(s: &str) -> bool {
+    s.len() == 3 && ISO_4217.binary_search(&s.to_ascii_uppercase().as_str()).is_ok()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn currency_list_is_sorted_for_binary_search() {
+        assert!(ISO_4217.windows(2).all(|w| w[0] < w[1]));
+        assert!(is_currency("usd") && is_currency("XAU") && !is_currency("CPI"));
+    }
+
+    #[test]
+    fn priority_three_level_scheme() {
+        // RFC 5545 §3.8.1.9 quote in ../shared/REFERENCES.md §1.7.
+        assert_eq!(Tier::from_priority(1), Some(Tier::High));
+        assert_eq!(Tier::from_priority(4), Some(Tier::High));
+        assert_eq!(Tier::from_priority(5), Some(Tier::Medium));
+        assert_eq!(Tier::from_priority(6), Some(Tier::Low));
+        assert_eq!(Tier::from_priority(9), Some(Tier::Low));
+        assert_eq!(Tier::from_priority(0), None);
+    }
+
+    #[test]
+    fn duplicates_merge_on_instant_currency_and_title() {
+        let r = |title: &str, tier| Release {
+            id: title.into(),
+            at: 1000,
+            end: 1000,
+            all_day: false,
+            title: title.into(),
+            currency: "USD".into(),
+            tier,
+            category: None,
+            region: None,
+        };
+        let mut s = CalendarSummary::default();
+        let out = merge_duplicates(
+            vec![r("Jobs report", Tier::Medium), r("JOBS  report.", Tier::High), r("Jobs report, revised", Tier::Low)],
+            &mut s,
+        );
+        assert_eq!(out.len(), 2);
+        assert_eq!(s.duplicates_merged, 1);
+        assert_eq!(out[0].tier, Tier::High);
+    }
+}

@@ -1,0 +1,137 @@
+//! `eventfence check`: load trades and/or a calendar and show what was
+//! understood, so a user can fix mappings and zones before analysing.
+
+use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, TradeArgs};
+use crate::calendar::{CalendarSummary, Tier};
+use crate::relevance::InstrumentCurrencies;
+use crate::report::{CAUTION, ToolInfo};
+use crate::trades::TradeSummary;
+use crate::zones::{Zone, format_utc};
+use anyhow::{Result, bail};
+use clap::Args;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// Show what eventfence understood of the inputs.
+///
+/// Example:
+///   eventfence check --trades demo/trades.csv --trades-tz America/New_York+07:00 \
+///     --calendar calendars/demo-usd.ics calendars/demo-europe.csv --instrument-map US500=USD
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    #[command(flatten)]
+    pub trades: TradeArgs,
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+    /// Print JSON instead of tables.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Overview of imported trades.
+#[derive(Debug, Serialize)]
+pub struct TradesOverview {
+    pub import: TradeSummary,
+    pub input_zone: Zone,
+    /// First open and last close, UTC and in the input zone.
+    pub span_utc: Option<[String; 2]>,
+    pub span_input_zone: Option<[String; 2]>,
+    pub runs: usize,
+    pub instruments: Vec<InstrumentLine>,
+}
+
+#[derive(Debug, Serialize)]
+pub struct InstrumentLine {
+    #[serde(flatten)]
+    pub currencies: InstrumentCurrencies,
+    pub trades: usize,
+}
+
+/// Overview of the merged calendar.
+#[derive(Debug, Serialize)]
+pub struct CalendarOverview {
+    pub import: CalendarSummary,
+    pub span_utc: Option<[String; 2]>,
+    /// currency → tier → count (all-day releases counted under their tier).
+    pub releases_by_currency: BTreeMap<String, BTreeMap<Tier, usize>>,
+    pub all_day_releases: usize,
+}
+
+#[derive(Debug, Serialize)]
+pub struct CheckReport {
+    pub tool: ToolInfo,
+    pub trades: Option<TradesOverview>,
+    pub calendar: Option<CalendarOverview>,
+    /// Unmapped instruments (when --unmapped error), reported rather than fatal here.
+    pub problems: Vec<String>,
+    pub caution: &'static str,
+}
+
+/// Exit status 0 when every row imported and every instrument resolved.
+pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
+    if args.trades.trades.is_empty() && args.calendar.calendar.is_empty() {
+        bail!("nothing to check: give --trades and/or --calendar");
+    }
+    // check always reads past bad rows so it can list them all.
+    let rows = RowArgs { skip_bad_rows: true, ..args.rows.clone() };
+    let mut problems = Vec::new();
+    let trade_opts = common::trade_options(&args.trades, &rows)?;
+    let loaded = if args.trades.trades.is_empty() { None } else { Some(common::load_trades(&args.trades, &trade_opts)?) };
+    let span = loaded.as_ref().and_then(|(t, _)| t.span());
+    let cal_opts = common::calendar_options(&args.calendar, &rows, args.trades.delimiter, span)?;
+    let cal = if args.calendar.calendar.is_empty() { None } else { Some(common::load_calendar(&args.calendar, &cal_opts)?) };
+    let cal_currencies = cal.as_ref().map(common::calendar_currencies).unwrap_or_default();
+
+    let trades = loaded.map(|(t, import)| {
+        let counts = crate::relevance::trades_per_instrument(&t.instrument, &t.instruments);
+        let resolved = match common::instrument_currencies(&args.instruments, &t, &cal_currencies) {
+            Ok(r) => r,
+            Err(e) => {
+                problems.push(format!("{e:#}"));
+                let lenient = InstrumentArgs { unmapped: crate::relevance::Unmapped::None, ..args.instruments.clone() };
+                common::instrument_currencies(&lenient, &t, &cal_currencies).unwrap_or_default()
+            }
+        };
+        let zone = trade_opts.zone;
+        TradesOverview {
+            import,
+            input_zone: zone,
+            span_utc: t.span().map(|(a, b)| [format_utc(a), format_utc(b)]),
+            span_input_zone: t.span().map(|(a, b)| [zone.format(a), zone.format(b)]),
+            runs: t.runs.len(),
+            instruments: resolved
+                .into_iter()
+                .map(|c| InstrumentLine { trades: counts.get(&c.instrument).copied().unwrap_or(0), currencies: c })
+                .collect(),
+        }
+    });
+    let calendar = cal.map(|c| {
+        let mut by: BTreeMap<String, BTreeMap<Tier, usize>> = BTreeMap::new();
+        for r in &c.releases {
+            *by.entry(r.currency.clone()).or_default().entry(r.tier).or_default() += 1;
+        }
+        CalendarOverview {
+            span_utc: c.releases.first().zip(c.releases.last()).map(|(a, b)| [format_utc(a.at), format_utc(b.at)]),
+            releases_by_currency: by,
+            all_day_releases: c.releases.iter().filter(|r| r.all_day).count(),
+            import: c.summary,
+        }
+    });
+    let report = CheckReport { tool: ToolInfo::current(), trades, calendar, problems, caution: CAUTION };
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        print!("{}", crate::render::table::check(&report));
+    }
+    let rejected = report.trades.as_ref().map_or(0, |t| t.import.rows_rejected)
+        + report.calendar.as_ref().map_or(0, |c| c.import.rows_rejected);
+    Ok(if rejected > 0 || !report.problems.is_empty() {
+        std::process::ExitCode::from(3)
+    } else {
+        std::process::ExitCode::SUCCESS
+    })
+}

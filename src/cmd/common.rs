@@ -1,0 +1,184 @@
+//! Flags shared by several subcommands, defined once and flattened into each
+//! subcommand's arguments, and their resolution into typed settings before
+//! any data is read (so a bad flag fails at once).
+
+use crate::calendar::{self, Calendar, CalendarOptions, rules::TitleRules};
+use crate::relevance::{self, InstrumentCurrencies, Unmapped};
+use crate::timefmt::TimeFormat;
+use crate::trades::{self, TradeOptions, TradeSummary, Trades};
+use crate::zones::{DAY_MS, LocalPolicy, Zone};
+use anyhow::{Context, Result, bail};
+use clap::Args;
+use std::collections::HashMap;
+use std::path::PathBuf;
+
+/// Where the trades come from and how to read them.
+#[derive(Debug, Clone, Args, Default)]
+pub struct TradeArgs {
+    /// Trade list(s): CSV or Parquet files, or a glob in quotes. With several
+    /// files and no run column, each file is one run.
+    #[arg(long = "trades", value_name = "FILE|GLOB", num_args = 1..)]
+    pub trades: Vec<String>,
+    /// Zone of trade times written without an offset: UTC, an IANA name,
+    /// +02:00, or a shifted server clock such as America/New_York+07:00.
+    #[arg(long, value_name = "ZONE", default_value = "UTC")]
+    pub trades_tz: String,
+    /// Column names: field=Column pairs, comma-separated (fields: opened_at,
+    /// closed_at, instrument, pnl, run, side, size, entry_price, exit_price,
+    /// fees, equity_before, pnl_pct).
+    #[arg(long = "map", value_name = "FIELD=COLUMN,...")]
+    pub map: Vec<String>,
+    /// JSON file {"field": "column"} with the same meaning as --map.
+    #[arg(long, value_name = "JSON")]
+    pub map_file: Option<PathBuf>,
+    /// How trade times are written: auto (ISO 8601, YYYY.MM.DD HH:MM[:SS]),
+    /// epoch-s, epoch-ms, or a strftime pattern such as '%d/%m/%Y %H:%M'.
+    #[arg(long, value_name = "FORMAT", default_value = "auto")]
+    pub time_format: String,
+    /// Field delimiter of CSV inputs (default: guessed from the header).
+    #[arg(long, value_name = "CHAR")]
+    pub delimiter: Option<char>,
+}
+
+/// Where the release calendar comes from and how to read it.
+#[derive(Debug, Clone, Args, Default)]
+pub struct CalendarArgs {
+    /// Release calendar file(s), ICS or CSV, merged (e.g. one per currency).
+    #[arg(long = "calendar", value_name = "FILE", num_args = 1..)]
+    pub calendar: Vec<PathBuf>,
+    /// Zone of calendar times without an offset (CSV times, floating ICS
+    /// times, and the day of all-day releases).
+    #[arg(long, value_name = "ZONE", default_value = "UTC")]
+    pub calendar_tz: String,
+    /// Calendar CSV column names: field=Column pairs (fields: released_at,
+    /// date, time, title, currency, tier, category, region, all_day, id).
+    #[arg(long = "calendar-map", value_name = "FIELD=COLUMN,...")]
+    pub calendar_map: Vec<String>,
+    /// JSON rules mapping title patterns to currency, tier and category.
+    #[arg(long, value_name = "JSON")]
+    pub rules: Option<PathBuf>,
+    /// Start of the span over which recurring (RRULE) releases are expanded
+    /// when no trades are given (YYYY-MM-DD, UTC).
+    #[arg(long, value_name = "DATE")]
+    pub from: Option<String>,
+    /// End of that span (YYYY-MM-DD, UTC, inclusive).
+    #[arg(long, value_name = "DATE")]
+    pub to: Option<String>,
+}
+
+/// How instruments map to currencies.
+#[derive(Debug, Clone, Args, Default)]
+pub struct InstrumentArgs {
+    /// Currencies of instruments that are not FX/metal pairs: CODE=USD, or
+    /// CODE=USD/EUR for several; comma-separated.
+    #[arg(long = "instrument-map", value_name = "CODE=CCY,...")]
+    pub instrument_map: Vec<String>,
+    /// JSON file {"US500": "USD", "EU50": ["EUR"]}.
+    #[arg(long, value_name = "JSON")]
+    pub instrument_map_file: Option<PathBuf>,
+    /// Instruments with no known currency: error (default), all (exposed to
+    /// every calendar currency) or none (never exposed).
+    #[arg(long, value_enum, default_value_t = Unmapped::Error)]
+    pub unmapped: Unmapped,
+}
+
+/// Row handling shared by every import.
+#[derive(Debug, Clone, Args, Default)]
+pub struct RowArgs {
+    /// Local times that fall in a DST gap or overlap: error (default),
+    /// earlier or later instant.
+    #[arg(long, value_enum, default_value_t = LocalPolicy::Error)]
+    pub local_policy: LocalPolicy,
+    /// Continue past rejected rows; every report states how many were
+    /// skipped and why.
+    #[arg(long)]
+    pub skip_bad_rows: bool,
+}
+
+/// Parses a zone flag, naming the flag on failure.
+pub fn zone_flag(flag: &str, spec: &str) -> Result<Zone> {
+    spec.parse::<Zone>().with_context(|| format!("--{flag}"))
+}
+
+fn delimiter_byte(d: Option<char>) -> Result<Option<u8>> {
+    match d {
+        None => Ok(None),
+        Some(c) if c.is_ascii() => Ok(Some(c as u8)),
+        Some(c) => bail!("--delimiter '{c}' must be a single ASCII character"),
+    }
+}
+
+/// Resolved trade-reading settings.
+pub fn trade_options(t: &TradeArgs, rows: &RowArgs) -> Result<TradeOptions> {
+    let mut columns = HashMap::new();
+    if let Some(p) = &t.map_file {
+        columns = trades::load_mapping_file(p, trades::FIELDS).map_err(anyhow::Error::msg).context("--map-file")?;
+    }
+    columns.extend(trades::parse_mapping(&t.map, trades::FIELDS).map_err(anyhow::Error::msg).context("--map")?);
+    Ok(TradeOptions {
+        zone: zone_flag("trades-tz", &t.trades_tz)?,
+        policy: rows.local_policy,
+        time_format: TimeFormat::parse(&t.time_format).map_err(anyhow::Error::msg).context("--time-format")?,
+        columns,
+        delimiter: delimiter_byte(t.delimiter)?,
+        skip_bad_rows: rows.skip_bad_rows,
+    })
+}
+
+fn parse_day(flag: &str, s: &str) -> Result<i64> {
+    let d = chrono::NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").with_context(|| format!("--{flag} '{s}' is not YYYY-MM-DD"))?;
+    Ok(crate::zones::naive_to_ms(&d.and_time(chrono::NaiveTime::MIN)))
+}
+
+/// Resolved calendar-reading settings; `span` is the trades' span if known.
+pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char>, span: Option<(i64, i64)>) -> Result<CalendarOptions> {
+    let columns = trades::parse_mapping(&c.calendar_map, calendar::csv::FIELDS).map_err(anyhow::Error::msg).context("--calendar-map")?;
+    let rules = match &c.rules {
+        Some(p) => TitleRules::load(p)?,
+        None => TitleRules::default(),
+    };
+    let flag_span = match (&c.from, &c.to) {
+        (Some(a), Some(b)) => Some((parse_day("from", a)?, parse_day("to", b)? + DAY_MS)),
+        (None, None) => None,
+        _ => bail!("--from and --to go together"),
+    };
+    Ok(CalendarOptions {
+        zone: zone_flag("calendar-tz", &c.calendar_tz)?,
+        policy: rows.local_policy,
+        columns,
+        delimiter: delimiter_byte(delimiter)?,
+        rules,
+        span: flag_span.or(span),
+        skip_bad_rows: rows.skip_bad_rows,
+        ..Default::default()
+    })
+}
+
+/// Loads trades named by the flags.
+pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeSummary)> {
+    let paths = trades::expand_paths(&t.trades)?;
+    Ok(trades::load(&paths, opts)?)
+}
+
+/// Loads and merges the calendar files.
+pub fn load_calendar(c: &CalendarArgs, opts: &CalendarOptions) -> Result<Calendar> {
+    Ok(calendar::load(&c.calendar, opts)?)
+}
+
+/// Distinct calendar currencies, sorted.
+pub fn calendar_currencies(cal: &Calendar) -> Vec<String> {
+    let mut v: Vec<String> = cal.releases.iter().map(|r| r.currency.clone()).collect();
+    v.sort();
+    v.dedup();
+    v
+}
+
+/// Resolves instrument currencies from the flags.
+pub fn instrument_currencies(i: &InstrumentArgs, trades: &Trades, cal_currencies: &[String]) -> Result<Vec<InstrumentCurrencies>> {
+    let mut map = HashMap::new();
+    if let Some(p) = &i.instrument_map_file {
+        map = relevance::load_instrument_map(p)?;
+    }
+    map.extend(relevance::parse_instrument_map(&i.instrument_map)?);
+    Ok(relevance::resolve(&trades.instruments, &map, i.unmapped, cal_currencies)?)
+}

@@ -1,0 +1,4 @@
+//! Subcommands: one module each, with its clap arguments and `run`.
+
+pub mod check;
+pub mod common;

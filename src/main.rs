@@ -1,0 +1,45 @@
+//! Command-line entry: parse, dispatch, map errors to exit codes.
+
+use clap::{Parser, Subcommand};
+use eventfence::cmd;
+use std::process::ExitCode;
+
+/// Find back-test trades exposed to economic releases and see the strategy
+/// without them.
+#[derive(Parser)]
+#[command(name = "eventfence", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    Check(cmd::check::CheckArgs),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Check(a) => cmd::check::run(a),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            if e.downcast_ref::<std::io::Error>().is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe) {
+                return ExitCode::SUCCESS;
+            }
+            eprintln!("eventfence: {e:#}");
+            ExitCode::FAILURE
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn cli_definition_is_consistent() {
+        use clap::CommandFactory;
+        super::Cli::command().debug_assert();
+    }
+}

@@ -1,0 +1,170 @@
+//! Reading a tabular input file (CSV or Parquet) through polars and handing
+//! out its cells one row at a time, whatever the column's storage type.
+//!
+//! CSV columns are read as text so that every cell reaches the importers'
+//! own validation (a bad value becomes a row rejection, never a silent
+//! null). Parquet columns keep their types: text, numbers, or timestamps.
+
+use polars::prelude::*;
+use std::path::Path;
+
+/// A loaded table.
+pub struct Table {
+    df: DataFrame,
+}
+
+/// One cell, borrowed from a column.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Cell<'a> {
+    Null,
+    Str(&'a str),
+    Num(f64),
+    /// A timestamp column's value, ms since epoch UTC.
+    Instant(i64),
+}
+
+/// A column ready for row access.
+pub enum ColumnSource {
+    Str(StringChunked),
+    Num(Float64Chunked),
+    /// Physical i64 values and the divisor that turns them into ms.
+    Time(Int64Chunked, i64),
+}
+
+impl ColumnSource {
+    pub fn get(&self, i: usize) -> Cell<'_> {
+        match self {
+            ColumnSource::Str(c) => match c.get(i) {
+                Some(s) if !s.trim().is_empty() => Cell::Str(s),
+                _ => Cell::Null,
+            },
+            ColumnSource::Num(c) => c.get(i).map_or(Cell::Null, Cell::Num),
+            ColumnSource::Time(c, div) => c.get(i).map_or(Cell::Null, |v| Cell::Instant(v.div_euclid(*div))),
+        }
+    }
+}
+
+fn is_parquet(path: &Path) -> bool {
+    matches!(
+        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
+        Some("parquet" | "pq")
+    )
+}
+
+/// Guesses the delimiter from the header line: `,`, `;`, tab or `|`,
+/// whichever occurs most outside quotes.
+pub fn sniff_delimiter(bytes: &[u8]) -> u8 {
+    let header = bytes.split(|&b| b == b'\n').next().unwrap_or(&[]);
+    let mut best = (b',', 0usize);
+    for cand in [b',', b';', b'\t', b'|'] {
+        let mut in_quote = false;
+        let mut n = 0;
+        for &b in header {
+            if b == b'"' {
+                in_quote = !in_quote;
+            } else if b == cand && !in_quote {
+                n += 1;
+            }
+        }
+        if n > best.1 {
+            best = (cand, n);
+        }
+    }
+    best.0
+}
+
+impl Table {
+    /// Reads a CSV (all columns as text) or Parquet file.
+    pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
+        if is_parquet(path) {
+            let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+            let df = ParquetReader::new(file).finish().map_err(|e| format!("not a readable Parquet file: {e}"))?;
+            return Ok(Table { df });
+        }
+        let mut head = vec![0u8; 64 * 1024];
+        let n = {
+            use std::io::Read;
+            let mut f = std::fs::File::open(path).map_err(|e| e.to_string())?;
+            f.read(&mut head).map_err(|e| e.to_string())?
+        };
+        head.truncate(n);
+        if n == 0 {
+            return Err("the file is empty (expected a header row)".into());
+        }
+        let sep = delimiter.unwrap_or_else(|| sniff_delimiter(&head));
+        let df = CsvReadOptions::default()
+            .with_has_header(true)
+            .with_infer_schema_length(Some(0))
+            .map_parse_options(|p| p.with_separator(sep))
+            .try_into_reader_with_file_path(Some(path.to_path_buf()))
+            .and_then(|r| r.finish())
+            .map_err(|e| format!("not readable as CSV with delimiter '{}': {e}", (sep as char).escape_default()))?;
+        Ok(Table { df })
+    }
+
+    pub fn height(&self) -> usize {
+        self.df.height()
+    }
+
+    /// Column names, byte-order mark and surrounding spaces removed.
+    pub fn names(&self) -> Vec<String> {
+        self.df.get_column_names().iter().map(|n| clean_name(n)).collect()
+    }
+
+    /// A column by name (after cleaning), ready for row access.
+    pub fn column(&self, name: &str) -> Option<ColumnSource> {
+        let want = clean_name(name);
+        let col = self.df.columns().iter().find(|c| clean_name(c.name()) == want)?;
+        let s = col.as_materialized_series();
+        match s.dtype() {
+            DataType::String => Some(ColumnSource::Str(s.str().ok()?.clone())),
+            DataType::Datetime(unit, _) => {
+                let div = match unit {
+                    TimeUnit::Milliseconds => 1,
+                    TimeUnit::Microseconds => 1_000,
+                    TimeUnit::Nanoseconds => 1_000_000,
+                };
+                let phys = s.cast(&DataType::Int64).ok()?;
+                Some(ColumnSource::Time(phys.i64().ok()?.clone(), div))
+            }
+            dt if dt.is_primitive_numeric() || dt == &DataType::Boolean => {
+                let f = s.cast(&DataType::Float64).ok()?;
+                Some(ColumnSource::Num(f.f64().ok()?.clone()))
+            }
+            _ => {
+                // Anything else (dates, categoricals) is read through its text form.
+                let text = s.cast(&DataType::String).ok()?;
+                Some(ColumnSource::Str(text.str().ok()?.clone()))
+            }
+        }
+    }
+}
+
+fn clean_name(n: &str) -> String {
+    n.trim_start_matches('\u{feff}').trim().to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sniffs_delimiters() {
+        assert_eq!(sniff_delimiter(b"a;b;c\n1;2;3"), b';');
+        assert_eq!(sniff_delimiter(b"a\tb\n"), b'\t');
+        assert_eq!(sniff_delimiter(b"\"x;y\",b,c\n"), b',');
+    }
+
+    #[test]
+    fn csv_cells_as_text_with_bom_and_quotes() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("t.csv");
+        std::fs::write(&p, "\u{feff}name,\"note\"\r\nA,\"two\nlines\"\r\nB,\r\n").unwrap();
+        let t = Table::read(&p, None).unwrap();
+        assert_eq!(t.height(), 2);
+        assert_eq!(t.names(), vec!["name", "note"]);
+        let c = t.column("note").unwrap();
+        assert_eq!(c.get(0), Cell::Str("two\nlines"));
+        assert_eq!(c.get(1), Cell::Null);
+    }
+}
