@@ -3,13 +3,19 @@
 
 use crate::calendar::Tier;
 use crate::cmd::check::CheckReport;
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, ContentLineStyle, LineStyle, Table, TableStyle};
 use std::fmt::Write;
+
+/// House look: a rule under the header, columns two spaces apart.
+const STYLE: TableStyle = TableStyle::new()
+    .header_separator(LineStyle::new('─', '─', '─', '─'))
+    .header_lines(ContentLineStyle::new(' ', ' ', ' '))
+    .content_lines(ContentLineStyle::new(' ', ' ', ' '));
 
 /// A table in the house look.
 pub fn new_table(header: &[&str]) -> Table {
     let mut t = Table::new();
-    t.load_style(presets::UTF8_HORIZONTAL_ONLY)
+    t.load_style(STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic)
         .set_width(100)
         .set_header(header.iter().map(|h| Cell::new(h)));
