@@ -55,8 +55,12 @@ struct Rel {
     category: &'static str,
 }
 
+/// Calendar months: one month either side of the trades, so the calendar
+/// covers every trade.
 fn months() -> impl Iterator<Item = (i32, u32)> {
-    (FIRST_YEAR..=LAST_YEAR).flat_map(|y| (1..=12).map(move |m| (y, m)))
+    std::iter::once((FIRST_YEAR - 1, 12))
+        .chain((FIRST_YEAR..=LAST_YEAR).flat_map(|y| (1..=12).map(move |m| (y, m))))
+        .chain(std::iter::once((LAST_YEAR + 1, 1)))
 }
 
 fn nth_weekday(y: i32, m: u32, wd: Weekday, n: u8) -> NaiveDate {
@@ -122,8 +126,8 @@ fn calendar() -> Vec<Rel> {
         v.push(rel(nth_weekday(y, m, Weekday::Mon, 3), (8, 50), Tokyo, "Japan trade balance", "JPY", "low", "trade"));
     }
     // Weekly claims: every Thursday 08:30 New York.
-    let mut d = nth_weekday(FIRST_YEAR, 1, Weekday::Thu, 1);
-    while d.year() <= LAST_YEAR {
+    let mut d = nth_weekday(FIRST_YEAR - 1, 12, Weekday::Thu, 1);
+    while d < NaiveDate::from_ymd_opt(LAST_YEAR + 1, 2, 1).unwrap() {
         v.push(rel(d, (8, 30), NY, "US weekly claims", "USD", "low", "employment"));
         d += Duration::days(7);
     }
@@ -144,9 +148,9 @@ fn write_ics(path: &Path, rels: &[&Rel], payroll_rrule: bool) {
         let first = rels.iter().find(|r| r.title == "US payrolls report").expect("payrolls");
         let _ = write!(
             s,
-            "BEGIN:VEVENT\r\nUID:us-payrolls@demo.eventfence\r\nDTSTAMP:{stamp}\r\nDTSTART;TZID=America/New_York:{}\r\nRRULE:FREQ=MONTHLY;BYDAY=1FR;UNTIL={}1231T235959Z\r\nSUMMARY:US payrolls report\r\nPRIORITY:1\r\nCATEGORIES:USD,employment\r\nX-EVENTFENCE-REGION:US\r\nEND:VEVENT\r\n",
+            "BEGIN:VEVENT\r\nUID:us-payrolls@demo.eventfence\r\nDTSTAMP:{stamp}\r\nDTSTART;TZID=America/New_York:{}\r\nRRULE:FREQ=MONTHLY;BYDAY=1FR;UNTIL={}0131T235959Z\r\nSUMMARY:US payrolls report\r\nPRIORITY:1\r\nCATEGORIES:USD,employment\r\nX-EVENTFENCE-REGION:US\r\nEND:VEVENT\r\n",
             first.local.format("%Y%m%dT%H%M%S"),
-            LAST_YEAR
+            LAST_YEAR + 1
         );
     }
     for r in rels {
@@ -235,7 +239,7 @@ fn main() {
     for run in 1..=RUNS {
         let edge = 1.5 + 1.2 * normal(&mut rng);
         let hold_median_min = 20.0 + 200.0 * rng.random::<f64>();
-        let luck = 1.4 * normal(&mut rng);
+        let luck = 0.6 + 1.4 * normal(&mut rng);
         let n = 300 + rng.random_range(0..200);
         let mut trades = Vec::with_capacity(n);
         for _ in 0..n {

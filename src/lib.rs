@@ -3,14 +3,23 @@
 //!
 //! Module map: `zones` and `timefmt` (time), `table` (reading files),
 //! `trades` and `calendar` (importers), `relevance` (instrument currencies),
-//! `report` (shared report text), `render` (output formats), `cmd` (CLI).
+//! `windows` and `exposure` (the engine), `attribution`, `scenarios`,
+//! `metrics`, `analysis` (the main job, no I/O), `report` (the summary
+//! layout), `render` (output formats), `output` (atomic files), `cmd` (CLI).
 
+pub mod analysis;
+pub mod attribution;
 pub mod calendar;
 pub mod cmd;
+pub mod exposure;
+pub mod metrics;
+pub mod output;
 pub mod relevance;
 pub mod render;
 pub mod report;
+pub mod scenarios;
 pub mod table;
 pub mod timefmt;
 pub mod trades;
+pub mod windows;
 pub mod zones;

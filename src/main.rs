@@ -15,13 +15,15 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
-    Check(cmd::check::CheckArgs),
+    Analyze(Box<cmd::analyze::AnalyzeArgs>),
+    Check(Box<cmd::check::CheckArgs>),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
-        Command::Check(a) => cmd::check::run(a),
+        Command::Analyze(a) => cmd::analyze::run(*a),
+        Command::Check(a) => cmd::check::run(*a),
     };
     match result {
         Ok(code) => code,

@@ -17,3 +17,154 @@ impl ToolInfo {
         ToolInfo { name: env!("CARGO_PKG_NAME"), version: env!("CARGO_PKG_VERSION") }
     }
 }
+
+use crate::analysis::{Analysis, AnalysisSettings, ExposureSummary, RunResult, ScenarioMetrics};
+use crate::attribution::Attribution;
+use crate::calendar::CalendarSummary;
+use crate::exposure::CoverageLine;
+use crate::trades::TradeSummary;
+use std::collections::BTreeMap;
+
+/// `inputs.trades` (SPEC §8).
+#[derive(Debug, Clone, Serialize)]
+pub struct TradeInputs {
+    pub files: Vec<String>,
+    pub rows_read: usize,
+    pub rows_imported: usize,
+    pub rows_rejected: usize,
+    pub rejected_by_reason: BTreeMap<String, usize>,
+    pub input_tz: String,
+}
+
+/// `inputs.calendar` (SPEC §8).
+#[derive(Debug, Clone, Serialize)]
+pub struct CalendarInputs {
+    pub files: Vec<String>,
+    pub rows_read: usize,
+    pub releases: usize,
+    pub recurrences_expanded: usize,
+    pub duplicates_merged: usize,
+    pub rows_rejected: usize,
+    pub rejected_by_reason: BTreeMap<String, usize>,
+    pub calendar_tz: String,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Inputs {
+    pub trades: TradeInputs,
+    pub calendar: CalendarInputs,
+}
+
+impl Inputs {
+    pub fn new(t: &TradeSummary, trades_tz: String, c: &CalendarSummary, calendar_tz: String) -> Inputs {
+        Inputs {
+            trades: TradeInputs {
+                files: t.files.clone(),
+                rows_read: t.rows_read,
+                rows_imported: t.rows_imported,
+                rows_rejected: t.rows_rejected,
+                rejected_by_reason: t.rejected_by_reason.clone(),
+                input_tz: trades_tz,
+            },
+            calendar: CalendarInputs {
+                files: c.files.clone(),
+                rows_read: c.rows_read,
+                releases: c.releases,
+                recurrences_expanded: c.recurrences_expanded,
+                duplicates_merged: c.duplicates_merged,
+                rows_rejected: c.rows_rejected,
+                rejected_by_reason: c.rejected_by_reason.clone(),
+                calendar_tz,
+            },
+        }
+    }
+}
+
+/// The documented layout of `--json` and `summary.json` (SPEC §8). Field
+/// order and names are a stable interface.
+#[derive(Debug, Clone, Serialize)]
+pub struct Summary {
+    pub tool: ToolInfo,
+    pub inputs: Inputs,
+    pub settings: AnalysisSettings,
+    pub exposure: ExposureSummary,
+    pub coverage: Vec<CoverageLine>,
+    /// The cap C of the capped scenario (amount, or return fraction under
+    /// compounding); null when it could not be computed.
+    pub cap_value: Option<f64>,
+    pub initial_equity: Option<f64>,
+    pub scenarios: ScenarioMetrics,
+    pub headline: crate::attribution::Headline,
+    pub attribution: AttributionOut,
+    pub runs: Vec<RunResult>,
+    pub warnings: Vec<String>,
+    pub caution: &'static str,
+}
+
+/// Attribution tables as written out (headline lifted to the top level).
+#[derive(Debug, Clone, Serialize)]
+pub struct AttributionOut {
+    pub by_release: Vec<crate::attribution::ReleaseLine>,
+    pub by_category: BTreeMap<String, crate::attribution::GroupLine>,
+    pub by_currency: BTreeMap<String, crate::attribution::GroupLine>,
+    pub by_tier: BTreeMap<String, crate::attribution::GroupLine>,
+}
+
+impl Summary {
+    pub fn new(inputs: Inputs, settings: AnalysisSettings, a: Analysis) -> Summary {
+        let warnings = warnings(&inputs, &a);
+        let Attribution { by_release, by_category, by_currency, by_tier, headline } = a.attribution;
+        Summary {
+            tool: ToolInfo::current(),
+            inputs,
+            settings,
+            exposure: a.exposure,
+            coverage: a.coverage,
+            cap_value: a.cap_value,
+            initial_equity: a.initial_equity,
+            scenarios: a.scenarios,
+            headline,
+            attribution: AttributionOut { by_release, by_category, by_currency, by_tier },
+            runs: a.runs,
+            warnings,
+            caution: CAUTION,
+        }
+    }
+}
+
+/// Loud warnings every output repeats: trades the calendar cannot judge,
+/// and skipped rows.
+fn warnings(inputs: &Inputs, a: &Analysis) -> Vec<String> {
+    let mut w = Vec::new();
+    for c in &a.coverage {
+        if c.trades_outside > 0 {
+            let span = match (&c.calendar_from, &c.calendar_to) {
+                (Some(f), Some(t)) => format!("covers {f} to {t}"),
+                _ => "has no releases".to_string(),
+            };
+            w.push(format!(
+                "COVERAGE: the calendar {span} for {}; {} trade(s) with P/L {:.2} fall outside it and are counted as unexposed without being judged",
+                c.currency, c.trades_outside, c.pnl_outside
+            ));
+        }
+    }
+    if inputs.trades.rows_rejected > 0 {
+        w.push(format!(
+            "SKIPPED: {} trade row(s) rejected and left out ({})",
+            inputs.trades.rows_rejected,
+            reasons(&inputs.trades.rejected_by_reason)
+        ));
+    }
+    if inputs.calendar.rows_rejected > 0 {
+        w.push(format!(
+            "SKIPPED: {} calendar row(s) rejected and left out ({})",
+            inputs.calendar.rows_rejected,
+            reasons(&inputs.calendar.rejected_by_reason)
+        ));
+    }
+    w
+}
+
+fn reasons(m: &BTreeMap<String, usize>) -> String {
+    m.iter().map(|(k, v)| format!("{k}: {v}")).collect::<Vec<_>>().join(", ")
+}

@@ -182,3 +182,81 @@ pub fn instrument_currencies(i: &InstrumentArgs, trades: &Trades, cal_currencies
     map.extend(relevance::parse_instrument_map(&i.instrument_map)?);
     Ok(relevance::resolve(&trades.instruments, &map, i.unmapped, cal_currencies)?)
 }
+
+/// Release windows and the exposure rule.
+#[derive(Debug, Clone, Args, Default)]
+pub struct WindowArgs {
+    /// Window per tier as TIER=PRE/POST minutes or TIER=off (defaults:
+    /// high=15/30, medium=5/10, low=off).
+    #[arg(long = "window", value_name = "TIER=PRE/POST")]
+    pub window: Vec<String>,
+    /// Window per category, beating the tier: CATEGORY=PRE/POST or =off.
+    #[arg(long = "window-category", value_name = "CATEGORY=PRE/POST")]
+    pub window_category: Vec<String>,
+    /// Window per title pattern (regex), beating category and tier.
+    #[arg(long = "window-title", value_name = "REGEX=PRE/POST")]
+    pub window_title: Vec<String>,
+    /// Use only these tiers (comma-separated), e.g. high.
+    #[arg(long, value_name = "TIERS")]
+    pub tiers: Option<String>,
+    /// Use all-day releases too; each then covers its whole local day.
+    #[arg(long)]
+    pub all_day: bool,
+    /// When a trade counts as exposed: overlap (holding period meets the
+    /// window), held (open at the release instant), entered (opened inside
+    /// the window).
+    #[arg(long, value_enum, default_value_t = crate::exposure::ExposureRule::Overlap)]
+    pub rule: crate::exposure::ExposureRule,
+}
+
+impl WindowArgs {
+    pub fn settings(&self) -> Result<crate::windows::WindowSettings> {
+        crate::windows::WindowSettings::from_flags(&self.window, &self.window_category, &self.window_title, self.tiers.as_deref(), self.all_day)
+            .map_err(anyhow::Error::msg)
+    }
+}
+
+/// Scenario and metric settings.
+#[derive(Debug, Clone, Args)]
+pub struct ScenarioArgs {
+    /// P/L sizing: fixed (sum as given) or compounding (needs equity).
+    #[arg(long, value_enum, default_value_t = crate::scenarios::Sizing::Fixed)]
+    pub sizing: crate::scenarios::Sizing,
+    /// Cap for the capped scenario: q0.99 (quantile of unexposed |P/L|),
+    /// median*3, amount:500, or equity:1.5 (% of equity).
+    #[arg(long, value_name = "RULE", default_value = "q0.99")]
+    pub cap: String,
+    /// Starting account equity (adds drawdown % and daily returns).
+    #[arg(long, value_name = "AMOUNT")]
+    pub initial_equity: Option<f64>,
+    /// Zone whose calendar days make the daily series.
+    #[arg(long, value_name = "ZONE", default_value = "UTC")]
+    pub report_tz: String,
+    /// Percentage p of the tail concentration ratio.
+    #[arg(long, value_name = "PERCENT", default_value_t = 1.0)]
+    pub tcr_p: f64,
+}
+
+impl ScenarioArgs {
+    pub fn settings(&self, windows: &WindowArgs) -> Result<crate::analysis::AnalysisSettings> {
+        if !(self.tcr_p > 0.0 && self.tcr_p <= 100.0) {
+            bail!("--tcr-p {} must be in (0, 100]", self.tcr_p);
+        }
+        if let Some(e) = self.initial_equity
+            && !(e.is_finite() && e > 0.0)
+        {
+            bail!("--initial-equity {e} must be a positive amount");
+        }
+        Ok(crate::analysis::AnalysisSettings {
+            exposure_rule: windows.rule,
+            windows: windows.settings()?,
+            scenario: crate::scenarios::ScenarioSettings {
+                sizing: self.sizing,
+                cap: crate::scenarios::CapRule::parse(&self.cap).map_err(anyhow::Error::msg)?,
+                initial_equity: self.initial_equity,
+            },
+            report_tz: zone_flag("report-tz", &self.report_tz)?,
+            tcr_p: self.tcr_p,
+        })
+    }
+}

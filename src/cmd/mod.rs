@@ -1,4 +1,5 @@
 //! Subcommands: one module each, with its clap arguments and `run`.
 
+pub mod analyze;
 pub mod check;
 pub mod common;

@@ -1,4 +1,5 @@
-//! Renderers: turn result structs into bytes (terminal tables, CSV, JSON).
-//! No computation happens here; one writer owns output paths.
+//! Renderers: turn result structs into bytes (terminal tables, CSV,
+//! Parquet). No computation happens here; `crate::output` owns the paths.
 
+pub mod files;
 pub mod table;

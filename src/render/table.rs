@@ -18,7 +18,7 @@ pub fn new_table(header: &[&str]) -> Table {
     t.load_style(STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic)
         .set_width(100)
-        .set_header(header.iter().map(|h| Cell::new(h)));
+        .set_header(header.iter().map(Cell::new));
     t
 }
 
@@ -94,4 +94,169 @@ fn rejections(out: &mut String, by_reason: &std::collections::BTreeMap<String, u
     for l in lines.take(20) {
         let _ = writeln!(out, "    {l}");
     }
+}
+
+use crate::metrics::Metrics;
+use crate::report::Summary;
+
+/// Formats an optional figure; `—` for null.
+pub fn fmt_opt(v: Option<f64>, decimals: usize) -> String {
+    match v {
+        Some(x) if x.is_finite() => format!("{x:.decimals$}"),
+        _ => "—".into(),
+    }
+}
+
+fn pct(v: Option<f64>) -> String {
+    match v {
+        Some(x) if x.is_finite() => format!("{:.1} %", x * 100.0),
+        _ => "—".into(),
+    }
+}
+
+fn delta(a: Option<f64>, b: Option<f64>, decimals: usize) -> String {
+    match (a, b) {
+        (Some(a), Some(b)) if a.is_finite() && b.is_finite() => format!("{:+.decimals$}", b - a),
+        _ => "".into(),
+    }
+}
+
+/// (label, getter, decimals, is_percent)
+type Row = (&'static str, fn(&Metrics) -> Option<f64>, usize, bool);
+
+const METRIC_ROWS: &[Row] = &[
+    ("trades", |m| Some(m.trades as f64), 0, false),
+    ("net", |m| Some(m.net), 2, false),
+    ("gross profit", |m| Some(m.gross_profit), 2, false),
+    ("gross loss", |m| Some(m.gross_loss), 2, false),
+    ("win rate", |m| m.win_rate, 3, true),
+    ("profit factor", |m| m.profit_factor, 3, false),
+    ("average win", |m| m.avg_win, 2, false),
+    ("average loss", |m| m.avg_loss, 2, false),
+    ("payoff ratio", |m| m.payoff_ratio, 3, false),
+    ("expectancy", |m| m.expectancy, 2, false),
+    ("largest win", |m| m.largest_win, 2, false),
+    ("largest loss", |m| m.largest_loss, 2, false),
+    ("max drawdown", |m| Some(m.max_drawdown), 2, false),
+    ("max drawdown %", |m| m.max_drawdown_pct, 3, true),
+    ("longest drawdown (days)", |m| Some(m.longest_drawdown_days), 1, false),
+    ("return / drawdown", |m| m.return_to_drawdown, 3, false),
+    ("Sharpe (daily, ann.)", |m| m.sharpe, 3, false),
+    ("Sortino (daily, ann.)", |m| m.sortino, 3, false),
+    ("t-statistic", |m| m.t_stat, 3, false),
+    ("time in market", |m| m.time_in_market, 3, true),
+    ("tail concentration", |m| m.tcr, 2, false),
+];
+
+/// The one-sentence answer.
+pub fn headline_sentence(s: &Summary) -> String {
+    let h = &s.headline;
+    let b = &s.scenarios.baseline;
+    let r = &s.scenarios.removed;
+    format!(
+        "{} of {} trades ({}) were exposed to {} of {} used releases and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}.",
+        s.exposure.exposed_trades,
+        s.exposure.trades,
+        pct(h.share_of_count),
+        s.exposure.releases_touched,
+        s.exposure.releases_used,
+        h.exposed_pnl,
+        pct(h.share_of_net),
+        h.net,
+        fmt_opt(b.profit_factor, 2),
+        fmt_opt(r.profit_factor, 2),
+        r.net
+    )
+}
+
+pub fn analyze(s: &Summary) -> String {
+    let mut out = String::new();
+    let w = &s.settings.windows;
+    let win = |x: Option<crate::windows::Window>| x.map_or("off".to_string(), |w| format!("{}/{}", w.pre_min, w.post_min));
+    let _ = writeln!(
+        out,
+        "eventfence analyze: {} trades{} · {} releases ({} used) · rule {} · windows high {} medium {} low {} min · sizing {} · days in {}",
+        s.exposure.trades,
+        if s.runs.is_empty() { String::new() } else { format!(" in {} runs", s.runs.len()) },
+        s.inputs.calendar.releases,
+        s.exposure.releases_used,
+        serde_json::to_value(s.settings.exposure_rule).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default(),
+        win(w.high),
+        win(w.medium),
+        win(w.low),
+        serde_json::to_value(s.settings.scenario.sizing).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default(),
+        s.settings.report_tz
+    );
+    for warning in &s.warnings {
+        let _ = writeln!(out, "WARNING {warning}");
+    }
+    let _ = writeln!(out, "\n{}\n", headline_sentence(s));
+    let h = &s.headline;
+    let _ = writeln!(
+        out,
+        "Exposed trades: {} of net, {} of gross profit, {} of gross loss, {} of trades. Cap for 'capped': {}.\n",
+        pct(h.share_of_net),
+        pct(h.share_of_gross_profit),
+        pct(h.share_of_gross_loss),
+        pct(h.share_of_count),
+        fmt_opt(s.cap_value, 4)
+    );
+    let mut t = new_table(&["figure", "baseline", "removed", "Δ removed", "capped", "Δ capped"]);
+    let sc = &s.scenarios;
+    for (label, get, dec, is_pct) in METRIC_ROWS {
+        let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
+        let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
+        let d = |a: Option<f64>, b: Option<f64>| if *is_pct { delta(a.map(|x: f64| x * 100.0), b.map(|x: f64| x * 100.0), 1) } else { delta(a, b, *dec) };
+        t.add_row(vec![Cell::new(label), num(f(b)), num(f(r)), num(d(b, r)), num(f(c)), num(d(b, c))]);
+    }
+    let _ = writeln!(out, "{t}");
+    let _ = writeln!(out, "Tail concentration: mean of the top {} % |P/L| over mean |P/L| (SPEC §6).\n", s.settings.tcr_p);
+
+    let mut top: Vec<&crate::attribution::ReleaseLine> = s.attribution.by_release.iter().filter(|r| r.trades_touched > 0).collect();
+    top.sort_by(|a, b| b.attributed_pnl.abs().total_cmp(&a.attributed_pnl.abs()));
+    if !top.is_empty() {
+        let _ = writeln!(out, "Releases with the largest attributed P/L:");
+        let mut t = new_table(&["released (UTC)", "title", "ccy", "tier", "trades", "attributed"]);
+        for r in top.iter().take(10) {
+            t.add_row(vec![
+                Cell::new(&r.released_at[..16]),
+                Cell::new(&r.title),
+                Cell::new(&r.currency),
+                Cell::new(r.tier),
+                num(r.trades_touched),
+                num(format!("{:.2}", r.attributed_pnl)),
+            ]);
+        }
+        let _ = writeln!(out, "{t}");
+    }
+    for (name, groups) in [("category", &s.attribution.by_category), ("currency", &s.attribution.by_currency), ("tier", &s.attribution.by_tier)] {
+        let mut t = new_table(&[name, "releases used", "touched", "matches", "attributed"]);
+        for (k, g) in groups {
+            t.add_row(vec![Cell::new(k), num(g.releases_used), num(g.releases_touched), num(g.matches), num(format!("{:.2}", g.attributed_pnl))]);
+        }
+        let _ = writeln!(out, "{t}");
+    }
+    if !s.runs.is_empty() {
+        let mut runs: Vec<&crate::analysis::RunResult> = s.runs.iter().collect();
+        runs.sort_by(|a, b| b.scenarios.baseline.net.total_cmp(&a.scenarios.baseline.net));
+        let _ = writeln!(out, "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):", runs.len());
+        let mut t = new_table(&["run", "trades", "exposed", "net", "net removed", "PF", "PF removed", "TCR", "TCR removed"]);
+        for r in runs.iter().take(10) {
+            let (b, m) = (&r.scenarios.baseline, &r.scenarios.removed);
+            t.add_row(vec![
+                Cell::new(&r.run),
+                num(r.trades),
+                num(r.exposed_trades),
+                num(format!("{:.2}", b.net)),
+                num(format!("{:.2}", m.net)),
+                num(fmt_opt(b.profit_factor, 2)),
+                num(fmt_opt(m.profit_factor, 2)),
+                num(fmt_opt(b.tcr, 1)),
+                num(fmt_opt(m.tcr, 1)),
+            ]);
+        }
+        let _ = writeln!(out, "{t}");
+    }
+    let _ = writeln!(out, "{}", s.caution);
+    out
 }

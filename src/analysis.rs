@@ -1,0 +1,173 @@
+//! The main job as one pure computation: exposure → attribution →
+//! scenarios → metrics, overall and per run. No I/O here.
+
+use crate::attribution::{self, Attribution, ConservationError};
+use crate::calendar::Release;
+use crate::exposure::{self, CoverageLine, Engine, Exposure, ExposureRule};
+use crate::metrics::{self, Context, Curve, Metrics};
+use crate::relevance::InstrumentCurrencies;
+use crate::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios, TradeView};
+use crate::trades::Trades;
+use crate::windows::WindowSettings;
+use crate::zones::Zone;
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// Everything that shapes the numbers.
+#[derive(Debug, Clone, Serialize)]
+pub struct AnalysisSettings {
+    pub exposure_rule: ExposureRule,
+    pub windows: WindowSettings,
+    #[serde(flatten)]
+    pub scenario: ScenarioSettings,
+    pub report_tz: Zone,
+    /// p of the tail concentration ratio, in percent.
+    pub tcr_p: f64,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum AnalysisError {
+    #[error(transparent)]
+    Conservation(#[from] ConservationError),
+    #[error(transparent)]
+    Scenario(#[from] ScenarioError),
+    #[error("no trades to analyse")]
+    NoTrades,
+}
+
+/// SPEC §8 `exposure` block.
+#[derive(Debug, Clone, Serialize)]
+pub struct ExposureSummary {
+    pub trades: usize,
+    pub exposed_trades: usize,
+    pub exposed_pnl: f64,
+    /// Trade–release matches (Σ k).
+    pub matches: usize,
+    pub releases_used: usize,
+    pub releases_touched: usize,
+}
+
+/// Metrics of the three scenarios.
+#[derive(Debug, Clone, Serialize)]
+pub struct ScenarioMetrics {
+    pub baseline: Metrics,
+    pub removed: Metrics,
+    pub capped: Metrics,
+}
+
+/// One parameter set.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunResult {
+    pub run: String,
+    pub trades: usize,
+    pub exposed_trades: usize,
+    pub exposed_pnl: f64,
+    /// The cap C used for this run's `capped` scenario.
+    pub cap_value: Option<f64>,
+    pub scenarios: ScenarioMetrics,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Analysis {
+    pub exposure: ExposureSummary,
+    pub coverage: Vec<CoverageLine>,
+    pub cap_value: Option<f64>,
+    pub initial_equity: Option<f64>,
+    pub scenarios: ScenarioMetrics,
+    pub attribution: Attribution,
+    pub runs: Vec<RunResult>,
+}
+
+fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
+    let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, ctx);
+    ScenarioMetrics { baseline: m(&sc.baseline), removed: m(&sc.removed), capped: m(&sc.capped) }
+}
+
+/// Runs the exposure engine only (shared with other commands).
+pub fn exposure_of(trades: &Trades, releases: &[Release], currencies: &[InstrumentCurrencies], windows: &WindowSettings, rule: ExposureRule) -> (Engine, Exposure) {
+    let engine = Engine::new(releases, windows, rule);
+    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let exp = engine.run(&trades.opened, &trades.closed, &trades.instrument, &cur);
+    (engine, exp)
+}
+
+/// The whole analysis.
+pub fn analyze(
+    trades: &Trades,
+    releases: &[Release],
+    currencies: &[InstrumentCurrencies],
+    settings: &AnalysisSettings,
+) -> Result<(Analysis, Exposure), AnalysisError> {
+    let span = trades.span().ok_or(AnalysisError::NoTrades)?;
+    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule);
+    let attribution = attribution::attribute(&exp, &trades.pnl, releases, &engine.used)?;
+    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let coverage = exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur);
+
+    let mut order: Vec<u32> = (0..trades.len() as u32).collect();
+    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    let exposed = |i: usize| exp.k[i] > 0;
+    fn view<'a>(order: &'a [u32], trades: &'a Trades, exposed: &'a dyn Fn(usize) -> bool) -> TradeView<'a> {
+        TradeView {
+            order,
+            pnl: &trades.pnl,
+            opened: &trades.opened,
+            closed: &trades.closed,
+            exposed,
+            equity_before: trades.equity_before.as_deref(),
+            pnl_pct: trades.pnl_pct.as_deref(),
+        }
+    }
+    let all = scenarios::build(&view(&order, trades, &exposed), &settings.scenario)?;
+    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
+    let overall = metrics_of(&all, &ctx);
+
+    let runs = if trades.has_runs() {
+        let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
+        for &i in &order {
+            by_run[trades.run[i as usize] as usize].push(i);
+        }
+        by_run
+            .par_iter()
+            .enumerate()
+            .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
+                let sc = scenarios::build(&view(idx, trades, &exposed), &settings.scenario)?;
+                let run_span = (
+                    idx.iter().map(|&i| trades.opened[i as usize]).min().unwrap_or(span.0),
+                    idx.iter().map(|&i| trades.closed[i as usize]).max().unwrap_or(span.1),
+                );
+                let ctx = Context { span: run_span, initial_equity: sc.initial_equity, ..ctx };
+                Ok(RunResult {
+                    run: trades.runs[r].clone(),
+                    trades: idx.len(),
+                    exposed_trades: idx.iter().filter(|&&i| exp.k[i as usize] > 0).count(),
+                    exposed_pnl: idx.iter().filter(|&&i| exp.k[i as usize] > 0).map(|&i| trades.pnl[i as usize]).sum(),
+                    cap_value: sc.cap_value,
+                    scenarios: metrics_of(&sc, &ctx),
+                })
+            })
+            .collect::<Result<Vec<_>, _>>()?
+    } else {
+        Vec::new()
+    };
+    let summary = ExposureSummary {
+        trades: trades.len(),
+        exposed_trades: exp.exposed_count(),
+        exposed_pnl: attribution.headline.exposed_pnl,
+        matches: exp.match_release.len(),
+        releases_used: engine.used.iter().filter(|&&u| u).count(),
+        releases_touched: attribution.by_release.iter().filter(|r| r.trades_touched > 0).count(),
+    };
+    Ok((
+        Analysis {
+            exposure: summary,
+            coverage,
+            cap_value: all.cap_value,
+            initial_equity: all.initial_equity,
+            scenarios: overall,
+            attribution,
+            runs,
+        },
+        exp,
+    ))
+}

@@ -1,0 +1,163 @@
+//! Attribution (SPEC §3): each exposed trade's P/L split equally over the
+//! releases it matched, summed by release, category, currency and tier, and
+//! the headline shares.
+//!
+//! Invariant, checked on every run: baseline net = exposed + unexposed P/L,
+//! and the per-release amounts add up to the exposed P/L.
+
+use crate::calendar::Release;
+use crate::exposure::Exposure;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// One used release and what it touched.
+#[derive(Debug, Clone, Serialize)]
+pub struct ReleaseLine {
+    pub id: String,
+    pub released_at: String,
+    pub title: String,
+    pub currency: String,
+    pub tier: &'static str,
+    pub category: Option<String>,
+    /// Trades that matched this release.
+    pub trades_touched: usize,
+    /// Σ pnl ÷ k over those trades.
+    pub attributed_pnl: f64,
+}
+
+/// A group of releases (a category, currency or tier).
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct GroupLine {
+    pub releases_used: usize,
+    pub releases_touched: usize,
+    /// Trade–release matches in the group.
+    pub matches: usize,
+    pub attributed_pnl: f64,
+}
+
+/// Headline shares.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Headline {
+    pub net: f64,
+    pub exposed_pnl: f64,
+    pub unexposed_pnl: f64,
+    /// exposed P/L ÷ net P/L.
+    pub share_of_net: Option<f64>,
+    /// exposed winners' P/L ÷ gross profit.
+    pub share_of_gross_profit: Option<f64>,
+    /// exposed losers' P/L ÷ gross loss.
+    pub share_of_gross_loss: Option<f64>,
+    /// exposed trades ÷ trades.
+    pub share_of_count: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Attribution {
+    /// Used releases in time order.
+    pub by_release: Vec<ReleaseLine>,
+    pub by_category: BTreeMap<String, GroupLine>,
+    pub by_currency: BTreeMap<String, GroupLine>,
+    pub by_tier: BTreeMap<String, GroupLine>,
+    pub headline: Headline,
+}
+
+#[derive(Debug, thiserror::Error)]
+#[error("internal error: P/L not conserved ({what}: {left} vs {right}); please report this with your inputs")]
+pub struct ConservationError {
+    pub what: &'static str,
+    pub left: f64,
+    pub right: f64,
+}
+
+/// Per-release touched counts and attributed sums (indexed like `releases`).
+pub fn per_release(exp: &Exposure, pnl: &[f64], n_releases: usize) -> (Vec<usize>, Vec<f64>) {
+    let mut touched = vec![0usize; n_releases];
+    let mut amount = vec![0.0f64; n_releases];
+    for (i, &p) in pnl.iter().enumerate() {
+        let m = exp.matches(i);
+        if m.is_empty() {
+            continue;
+        }
+        let share = p / m.len() as f64;
+        for &r in m {
+            touched[r as usize] += 1;
+            amount[r as usize] += share;
+        }
+    }
+    (touched, amount)
+}
+
+/// Tolerance for "to the cent" comparisons of sums of many floats.
+fn cent_tolerance(scale: f64) -> f64 {
+    0.005f64.max(scale * 1e-12)
+}
+
+/// Builds the attribution tables and checks conservation.
+pub fn attribute(exp: &Exposure, pnl: &[f64], releases: &[Release], used: &[bool]) -> Result<Attribution, ConservationError> {
+    let (touched, amount) = per_release(exp, pnl, releases.len());
+    let mut a = Attribution::default();
+    let (mut gp, mut gl, mut egp, mut egl) = (0.0, 0.0, 0.0, 0.0);
+    let mut scale = 0.0;
+    for (i, &p) in pnl.iter().enumerate() {
+        scale += p.abs();
+        let exposed = exp.k[i] > 0;
+        a.headline.net += p;
+        if exposed {
+            a.headline.exposed_pnl += p;
+        } else {
+            a.headline.unexposed_pnl += p;
+        }
+        if p > 0.0 {
+            gp += p;
+            if exposed {
+                egp += p;
+            }
+        } else if p < 0.0 {
+            gl += p;
+            if exposed {
+                egl += p;
+            }
+        }
+    }
+    let h = &mut a.headline;
+    let ratio = |x: f64, y: f64| (y != 0.0).then(|| x / y);
+    h.share_of_net = ratio(h.exposed_pnl, h.net);
+    h.share_of_gross_profit = ratio(egp, gp);
+    h.share_of_gross_loss = ratio(egl, gl);
+    h.share_of_count = ratio(exp.exposed_count() as f64, pnl.len() as f64);
+    let tol = cent_tolerance(scale);
+    if (h.net - (h.exposed_pnl + h.unexposed_pnl)).abs() > tol {
+        return Err(ConservationError { what: "baseline net vs exposed + unexposed", left: h.net, right: h.exposed_pnl + h.unexposed_pnl });
+    }
+    let attributed: f64 = amount.iter().sum();
+    if (attributed - h.exposed_pnl).abs() > tol {
+        return Err(ConservationError { what: "sum over releases vs exposed P/L", left: attributed, right: h.exposed_pnl });
+    }
+    for (i, r) in releases.iter().enumerate() {
+        if !used[i] {
+            continue;
+        }
+        a.by_release.push(ReleaseLine {
+            id: r.id.clone(),
+            released_at: crate::zones::format_utc(r.at),
+            title: r.title.clone(),
+            currency: r.currency.clone(),
+            tier: r.tier.as_str(),
+            category: r.category.clone(),
+            trades_touched: touched[i],
+            attributed_pnl: amount[i],
+        });
+        let cat = r.category.clone().unwrap_or_else(|| "(none)".into());
+        for g in [
+            a.by_category.entry(cat).or_default(),
+            a.by_currency.entry(r.currency.clone()).or_default(),
+            a.by_tier.entry(r.tier.as_str().to_string()).or_default(),
+        ] {
+            g.releases_used += 1;
+            g.releases_touched += usize::from(touched[i] > 0);
+            g.matches += touched[i];
+            g.attributed_pnl += amount[i];
+        }
+    }
+    Ok(a)
+}

@@ -1,0 +1,86 @@
+//! `eventfence analyze`: the main job — exposure, attribution, scenarios
+//! and metrics, shown as a table, JSON, or a folder of files.
+
+use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TradeArgs, WindowArgs};
+use crate::analysis;
+use crate::output::OutDir;
+use crate::report::{Inputs, Summary};
+use anyhow::{Result, bail};
+use clap::Args;
+use std::path::PathBuf;
+
+/// Find the trades exposed to releases and recompute every figure without
+/// them (removed) and with their P/L capped.
+///
+/// Example (the bundled demo):
+///   eventfence analyze --trades demo/trades.csv --trades-tz America/New_York+07:00 \
+///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
+///     --calendar-tz Europe/Berlin --instrument-map US500=USD --out demo/out
+#[derive(Debug, Args)]
+pub struct AnalyzeArgs {
+    #[command(flatten)]
+    pub trades: TradeArgs,
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+    #[command(flatten)]
+    pub windows: WindowArgs,
+    #[command(flatten)]
+    pub scenario: ScenarioArgs,
+    /// Print summary JSON to stdout instead of tables.
+    #[arg(long)]
+    pub json: bool,
+    /// Write summary.json, trades.csv (or .parquet) and releases.csv here.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Format of the annotated trade file in --out.
+    #[arg(long, value_enum, default_value_t = TradesFormat::Csv)]
+    pub trades_format: TradesFormat,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum TradesFormat {
+    Csv,
+    Parquet,
+}
+
+pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
+    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
+        bail!("analyze needs --trades and --calendar");
+    }
+    // Resolve every flag before reading data.
+    let settings = args.scenario.settings(&args.windows)?;
+    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
+    let (trades, trade_summary) = common::load_trades(&args.trades, &trade_opts)?;
+    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
+    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
+    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
+    let (result, exposure) = analysis::analyze(&trades, &cal.releases, &currencies, &settings)?;
+    let inputs = Inputs::new(&trade_summary, args.trades.trades_tz.clone(), &cal.summary, args.calendar.calendar_tz.clone());
+    let summary = Summary::new(inputs, settings, result);
+    let json = serde_json::to_string_pretty(&summary)?;
+    if let Some(dir) = &args.out {
+        let mut input_paths: Vec<PathBuf> = trade_summary.files.iter().map(PathBuf::from).collect();
+        input_paths.extend(args.calendar.calendar.iter().cloned());
+        let out = OutDir::new(dir, &input_paths)?;
+        let annotated = crate::render::files::annotated_trades(&trades, &exposure, &cal.releases, &trade_summary.files);
+        match args.trades_format {
+            TradesFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
+            TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
+        };
+        out.write("releases.csv", &crate::render::files::releases_csv(&summary.attribution.by_release))?;
+        out.write("summary.json", json.as_bytes())?;
+    }
+    if args.json {
+        println!("{json}");
+    } else {
+        print!("{}", crate::render::table::analyze(&summary));
+        if let Some(dir) = &args.out {
+            println!("Wrote summary.json, trades.{}, releases.csv to {}", if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" }, dir.display());
+        }
+    }
+    Ok(std::process::ExitCode::SUCCESS)
+}

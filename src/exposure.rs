@@ -1,0 +1,317 @@
+//! The exposure engine (SPEC §2): which trades meet which release windows.
+//!
+//! Every rule is an intersection of two closed intervals: the trade's
+//! `[open, close]` (`[open, open]` for `entered`) and the release's window
+//! `[t − pre, t + post]` (`[t, t]` for `held`). Used releases are indexed per
+//! currency, sorted by window start; a trade's candidates are the windows
+//! starting in `[q_start − L, q_end]`, L being the longest window of that
+//! currency, found by binary search, then filtered on the window end. Cost:
+//! O((n + m) log m + matches + near misses) — never n × m.
+//!
+//! Invariant: `matched_releases(t)` is exactly the set of relevant used
+//! releases satisfying the rule (checked against a plain O(n·m) loop in the
+//! property tests).
+
+use crate::calendar::Release;
+use crate::windows::WindowSettings;
+use crate::zones::{DAY_MS, MINUTE_MS};
+use rayon::prelude::*;
+use serde::Serialize;
+use std::collections::HashMap;
+
+/// Which trades count as exposed to a release.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ExposureRule {
+    /// The holding period overlaps the window: open ≤ t + post and close ≥ t − pre.
+    #[default]
+    Overlap,
+    /// Open at the release instant: open ≤ t ≤ close.
+    Held,
+    /// Opened inside the window: t − pre ≤ open ≤ t + post.
+    Entered,
+}
+
+/// One used release, as the engine sees it.
+#[derive(Debug, Clone, Copy)]
+struct Slot {
+    start: i64,
+    end: i64,
+    release: u32,
+}
+
+/// Per-currency index of used releases.
+#[derive(Debug, Default)]
+struct CurrencyIndex {
+    /// Sorted by `start`.
+    slots: Vec<Slot>,
+    /// Longest `end − start`.
+    max_len: i64,
+    /// Release instants sorted, with release index, for "nearest release".
+    instants: Vec<(i64, u32)>,
+}
+
+/// Used releases indexed by currency, ready to query.
+pub struct Engine {
+    rule: ExposureRule,
+    currencies: HashMap<String, usize>,
+    index: Vec<CurrencyIndex>,
+    /// Whether each calendar release is used (has a window under the settings).
+    pub used: Vec<bool>,
+}
+
+/// Per-trade exposure, columnar; the matches are stored compressed by trade.
+#[derive(Debug, Clone, Default)]
+pub struct Exposure {
+    /// Number of matched releases per trade (k).
+    pub k: Vec<u32>,
+    /// `match_ptr[i]..match_ptr[i+1]` indexes `match_release` for trade i.
+    pub match_ptr: Vec<u64>,
+    pub match_release: Vec<u32>,
+    /// Nearest relevant used release to the open (by |t − open|), or u32::MAX.
+    pub nearest: Vec<u32>,
+    /// Signed minutes from the nearest release to the open (open − t);
+    /// NaN when there is none.
+    pub minutes_from_nearest: Vec<f64>,
+}
+
+impl Exposure {
+    pub fn exposed(&self, i: usize) -> bool {
+        self.k[i] > 0
+    }
+    pub fn matches(&self, i: usize) -> &[u32] {
+        &self.match_release[self.match_ptr[i] as usize..self.match_ptr[i + 1] as usize]
+    }
+    pub fn exposed_count(&self) -> usize {
+        self.k.iter().filter(|&&k| k > 0).count()
+    }
+}
+
+impl Engine {
+    /// Indexes the releases that the window settings use.
+    pub fn new(releases: &[Release], windows: &WindowSettings, rule: ExposureRule) -> Engine {
+        let mut currencies = HashMap::new();
+        let mut index: Vec<CurrencyIndex> = Vec::new();
+        let mut used = vec![false; releases.len()];
+        for (i, r) in releases.iter().enumerate() {
+            let Some((s, e, t)) = windows.span_for(r) else { continue };
+            used[i] = true;
+            let ci = *currencies.entry(r.currency.clone()).or_insert_with(|| {
+                index.push(CurrencyIndex::default());
+                index.len() - 1
+            });
+            let (start, end) = match rule {
+                ExposureRule::Held if !r.all_day => (t, t),
+                _ => (s, e),
+            };
+            let ix = &mut index[ci];
+            ix.slots.push(Slot { start, end, release: i as u32 });
+            ix.max_len = ix.max_len.max(end - start);
+            ix.instants.push((t, i as u32));
+        }
+        for ix in &mut index {
+            ix.slots.sort_by_key(|s| (s.start, s.release));
+            ix.instants.sort_unstable();
+        }
+        Engine { rule, currencies, index, used }
+    }
+
+    /// Index of a currency in the engine, if any used release has it.
+    fn currency_ids(&self, codes: &[String]) -> Vec<usize> {
+        codes.iter().filter_map(|c| self.currencies.get(c).copied()).collect()
+    }
+
+    /// Runs every trade. `instrument_currencies[i]` lists the currencies of
+    /// instrument i.
+    pub fn run(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>]) -> Exposure {
+        let ids: Vec<Vec<usize>> = instrument_currencies.iter().map(|c| self.currency_ids(c)).collect();
+        let n = opened.len();
+        // Work in parallel chunks; each returns its own compressed matches.
+        const CHUNK: usize = 1 << 16;
+        // Per chunk: k, matched releases, nearest release, minutes from it.
+        type ChunkOut = (Vec<u32>, Vec<u32>, Vec<u32>, Vec<f64>);
+        let parts: Vec<ChunkOut> = (0..n.div_ceil(CHUNK))
+            .into_par_iter()
+            .map(|c| {
+                let lo = c * CHUNK;
+                let hi = (lo + CHUNK).min(n);
+                let mut k = Vec::with_capacity(hi - lo);
+                let mut rel = Vec::new();
+                let mut nearest = Vec::with_capacity(hi - lo);
+                let mut minutes = Vec::with_capacity(hi - lo);
+                for i in lo..hi {
+                    let (o, cl) = (opened[i], closed[i]);
+                    let (qa, qb) = match self.rule {
+                        ExposureRule::Entered => (o, o),
+                        _ => (o, cl),
+                    };
+                    let before = rel.len();
+                    let mut best: Option<(i64, u32, i64)> = None;
+                    for &ci in &ids[instrument[i] as usize] {
+                        let ix = &self.index[ci];
+                        let from = ix.slots.partition_point(|s| s.start < qa.saturating_sub(ix.max_len));
+                        let to = ix.slots.partition_point(|s| s.start <= qb);
+                        for s in &ix.slots[from..to] {
+                            if s.end >= qa {
+                                rel.push(s.release);
+                            }
+                        }
+                        // Nearest instant to the open: neighbours of the open.
+                        let p = ix.instants.partition_point(|x| x.0 < o);
+                        for cand in [p.checked_sub(1), Some(p)].into_iter().flatten() {
+                            if let Some(&(t, r)) = ix.instants.get(cand) {
+                                let d = (o - t).abs();
+                                if best.is_none_or(|(bd, br, _)| d < bd || (d == bd && r < br)) {
+                                    best = Some((d, r, t));
+                                }
+                            }
+                        }
+                    }
+                    rel[before..].sort_unstable();
+                    k.push((rel.len() - before) as u32);
+                    match best {
+                        Some((_, r, t)) => {
+                            nearest.push(r);
+                            minutes.push((o - t) as f64 / MINUTE_MS as f64);
+                        }
+                        None => {
+                            nearest.push(u32::MAX);
+                            minutes.push(f64::NAN);
+                        }
+                    }
+                }
+                (k, rel, nearest, minutes)
+            })
+            .collect();
+        let mut out = Exposure {
+            k: Vec::with_capacity(n),
+            match_ptr: Vec::with_capacity(n + 1),
+            match_release: Vec::new(),
+            nearest: Vec::with_capacity(n),
+            minutes_from_nearest: Vec::with_capacity(n),
+        };
+        out.match_ptr.push(0);
+        for (k, rel, nearest, minutes) in parts {
+            for &kk in &k {
+                let last = *out.match_ptr.last().expect("starts with 0");
+                out.match_ptr.push(last + kk as u64);
+            }
+            out.k.extend(k);
+            out.match_release.extend(rel);
+            out.nearest.extend(nearest);
+            out.minutes_from_nearest.extend(minutes);
+        }
+        out
+    }
+}
+
+/// How far the calendar reaches for one currency, and which trades it
+/// cannot judge.
+#[derive(Debug, Clone, Serialize)]
+pub struct CoverageLine {
+    pub currency: String,
+    /// First and last UTC day holding a release of this currency (whole
+    /// days, inclusive); `None` when the calendar has none.
+    pub calendar_from: Option<String>,
+    pub calendar_to: Option<String>,
+    /// Trades of an instrument with this currency that open before the
+    /// first day or close after the last day.
+    pub trades_outside: usize,
+    pub pnl_outside: f64,
+}
+
+/// Coverage per trade currency (SPEC §2). Trades outside stay in every
+/// scenario as unexposed; reports warn about them.
+pub fn coverage(
+    releases: &[Release],
+    opened: &[i64],
+    closed: &[i64],
+    pnl: &[f64],
+    instrument: &[u32],
+    instrument_currencies: &[Vec<String>],
+) -> Vec<CoverageLine> {
+    let mut span: HashMap<&str, (i64, i64)> = HashMap::new();
+    for r in releases {
+        let e = span.entry(r.currency.as_str()).or_insert((r.at, r.at));
+        e.0 = e.0.min(r.at);
+        e.1 = e.1.max(r.at);
+    }
+    let mut all: Vec<&String> = instrument_currencies.iter().flatten().collect();
+    all.sort();
+    all.dedup();
+    all.into_iter()
+        .map(|cur| {
+            let days = span.get(cur.as_str()).map(|&(a, b)| (a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS));
+            let mut line = CoverageLine {
+                currency: cur.clone(),
+                calendar_from: days.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
+                calendar_to: days.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
+                trades_outside: 0,
+                pnl_outside: 0.0,
+            };
+            for i in 0..opened.len() {
+                if !instrument_currencies[instrument[i] as usize].contains(cur) {
+                    continue;
+                }
+                let outside = match days {
+                    None => true,
+                    Some((a, b)) => opened[i] < a || closed[i] >= b,
+                };
+                if outside {
+                    line.trades_outside += 1;
+                    line.pnl_outside += pnl[i];
+                }
+            }
+            line
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::calendar::Tier;
+
+    fn rel(at_min: i64, cur: &str, tier: Tier) -> Release {
+        Release {
+            id: format!("{cur}{at_min}"),
+            at: at_min * MINUTE_MS,
+            end: at_min * MINUTE_MS,
+            all_day: false,
+            title: "r".into(),
+            currency: cur.into(),
+            tier,
+            category: None,
+            region: None,
+        }
+    }
+
+    #[test]
+    fn window_edges_are_inclusive_for_each_rule() {
+        // High release at minute 1000: window [985, 1030].
+        let rs = vec![rel(1000, "USD", Tier::High)];
+        let w = WindowSettings::default();
+        let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
+        let m = |x: i64| x * MINUTE_MS;
+        let trades: Vec<(i64, i64)> = vec![(900, 985), (900, 984), (1030, 1100), (1031, 1100), (990, 995), (1000, 1000), (1001, 1005)];
+        let (o, c): (Vec<i64>, Vec<i64>) = trades.iter().map(|&(a, b)| (m(a), m(b))).unzip();
+        let inst = vec![0; o.len()];
+        let k = |rule| Engine::new(&rs, &w, rule).run(&o, &c, &inst, &cur).k;
+        assert_eq!(k(ExposureRule::Overlap), vec![1, 0, 1, 0, 1, 1, 1]);
+        assert_eq!(k(ExposureRule::Held), vec![0, 0, 0, 0, 0, 1, 0]);
+        assert_eq!(k(ExposureRule::Entered), vec![0, 0, 1, 0, 1, 1, 1]);
+    }
+
+    #[test]
+    fn nearest_release_and_minutes() {
+        let rs = vec![rel(1000, "USD", Tier::High), rel(2000, "EUR", Tier::Medium), rel(1400, "JPY", Tier::High)];
+        let w = WindowSettings::default();
+        let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
+        let o = vec![1600 * MINUTE_MS];
+        let c = vec![1700 * MINUTE_MS];
+        let e = Engine::new(&rs, &w, ExposureRule::Overlap).run(&o, &c, &[0], &cur);
+        assert_eq!(e.k, vec![0]);
+        assert_eq!(e.nearest, vec![1]);
+        assert_eq!(e.minutes_from_nearest, vec![-400.0]);
+    }
+}

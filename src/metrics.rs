@@ -1,0 +1,409 @@
+//! Performance figures of one scenario (SPEC §5, §6).
+//!
+//! Input is a scenario's kept trades in close order (ties by open, then
+//! input order) with their scenario P/L. Choices SPEC leaves open, fixed
+//! here and documented in README "How the figures are defined":
+//! - the daily series runs over the weekdays of the *whole input's* span
+//!   (first open → last close, report zone) for every scenario, so scenarios
+//!   compare like for like; a close on a Saturday or Sunday counts on the
+//!   following Monday (or the last weekday of the span);
+//! - longest drawdown: time from a peak to the first later point at or above
+//!   it; one still open at the end runs to the span's end;
+//! - largest win/loss are `null` when there are no wins/losses.
+//!
+//! A figure that cannot be computed is `None` (JSON `null`), never invented.
+
+use crate::zones::{DAY_MS, Zone};
+use chrono::{Datelike, NaiveDate, Weekday};
+use serde::Serialize;
+
+/// Trading days per year used to annualise daily ratios (empyrical's
+/// `APPROX_BDAYS_PER_YEAR`; REFERENCES.md §4.3).
+pub const DAYS_PER_YEAR: f64 = 252.0;
+
+/// Every SPEC §5 figure for one scenario.
+#[derive(Debug, Clone, Default, Serialize, PartialEq)]
+pub struct Metrics {
+    pub trades: usize,
+    pub wins: usize,
+    pub losses: usize,
+    /// Sum of P/L (account currency).
+    pub net: f64,
+    /// Sum of winning P/L (≥ 0).
+    pub gross_profit: f64,
+    /// Sum of losing P/L (≤ 0).
+    pub gross_loss: f64,
+    /// wins ÷ trades.
+    pub win_rate: Option<f64>,
+    /// gross profit ÷ |gross loss|; null without losses.
+    pub profit_factor: Option<f64>,
+    pub avg_win: Option<f64>,
+    /// Mean losing P/L (negative).
+    pub avg_loss: Option<f64>,
+    /// avg win ÷ |avg loss|.
+    pub payoff_ratio: Option<f64>,
+    /// Mean P/L per trade.
+    pub expectancy: Option<f64>,
+    pub largest_win: Option<f64>,
+    pub largest_loss: Option<f64>,
+    /// Largest peak-to-trough fall of the closed-trade equity curve (≥ 0).
+    pub max_drawdown: f64,
+    /// The same as a fraction of the peak equity, when equity is known.
+    pub max_drawdown_pct: Option<f64>,
+    /// Longest time from a peak to the next new peak, in days.
+    pub longest_drawdown_days: f64,
+    /// net ÷ max drawdown.
+    pub return_to_drawdown: Option<f64>,
+    /// Daily mean ÷ sample sd (ddof 1) × √252, rf = 0.
+    pub sharpe: Option<f64>,
+    /// Daily mean ÷ √mean(min(r, 0)²) × √252.
+    pub sortino: Option<f64>,
+    /// mean P/L ÷ (sd ÷ √n), sd with ddof 1.
+    pub t_stat: Option<f64>,
+    /// Union of holding intervals ÷ span.
+    pub time_in_market: Option<f64>,
+    /// Tail concentration ratio at p % (SPEC §6).
+    pub tcr: Option<f64>,
+}
+
+/// What every scenario shares: span, zone for days, initial equity, TCR p.
+#[derive(Debug, Clone, Copy)]
+pub struct Context {
+    /// First open and last close of the whole input (ms).
+    pub span: (i64, i64),
+    pub report_zone: Zone,
+    /// Starting equity, if known (makes daily figures returns and adds
+    /// drawdown %).
+    pub initial_equity: Option<f64>,
+    /// Percentage for the tail concentration ratio.
+    pub tcr_p: f64,
+}
+
+/// One scenario's kept trades, in close order.
+pub struct Curve<'a> {
+    pub pnl: &'a [f64],
+    pub opened: &'a [i64],
+    pub closed: &'a [i64],
+}
+
+/// Sample mean and standard deviation (ddof 1).
+pub fn mean_sd(x: &[f64]) -> (Option<f64>, Option<f64>) {
+    let n = x.len();
+    if n == 0 {
+        return (None, None);
+    }
+    let mean = x.iter().sum::<f64>() / n as f64;
+    if n < 2 {
+        return (Some(mean), None);
+    }
+    let var = x.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+    (Some(mean), Some(var.sqrt()))
+}
+
+/// Sharpe ratio of a per-period series: mean ÷ sd(ddof 1) × √periods.
+pub fn sharpe(x: &[f64], periods: f64) -> Option<f64> {
+    match mean_sd(x) {
+        (Some(m), Some(sd)) if sd > 0.0 => Some(m / sd * periods.sqrt()),
+        _ => None,
+    }
+}
+
+/// Sortino ratio, target 0: mean ÷ √(mean over all periods of min(r,0)²)
+/// × √periods (the Red Rock Capital definition, REFERENCES.md §4.2).
+pub fn sortino(x: &[f64], periods: f64) -> Option<f64> {
+    if x.is_empty() {
+        return None;
+    }
+    let n = x.len() as f64;
+    let mean = x.iter().sum::<f64>() / n;
+    let dd = (x.iter().map(|v| v.min(0.0).powi(2)).sum::<f64>() / n).sqrt();
+    (dd > 0.0).then(|| mean / dd * periods.sqrt())
+}
+
+/// t statistic of the mean against 0.
+pub fn t_stat(x: &[f64]) -> Option<f64> {
+    match mean_sd(x) {
+        (Some(m), Some(sd)) if sd > 0.0 => Some(m / (sd / (x.len() as f64).sqrt())),
+        _ => None,
+    }
+}
+
+/// Max drawdown (≥ 0) of the running sum of `pnl` from `start`, with the
+/// peak including the start; and the same as a fraction of the peak.
+pub fn max_drawdown(pnl: &[f64], start: f64) -> (f64, Option<f64>) {
+    let (mut eq, mut peak, mut dd, mut dd_pct) = (start, start, 0.0f64, 0.0f64);
+    for p in pnl {
+        eq += p;
+        peak = peak.max(eq);
+        dd = dd.max(peak - eq);
+        if peak > 0.0 {
+            dd_pct = dd_pct.max((peak - eq) / peak);
+        }
+    }
+    (dd, Some(dd_pct))
+}
+
+/// Tail concentration ratio (SPEC §6): k = ceil(n·p/100) clamped to [1, n];
+/// mean of the k largest |pnl| ÷ mean of all |pnl|.
+pub fn tcr(pnl: &[f64], p: f64) -> Option<f64> {
+    let n = pnl.len();
+    if n == 0 {
+        return None;
+    }
+    let mut abs: Vec<f64> = pnl.iter().map(|v| v.abs()).collect();
+    let total: f64 = abs.iter().sum();
+    if total <= 0.0 {
+        return None;
+    }
+    let k = tcr_k(n, p);
+    abs.select_nth_unstable_by(k - 1, |a, b| b.total_cmp(a));
+    let top: f64 = abs[..k].iter().sum();
+    Some((top / k as f64) / (total / n as f64))
+}
+
+/// Size of the top bucket for n trades at p %. n·p/100 is computed in a
+/// way that is exact for whole results (e.g. 300 × 1 % = 3, not 3.0000001).
+pub fn tcr_k(n: usize, p: f64) -> usize {
+    let raw = n as f64 * p / 100.0;
+    let rounded = raw.round();
+    let k = if (raw - rounded).abs() < 1e-9 { rounded } else { raw.ceil() };
+    (k as usize).clamp(1, n)
+}
+
+/// Linear-interpolated quantile (Hyndman–Fan type 7, numpy's default).
+pub fn quantile_type7(sorted: &[f64], q: f64) -> Option<f64> {
+    if sorted.is_empty() {
+        return None;
+    }
+    let h = (sorted.len() - 1) as f64 * q.clamp(0.0, 1.0);
+    let lo = h.floor() as usize;
+    let hi = (lo + 1).min(sorted.len() - 1);
+    Some(sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]))
+}
+
+/// The day a close counts on: its local date, moved to Monday when it falls
+/// on a weekend.
+fn trading_day(zone: &Zone, ms: i64) -> NaiveDate {
+    let mut d = zone.local_date(ms);
+    while matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
+        d = d.succ_opt().expect("date in range");
+    }
+    d
+}
+
+/// Daily P/L (or returns when equity is known) over the weekdays of the
+/// span in the report zone.
+pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
+    let first = ctx.report_zone.local_date(ctx.span.0);
+    let mut last = ctx.report_zone.local_date(ctx.span.1);
+    while matches!(last.weekday(), Weekday::Sat | Weekday::Sun) {
+        last = last.succ_opt().expect("date in range");
+    }
+    let mut day_index = Vec::new();
+    let mut d = first;
+    let mut idx = std::collections::HashMap::new();
+    while d <= last {
+        if !matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
+            idx.insert(d, day_index.len());
+            day_index.push(d);
+        }
+        d = d.succ_opt().expect("date in range");
+    }
+    let mut pnl = vec![0.0; day_index.len()];
+    for (p, &cl) in c.pnl.iter().zip(c.closed) {
+        let day = trading_day(&ctx.report_zone, cl);
+        let i = idx.get(&day).copied().unwrap_or(day_index.len().saturating_sub(1));
+        if let Some(slot) = pnl.get_mut(i) {
+            *slot += p;
+        }
+    }
+    match ctx.initial_equity {
+        None => pnl,
+        Some(e0) => {
+            let mut eq = e0;
+            pnl.iter()
+                .map(|&p| {
+                    let r = if eq != 0.0 { p / eq } else { f64::NAN };
+                    eq += p;
+                    r
+                })
+                .collect()
+        }
+    }
+}
+
+/// Longest peak-to-recovery time in days; closes in order at `closed`.
+fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
+    let (mut eq, mut peak, mut peak_t, mut longest) = (0.0f64, 0.0f64, ctx.span.0, 0i64);
+    let mut under = false;
+    for (p, &t) in c.pnl.iter().zip(c.closed) {
+        eq += p;
+        if eq >= peak {
+            if under {
+                longest = longest.max(t - peak_t);
+            }
+            peak = eq;
+            peak_t = t;
+            under = false;
+        } else {
+            under = true;
+        }
+    }
+    if under {
+        longest = longest.max(ctx.span.1 - peak_t);
+    }
+    longest as f64 / DAY_MS as f64
+}
+
+/// Union length of [open, close] intervals.
+fn union_length(opened: &[i64], closed: &[i64]) -> i64 {
+    let mut iv: Vec<(i64, i64)> = opened.iter().copied().zip(closed.iter().copied()).collect();
+    iv.sort_unstable();
+    let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
+    for (a, b) in iv {
+        cur = match cur {
+            Some((s, e)) if a <= e => Some((s, e.max(b))),
+            Some((s, e)) => {
+                total += e - s;
+                Some((a, b))
+            }
+            None => Some((a, b)),
+        };
+    }
+    if let Some((s, e)) = cur {
+        total += e - s;
+    }
+    total
+}
+
+/// All figures for one scenario.
+pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
+    let n = c.pnl.len();
+    let mut m = Metrics { trades: n, ..Default::default() };
+    let (mut big_win, mut big_loss) = (f64::NEG_INFINITY, f64::INFINITY);
+    for &p in c.pnl {
+        m.net += p;
+        if p > 0.0 {
+            m.wins += 1;
+            m.gross_profit += p;
+            big_win = big_win.max(p);
+        } else if p < 0.0 {
+            m.losses += 1;
+            m.gross_loss += p;
+            big_loss = big_loss.min(p);
+        }
+    }
+    if n > 0 {
+        m.win_rate = Some(m.wins as f64 / n as f64);
+        m.expectancy = Some(m.net / n as f64);
+    }
+    m.profit_factor = (m.losses > 0).then(|| m.gross_profit / m.gross_loss.abs());
+    m.avg_win = (m.wins > 0).then(|| m.gross_profit / m.wins as f64);
+    m.avg_loss = (m.losses > 0).then(|| m.gross_loss / m.losses as f64);
+    m.payoff_ratio = match (m.avg_win, m.avg_loss) {
+        (Some(w), Some(l)) => Some(w / l.abs()),
+        _ => None,
+    };
+    m.largest_win = (m.wins > 0).then_some(big_win);
+    m.largest_loss = (m.losses > 0).then_some(big_loss);
+    let (dd, dd_pct) = max_drawdown(c.pnl, ctx.initial_equity.unwrap_or(0.0));
+    m.max_drawdown = dd;
+    m.max_drawdown_pct = ctx.initial_equity.and(dd_pct);
+    m.longest_drawdown_days = longest_drawdown_days(c, ctx);
+    m.return_to_drawdown = (dd > 0.0).then(|| m.net / dd);
+    let daily = daily_series(c, ctx);
+    m.sharpe = sharpe(&daily, DAYS_PER_YEAR);
+    m.sortino = sortino(&daily, DAYS_PER_YEAR);
+    m.t_stat = t_stat(c.pnl);
+    let span = ctx.span.1 - ctx.span.0;
+    m.time_in_market = (span > 0).then(|| union_length(c.opened, c.closed) as f64 / span as f64);
+    m.tcr = tcr(c.pnl, ctx.tcr_p);
+    m
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// REFERENCES.md §4.5 reference trade list (scipy/numpy computed).
+    const REF: [f64; 10] = [250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0];
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-9 * b.abs().max(1.0)
+    }
+
+    #[test]
+    fn reference_trade_list() {
+        let t: Vec<i64> = (0..10).map(|i| i * DAY_MS).collect();
+        let ctx = Context { span: (0, 9 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 10.0 };
+        let m = compute(&Curve { pnl: &REF, opened: &t, closed: &t }, &ctx);
+        assert_eq!((m.trades, m.wins, m.losses), (10, 6, 4));
+        assert!(close(m.net, 600.0) && close(m.gross_profit, 1030.0) && close(m.gross_loss, -430.0));
+        assert!(close(m.profit_factor.unwrap(), 2.395348837209302));
+        assert!(close(m.win_rate.unwrap(), 0.6));
+        assert!(close(m.t_stat.unwrap(), 1.056905286528691));
+        assert!(close(m.max_drawdown, 200.0));
+        // k = ceil(10 × 10 / 100) = 1 → 400 / 146.
+        assert!(close(m.tcr.unwrap(), 2.73972602739726));
+        assert!(close(tcr(&REF, 20.0).unwrap(), 2.2260273972602738));
+        assert!(close(tcr(&REF, 30.0).unwrap(), 1.9406392694063925));
+        assert!(close(sortino(&REF, 1.0).unwrap(), 0.7817962860855644));
+        assert!(close(sharpe(&REF, 1.0).unwrap(), 0.33422279765035395));
+    }
+
+    /// Red Rock Capital "Sortino: A 'Sharper' Ratio" worked example
+    /// (REFERENCES.md §4.2): annual returns, target 0 → 4.417261042993862.
+    #[test]
+    fn red_rock_sortino() {
+        let r = [0.17, 0.15, 0.23, -0.05, 0.12, 0.09, 0.13, -0.04];
+        assert!(close(sortino(&r, 1.0).unwrap(), 4.417261042993862));
+        assert!(close(sharpe(&r, 1.0).unwrap(), 1.0160946695958604));
+        let daily = [0.01, -0.005, 0.007, 0.002, -0.003];
+        assert!(close(sharpe(&daily, 252.0).unwrap(), 5.474264111966791));
+    }
+
+    #[test]
+    fn tcr_spec_cases() {
+        assert_eq!(tcr(&[5.0; 37], 1.0), Some(1.0));
+        // One huge trade among n: k = 1 at 1 % for n ≤ 100.
+        let mut v = vec![1.0; 99];
+        v.push(1000.0);
+        let expect = 1000.0 / (1099.0 / 100.0);
+        assert!(close(tcr(&v, 1.0).unwrap(), expect));
+        // Whole n·p/100: factor 100/p times the top share.
+        let v: Vec<f64> = (1..=300).map(|i| i as f64).collect();
+        let total: f64 = v.iter().sum();
+        for (p, factor, k) in [(1.0, 100.0, 3), (2.0, 50.0, 6), (4.0, 25.0, 12)] {
+            let top: f64 = v[300 - k..].iter().sum();
+            assert!(close(tcr(&v, p).unwrap(), top / total * factor), "p={p}");
+            assert_eq!(tcr_k(300, p), k);
+        }
+        // Non-whole: n = 150, 1 % → 1.5 → k = 2.
+        assert_eq!(tcr_k(150, 1.0), 2);
+        assert_eq!(tcr_k(5, 1.0), 1);
+        assert_eq!(tcr(&[0.0, 0.0], 1.0), None);
+    }
+
+    #[test]
+    fn quantile_matches_numpy_linear() {
+        // numpy.quantile([1, 2, 3, 4, 10], q) (linear): 0.5 → 3, 0.9 → 7.6, 0.99 → 9.76 (hand-checked: h = 4q).
+        let s = [1.0, 2.0, 3.0, 4.0, 10.0];
+        assert!(close(quantile_type7(&s, 0.5).unwrap(), 3.0));
+        assert!(close(quantile_type7(&s, 0.9).unwrap(), 7.6));
+        assert!(close(quantile_type7(&s, 0.99).unwrap(), 9.76));
+    }
+
+    #[test]
+    fn drawdown_counts_the_starting_peak_and_durations() {
+        assert_eq!(max_drawdown(&[-10.0, 5.0], 0.0).0, 10.0);
+        let (dd, pct) = max_drawdown(&[10.0, -20.0, 5.0], 100.0);
+        assert_eq!(dd, 20.0);
+        assert!(close(pct.unwrap(), 20.0 / 110.0));
+        let t: Vec<i64> = vec![DAY_MS, 3 * DAY_MS, 4 * DAY_MS, 10 * DAY_MS];
+        let pnl = [5.0, -3.0, 1.0, 4.0];
+        let ctx = Context { span: (0, 12 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
+        // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
+        assert_eq!(longest_drawdown_days(&Curve { pnl: &pnl, opened: &t, closed: &t }, &ctx), 9.0);
+        assert_eq!(union_length(&[0, 5, 20], &[10, 12, 25]), 17);
+    }
+}

@@ -1,0 +1,136 @@
+//! File renderers: the annotated trade list (CSV or Parquet) and the
+//! per-release table (CSV).
+
+use crate::attribution::ReleaseLine;
+use crate::calendar::Release;
+use crate::exposure::Exposure;
+use crate::trades::Trades;
+use crate::zones::format_utc;
+use std::fmt::Write;
+
+/// Quotes a CSV field when it needs it (RFC 4180).
+pub fn csv_field(s: &str) -> std::borrow::Cow<'_, str> {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\"")).into()
+    } else {
+        s.into()
+    }
+}
+
+fn opt_num(v: f64) -> String {
+    if v.is_finite() { format!("{v}") } else { String::new() }
+}
+
+/// Each input trade with its exposure columns.
+pub struct AnnotatedTrades<'a> {
+    trades: &'a Trades,
+    exposure: &'a Exposure,
+    releases: &'a [Release],
+    files: &'a [String],
+}
+
+pub fn annotated_trades<'a>(trades: &'a Trades, exposure: &'a Exposure, releases: &'a [Release], files: &'a [String]) -> AnnotatedTrades<'a> {
+    AnnotatedTrades { trades, exposure, releases, files }
+}
+
+pub const TRADE_COLUMNS: &[&str] = &[
+    "source_file",
+    "source_row",
+    "run",
+    "opened_at",
+    "closed_at",
+    "instrument",
+    "pnl",
+    "exposed",
+    "matches",
+    "nearest_release_id",
+    "nearest_release_title",
+    "nearest_release_tier",
+    "minutes_from_nearest",
+];
+
+impl AnnotatedTrades<'_> {
+    fn nearest(&self, i: usize) -> Option<&Release> {
+        let r = self.exposure.nearest[i];
+        (r != u32::MAX).then(|| &self.releases[r as usize])
+    }
+
+    pub fn to_csv(&self) -> Vec<u8> {
+        let t = self.trades;
+        let mut s = String::with_capacity(t.len() * 120);
+        s.push_str(&TRADE_COLUMNS.join(","));
+        s.push('\n');
+        for i in 0..t.len() {
+            let near = self.nearest(i);
+            let _ = writeln!(
+                s,
+                "{},{},{},{},{},{},{},{},{},{},{},{},{}",
+                csv_field(&self.files[t.file[i] as usize]),
+                t.row[i],
+                csv_field(t.runs.get(t.run[i] as usize).map(String::as_str).unwrap_or("")),
+                format_utc(t.opened[i]),
+                format_utc(t.closed[i]),
+                csv_field(&t.instruments[t.instrument[i] as usize]),
+                t.pnl[i],
+                self.exposure.k[i] > 0,
+                self.exposure.k[i],
+                csv_field(near.map(|r| r.id.as_str()).unwrap_or("")),
+                csv_field(near.map(|r| r.title.as_str()).unwrap_or("")),
+                near.map(|r| r.tier.as_str()).unwrap_or(""),
+                opt_num(self.exposure.minutes_from_nearest[i]),
+            );
+        }
+        s.into_bytes()
+    }
+
+    pub fn to_parquet(&self) -> anyhow::Result<Vec<u8>> {
+        use polars::prelude::*;
+        let t = self.trades;
+        let n = t.len();
+        let near: Vec<Option<&Release>> = (0..n).map(|i| self.nearest(i)).collect();
+        let mut df = DataFrame::new(
+            n,
+            vec![
+                Column::new("source_file".into(), (0..n).map(|i| self.files[t.file[i] as usize].as_str()).collect::<Vec<_>>()),
+                Column::new("source_row".into(), t.row.clone()),
+                Column::new("run".into(), (0..n).map(|i| t.runs.get(t.run[i] as usize).map(String::as_str).unwrap_or("")).collect::<Vec<_>>()),
+                Column::new("opened_at".into(), t.opened.iter().map(|&v| format_utc(v)).collect::<Vec<_>>()),
+                Column::new("closed_at".into(), t.closed.iter().map(|&v| format_utc(v)).collect::<Vec<_>>()),
+                Column::new("instrument".into(), (0..n).map(|i| t.instruments[t.instrument[i] as usize].as_str()).collect::<Vec<_>>()),
+                Column::new("pnl".into(), t.pnl.clone()),
+                Column::new("exposed".into(), self.exposure.k.iter().map(|&k| k > 0).collect::<Vec<_>>()),
+                Column::new("matches".into(), self.exposure.k.clone()),
+                Column::new("nearest_release_id".into(), near.iter().map(|r| r.map(|r| r.id.as_str())).collect::<Vec<_>>()),
+                Column::new("nearest_release_title".into(), near.iter().map(|r| r.map(|r| r.title.as_str())).collect::<Vec<_>>()),
+                Column::new("nearest_release_tier".into(), near.iter().map(|r| r.map(|r| r.tier.as_str())).collect::<Vec<_>>()),
+                Column::new(
+                    "minutes_from_nearest".into(),
+                    self.exposure.minutes_from_nearest.iter().map(|v| v.is_finite().then_some(*v)).collect::<Vec<_>>(),
+                ),
+            ],
+        )?;
+        let mut buf = Vec::new();
+        ParquetWriter::new(&mut buf).finish(&mut df)?;
+        Ok(buf)
+    }
+}
+
+/// releases.csv: one row per used release.
+pub fn releases_csv(lines: &[ReleaseLine]) -> Vec<u8> {
+    let mut s = String::from("id,released_at,title,currency,tier,category,trades_touched,attributed_pnl\n");
+    for r in lines {
+        let _ = writeln!(
+            s,
+            "{},{},{},{},{},{},{},{}",
+            csv_field(&r.id),
+            r.released_at,
+            csv_field(&r.title),
+            r.currency,
+            r.tier,
+            csv_field(r.category.as_deref().unwrap_or("")),
+            r.trades_touched,
+            r.attributed_pnl
+        );
+    }
+    s.into_bytes()
+}

@@ -1,0 +1,315 @@
+//! Scenarios (SPEC §4): the same trades as given (`baseline`), without the
+//! exposed ones (`removed`), and with the exposed ones' P/L clipped
+//! (`capped`), under fixed or compounding sizing.
+//!
+//! Compounding turns each trade into a return r = pnl ÷ equity before it
+//! (from `equity_before`, else `pnl_pct`, else the initial equity plus the
+//! P/L closed before it in close order) and replays the kept trades one
+//! after another in close order: a trade's scenario P/L is the
+//! counterfactual equity before it × r. The baseline is replayed the same
+//! way so the three scenarios are comparable.
+
+use crate::metrics::quantile_type7;
+use serde::Serialize;
+
+/// Starting value of the equity index when only `pnl_pct` is known.
+pub const INDEX_START: f64 = 100.0;
+
+/// How P/L adds up.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Sizing {
+    /// Sum P/L as given.
+    #[default]
+    Fixed,
+    /// Rebuild equity as a product of per-trade returns.
+    Compounding,
+}
+
+/// How the cap C of the `capped` scenario is chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind", content = "value")]
+pub enum CapRule {
+    /// Quantile (type 7) of the unexposed trades' |pnl| (or |return|).
+    Quantile(f64),
+    /// Multiple of the unexposed trades' median |pnl| (or |return|).
+    MedianMultiple(f64),
+    /// A fixed amount in account currency.
+    Amount(f64),
+    /// A percentage of equity before the trade.
+    EquityPct(f64),
+}
+
+impl CapRule {
+    /// `q0.99`, `median*3`, `amount:500`, `equity:1.5` (percent).
+    pub fn parse(s: &str) -> Result<CapRule, String> {
+        let bad = || format!("--cap '{s}': use q0.99 (quantile), median*3, amount:500 or equity:1.5 (% of equity)");
+        let num = |x: &str| x.trim().parse::<f64>().ok().filter(|v| v.is_finite() && *v >= 0.0).ok_or_else(bad);
+        let s = s.trim();
+        if let Some(q) = s.strip_prefix('q') {
+            let v = num(q)?;
+            if v > 1.0 {
+                return Err(format!("--cap '{s}': the quantile must be between 0 and 1"));
+            }
+            Ok(CapRule::Quantile(v))
+        } else if let Some(m) = s.strip_prefix("median*") {
+            Ok(CapRule::MedianMultiple(num(m)?))
+        } else if let Some(a) = s.strip_prefix("amount:") {
+            Ok(CapRule::Amount(num(a)?))
+        } else if let Some(p) = s.strip_prefix("equity:") {
+            Ok(CapRule::EquityPct(num(p)?))
+        } else {
+            Err(bad())
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct ScenarioSettings {
+    pub sizing: Sizing,
+    pub cap: CapRule,
+    pub initial_equity: Option<f64>,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum ScenarioError {
+    #[error("compounding needs each trade's equity: map an equity_before or pnl_pct column, or give --initial-equity")]
+    NoEquity,
+    #[error("--cap equity:… needs equity: map an equity_before column or give --initial-equity")]
+    NoEquityForCap,
+}
+
+/// One scenario's kept trades in close order.
+#[derive(Debug, Clone, Default)]
+pub struct Series {
+    /// Scenario P/L per kept trade.
+    pub pnl: Vec<f64>,
+    pub opened: Vec<i64>,
+    pub closed: Vec<i64>,
+    /// Index of each kept trade in the input.
+    pub trade: Vec<u32>,
+}
+
+impl Series {
+    fn push(&mut self, i: usize, pnl: f64, opened: &[i64], closed: &[i64]) {
+        self.pnl.push(pnl);
+        self.opened.push(opened[i]);
+        self.closed.push(closed[i]);
+        self.trade.push(i as u32);
+    }
+}
+
+/// The three scenarios of one trade set.
+#[derive(Debug, Clone, Default)]
+pub struct Scenarios {
+    pub baseline: Series,
+    pub removed: Series,
+    pub capped: Series,
+    /// C: in account currency, or as a return fraction under compounding
+    /// (quantile/median caps); `None` when there are no unexposed trades to
+    /// take it from (then exposed trades count 0 in `capped`).
+    pub cap_value: Option<f64>,
+    /// Starting equity used (compounding, or given).
+    pub initial_equity: Option<f64>,
+}
+
+/// Inputs for one trade set (all trades, or one run).
+pub struct TradeView<'a> {
+    /// Trade indices in close order (ties by open, then input order).
+    pub order: &'a [u32],
+    pub pnl: &'a [f64],
+    pub opened: &'a [i64],
+    pub closed: &'a [i64],
+    pub exposed: &'a dyn Fn(usize) -> bool,
+    pub equity_before: Option<&'a [f64]>,
+    pub pnl_pct: Option<&'a [f64]>,
+}
+
+/// Sorts indices by close, then open, then input order.
+pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
+    idx.sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
+}
+
+fn cap_from(values: impl Iterator<Item = f64>, rule: CapRule) -> Option<f64> {
+    let mut v: Vec<f64> = values.map(f64::abs).collect();
+    v.sort_by(f64::total_cmp);
+    match rule {
+        CapRule::Quantile(q) => quantile_type7(&v, q),
+        CapRule::MedianMultiple(m) => quantile_type7(&v, 0.5).map(|x| x * m),
+        _ => None,
+    }
+}
+
+/// Builds the three scenarios.
+pub fn build(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+    match s.sizing {
+        Sizing::Fixed => build_fixed(v, s),
+        Sizing::Compounding => build_compounding(v, s),
+    }
+}
+
+/// Equity before each trade (indexed by input position) from the column or
+/// from the initial equity plus earlier closes.
+fn equity_before(v: &TradeView, e0: Option<f64>) -> Option<Vec<f64>> {
+    let n = v.pnl.len();
+    if let Some(eb) = v.equity_before {
+        return Some(eb.to_vec());
+    }
+    let e0 = e0?;
+    let mut out = vec![f64::NAN; n];
+    let mut eq = e0;
+    for &i in v.order {
+        out[i as usize] = eq;
+        eq += v.pnl[i as usize];
+    }
+    Some(out)
+}
+
+fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+    let mut out = Scenarios { initial_equity: s.initial_equity, ..Default::default() };
+    let per_trade_cap: Option<Vec<f64>> = match s.cap {
+        CapRule::EquityPct(p) => {
+            let eb = equity_before(v, s.initial_equity).ok_or(ScenarioError::NoEquityForCap)?;
+            Some(eb.iter().map(|e| e * p / 100.0).collect())
+        }
+        _ => None,
+    };
+    out.cap_value = match s.cap {
+        CapRule::Amount(a) => Some(a),
+        CapRule::EquityPct(_) => None,
+        rule => cap_from(v.order.iter().map(|&i| i as usize).filter(|&i| !(v.exposed)(i)).map(|i| v.pnl[i]), rule),
+    };
+    for &i in v.order {
+        let i = i as usize;
+        let p = v.pnl[i];
+        out.baseline.push(i, p, v.opened, v.closed);
+        if (v.exposed)(i) {
+            let c = match &per_trade_cap {
+                Some(caps) => caps[i].abs(),
+                None => out.cap_value.unwrap_or(0.0),
+            };
+            out.capped.push(i, p.clamp(-c, c), v.opened, v.closed);
+        } else {
+            out.removed.push(i, p, v.opened, v.closed);
+            out.capped.push(i, p, v.opened, v.closed);
+        }
+    }
+    Ok(out)
+}
+
+fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+    let n = v.pnl.len();
+    let ret: Vec<f64> = if let Some(eb) = v.equity_before {
+        (0..n).map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 }).collect()
+    } else if let Some(pct) = v.pnl_pct {
+        pct.iter().map(|p| p / 100.0).collect()
+    } else if let Some(eb) = equity_before(v, s.initial_equity) {
+        (0..n).map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 }).collect()
+    } else {
+        return Err(ScenarioError::NoEquity);
+    };
+    // Starting equity: given; else the recorded equity before the first
+    // trade; else (returns only) an index starting at 100.
+    let e0 = s
+        .initial_equity
+        .or_else(|| v.order.first().and_then(|&i| v.equity_before.map(|eb| eb[i as usize])))
+        .unwrap_or(INDEX_START);
+    let cap_r = match s.cap {
+        CapRule::Quantile(_) | CapRule::MedianMultiple(_) => {
+            cap_from(v.order.iter().map(|&i| i as usize).filter(|&i| !(v.exposed)(i)).map(|i| ret[i]), s.cap)
+        }
+        CapRule::EquityPct(p) => Some(p / 100.0),
+        CapRule::Amount(_) => None,
+    };
+    let mut out = Scenarios { initial_equity: Some(e0), ..Default::default() };
+    out.cap_value = match s.cap {
+        CapRule::Amount(a) => Some(a),
+        _ => cap_r,
+    };
+    let (mut eq_base, mut eq_rem, mut eq_cap) = (e0, e0, e0);
+    for &i in v.order {
+        let i = i as usize;
+        let r = ret[i];
+        let pb = eq_base * r;
+        eq_base += pb;
+        out.baseline.push(i, pb, v.opened, v.closed);
+        if (v.exposed)(i) {
+            let pc = match s.cap {
+                CapRule::Amount(a) => (eq_cap * r).clamp(-a, a),
+                _ => {
+                    let c = cap_r.unwrap_or(0.0);
+                    eq_cap * r.clamp(-c, c)
+                }
+            };
+            eq_cap += pc;
+            out.capped.push(i, pc, v.opened, v.closed);
+        } else {
+            let pr = eq_rem * r;
+            eq_rem += pr;
+            out.removed.push(i, pr, v.opened, v.closed);
+            let pc = eq_cap * r;
+            eq_cap += pc;
+            out.capped.push(i, pc, v.opened, v.closed);
+        }
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn view<'a>(order: &'a [u32], pnl: &'a [f64], t: &'a [i64], exposed: &'a dyn Fn(usize) -> bool, eb: Option<&'a [f64]>) -> TradeView<'a> {
+        TradeView { order, pnl, opened: t, closed: t, exposed, equity_before: eb, pnl_pct: None }
+    }
+
+    /// Hand-computed three-trade example. Equity 1000; trades in close order
+    /// +100 (equity before 1000, r = 10 %), −110 (before 1100, r = −10 %),
+    /// +99 (before 990, r = 10 %). Removing the first trade: 1000 → −100
+    /// (−10 % of 1000) → 900 → +90 (10 % of 900) → 990. So trade 3's P/L
+    /// shrinks from 99 to 90, in proportion to the counterfactual equity.
+    #[test]
+    fn compounding_three_trade_example() {
+        let pnl = [100.0, -110.0, 99.0];
+        let eb = [1000.0, 1100.0, 990.0];
+        let t = [1, 2, 3];
+        let order = [0u32, 1, 2];
+        let exposed = |i: usize| i == 0;
+        let s = ScenarioSettings { sizing: Sizing::Compounding, cap: CapRule::Amount(50.0), initial_equity: None };
+        let sc = build(&view(&order, &pnl, &t, &exposed, Some(&eb)), &s).unwrap();
+        let close = |a: &[f64], b: &[f64]| a.iter().zip(b).all(|(x, y)| (x - y).abs() < 1e-9);
+        assert!(close(&sc.baseline.pnl, &[100.0, -110.0, 99.0]), "{:?}", sc.baseline.pnl);
+        assert!(close(&sc.removed.pnl, &[-100.0, 90.0]), "{:?}", sc.removed.pnl);
+        // Capped at 50: 1000 → +50 → 1050 → −105 → 945 → +94.5.
+        assert!(close(&sc.capped.pnl, &[50.0, -105.0, 94.5]), "{:?}", sc.capped.pnl);
+    }
+
+    #[test]
+    fn fixed_cap_by_quantile_of_unexposed() {
+        // REFERENCES.md §4.5: capping at ±150 gives net 300.
+        let pnl = [250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0];
+        let t: Vec<i64> = (0..10).collect();
+        let order: Vec<u32> = (0..10).collect();
+        let all = |_: usize| true;
+        let s = ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::Amount(150.0), initial_equity: None };
+        let sc = build(&view(&order, &pnl, &t, &all, None), &s).unwrap();
+        assert!((sc.capped.pnl.iter().sum::<f64>() - 300.0).abs() < 1e-9);
+        assert!(sc.removed.pnl.is_empty());
+        // Quantile cap from unexposed |pnl| = {100, 75, 50}: q0.5 → 75.
+        let some = |i: usize| i == 0 || i == 4;
+        let s = ScenarioSettings { cap: CapRule::Quantile(0.5), ..s };
+        let sc = build(&view(&order[..4], &pnl, &t, &some, None), &s).unwrap();
+        assert_eq!(sc.cap_value, Some(75.0));
+        assert_eq!(sc.capped.pnl, vec![75.0, -100.0, 75.0, -50.0]);
+    }
+
+    #[test]
+    fn cap_rule_parsing() {
+        assert_eq!(CapRule::parse("q0.99").unwrap(), CapRule::Quantile(0.99));
+        assert_eq!(CapRule::parse("median*3").unwrap(), CapRule::MedianMultiple(3.0));
+        assert_eq!(CapRule::parse("amount:500").unwrap(), CapRule::Amount(500.0));
+        assert_eq!(CapRule::parse("equity:1.5").unwrap(), CapRule::EquityPct(1.5));
+        assert!(CapRule::parse("q1.5").is_err());
+        assert!(CapRule::parse("lots").is_err());
+    }
+}
