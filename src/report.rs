@@ -4,7 +4,7 @@
 use serde::Serialize;
 
 /// The caution printed in every terminal report, summary.json and HTML page.
-pub const CAUTION: &str = "Back-test figures are not forecasts. Release times here come from the calendar you supplied: check them against the publisher. Nothing here is investment advice.";
+pub const CAUTION: &str = "Back-test figures are not forecasts. Release times come from the calendar you supplied: check them against the publisher. This is not investment advice.";
 
 #[derive(Debug, Clone, Serialize)]
 pub struct ToolInfo {

@@ -1,0 +1,143 @@
+//! The real binary on small inputs: exit codes, error wording (file, row,
+//! field), JSON layout, and the bundled demo.
+
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_eventfence"))
+}
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn run(args: &[&str], dir: &Path) -> Output {
+    bin().current_dir(dir).args(args).output().unwrap()
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+const CAL: &str = "released_at,title,currency,tier,category\n2024-03-08 13:30,Jobs,USD,high,employment\n2024-03-12 12:30,Prices,USD,high,inflation\n";
+
+fn demo_args() -> Vec<String> {
+    let r = root();
+    let p = |s: &str| r.join(s).display().to_string();
+    vec![
+        "analyze".into(),
+        "--trades".into(),
+        p("demo/trades.csv"),
+        "--trades-tz".into(),
+        "America/New_York+07:00".into(),
+        "--calendar".into(),
+        p("calendars/demo-usd.ics"),
+        p("calendars/demo-eur.csv"),
+        p("calendars/demo-gbp-jpy.ics"),
+        "--calendar-tz".into(),
+        "Europe/Berlin".into(),
+        "--instrument-map-file".into(),
+        p("demo/instruments.json"),
+    ]
+}
+
+#[test]
+fn demo_analysis_shows_a_difference_and_carries_the_caution() {
+    let mut args = demo_args();
+    args.push("--json".into());
+    let o = bin().args(&args).output().unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    for key in ["tool", "inputs", "settings", "exposure", "scenarios", "attribution", "runs", "caution"] {
+        assert!(j.get(key).is_some(), "summary lacks {key}");
+    }
+    let base = &j["scenarios"]["baseline"];
+    let removed = &j["scenarios"]["removed"];
+    assert_eq!(base["trades"], j["inputs"]["trades"]["rows_imported"]);
+    assert_eq!(
+        removed["trades"].as_u64().unwrap() + j["exposure"]["exposed_trades"].as_u64().unwrap(),
+        base["trades"].as_u64().unwrap()
+    );
+    let (bn, rn, en) = (base["net"].as_f64().unwrap(), removed["net"].as_f64().unwrap(), j["exposure"]["exposed_pnl"].as_f64().unwrap());
+    assert!((bn - rn - en).abs() < 0.005, "removed + exposed = baseline");
+    assert!((bn - rn).abs() > 1000.0, "the demo shows a visible difference");
+    assert!(base["tcr"].as_f64().unwrap() > removed["tcr"].as_f64().unwrap());
+    assert_eq!(j["runs"].as_array().unwrap().len(), 50);
+    assert!(j["caution"].as_str().unwrap().contains("not investment advice"));
+    assert!(j["warnings"].as_array().unwrap().is_empty(), "demo calendar covers the demo trades: {}", j["warnings"]);
+    // Attribution sums equal the exposed P/L.
+    let sum: f64 = j["attribution"]["by_release"].as_array().unwrap().iter().map(|r| r["attributed_pnl"].as_f64().unwrap()).sum();
+    assert!((sum - en).abs() < 0.005);
+
+    let o = bin().args(&demo_args()).output().unwrap();
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("profit factor") && text.contains("not investment advice"));
+    assert!(!text.contains('\u{1b}'), "no escape codes in piped output");
+}
+
+#[test]
+fn bad_rows_name_file_row_and_field_and_can_be_skipped() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("cal.csv"), CAL).unwrap();
+    std::fs::write(
+        dir.path().join("t.csv"),
+        "opened_at,closed_at,instrument,pnl\n\
+2024-03-08 13:00,2024-03-08 14:00,EURUSD,10\n\
+2024-03-08 13:00,2024-03-08 12:00,EURUSD,5\n\
+yesterday,2024-03-08 14:00,EURUSD,5\n\
+2024-03-08 13:00,2024-03-08 14:00,EURUSD,\n\
+2024-03-08 13:00,2024-03-08 14:00,EURUSD,abc\n\
+2024-03-11 13:00,2024-03-11 14:00,GBPUSD,-4\n",
+    )
+    .unwrap();
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
+    assert!(!o.status.success());
+    let e = stderr(&o);
+    assert!(e.contains("4 trade row(s) rejected"), "{e}");
+    assert!(e.contains("t.csv row 2: closed_at"), "{e}");
+    assert!(e.contains("t.csv row 3: opened_at: 'yesterday' is not a time"), "{e}");
+    assert!(e.contains("t.csv row 4: pnl: empty"), "{e}");
+    assert!(e.contains("t.csv row 5: pnl: 'abc' is not a number"), "{e}");
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--skip-bad-rows", "--json"], dir.path());
+    assert!(o.status.success(), "{}", stderr(&o));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let t = &j["inputs"]["trades"];
+    assert_eq!((t["rows_read"].as_u64(), t["rows_imported"].as_u64(), t["rows_rejected"].as_u64()), (Some(6), Some(2), Some(4)));
+    assert_eq!(t["rejected_by_reason"]["missing_value"], 1);
+    assert_eq!(t["rejected_by_reason"]["closed_before_opened"], 1);
+    assert!(j["warnings"].as_array().unwrap().iter().any(|w| w.as_str().unwrap().starts_with("SKIPPED: 4 trade row(s)")));
+    assert_eq!(j["exposure"]["exposed_trades"], 1);
+
+    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
+    assert_eq!(o.status.code(), Some(3), "check exits non-zero when rows are rejected");
+    assert!(String::from_utf8_lossy(&o.stdout).contains("closed_before_opened"));
+}
+
+#[test]
+fn flags_and_unmapped_instruments_fail_clearly() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("cal.csv"), CAL).unwrap();
+    std::fs::write(dir.path().join("t.csv"), "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,US500,10\n").unwrap();
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--trades-tz", "Mars/Olympus"], dir.path());
+    assert!(stderr(&o).contains("--trades-tz: unknown time zone 'Mars/Olympus'"), "{}", stderr(&o));
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
+    assert!(stderr(&o).contains("no currencies known for instrument(s) US500"), "{}", stderr(&o));
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD", "--json"], dir.path());
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--map", "pnl=Profit"], dir.path());
+    assert!(stderr(&o).contains("no column 'Profit' for pnl"), "{}", stderr(&o));
+    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD", "--cap", "lots"], dir.path());
+    assert!(stderr(&o).contains("--cap 'lots'"), "{}", stderr(&o));
+}
+
+#[test]
+fn out_folder_never_overwrites_an_input() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("cal.csv"), CAL).unwrap();
+    std::fs::write(dir.path().join("trades.csv"), "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,EURUSD,10\n").unwrap();
+    let o = run(&["analyze", "--trades", "trades.csv", "--calendar", "cal.csv", "--out", "."], dir.path());
+    assert!(stderr(&o).contains("refusing to write"), "{}", stderr(&o));
+    assert!(std::fs::read_to_string(dir.path().join("trades.csv")).unwrap().contains("EURUSD,10"));
+}
