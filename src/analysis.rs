@@ -23,6 +23,47 @@ pub struct AnalysisSettings {
     pub report_tz: Zone,
     /// p of the tail concentration ratio, in percent.
     pub tcr_p: f64,
+    /// TCR above which a result "leans on a handful of trades".
+    pub tcr_threshold: f64,
+}
+
+/// Where the default TCR threshold comes from (SPEC §6).
+pub const TCR_THRESHOLD_SOURCE: &str = "common practice (rule of thumb, no published source); set with --tcr-threshold";
+
+/// Tail figures of one scenario (SPEC §6).
+#[derive(Debug, Clone, Serialize)]
+pub struct TailLine {
+    pub tcr: Option<f64>,
+    /// Trades in the top bucket (k).
+    pub top_bucket: usize,
+    /// Fewer than 10 trades in the top bucket: too few to judge.
+    pub too_few: bool,
+    pub above_threshold: Option<bool>,
+    /// Hill (1975) tail index of |P/L|, k = ⌊√n⌋ upper order statistics.
+    pub hill: Option<crate::stats::HillEstimate>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct TailSummary {
+    pub p: f64,
+    pub threshold: f64,
+    pub threshold_source: &'static str,
+    pub baseline: TailLine,
+    pub removed: TailLine,
+    pub capped: TailLine,
+}
+
+fn tail_line(pnl: &[f64], p: f64, threshold: f64) -> TailLine {
+    let abs: Vec<f64> = pnl.iter().map(|v| v.abs()).collect();
+    let tcr = metrics::tcr(pnl, p);
+    let k = if pnl.is_empty() { 0 } else { metrics::tcr_k(pnl.len(), p) };
+    TailLine {
+        tcr,
+        top_bucket: k,
+        too_few: k < 10,
+        above_threshold: tcr.map(|t| t > threshold),
+        hill: crate::stats::hill(&abs, crate::stats::default_hill_k(abs.len())),
+    }
 }
 
 #[derive(Debug, thiserror::Error)]
@@ -74,8 +115,13 @@ pub struct Analysis {
     pub cap_value: Option<f64>,
     pub initial_equity: Option<f64>,
     pub scenarios: ScenarioMetrics,
+    pub tail: TailSummary,
     pub attribution: Attribution,
     pub runs: Vec<RunResult>,
+    /// Baseline |P/L| sorted descending with the exposed flag (for tail
+    /// charts and tail.csv; not part of summary.json).
+    #[serde(skip)]
+    pub sorted_abs: Vec<(f64, bool)>,
 }
 
 fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
@@ -121,6 +167,17 @@ pub fn analyze(
     let all = scenarios::build(&view(&order, trades, &exposed), &settings.scenario)?;
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
     let overall = metrics_of(&all, &ctx);
+    let tl = |sr: &scenarios::Series| tail_line(&sr.pnl, settings.tcr_p, settings.tcr_threshold);
+    let tail = TailSummary {
+        p: settings.tcr_p,
+        threshold: settings.tcr_threshold,
+        threshold_source: TCR_THRESHOLD_SOURCE,
+        baseline: tl(&all.baseline),
+        removed: tl(&all.removed),
+        capped: tl(&all.capped),
+    };
+    let mut sorted_abs: Vec<(f64, bool)> = all.baseline.pnl.iter().zip(&all.baseline.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
+    sorted_abs.sort_by(|a, b| b.0.total_cmp(&a.0));
 
     let runs = if trades.has_runs() {
         let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
@@ -165,8 +222,10 @@ pub fn analyze(
             cap_value: all.cap_value,
             initial_equity: all.initial_equity,
             scenarios: overall,
+            tail,
             attribution,
             runs,
+            sorted_abs,
         },
         exp,
     ))

@@ -51,6 +51,30 @@ struct CurrencyIndex {
     instants: Vec<(i64, u32)>,
 }
 
+/// A used release's window, as the engine needs it.
+#[derive(Debug, Clone)]
+pub struct UsedWindow {
+    pub release: u32,
+    pub currency: String,
+    /// Window start and end (inclusive), and the release instant, ms.
+    pub start: i64,
+    pub end: i64,
+    pub at: i64,
+    pub all_day: bool,
+}
+
+/// The windows of the releases the settings use, in calendar order.
+pub fn used_windows(releases: &[Release], windows: &WindowSettings) -> Vec<UsedWindow> {
+    releases
+        .iter()
+        .enumerate()
+        .filter_map(|(i, r)| {
+            let (start, end, at) = windows.span_for(r)?;
+            Some(UsedWindow { release: i as u32, currency: r.currency.clone(), start, end, at, all_day: r.all_day })
+        })
+        .collect()
+}
+
 /// Used releases indexed by currency, ready to query.
 pub struct Engine {
     rule: ExposureRule,
@@ -90,24 +114,29 @@ impl Exposure {
 impl Engine {
     /// Indexes the releases that the window settings use.
     pub fn new(releases: &[Release], windows: &WindowSettings, rule: ExposureRule) -> Engine {
+        Engine::from_windows(&used_windows(releases, windows), rule, releases.len())
+    }
+
+    /// Indexes pre-computed windows (used by placebo calendars, which move
+    /// the same windows in time). `n_releases` sizes `used`.
+    pub fn from_windows(windows: &[UsedWindow], rule: ExposureRule, n_releases: usize) -> Engine {
         let mut currencies = HashMap::new();
         let mut index: Vec<CurrencyIndex> = Vec::new();
-        let mut used = vec![false; releases.len()];
-        for (i, r) in releases.iter().enumerate() {
-            let Some((s, e, t)) = windows.span_for(r) else { continue };
-            used[i] = true;
-            let ci = *currencies.entry(r.currency.clone()).or_insert_with(|| {
+        let mut used = vec![false; n_releases];
+        for w in windows {
+            used[w.release as usize] = true;
+            let ci = *currencies.entry(w.currency.clone()).or_insert_with(|| {
                 index.push(CurrencyIndex::default());
                 index.len() - 1
             });
             let (start, end) = match rule {
-                ExposureRule::Held if !r.all_day => (t, t),
-                _ => (s, e),
+                ExposureRule::Held if !w.all_day => (w.at, w.at),
+                _ => (w.start, w.end),
             };
             let ix = &mut index[ci];
-            ix.slots.push(Slot { start, end, release: i as u32 });
+            ix.slots.push(Slot { start, end, release: w.release });
             ix.max_len = ix.max_len.max(end - start);
-            ix.instants.push((t, i as u32));
+            ix.instants.push((w.at, w.release));
         }
         for ix in &mut index {
             ix.slots.sort_by_key(|s| (s.start, s.release));

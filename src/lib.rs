@@ -18,6 +18,7 @@ pub mod relevance;
 pub mod render;
 pub mod report;
 pub mod scenarios;
+pub mod stats;
 pub mod table;
 pub mod timefmt;
 pub mod trades;

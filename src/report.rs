@@ -94,6 +94,11 @@ pub struct Summary {
     pub cap_value: Option<f64>,
     pub initial_equity: Option<f64>,
     pub scenarios: ScenarioMetrics,
+    pub tail: crate::analysis::TailSummary,
+    /// Placebo-calendar test (SPEC §7); null when turned off.
+    pub placebo: Option<crate::stats::PlaceboResult>,
+    /// Bootstrap intervals of removed − baseline; null when turned off.
+    pub bootstrap: Option<crate::stats::BootstrapResult>,
     pub headline: crate::attribution::Headline,
     pub attribution: AttributionOut,
     pub runs: Vec<RunResult>,
@@ -111,7 +116,13 @@ pub struct AttributionOut {
 }
 
 impl Summary {
-    pub fn new(inputs: Inputs, settings: AnalysisSettings, a: Analysis) -> Summary {
+    pub fn new(
+        inputs: Inputs,
+        settings: AnalysisSettings,
+        a: Analysis,
+        placebo: Option<crate::stats::PlaceboResult>,
+        bootstrap: Option<crate::stats::BootstrapResult>,
+    ) -> Summary {
         let warnings = warnings(&inputs, &a);
         let Attribution { by_release, by_category, by_currency, by_tier, headline } = a.attribution;
         Summary {
@@ -123,6 +134,9 @@ impl Summary {
             cap_value: a.cap_value,
             initial_equity: a.initial_equity,
             scenarios: a.scenarios,
+            tail: a.tail,
+            placebo,
+            bootstrap,
             headline,
             attribution: AttributionOut { by_release, by_category, by_currency, by_tier },
             runs: a.runs,

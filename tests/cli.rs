@@ -46,7 +46,7 @@ fn demo_args() -> Vec<String> {
 #[test]
 fn demo_analysis_shows_a_difference_and_carries_the_caution() {
     let mut args = demo_args();
-    args.push("--json".into());
+    args.extend(["--json", "--placebo", "19", "--bootstrap", "10"].map(String::from));
     let o = bin().args(&args).output().unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
@@ -66,12 +66,20 @@ fn demo_analysis_shows_a_difference_and_carries_the_caution() {
     assert!(base["tcr"].as_f64().unwrap() > removed["tcr"].as_f64().unwrap());
     assert_eq!(j["runs"].as_array().unwrap().len(), 50);
     assert!(j["caution"].as_str().unwrap().contains("not investment advice"));
+    assert_eq!(j["placebo"]["placebos"], 19);
+    let p = j["placebo"]["p_share"].as_f64().unwrap();
+    assert!((0.05..=1.0).contains(&p), "p is a multiple of 1/20: {p}");
+    assert_eq!(j["bootstrap"]["intervals"]["net"]["replicates"], 10);
+    assert_eq!(j["tail"]["threshold"], 12.0);
+    assert!(j["tail"]["threshold_source"].as_str().unwrap().contains("common practice"));
     assert!(j["warnings"].as_array().unwrap().is_empty(), "demo calendar covers the demo trades: {}", j["warnings"]);
     // Attribution sums equal the exposed P/L.
     let sum: f64 = j["attribution"]["by_release"].as_array().unwrap().iter().map(|r| r["attributed_pnl"].as_f64().unwrap()).sum();
     assert!((sum - en).abs() < 0.005);
 
-    let o = bin().args(&demo_args()).output().unwrap();
+    let mut args = demo_args();
+    args.extend(["--placebo", "0", "--bootstrap", "0"].map(String::from));
+    let o = bin().args(&args).output().unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(text.contains("profit factor") && text.contains("not investment advice"));
     assert!(!text.contains('\u{1b}'), "no escape codes in piped output");

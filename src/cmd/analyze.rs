@@ -1,7 +1,7 @@
 //! `eventfence analyze`: the main job — exposure, attribution, scenarios
 //! and metrics, shown as a table, JSON, or a folder of files.
 
-use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TradeArgs, WindowArgs};
+use super::common::{self, CalendarArgs, ChanceArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
 use crate::analysis;
 use crate::output::OutDir;
 use crate::report::{Inputs, Summary};
@@ -30,6 +30,10 @@ pub struct AnalyzeArgs {
     pub windows: WindowArgs,
     #[command(flatten)]
     pub scenario: ScenarioArgs,
+    #[command(flatten)]
+    pub chance: ChanceArgs,
+    #[command(flatten)]
+    pub terminal: TerminalArgs,
     /// Print summary JSON to stdout instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -59,8 +63,10 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let cal = common::load_calendar(&args.calendar, &cal_opts)?;
     let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
     let (result, exposure) = analysis::analyze(&trades, &cal.releases, &currencies, &settings)?;
+    let (placebo, bootstrap) = chance(&args, &trades, &cal.releases, &currencies, &settings, &exposure, result.initial_equity);
+    let sorted_abs = result.sorted_abs.clone();
     let inputs = Inputs::new(&trade_summary, args.trades.trades_tz.clone(), &cal.summary, args.calendar.calendar_tz.clone());
-    let summary = Summary::new(inputs, settings, result);
+    let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     if let Some(dir) = &args.out {
         let mut input_paths: Vec<PathBuf> = trade_summary.files.iter().map(PathBuf::from).collect();
@@ -72,6 +78,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
         };
         out.write("releases.csv", &crate::render::files::releases_csv(&summary.attribution.by_release))?;
+        out.write("tail.csv", &crate::render::files::tail_csv(&sorted_abs))?;
         out.write("summary.json", json.as_bytes())?;
     }
     if args.json {
@@ -79,8 +86,54 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     } else {
         print!("{}", crate::render::table::analyze(&summary));
         if let Some(dir) = &args.out {
-            println!("Wrote summary.json, trades.{}, releases.csv to {}", if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" }, dir.display());
+            println!("Wrote summary.json, trades.{}, releases.csv, tail.csv to {}", if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" }, dir.display());
         }
     }
     Ok(std::process::ExitCode::SUCCESS)
+}
+
+/// Placebo test and bootstrap intervals, with progress bars.
+fn chance(
+    args: &AnalyzeArgs,
+    trades: &crate::trades::Trades,
+    releases: &[crate::calendar::Release],
+    currencies: &[crate::relevance::InstrumentCurrencies],
+    settings: &crate::analysis::AnalysisSettings,
+    exposure: &crate::exposure::Exposure,
+    initial_equity: Option<f64>,
+) -> (Option<crate::stats::PlaceboResult>, Option<crate::stats::BootstrapResult>) {
+    use crate::stats;
+    let flags: Vec<bool> = exposure.k.iter().map(|&k| k > 0).collect();
+    let c = &args.chance;
+    let placebo = (c.placebo > 0).then(|| {
+        let pb = common::progress_bar(&args.terminal, c.placebo as u64, "placebo");
+        let windows = crate::exposure::used_windows(releases, &settings.windows);
+        let cur: Vec<Vec<String>> = currencies.iter().map(|x| x.currencies.clone()).collect();
+        let r = stats::placebo(
+            trades,
+            releases,
+            &windows,
+            &cur,
+            settings.exposure_rule,
+            &flags,
+            stats::PlaceboSettings { n: c.placebo, seed: c.seed },
+            &|| pb.inc(1),
+        );
+        pb.finish_and_clear();
+        r
+    });
+    let bootstrap = (c.bootstrap > 0).then(|| {
+        let pb = common::progress_bar(&args.terminal, c.bootstrap as u64, "bootstrap");
+        let ctx = crate::metrics::Context {
+            span: trades.span().expect("analysis checked trades exist"),
+            report_zone: settings.report_tz,
+            initial_equity,
+            tcr_p: settings.tcr_p,
+        };
+        let sets = stats::resample_indices(trades.len(), c.bootstrap, c.seed);
+        let intervals = stats::bootstrap_with(&sets, trades, &flags, &settings.scenario, &ctx, 0.95, &|| pb.inc(1));
+        pb.finish_and_clear();
+        stats::BootstrapResult { resamples: c.bootstrap, seed: c.seed, confidence: 0.95, method: stats::BOOTSTRAP_METHOD, intervals }
+    });
+    (placebo, bootstrap)
 }

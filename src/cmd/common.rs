@@ -235,6 +235,11 @@ pub struct ScenarioArgs {
     /// Percentage p of the tail concentration ratio.
     #[arg(long, value_name = "PERCENT", default_value_t = 1.0)]
     pub tcr_p: f64,
+    /// Tail concentration above which the report says the result leans on a
+    /// handful of trades (default 12 at 1 %: common practice, no published
+    /// source).
+    #[arg(long, value_name = "RATIO", default_value_t = 12.0)]
+    pub tcr_threshold: f64,
 }
 
 impl ScenarioArgs {
@@ -257,6 +262,46 @@ impl ScenarioArgs {
             },
             report_tz: zone_flag("report-tz", &self.report_tz)?,
             tcr_p: self.tcr_p,
+            tcr_threshold: self.tcr_threshold,
         })
     }
+}
+
+/// Placebo and bootstrap settings.
+#[derive(Debug, Clone, Args)]
+pub struct ChanceArgs {
+    /// Placebo calendars for the p-value (0 turns the test off).
+    #[arg(long, value_name = "N", default_value_t = 999)]
+    pub placebo: usize,
+    /// Bootstrap resamples for the intervals (0 turns them off).
+    #[arg(long, value_name = "N", default_value_t = 2000)]
+    pub bootstrap: usize,
+    /// Seed of the placebo shifts and bootstrap resamples.
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+}
+
+/// Terminal behaviour.
+#[derive(Debug, Clone, Args, Default)]
+pub struct TerminalArgs {
+    /// No progress bars.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// A progress bar on stderr when it is a terminal and --quiet is not given;
+/// hidden otherwise.
+pub fn progress_bar(t: &TerminalArgs, len: u64, what: &str) -> indicatif::ProgressBar {
+    use std::io::IsTerminal;
+    if t.quiet || !std::io::stderr().is_terminal() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let pb = indicatif::ProgressBar::new(len);
+    pb.set_style(
+        indicatif::ProgressStyle::with_template("{msg:>12} [{bar:30}] {pos}/{len} {eta}")
+            .expect("static template")
+            .progress_chars("=> "),
+    );
+    pb.set_message(what.to_string());
+    pb
 }

@@ -134,3 +134,12 @@ pub fn releases_csv(lines: &[ReleaseLine]) -> Vec<u8> {
     }
     s.into_bytes()
 }
+
+/// tail.csv: baseline |P/L| sorted descending, with the exposed flag.
+pub fn tail_csv(sorted: &[(f64, bool)]) -> Vec<u8> {
+    let mut s = String::from("rank,abs_pnl,exposed\n");
+    for (i, (v, e)) in sorted.iter().enumerate() {
+        let _ = writeln!(s, "{},{},{}", i + 1, v, e);
+    }
+    s.into_bytes()
+}

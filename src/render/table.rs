@@ -154,7 +154,7 @@ pub fn headline_sentence(s: &Summary) -> String {
     let b = &s.scenarios.baseline;
     let r = &s.scenarios.removed;
     format!(
-        "{} of {} trades ({}) were exposed to {} of {} used releases and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}.",
+        "{} of {} trades ({}) were exposed to {} of {} used releases and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}{}.",
         s.exposure.exposed_trades,
         s.exposure.trades,
         pct(h.share_of_count),
@@ -165,7 +165,8 @@ pub fn headline_sentence(s: &Summary) -> String {
         h.net,
         fmt_opt(b.profit_factor, 2),
         fmt_opt(r.profit_factor, 2),
-        r.net
+        r.net,
+        s.placebo.as_ref().map_or(String::new(), |p| format!("; placebo p = {}", fmt_opt(p.p_share, 3)))
     )
 }
 
@@ -210,7 +211,47 @@ pub fn analyze(s: &Summary) -> String {
         t.add_row(vec![Cell::new(label), num(f(b)), num(f(r)), num(d(b, r)), num(f(c)), num(d(b, c))]);
     }
     let _ = writeln!(out, "{t}");
-    let _ = writeln!(out, "Tail concentration: mean of the top {} % |P/L| over mean |P/L| (SPEC §6).\n", s.settings.tcr_p);
+    let tail = &s.tail;
+    let _ = writeln!(
+        out,
+        "Tail concentration: mean of the top {} % |P/L| over mean |P/L|; threshold {} — {}.",
+        tail.p, tail.threshold, tail.threshold_source
+    );
+    for (name, l) in [("baseline", &tail.baseline), ("removed", &tail.removed), ("capped", &tail.capped)] {
+        let _ = writeln!(
+            out,
+            "  {name:<8} TCR {} ({}){}; Hill tail index {}",
+            fmt_opt(l.tcr, 2),
+            match l.above_threshold {
+                Some(true) => "above threshold: leans on a handful of trades",
+                Some(false) => "at or below threshold",
+                None => "undefined",
+            },
+            if l.too_few { format!(", top bucket of {} trade(s) is too few to judge", l.top_bucket) } else { String::new() },
+            l.hill.map_or("—".to_string(), |h| format!("{:.2} (k = {} of {})", h.alpha, h.k, h.n)),
+        );
+    }
+    if let Some(p) = &s.placebo {
+        let _ = writeln!(
+            out,
+            "\nPlacebo calendars ({}, seed {}): exposed share of net {} → p = {}; mean exposed − mean unexposed {} → p = {}.",
+            p.placebos,
+            p.seed,
+            pct(p.observed_share),
+            fmt_opt(p.p_share, 4),
+            fmt_opt(p.observed_mean_diff, 2),
+            fmt_opt(p.p_mean_diff, 4)
+        );
+    }
+    if let Some(b) = &s.bootstrap {
+        let _ = writeln!(out, "\nBootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline", b.resamples, b.seed, b.confidence * 100.0);
+        let mut t = new_table(&["figure", "change", "low", "high"]);
+        for (name, i) in &b.intervals {
+            t.add_row(vec![Cell::new(name.replace('_', " ")), num(fmt_opt(i.observed, 3)), num(fmt_opt(i.low, 3)), num(fmt_opt(i.high, 3))]);
+        }
+        let _ = writeln!(out, "{t}");
+    }
+    let _ = writeln!(out);
 
     let mut top: Vec<&crate::attribution::ReleaseLine> = s.attribution.by_release.iter().filter(|r| r.trades_touched > 0).collect();
     top.sort_by(|a, b| b.attributed_pnl.abs().total_cmp(&a.attributed_pnl.abs()));
