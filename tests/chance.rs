@@ -1,0 +1,128 @@
+//! Placebo calendars and bootstrap intervals (SPEC §7).
+//!
+//! - Bootstrap percentiles against numpy (tests/reference/
+//!   make_bootstrap_fixture.py, numpy 2.4.6) on the same resample indices.
+//! - Placebo p-values are roughly uniform when exposure carries no effect,
+//!   and small when an effect is planted.
+
+use eventfence::calendar::{Release, Tier};
+use eventfence::exposure::{Engine, ExposureRule, used_windows};
+use eventfence::metrics::Context;
+use eventfence::scenarios::{CapRule, ScenarioSettings, Sizing};
+use eventfence::stats::{self, PlaceboSettings};
+use eventfence::trades::Trades;
+use eventfence::windows::WindowSettings;
+use eventfence::zones::{DAY_MS, MINUTE_MS, Zone};
+use rand::{RngExt, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+
+fn trades_from(opened: Vec<i64>, closed: Vec<i64>, pnl: Vec<f64>) -> Trades {
+    let n = pnl.len();
+    Trades {
+        opened,
+        closed,
+        instrument: vec![0; n],
+        instruments: vec!["EURUSD".into()],
+        pnl,
+        run: vec![0; n],
+        file: vec![0; n],
+        row: (1..=n as u32).collect(),
+        ..Default::default()
+    }
+}
+
+#[test]
+fn bootstrap_percentiles_match_numpy() {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/bootstrap_reference.json");
+    let f: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    assert_eq!(f["libraries"]["numpy"], "2.4.6");
+    let v = |k: &str| f[k].as_array().unwrap().clone();
+    let opened: Vec<i64> = v("opened_min").iter().map(|x| x.as_i64().unwrap() * MINUTE_MS).collect();
+    let closed: Vec<i64> = v("closed_min").iter().map(|x| x.as_i64().unwrap() * MINUTE_MS).collect();
+    let pnl: Vec<f64> = v("pnl").iter().map(|x| x.as_f64().unwrap()).collect();
+    let exposed: Vec<bool> = v("exposed").iter().map(|x| x.as_bool().unwrap()).collect();
+    let sets: Vec<Vec<u32>> = v("sets").iter().map(|s| s.as_array().unwrap().iter().map(|i| i.as_u64().unwrap() as u32).collect()).collect();
+    let t = trades_from(opened, closed, pnl);
+    let settings = ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::Quantile(0.99), initial_equity: None };
+    let ctx = Context { span: t.span().unwrap(), report_zone: Zone::Utc, initial_equity: None, tcr_p: f["tcr_p"].as_f64().unwrap() };
+    let got = stats::bootstrap_with(&sets, &t, &exposed, &settings, &ctx, 0.95, &|| {});
+    for name in ["net", "profit_factor", "max_drawdown", "tcr"] {
+        let want = &f["percentiles"][name];
+        let g = &got[name];
+        assert_eq!(g.replicates as u64, want["replicates"].as_u64().unwrap(), "{name}");
+        for (side, value) in [("low", g.low.unwrap()), ("high", g.high.unwrap())] {
+            let w = want[side].as_f64().unwrap();
+            assert!((value - w).abs() <= 1e-9 * w.abs().max(1.0), "{name} {side}: {value} vs numpy {w}");
+        }
+    }
+}
+
+/// One synthetic year: 400 trades on EURUSD, 150 high-tier USD releases at
+/// 12:30 UTC on random weekdays, each its own series. `effect` is added to
+/// the P/L of trades exposed to the real calendar.
+fn synthetic(seed: u64, effect: f64) -> (Trades, Vec<Release>) {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let monday = 1_704_067_200_000i64; // 2024-01-01T00:00Z, a Monday
+    let weekday = |w: i64| monday + (w / 5 * 7 + w % 5) * DAY_MS;
+    let releases: Vec<Release> = (0..150)
+        .map(|i| {
+            let at = weekday(rng.random_range(0..250)) + 12 * 3_600_000 + 30 * MINUTE_MS;
+            Release {
+                id: format!("r{i}"),
+                at,
+                end: at,
+                all_day: false,
+                title: format!("series {i}"),
+                currency: "USD".into(),
+                tier: Tier::High,
+                category: None,
+                region: None,
+            }
+        })
+        .collect();
+    let n = 400;
+    let opened: Vec<i64> = (0..n).map(|_| weekday(rng.random_range(0..250)) + rng.random_range(6 * 60..20 * 60) * MINUTE_MS).collect();
+    let closed: Vec<i64> = opened.iter().map(|o| o + rng.random_range(0..120) * MINUTE_MS).collect();
+    let mut pnl: Vec<f64> = (0..n)
+        .map(|_| {
+            let u1: f64 = rng.random::<f64>().max(1e-12);
+            let u2: f64 = rng.random();
+            10.0 * (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos() + 1.0
+        })
+        .collect();
+    let t = trades_from(opened.clone(), closed.clone(), pnl.clone());
+    let exp = Engine::new(&releases, &WindowSettings::default(), ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &[vec!["EUR".into(), "USD".into()]]);
+    for (i, p) in pnl.iter_mut().enumerate() {
+        if exp.k[i] > 0 {
+            *p += effect;
+        }
+    }
+    (trades_from(opened, closed, pnl), releases)
+}
+
+fn placebo_p(seed: u64, effect: f64, n: usize) -> f64 {
+    let (t, rel) = synthetic(seed, effect);
+    let w = WindowSettings::default();
+    let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
+    let exp = Engine::new(&rel, &w, ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &cur);
+    let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
+    let r = stats::placebo(&t, &rel, &used_windows(&rel, &w), &cur, ExposureRule::Overlap, &flags, PlaceboSettings { n, seed: seed + 1000 }, &|| {});
+    r.p_share.expect("defined")
+}
+
+#[test]
+fn placebo_p_values_are_roughly_uniform_without_an_effect() {
+    let ps: Vec<f64> = (0..200).map(|s| placebo_p(s, 0.0, 99)).collect();
+    let below = ps.iter().filter(|&&p| p <= 0.05).count() as f64 / ps.len() as f64;
+    assert!((0.02..=0.10).contains(&below), "share of p ≤ 0.05 = {below}");
+    let below_half = ps.iter().filter(|&&p| p <= 0.5).count() as f64 / ps.len() as f64;
+    assert!((0.4..=0.6).contains(&below_half), "share of p ≤ 0.5 = {below_half}");
+}
+
+#[test]
+fn placebo_finds_a_planted_release_effect() {
+    for seed in [1, 2, 3] {
+        let p = placebo_p(seed, 30.0, 299);
+        assert!(p < 0.01, "seed {seed}: p = {p}");
+    }
+}
