@@ -16,6 +16,7 @@ pub mod metrics;
 pub mod output;
 pub mod relevance;
 pub mod render;
+pub mod rank;
 pub mod report;
 pub mod scenarios;
 pub mod stats;

@@ -17,6 +17,7 @@ struct Cli {
 enum Command {
     Analyze(Box<cmd::analyze::AnalyzeArgs>),
     Check(Box<cmd::check::CheckArgs>),
+    Rank(Box<cmd::rank::RankArgs>),
 }
 
 fn main() -> ExitCode {
@@ -24,6 +25,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Analyze(a) => cmd::analyze::run(*a),
         Command::Check(a) => cmd::check::run(*a),
+        Command::Rank(a) => cmd::rank::run(*a),
     };
     match result {
         Ok(code) => code,

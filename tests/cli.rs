@@ -149,3 +149,31 @@ fn out_folder_never_overwrites_an_input() {
     assert!(stderr(&o).contains("refusing to write"), "{}", stderr(&o));
     assert!(std::fs::read_to_string(dir.path().join("trades.csv")).unwrap().contains("EURUSD,10"));
 }
+
+#[test]
+fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
+    let mut args = demo_args();
+    args[0] = "rank".into();
+    let mut json_args = args.clone();
+    json_args.push("--json".into());
+    let o = bin().args(&json_args).output().unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let runs = j["runs"].as_array().unwrap();
+    assert_eq!(runs.len(), 50);
+    let max_shift = runs.iter().map(|r| r["rank_shift"].as_i64().unwrap().abs()).max().unwrap();
+    assert!(max_shift >= 10, "largest rank shift {max_shift}");
+    // Ranks are a permutation of 1..=50 in both scenarios.
+    for key in ["rank_baseline", "rank_removed"] {
+        let mut r: Vec<i64> = runs.iter().map(|x| x[key].as_i64().unwrap()).collect();
+        r.sort();
+        assert_eq!(r, (1..=50).collect::<Vec<_>>());
+    }
+    let dir = tempfile::tempdir().unwrap();
+    args.extend(["--out".to_string(), dir.path().display().to_string()]);
+    let o = bin().args(&args).output().unwrap();
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.lines().all(|l| l.chars().count() <= 80), "table wider than 80 columns:\n{text}");
+    let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
+    assert_eq!(csv.lines().count(), 51);
+}

@@ -3,3 +3,4 @@
 pub mod analyze;
 pub mod check;
 pub mod common;
+pub mod rank;

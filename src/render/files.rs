@@ -143,3 +143,100 @@ pub fn tail_csv(sorted: &[(f64, bool)]) -> Vec<u8> {
     }
     s.into_bytes()
 }
+
+pub const RUN_COLUMNS: &[&str] = &[
+    "run",
+    "trades",
+    "exposed_trades",
+    "exposed_pnl",
+    "exposed_share",
+    "net_baseline",
+    "net_removed",
+    "profit_factor_baseline",
+    "profit_factor_removed",
+    "sharpe_baseline",
+    "sharpe_removed",
+    "max_drawdown_baseline",
+    "max_drawdown_removed",
+    "tcr_baseline",
+    "tcr_removed",
+    "by_baseline",
+    "by_removed",
+    "rank_baseline",
+    "rank_removed",
+    "rank_shift",
+    "placebo_p",
+];
+
+fn opt(v: Option<f64>) -> String {
+    v.filter(|x| x.is_finite()).map(|x| x.to_string()).unwrap_or_default()
+}
+
+/// runs.csv: one row per run, columns as `RUN_COLUMNS`.
+pub fn runs_csv(rows: &[crate::rank::RunRow]) -> Vec<u8> {
+    let mut s = RUN_COLUMNS.join(",");
+    s.push('\n');
+    for r in rows {
+        let _ = writeln!(
+            s,
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+            csv_field(&r.run),
+            r.trades,
+            r.exposed_trades,
+            r.exposed_pnl,
+            opt(r.exposed_share),
+            r.net_baseline,
+            r.net_removed,
+            opt(r.profit_factor_baseline),
+            opt(r.profit_factor_removed),
+            opt(r.sharpe_baseline),
+            opt(r.sharpe_removed),
+            r.max_drawdown_baseline,
+            r.max_drawdown_removed,
+            opt(r.tcr_baseline),
+            opt(r.tcr_removed),
+            opt(r.by_baseline),
+            opt(r.by_removed),
+            r.rank_baseline,
+            r.rank_removed,
+            r.rank_shift,
+            opt(r.placebo_p)
+        );
+    }
+    s.into_bytes()
+}
+
+/// runs.parquet: the same columns.
+pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
+    use polars::prelude::*;
+    let f = |g: fn(&crate::rank::RunRow) -> Option<f64>| rows.iter().map(g).collect::<Vec<_>>();
+    let mut df = DataFrame::new(
+        rows.len(),
+        vec![
+            Column::new("run".into(), rows.iter().map(|r| r.run.as_str()).collect::<Vec<_>>()),
+            Column::new("trades".into(), rows.iter().map(|r| r.trades as u64).collect::<Vec<_>>()),
+            Column::new("exposed_trades".into(), rows.iter().map(|r| r.exposed_trades as u64).collect::<Vec<_>>()),
+            Column::new("exposed_pnl".into(), f(|r| Some(r.exposed_pnl))),
+            Column::new("exposed_share".into(), f(|r| r.exposed_share)),
+            Column::new("net_baseline".into(), f(|r| Some(r.net_baseline))),
+            Column::new("net_removed".into(), f(|r| Some(r.net_removed))),
+            Column::new("profit_factor_baseline".into(), f(|r| r.profit_factor_baseline)),
+            Column::new("profit_factor_removed".into(), f(|r| r.profit_factor_removed)),
+            Column::new("sharpe_baseline".into(), f(|r| r.sharpe_baseline)),
+            Column::new("sharpe_removed".into(), f(|r| r.sharpe_removed)),
+            Column::new("max_drawdown_baseline".into(), f(|r| Some(r.max_drawdown_baseline))),
+            Column::new("max_drawdown_removed".into(), f(|r| Some(r.max_drawdown_removed))),
+            Column::new("tcr_baseline".into(), f(|r| r.tcr_baseline)),
+            Column::new("tcr_removed".into(), f(|r| r.tcr_removed)),
+            Column::new("by_baseline".into(), f(|r| r.by_baseline)),
+            Column::new("by_removed".into(), f(|r| r.by_removed)),
+            Column::new("rank_baseline".into(), rows.iter().map(|r| r.rank_baseline as u64).collect::<Vec<_>>()),
+            Column::new("rank_removed".into(), rows.iter().map(|r| r.rank_removed as u64).collect::<Vec<_>>()),
+            Column::new("rank_shift".into(), rows.iter().map(|r| r.rank_shift).collect::<Vec<_>>()),
+            Column::new("placebo_p".into(), f(|r| r.placebo_p)),
+        ],
+    )?;
+    let mut buf = Vec::new();
+    ParquetWriter::new(&mut buf).finish(&mut df)?;
+    Ok(buf)
+}

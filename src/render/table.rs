@@ -301,3 +301,58 @@ pub fn analyze(s: &Summary) -> String {
     let _ = writeln!(out, "{}", s.caution);
     out
 }
+
+/// The rank table, narrow enough for 80 columns.
+pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
+    let mut out = String::new();
+    let by = serde_json::to_value(r.by).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default();
+    let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
+    let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
+    let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.\n");
+    let with_p = r.runs.iter().any(|x| x.placebo_p.is_some());
+    let mut header = vec!["run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift"];
+    if with_p {
+        header.push("p");
+    }
+    let mut t = new_table(&header);
+    t.set_width(80);
+    for x in &r.runs {
+        let mut row = vec![
+            Cell::new(&x.run),
+            num(x.trades),
+            num(format!("{:.1}", 100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64)),
+            num(fmt_opt(x.by_baseline, 2)),
+            num(fmt_opt(x.by_removed, 2)),
+            num(fmt_opt(x.tcr_baseline, 1)),
+            num(fmt_opt(x.tcr_removed, 1)),
+            num(x.rank_baseline),
+            num(x.rank_removed),
+            num(format!("{:+}", x.rank_shift)),
+        ];
+        if with_p {
+            row.push(num(fmt_opt(x.placebo_p, 3)));
+        }
+        t.add_row(row);
+    }
+    let _ = writeln!(out, "{t}");
+    let _ = writeln!(out, "{}", wrap(r.caution, 78));
+    out
+}
+
+/// Wraps text at spaces to lines of at most `width` characters.
+pub fn wrap(text: &str, width: usize) -> String {
+    let mut out = String::new();
+    let mut line = 0;
+    for word in text.split_whitespace() {
+        if line > 0 && line + 1 + word.chars().count() > width {
+            out.push('\n');
+            line = 0;
+        } else if line > 0 {
+            out.push(' ');
+            line += 1;
+        }
+        out.push_str(word);
+        line += word.chars().count();
+    }
+    out
+}

@@ -1,0 +1,129 @@
+//! `eventfence rank`: many parameter sets side by side — which stay on top
+//! once the release-exposed trades are removed.
+
+use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
+use crate::output::OutDir;
+use crate::rank::{self, RankBy, RunRow};
+use crate::report::{CAUTION, ToolInfo};
+use anyhow::{Result, bail};
+use clap::Args;
+use serde::Serialize;
+use std::path::PathBuf;
+
+/// Rank parameter sets (a run column, or one file per run) before and after
+/// removing release-exposed trades.
+///
+/// Example (the bundled demo's 50 runs):
+///   eventfence rank --trades demo/trades.csv --trades-tz America/New_York+07:00 \
+///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
+///     --calendar-tz Europe/Berlin --instrument-map US500=USD --by sharpe --top 20
+#[derive(Debug, Args)]
+pub struct RankArgs {
+    #[command(flatten)]
+    pub trades: TradeArgs,
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+    #[command(flatten)]
+    pub windows: WindowArgs,
+    #[command(flatten)]
+    pub scenario: ScenarioArgs,
+    #[command(flatten)]
+    pub terminal: TerminalArgs,
+    /// Figure to rank by.
+    #[arg(long, value_enum, default_value_t = RankBy::Sharpe)]
+    pub by: RankBy,
+    /// Order of the table.
+    #[arg(long, value_enum, default_value_t = SortBy::RankRemoved)]
+    pub sort: SortBy,
+    /// Show only the first N rows (after sorting).
+    #[arg(long, value_name = "N")]
+    pub top: Option<usize>,
+    /// Leave out runs with fewer trades.
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub min_trades: usize,
+    /// Placebo calendars per run for a p-value (0 = off; costs N exposure passes per run).
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    pub placebo: usize,
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+    /// Print JSON instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Write runs.csv (or runs.parquet) here.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Format of the runs file in --out.
+    #[arg(long, value_enum, default_value_t = super::analyze::TradesFormat::Csv)]
+    pub runs_format: super::analyze::TradesFormat,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum SortBy {
+    RankRemoved,
+    RankBaseline,
+    /// Largest moves first (by absolute shift).
+    Shift,
+    Run,
+}
+
+#[derive(Debug, Serialize)]
+pub struct RankReport {
+    pub tool: ToolInfo,
+    pub by: RankBy,
+    pub settings: crate::analysis::AnalysisSettings,
+    pub runs_total: usize,
+    pub runs: Vec<RunRow>,
+    pub caution: &'static str,
+}
+
+pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
+    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
+        bail!("rank needs --trades and --calendar");
+    }
+    let settings = args.scenario.settings(&args.windows)?;
+    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
+    let (trades, summary) = common::load_trades(&args.trades, &trade_opts)?;
+    if !trades.has_runs() {
+        bail!("the trades have no runs: map a run column (--map run=<column>) or give one file per run");
+    }
+    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
+    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
+    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
+    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let windows = crate::exposure::used_windows(&cal.releases, &settings.windows);
+    let pb = common::progress_bar(&args.terminal, trades.runs.len() as u64, "runs");
+    let placebo = crate::stats::PlaceboSettings { n: args.placebo, seed: args.seed };
+    let mut rows = rank::rank(&trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
+    pb.finish_and_clear();
+    let total = rows.len();
+    rows.retain(|r| r.trades >= args.min_trades);
+    match args.sort {
+        SortBy::RankRemoved => rows.sort_by_key(|r| r.rank_removed),
+        SortBy::RankBaseline => rows.sort_by_key(|r| r.rank_baseline),
+        SortBy::Shift => rows.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed)),
+        SortBy::Run => rows.sort_by(|a, b| a.run.cmp(&b.run)),
+    }
+    if let Some(dir) = &args.out {
+        let mut inputs: Vec<PathBuf> = summary.files.iter().map(PathBuf::from).collect();
+        inputs.extend(args.calendar.calendar.iter().cloned());
+        let out = OutDir::new(dir, &inputs)?;
+        match args.runs_format {
+            super::analyze::TradesFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
+            super::analyze::TradesFormat::Parquet => out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?,
+        };
+    }
+    if let Some(n) = args.top {
+        rows.truncate(n);
+    }
+    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, runs: rows, caution: CAUTION };
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        print!("{}", crate::render::table::rank(&report));
+    }
+    Ok(std::process::ExitCode::SUCCESS)
+}

@@ -1,0 +1,239 @@
+//! Which parameter sets stay on top without the release trades: one row per
+//! run with baseline and removed figures, exposure, tail concentration, an
+//! optional placebo p-value, and the rank shift baseline → removed.
+//!
+//! Runs are processed one at a time (in parallel): a run's exposure
+//! annotations live only while its row is computed, so memory does not grow
+//! with runs × trades beyond the input itself.
+
+use crate::analysis::AnalysisSettings;
+use crate::calendar::Release;
+use crate::exposure::{Engine, UsedWindow};
+use crate::metrics::{self, Context, Curve, Metrics};
+use crate::scenarios::{self, TradeView};
+use crate::stats::{self, PlaceboSettings};
+use crate::trades::Trades;
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// The figure runs are ranked by (higher is better; max drawdown: lower).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RankBy {
+    Net,
+    ProfitFactor,
+    Sharpe,
+    Sortino,
+    ReturnToDrawdown,
+    Expectancy,
+    TStat,
+    MaxDrawdown,
+}
+
+impl RankBy {
+    pub fn value(self, m: &Metrics) -> Option<f64> {
+        match self {
+            RankBy::Net => Some(m.net),
+            RankBy::ProfitFactor => m.profit_factor,
+            RankBy::Sharpe => m.sharpe,
+            RankBy::Sortino => m.sortino,
+            RankBy::ReturnToDrawdown => m.return_to_drawdown,
+            RankBy::Expectancy => m.expectancy,
+            RankBy::TStat => m.t_stat,
+            RankBy::MaxDrawdown => Some(m.max_drawdown),
+        }
+    }
+    fn higher_is_better(self) -> bool {
+        self != RankBy::MaxDrawdown
+    }
+}
+
+/// One parameter set.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunRow {
+    pub run: String,
+    pub trades: usize,
+    pub exposed_trades: usize,
+    pub exposed_pnl: f64,
+    /// exposed P/L ÷ net.
+    pub exposed_share: Option<f64>,
+    pub net_baseline: f64,
+    pub net_removed: f64,
+    pub profit_factor_baseline: Option<f64>,
+    pub profit_factor_removed: Option<f64>,
+    pub sharpe_baseline: Option<f64>,
+    pub sharpe_removed: Option<f64>,
+    pub max_drawdown_baseline: f64,
+    pub max_drawdown_removed: f64,
+    pub tcr_baseline: Option<f64>,
+    pub tcr_removed: Option<f64>,
+    /// The ranking figure in each scenario.
+    pub by_baseline: Option<f64>,
+    pub by_removed: Option<f64>,
+    /// 1 = best; runs whose figure is undefined rank last.
+    pub rank_baseline: usize,
+    pub rank_removed: usize,
+    /// rank_baseline − rank_removed: positive means the run moved up.
+    pub rank_shift: i64,
+    /// Placebo p-value of the exposed share (when asked for).
+    pub placebo_p: Option<f64>,
+}
+
+/// Computes one row per run (in run order), then ranks them.
+pub fn rank(
+    trades: &Trades,
+    releases: &[Release],
+    windows: &[UsedWindow],
+    currencies: &[Vec<String>],
+    settings: &AnalysisSettings,
+    by: RankBy,
+    placebo: PlaceboSettings,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<RunRow>, scenarios::ScenarioError> {
+    let engine = Engine::from_windows(windows, settings.exposure_rule, releases.len());
+    let n_runs = trades.runs.len().max(1);
+    let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); n_runs];
+    for i in 0..trades.len() {
+        by_run[trades.run[i] as usize].push(i as u32);
+    }
+    let mut rows = by_run
+        .par_iter()
+        .enumerate()
+        .map(|(r, idx)| {
+            let row = run_row(trades, idx, r, &engine, releases, windows, currencies, settings, by, placebo);
+            progress();
+            row
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    assign_ranks(&mut rows, by);
+    Ok(rows)
+}
+
+/// The trades of one run as their own table (so nothing per-trade is kept
+/// for other runs).
+fn subset(t: &Trades, idx: &[u32]) -> Trades {
+    let pick_f = |v: &Option<Vec<f64>>| v.as_ref().map(|v| idx.iter().map(|&i| v[i as usize]).collect());
+    Trades {
+        opened: idx.iter().map(|&i| t.opened[i as usize]).collect(),
+        closed: idx.iter().map(|&i| t.closed[i as usize]).collect(),
+        instrument: idx.iter().map(|&i| t.instrument[i as usize]).collect(),
+        instruments: Vec::new(),
+        pnl: idx.iter().map(|&i| t.pnl[i as usize]).collect(),
+        run: vec![0; idx.len()],
+        runs: Vec::new(),
+        side: None,
+        size: None,
+        entry_price: None,
+        exit_price: None,
+        fees: None,
+        equity_before: pick_f(&t.equity_before),
+        pnl_pct: pick_f(&t.pnl_pct),
+        file: vec![0; idx.len()],
+        row: vec![0; idx.len()],
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn run_row(
+    all: &Trades,
+    idx: &[u32],
+    r: usize,
+    engine: &Engine,
+    releases: &[Release],
+    windows: &[UsedWindow],
+    currencies: &[Vec<String>],
+    settings: &AnalysisSettings,
+    by: RankBy,
+    placebo: PlaceboSettings,
+) -> Result<RunRow, scenarios::ScenarioError> {
+    let t = subset(all, idx);
+    let exp = engine.run(&t.opened, &t.closed, &t.instrument, currencies);
+    let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
+    drop(exp);
+    let mut order: Vec<u32> = (0..t.len() as u32).collect();
+    scenarios::close_order(&mut order, &t.opened, &t.closed);
+    let is_exposed = |i: usize| flags[i];
+    let view = TradeView {
+        order: &order,
+        pnl: &t.pnl,
+        opened: &t.opened,
+        closed: &t.closed,
+        exposed: &is_exposed,
+        equity_before: t.equity_before.as_deref(),
+        pnl_pct: t.pnl_pct.as_deref(),
+    };
+    let sc = scenarios::build(&view, &settings.scenario)?;
+    let span = t.span().unwrap_or((0, 0));
+    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
+    let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, &ctx);
+    let (b, rm) = (m(&sc.baseline), m(&sc.removed));
+    let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
+    let placebo_p = (placebo.n > 0).then(|| {
+        stats::placebo(&t, releases, windows, currencies, settings.exposure_rule, &flags, PlaceboSettings { seed: placebo.seed.wrapping_add(r as u64), ..placebo }, &|| {}).p_share
+    });
+    Ok(RunRow {
+        run: all.runs.get(r).cloned().unwrap_or_else(|| "all".into()),
+        trades: t.len(),
+        exposed_trades: flags.iter().filter(|&&f| f).count(),
+        exposed_pnl,
+        exposed_share: (b.net != 0.0).then(|| exposed_pnl / b.net),
+        net_baseline: b.net,
+        net_removed: rm.net,
+        profit_factor_baseline: b.profit_factor,
+        profit_factor_removed: rm.profit_factor,
+        sharpe_baseline: b.sharpe,
+        sharpe_removed: rm.sharpe,
+        max_drawdown_baseline: b.max_drawdown,
+        max_drawdown_removed: rm.max_drawdown,
+        tcr_baseline: b.tcr,
+        tcr_removed: rm.tcr,
+        by_baseline: by.value(&b),
+        by_removed: by.value(&rm),
+        rank_baseline: 0,
+        rank_removed: 0,
+        rank_shift: 0,
+        placebo_p: placebo_p.flatten(),
+    })
+}
+
+/// Ranks 1..n by the figure (ties and undefined values by run order).
+fn ranks(values: &[Option<f64>], higher_is_better: bool) -> Vec<usize> {
+    let mut idx: Vec<usize> = (0..values.len()).collect();
+    idx.sort_by(|&a, &b| match (values[a], values[b]) {
+        (Some(x), Some(y)) => {
+            let o = if higher_is_better { y.total_cmp(&x) } else { x.total_cmp(&y) };
+            o.then(a.cmp(&b))
+        }
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => a.cmp(&b),
+    });
+    let mut out = vec![0; values.len()];
+    for (pos, &i) in idx.iter().enumerate() {
+        out[i] = pos + 1;
+    }
+    out
+}
+
+fn assign_ranks(rows: &mut [RunRow], by: RankBy) {
+    let b: Vec<Option<f64>> = rows.iter().map(|r| r.by_baseline).collect();
+    let r: Vec<Option<f64>> = rows.iter().map(|r| r.by_removed).collect();
+    let (rb, rr) = (ranks(&b, by.higher_is_better()), ranks(&r, by.higher_is_better()));
+    for (i, row) in rows.iter_mut().enumerate() {
+        row.rank_baseline = rb[i];
+        row.rank_removed = rr[i];
+        row.rank_shift = rb[i] as i64 - rr[i] as i64;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ranking_orders_and_puts_undefined_last() {
+        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], true), vec![3, 4, 1, 2]);
+        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], false), vec![1, 4, 3, 2]);
+        assert_eq!(ranks(&[Some(1.0), Some(1.0)], true), vec![1, 2]);
+    }
+}
