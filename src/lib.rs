@@ -19,6 +19,7 @@ pub mod render;
 pub mod rank;
 pub mod report;
 pub mod scenarios;
+pub mod schedule;
 pub mod stats;
 pub mod table;
 pub mod timefmt;

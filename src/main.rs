@@ -18,6 +18,7 @@ enum Command {
     Analyze(Box<cmd::analyze::AnalyzeArgs>),
     Check(Box<cmd::check::CheckArgs>),
     Rank(Box<cmd::rank::RankArgs>),
+    Schedule(Box<cmd::schedule::ScheduleArgs>),
 }
 
 fn main() -> ExitCode {
@@ -26,6 +27,7 @@ fn main() -> ExitCode {
         Command::Analyze(a) => cmd::analyze::run(*a),
         Command::Check(a) => cmd::check::run(*a),
         Command::Rank(a) => cmd::rank::run(*a),
+        Command::Schedule(a) => cmd::schedule::run(*a),
     };
     match result {
         Ok(code) => code,

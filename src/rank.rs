@@ -80,6 +80,7 @@ pub struct RunRow {
 }
 
 /// Computes one row per run (in run order), then ranks them.
+#[allow(clippy::too_many_arguments)]
 pub fn rank(
     trades: &Trades,
     releases: &[Release],

@@ -4,3 +4,4 @@ pub mod analyze;
 pub mod check;
 pub mod common;
 pub mod rank;
+pub mod schedule;

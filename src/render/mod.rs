@@ -2,4 +2,5 @@
 //! Parquet). No computation happens here; `crate::output` owns the paths.
 
 pub mod files;
+pub mod schedule;
 pub mod table;

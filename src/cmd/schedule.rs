@@ -1,0 +1,127 @@
+//! `eventfence schedule`: the blackout windows a live strategy should obey,
+//! as CSV, JSON, ICS, or a terminal view of the coming days.
+
+use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, WindowArgs};
+use crate::schedule::{self, ScheduleSettings};
+use crate::zones::{DAY_MS, naive_to_ms};
+use anyhow::{Context, Result, bail};
+use clap::Args;
+use std::path::PathBuf;
+
+/// Write the blackout windows for instruments over a date range.
+///
+/// Example: one month for EURUSD and an index mapped to USD, in the
+/// server clock's time, as ICS:
+///   eventfence schedule --calendar calendars/demo-usd.ics calendars/demo-eur.csv \
+///     --calendar-tz Europe/Berlin --instruments EURUSD,US500 --instrument-map US500=USD \
+///     --from 2024-03-01 --to 2024-03-31 --tz America/New_York+07:00 --format ics --output march.ics
+#[derive(Debug, Args)]
+pub struct ScheduleArgs {
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+    #[command(flatten)]
+    pub windows: WindowArgs,
+    /// Instruments to schedule (comma-separated).
+    #[arg(long = "instruments", value_name = "CODES", value_delimiter = ',')]
+    pub instruments_list: Vec<String>,
+    /// Or currencies directly (comma-separated); each becomes its own row.
+    #[arg(long, value_name = "CCYS", value_delimiter = ',')]
+    pub currencies: Vec<String>,
+    /// Zone the times are written in (any zone spec, shifted clocks included).
+    #[arg(long, value_name = "ZONE", default_value = "UTC")]
+    pub tz: String,
+    /// Merge windows separated by at most this many minutes.
+    #[arg(long, value_name = "MIN", default_value_t = 0)]
+    pub merge_gap: i64,
+    /// Flat rule: N minutes before to N minutes after every used release,
+    /// replacing the tier windows.
+    #[arg(long, value_name = "MIN")]
+    pub flat: Option<i64>,
+    /// Show the windows of the next DAYS days (from now) instead of --from/--to.
+    #[arg(long, value_name = "DAYS")]
+    pub next: Option<i64>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    pub format: Format,
+    /// Write to this file (atomically) instead of stdout.
+    #[arg(long, value_name = "FILE")]
+    pub output: Option<PathBuf>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum Format {
+    Table,
+    Csv,
+    Json,
+    Ics,
+}
+
+pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
+    if args.calendar.calendar.is_empty() {
+        bail!("schedule needs --calendar");
+    }
+    if args.instruments_list.is_empty() && args.currencies.is_empty() {
+        bail!("name --instruments or --currencies");
+    }
+    let zone = common::zone_flag("tz", &args.tz)?;
+    let now = chrono::Utc::now().timestamp_millis();
+    let range = if let Some(days) = args.next {
+        if !(1..=3660).contains(&days) {
+            bail!("--next {days}: give 1 to 3660 days");
+        }
+        args.calendar.from = Some(crate::zones::format_utc(now)[..10].to_string());
+        args.calendar.to = Some(crate::zones::format_utc(now + days * DAY_MS)[..10].to_string());
+        (now, now + days * DAY_MS)
+    } else {
+        let (Some(f), Some(t)) = (&args.calendar.from, &args.calendar.to) else {
+            bail!("give --from and --to (YYYY-MM-DD, UTC) or --next DAYS");
+        };
+        let day = |s: &str| -> Result<i64> {
+            let d = chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").with_context(|| format!("'{s}' is not YYYY-MM-DD"))?;
+            Ok(naive_to_ms(&d.and_time(chrono::NaiveTime::MIN)))
+        };
+        (day(f)?, day(t)? + DAY_MS)
+    };
+    let windows = args.windows.settings()?;
+    let cal_opts = common::calendar_options(&args.calendar, &args.rows, None, Some(range))?;
+    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
+    let mut pairs: Vec<(String, Vec<String>)> = Vec::new();
+    if !args.instruments_list.is_empty() {
+        let fake = crate::trades::Trades { instruments: args.instruments_list.clone(), ..Default::default() };
+        for c in common::instrument_currencies(&args.instruments, &fake, &common::calendar_currencies(&cal))? {
+            pairs.push((c.instrument, c.currencies));
+        }
+    }
+    for c in &args.currencies {
+        let c = c.trim().to_ascii_uppercase();
+        if !crate::calendar::is_currency(&c) {
+            bail!("--currencies: '{c}' is not an ISO 4217 code");
+        }
+        pairs.push((c.clone(), vec![c]));
+    }
+    let settings = ScheduleSettings { windows, merge_gap_min: args.merge_gap.max(0), flat_min: args.flat, range };
+    let list = schedule::build(&cal.releases, &pairs, &settings);
+    let bytes = match args.format {
+        Format::Table => crate::render::schedule::table(&list, &zone).into_bytes(),
+        Format::Csv => crate::render::schedule::csv(&list, &zone),
+        Format::Json => crate::render::schedule::json(&list, &zone).into_bytes(),
+        Format::Ics => crate::render::schedule::ics(&list, now),
+    };
+    match &args.output {
+        Some(path) => {
+            let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).map(PathBuf::from).unwrap_or_else(|| PathBuf::from("."));
+            let name = path.file_name().context("--output needs a file name")?.to_string_lossy().into_owned();
+            crate::output::OutDir::new(&dir, &args.calendar.calendar)?.write(&name, &bytes)?;
+            eprintln!("wrote {} window(s) to {}", list.len(), path.display());
+        }
+        None => {
+            use std::io::Write;
+            std::io::stdout().write_all(&bytes)?;
+        }
+    }
+    Ok(std::process::ExitCode::SUCCESS)
+}
