@@ -129,9 +129,9 @@ mod tests {
         s.merge_gap_min = 10;
         let w = build(&rs, &inst, &s);
         assert_eq!(w.iter().map(|b| (b.start / MINUTE_MS, b.end / MINUTE_MS)).collect::<Vec<_>>(), vec![(985, 1125), (1995, 2010)]);
-        // Touching windows merge even with no gap: [t−15, t+30] and a
-        // release whose window starts exactly at 1070.
-        let rs2 = vec![rel("a", 1000, "USD", Tier::High), rel("b", 1085, "USD", Tier::High)];
+        // Touching windows merge even with no gap: [985, 1030] and a
+        // release at 1045 whose window starts exactly at 1030.
+        let rs2 = vec![rel("a", 1000, "USD", Tier::High), rel("b", 1045, "USD", Tier::High)];
         s.merge_gap_min = 0;
         assert_eq!(build(&rs2, &inst, &s).len(), 1);
         s.flat_min = Some(5);
