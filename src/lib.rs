@@ -24,5 +24,6 @@ pub mod stats;
 pub mod table;
 pub mod timefmt;
 pub mod trades;
+pub mod tune;
 pub mod windows;
 pub mod zones;

@@ -19,6 +19,7 @@ enum Command {
     Check(Box<cmd::check::CheckArgs>),
     Rank(Box<cmd::rank::RankArgs>),
     Schedule(Box<cmd::schedule::ScheduleArgs>),
+    Tune(Box<cmd::tune::TuneArgs>),
 }
 
 fn main() -> ExitCode {
@@ -28,6 +29,7 @@ fn main() -> ExitCode {
         Command::Check(a) => cmd::check::run(*a),
         Command::Rank(a) => cmd::rank::run(*a),
         Command::Schedule(a) => cmd::schedule::run(*a),
+        Command::Tune(a) => cmd::tune::run(*a),
     };
     match result {
         Ok(code) => code,

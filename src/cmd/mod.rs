@@ -5,3 +5,4 @@ pub mod check;
 pub mod common;
 pub mod rank;
 pub mod schedule;
+pub mod tune;

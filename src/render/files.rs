@@ -240,3 +240,25 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
     ParquetWriter::new(&mut buf).finish(&mut df)?;
     Ok(buf)
 }
+
+/// grid.csv: one row per tune cell (heat-map data).
+pub fn grid_csv(cells: &[crate::tune::Cell]) -> Vec<u8> {
+    let mut s = String::from("pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,blocked_share,frontier\n");
+    for c in cells {
+        let _ = writeln!(
+            s,
+            "{},{},{},{},{},{},{},{},{},{}",
+            c.pre_min,
+            c.post_min,
+            c.trades_removed,
+            opt(c.share_of_net_removed),
+            opt(c.tcr_after),
+            opt(c.tcr_reduction),
+            opt(c.sharpe_after),
+            c.max_drawdown_after,
+            c.blocked_share,
+            c.frontier
+        );
+    }
+    s.into_bytes()
+}

@@ -356,3 +356,33 @@ pub fn wrap(text: &str, width: usize) -> String {
     }
     out
 }
+
+/// The tune grid as a table (one row per cell), frontier cells marked.
+pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
+    let mut out = String::new();
+    let res = &r.result;
+    let _ = writeln!(
+        out,
+        "{} × {} cells; baseline TCR {}; * = on the frontier (most tail reduction for least time blocked).\n",
+        res.pre.len(),
+        res.post.len(),
+        fmt_opt(res.tcr_baseline, 2)
+    );
+    let mut t = new_table(&["pre", "post", "removed", "% of net", "TCR after", "Sharpe after", "max DD after", "blocked", ""]);
+    for c in res.cells.iter().filter(|c| c.frontier || !frontier_only) {
+        t.add_row(vec![
+            num(c.pre_min),
+            num(c.post_min),
+            num(c.trades_removed),
+            num(pct(c.share_of_net_removed)),
+            num(fmt_opt(c.tcr_after, 2)),
+            num(fmt_opt(c.sharpe_after, 2)),
+            num(format!("{:.2}", c.max_drawdown_after)),
+            num(format!("{:.2} %", c.blocked_share * 100.0)),
+            Cell::new(if c.frontier { "*" } else { "" }),
+        ]);
+    }
+    let _ = writeln!(out, "{t}");
+    let _ = writeln!(out, "{}", wrap(r.caution, 78));
+    out
+}

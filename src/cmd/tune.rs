@@ -1,0 +1,100 @@
+//! `eventfence tune`: sweep pre/post window lengths and find the windows
+//! that remove the damage at least cost.
+
+use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
+use crate::calendar::Tier;
+use crate::output::OutDir;
+use crate::report::{CAUTION, ToolInfo};
+use anyhow::{Result, bail};
+use clap::Args;
+use serde::Serialize;
+use std::path::PathBuf;
+
+/// Sweep window lengths over a grid; mark the cost/benefit frontier.
+///
+/// Example:
+///   eventfence tune --trades demo/trades.csv --trades-tz America/New_York+07:00 \
+///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
+///     --calendar-tz Europe/Berlin --instrument-map US500=USD --pre 0..60/15 --post 0..120/30
+#[derive(Debug, Args)]
+pub struct TuneArgs {
+    #[command(flatten)]
+    pub trades: TradeArgs,
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+    #[command(flatten)]
+    pub windows: WindowArgs,
+    #[command(flatten)]
+    pub scenario: ScenarioArgs,
+    #[command(flatten)]
+    pub terminal: TerminalArgs,
+    /// Minutes before the release: START..END/STEP.
+    #[arg(long, value_name = "RANGE", default_value = "0..60/5")]
+    pub pre: String,
+    /// Minutes after the release: START..END/STEP.
+    #[arg(long, value_name = "RANGE", default_value = "0..180/15")]
+    pub post: String,
+    /// Vary only this tier's window (others keep theirs); default: every
+    /// tier that has a window.
+    #[arg(long, value_name = "TIER")]
+    pub tier: Option<String>,
+    /// Show only frontier cells in the table.
+    #[arg(long)]
+    pub frontier_only: bool,
+    /// Print JSON instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Write grid.csv and tune.json here.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+}
+
+#[derive(Serialize)]
+pub struct TuneReport {
+    pub tool: ToolInfo,
+    pub settings: crate::analysis::AnalysisSettings,
+    #[serde(flatten)]
+    pub result: crate::tune::TuneResult,
+    pub caution: &'static str,
+}
+
+pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
+    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
+        bail!("tune needs --trades and --calendar");
+    }
+    let pre = crate::tune::parse_range(&args.pre).map_err(|e| anyhow::anyhow!("--pre {e}"))?;
+    let post = crate::tune::parse_range(&args.post).map_err(|e| anyhow::anyhow!("--post {e}"))?;
+    let tier = match &args.tier {
+        None => None,
+        Some(t) => Some(Tier::parse(t).ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?),
+    };
+    let settings = args.scenario.settings(&args.windows)?;
+    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
+    let (trades, summary) = common::load_trades(&args.trades, &trade_opts)?;
+    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
+    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
+    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
+    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
+    let result = crate::tune::tune(&trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1));
+    pb.finish_and_clear();
+    let report = TuneReport { tool: ToolInfo::current(), settings, result, caution: CAUTION };
+    let json = serde_json::to_string_pretty(&report)?;
+    if let Some(dir) = &args.out {
+        let mut inputs: Vec<PathBuf> = summary.files.iter().map(PathBuf::from).collect();
+        inputs.extend(args.calendar.calendar.iter().cloned());
+        let out = OutDir::new(dir, &inputs)?;
+        out.write("grid.csv", &crate::render::files::grid_csv(&report.result.cells))?;
+        out.write("tune.json", json.as_bytes())?;
+    }
+    if args.json {
+        println!("{json}");
+    } else {
+        print!("{}", crate::render::table::tune(&report, args.frontier_only));
+    }
+    Ok(std::process::ExitCode::SUCCESS)
+}

@@ -1,0 +1,220 @@
+//! Window tuning: sweep pre/post window lengths over a grid and show, per
+//! cell, what removing the exposed trades costs and gains, marking the cells
+//! on the cost/benefit frontier (most tail reduction for least time
+//! blocked).
+//!
+//! The trades are read, sorted into close order and indexed once; a cell
+//! only moves the release windows and re-runs the exposure engine.
+
+use crate::analysis::AnalysisSettings;
+use crate::calendar::{Release, Tier};
+use crate::exposure::{Engine, used_windows};
+use crate::metrics::{self, Context, Curve};
+use crate::trades::Trades;
+use crate::windows::{Window, WindowSettings};
+use crate::zones::DAY_MS;
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// `START..END/STEP` minutes, END included.
+pub fn parse_range(s: &str) -> Result<Vec<i64>, String> {
+    let bad = || format!("'{s}' is not START..END/STEP minutes, e.g. 0..60/5");
+    let (range, step) = s.split_once('/').ok_or_else(bad)?;
+    let (a, b) = range.split_once("..").ok_or_else(bad)?;
+    let (a, b, step): (i64, i64, i64) = (a.trim().parse().map_err(|_| bad())?, b.trim().parse().map_err(|_| bad())?, step.trim().parse().map_err(|_| bad())?);
+    if a < 0 || b < a || step <= 0 || b > 7 * 24 * 60 {
+        return Err(bad());
+    }
+    let v: Vec<i64> = (a..=b).step_by(step as usize).collect();
+    if v.len() > 200 {
+        return Err(format!("'{s}' has {} steps; at most 200", v.len()));
+    }
+    Ok(v)
+}
+
+/// One grid cell.
+#[derive(Debug, Clone, Serialize)]
+pub struct Cell {
+    pub pre_min: i64,
+    pub post_min: i64,
+    /// Trades the windows remove (exposed trades).
+    pub trades_removed: usize,
+    /// Exposed P/L ÷ net P/L.
+    pub share_of_net_removed: Option<f64>,
+    pub tcr_after: Option<f64>,
+    /// Baseline TCR − TCR after removal.
+    pub tcr_reduction: Option<f64>,
+    pub sharpe_after: Option<f64>,
+    pub max_drawdown_after: f64,
+    /// Union of the windows (of the traded currencies) ÷ weekday time in
+    /// the trades' span.
+    pub blocked_share: f64,
+    /// No other cell blocks no more time and reduces the tail at least as
+    /// much, with one of the two strictly better.
+    pub frontier: bool,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct TuneResult {
+    /// `None`: every used tier gets the cell's window; else only this tier.
+    pub tier: Option<Tier>,
+    pub pre: Vec<i64>,
+    pub post: Vec<i64>,
+    pub tcr_baseline: Option<f64>,
+    pub cells: Vec<Cell>,
+}
+
+/// Window settings for one cell.
+pub fn cell_windows(base: &WindowSettings, tier: Option<Tier>, w: Window) -> WindowSettings {
+    let mut s = base.clone();
+    let set = |slot: &mut Option<Window>, t: Tier| {
+        if tier == Some(t) || (tier.is_none() && slot.is_some()) {
+            *slot = Some(w);
+        }
+    };
+    set(&mut s.high, Tier::High);
+    set(&mut s.medium, Tier::Medium);
+    set(&mut s.low, Tier::Low);
+    s
+}
+
+fn weekday_ms(span: (i64, i64)) -> i64 {
+    let (mut total, mut day) = (0, span.0.div_euclid(DAY_MS));
+    while day * DAY_MS < span.1 {
+        // 1970-01-01 was a Thursday: day % 7 of 2 and 3 are Sat/Sun.
+        if !matches!(day.rem_euclid(7), 2 | 3) {
+            total += (span.1.min((day + 1) * DAY_MS) - span.0.max(day * DAY_MS)).max(0);
+        }
+        day += 1;
+    }
+    total
+}
+
+fn union_within(mut iv: Vec<(i64, i64)>, span: (i64, i64)) -> i64 {
+    iv.sort_unstable();
+    let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
+    for (a, b) in iv {
+        let (a, b) = (a.max(span.0), b.min(span.1));
+        if b <= a {
+            continue;
+        }
+        cur = match cur {
+            Some((s, e)) if a <= e => Some((s, e.max(b))),
+            Some((s, e)) => {
+                total += e - s;
+                Some((a, b))
+            }
+            None => Some((a, b)),
+        };
+    }
+    total + cur.map_or(0, |(s, e)| e - s)
+}
+
+/// Sweeps the grid.
+#[allow(clippy::too_many_arguments)]
+pub fn tune(
+    trades: &Trades,
+    releases: &[Release],
+    currencies: &[Vec<String>],
+    settings: &AnalysisSettings,
+    tier: Option<Tier>,
+    pre: &[i64],
+    post: &[i64],
+    progress: &(dyn Fn() + Sync),
+) -> TuneResult {
+    let span = trades.span().unwrap_or((0, 0));
+    let mut order: Vec<u32> = (0..trades.len() as u32).collect();
+    crate::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    let sorted_pnl: Vec<f64> = order.iter().map(|&i| trades.pnl[i as usize]).collect();
+    let net: f64 = sorted_pnl.iter().sum();
+    let tcr_baseline = metrics::tcr(&sorted_pnl, settings.tcr_p);
+    let traded: Vec<&String> = currencies.iter().flatten().collect();
+    let week = weekday_ms(span) as f64;
+    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: settings.scenario.initial_equity, tcr_p: settings.tcr_p };
+    let grid: Vec<(i64, i64)> = pre.iter().flat_map(|&a| post.iter().map(move |&b| (a, b))).collect();
+    let mut cells: Vec<Cell> = grid
+        .par_iter()
+        .map(|&(a, b)| {
+            let ws = cell_windows(&settings.windows, tier, Window { pre_min: a, post_min: b });
+            let used = used_windows(releases, &ws);
+            let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
+            let exp = engine.run(&trades.opened, &trades.closed, &trades.instrument, currencies);
+            let (mut pnl, mut op, mut cl) = (Vec::new(), Vec::new(), Vec::new());
+            let mut exposed_pnl = 0.0;
+            for &i in &order {
+                let i = i as usize;
+                if exp.k[i] > 0 {
+                    exposed_pnl += trades.pnl[i];
+                } else {
+                    pnl.push(trades.pnl[i]);
+                    op.push(trades.opened[i]);
+                    cl.push(trades.closed[i]);
+                }
+            }
+            let m = metrics::compute(&Curve { pnl: &pnl, opened: &op, closed: &cl }, &ctx);
+            let blocked = union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), span);
+            progress();
+            Cell {
+                pre_min: a,
+                post_min: b,
+                trades_removed: exp.exposed_count(),
+                share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
+                tcr_after: m.tcr,
+                tcr_reduction: tcr_baseline.zip(m.tcr).map(|(x, y)| x - y),
+                sharpe_after: m.sharpe,
+                max_drawdown_after: m.max_drawdown,
+                blocked_share: if week > 0.0 { blocked as f64 / week } else { 0.0 },
+                frontier: false,
+            }
+        })
+        .collect();
+    mark_frontier(&mut cells);
+    TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, cells }
+}
+
+/// Pareto frontier: maximise tail reduction, minimise time blocked.
+pub fn mark_frontier(cells: &mut [Cell]) {
+    let pts: Vec<(f64, f64)> = cells.iter().map(|c| (c.blocked_share, c.tcr_reduction.unwrap_or(f64::NEG_INFINITY))).collect();
+    for (i, c) in cells.iter_mut().enumerate() {
+        let (b, r) = pts[i];
+        c.frontier = r.is_finite() && !pts.iter().any(|&(b2, r2)| b2 <= b && r2 >= r && (b2 < b || r2 > r));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn cell(blocked: f64, red: f64) -> Cell {
+        Cell {
+            pre_min: 0,
+            post_min: 0,
+            trades_removed: 0,
+            share_of_net_removed: None,
+            tcr_after: None,
+            tcr_reduction: Some(red),
+            sharpe_after: None,
+            max_drawdown_after: 0.0,
+            blocked_share: blocked,
+            frontier: false,
+        }
+    }
+
+    #[test]
+    fn frontier_and_ranges() {
+        let mut c = vec![cell(0.1, 1.0), cell(0.2, 0.5), cell(0.2, 2.0), cell(0.3, 2.0), cell(0.05, 0.2)];
+        mark_frontier(&mut c);
+        assert_eq!(c.iter().map(|x| x.frontier).collect::<Vec<_>>(), vec![true, false, true, false, true]);
+        assert_eq!(parse_range("0..60/15").unwrap(), vec![0, 15, 30, 45, 60]);
+        assert!(parse_range("10..5/1").is_err());
+        assert!(parse_range("0..60").is_err());
+    }
+
+    #[test]
+    fn weekday_time_and_union() {
+        // 2024-03-08 (Fri) 00:00Z to 2024-03-11 (Mon) 12:00Z: Friday + half Monday.
+        let fri = 1_709_856_000_000;
+        assert_eq!(weekday_ms((fri, fri + 3 * DAY_MS + DAY_MS / 2)), DAY_MS + DAY_MS / 2);
+        assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], (0, 35)), 25);
+    }
+}
