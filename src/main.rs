@@ -20,6 +20,11 @@ enum Command {
     Rank(Box<cmd::rank::RankArgs>),
     Schedule(Box<cmd::schedule::ScheduleArgs>),
     Tune(Box<cmd::tune::TuneArgs>),
+    /// Print a shell completion script, e.g. `eventfence completions bash > /etc/bash_completion.d/eventfence`.
+    Completions {
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
 }
 
 fn main() -> ExitCode {
@@ -30,11 +35,17 @@ fn main() -> ExitCode {
         Command::Rank(a) => cmd::rank::run(*a),
         Command::Schedule(a) => cmd::schedule::run(*a),
         Command::Tune(a) => cmd::tune::run(*a),
+        Command::Completions { shell } => {
+            use clap::CommandFactory;
+            let mut buf = Vec::new();
+            clap_complete::generate(shell, &mut Cli::command(), "eventfence", &mut buf);
+            eventfence::output::stdout(&buf).map(|_| ExitCode::SUCCESS).map_err(anyhow::Error::from)
+        }
     };
     match result {
         Ok(code) => code,
         Err(e) => {
-            if e.downcast_ref::<std::io::Error>().is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe) {
+            if e.chain().any(|c| c.downcast_ref::<std::io::Error>().is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)) {
                 return ExitCode::SUCCESS;
             }
             eprintln!("eventfence: {e:#}");

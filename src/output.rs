@@ -50,6 +50,14 @@ impl OutDir {
     }
 }
 
+/// Writes to stdout, returning an error (not panicking) when the reader has
+/// gone away; `main` treats a closed pipe as success.
+pub fn stdout(text: &[u8]) -> std::io::Result<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text)?;
+    out.flush()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -82,11 +82,12 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         out.write("summary.json", json.as_bytes())?;
     }
     if args.json {
-        println!("{json}");
+        crate::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        print!("{}", crate::render::table::analyze(&summary));
+        crate::output::stdout(crate::render::table::analyze(&summary).as_bytes())?;
         if let Some(dir) = &args.out {
-            println!("Wrote summary.json, trades.{}, releases.csv, tail.csv to {}", if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" }, dir.display());
+            let ext = if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" };
+            crate::output::stdout(format!("Wrote summary.json, trades.{ext}, releases.csv, tail.csv to {}\n", dir.display()).as_bytes())?;
         }
     }
     Ok(std::process::ExitCode::SUCCESS)

@@ -123,9 +123,9 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
     });
     let report = CheckReport { tool: ToolInfo::current(), trades, calendar, problems, caution: CAUTION };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
-        print!("{}", crate::render::table::check(&report));
+        crate::output::stdout(crate::render::table::check(&report).as_bytes())?;
     }
     let rejected = report.trades.as_ref().map_or(0, |t| t.import.rows_rejected)
         + report.calendar.as_ref().map_or(0, |c| c.import.rows_rejected);

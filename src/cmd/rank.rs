@@ -121,9 +121,9 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     }
     let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, runs: rows, caution: CAUTION };
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
-        print!("{}", crate::render::table::rank(&report));
+        crate::output::stdout(crate::render::table::rank(&report).as_bytes())?;
     }
     Ok(std::process::ExitCode::SUCCESS)
 }

@@ -119,8 +119,7 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
             eprintln!("wrote {} window(s) to {}", list.len(), path.display());
         }
         None => {
-            use std::io::Write;
-            std::io::stdout().write_all(&bytes)?;
+            crate::output::stdout(&bytes)?;
         }
     }
     Ok(std::process::ExitCode::SUCCESS)

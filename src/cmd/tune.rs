@@ -92,9 +92,9 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         out.write("tune.json", json.as_bytes())?;
     }
     if args.json {
-        println!("{json}");
+        crate::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        print!("{}", crate::render::table::tune(&report, args.frontier_only));
+        crate::output::stdout(crate::render::table::tune(&report, args.frontier_only).as_bytes())?;
     }
     Ok(std::process::ExitCode::SUCCESS)
 }
