@@ -1,0 +1,63 @@
+//! Importer paths beyond plain CSV: Parquet with typed columns, several
+//! files as runs, epoch times, and the coverage warning.
+
+use polars::prelude::*;
+use std::process::Command;
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_eventfence"))
+}
+
+const CAL: &str = "released_at,title,currency,tier\n2024-03-08T13:30:00Z,Jobs,USD,high\n";
+
+#[test]
+fn parquet_with_timestamp_and_float_columns() {
+    let dir = tempfile::tempdir().unwrap();
+    // 2024-03-08T13:20Z and 13:40Z as epoch milliseconds in a Datetime column.
+    let open_ms = [1_709_904_000_000i64, 1_709_910_000_000];
+    let close_ms = [1_709_905_200_000i64, 1_709_911_000_000];
+    let mut df = DataFrame::new(
+        2,
+        vec![
+            Column::new("opened_at".into(), open_ms).cast(&DataType::Datetime(TimeUnit::Milliseconds, None)).unwrap(),
+            Column::new("closed_at".into(), close_ms).cast(&DataType::Datetime(TimeUnit::Milliseconds, None)).unwrap(),
+            Column::new("instrument".into(), ["EURUSD", "EURUSD"]),
+            Column::new("pnl".into(), [12.5f64, -3.0]),
+        ],
+    )
+    .unwrap();
+    let p = dir.path().join("t.parquet");
+    ParquetWriter::new(std::fs::File::create(&p).unwrap()).finish(&mut df).unwrap();
+    std::fs::write(dir.path().join("c.csv"), CAL).unwrap();
+    let o = bin().current_dir(dir.path()).args(["analyze", "--trades", "t.parquet", "--calendar", "c.csv", "--json", "--placebo", "0", "--bootstrap", "0"]).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    // 13:20–13:40Z overlaps [13:15, 14:00]; 15:00–15:16:40Z does not.
+    assert_eq!(j["exposure"]["exposed_trades"], 1);
+    assert_eq!(j["exposure"]["exposed_pnl"], 12.5);
+}
+
+#[test]
+fn several_files_become_runs_and_epoch_times_read() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("c.csv"), CAL).unwrap();
+    // 1709904600 = 2024-03-08T13:30:00Z.
+    std::fs::write(dir.path().join("set-a.csv"), "opened_at,closed_at,instrument,pnl\n1709904600,1709905000,EURUSD,5\n").unwrap();
+    std::fs::write(dir.path().join("set-b.csv"), "opened_at,closed_at,instrument,pnl\n1709800000,1709800100,EURUSD,7\n").unwrap();
+    let o = bin()
+        .current_dir(dir.path())
+        .args(["analyze", "--trades", "set-*.csv", "--calendar", "c.csv", "--time-format", "epoch-s", "--json", "--placebo", "0", "--bootstrap", "0"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let runs = j["runs"].as_array().unwrap();
+    assert_eq!(runs.iter().map(|r| r["run"].as_str().unwrap()).collect::<Vec<_>>(), vec!["set-a", "set-b"]);
+    assert_eq!(runs[0]["exposed_trades"], 1);
+    assert_eq!(runs[1]["exposed_trades"], 0);
+    // The calendar has only 2024-03-08 for USD and nothing for EUR: both
+    // trades fall outside some coverage, and the warning says so.
+    let warnings: Vec<&str> = j["warnings"].as_array().unwrap().iter().map(|w| w.as_str().unwrap()).collect();
+    assert!(warnings.iter().any(|w| w.contains("no releases for EUR") && w.contains("2 trade(s)")), "{warnings:?}");
+    assert!(warnings.iter().any(|w| w.contains("covers 2024-03-08 to 2024-03-08 for USD") && w.contains("1 trade(s)")), "{warnings:?}");
+}
