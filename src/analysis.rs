@@ -122,6 +122,9 @@ pub struct Analysis {
     /// charts and tail.csv; not part of summary.json).
     #[serde(skip)]
     pub sorted_abs: Vec<(f64, bool)>,
+    /// Each scenario's (close instant, P/L) in close order, for charts.
+    #[serde(skip)]
+    pub curves: [Vec<(i64, f64)>; 3],
 }
 
 fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
@@ -226,6 +229,7 @@ pub fn analyze(
             attribution,
             runs,
             sorted_abs,
+            curves: [&all.baseline, &all.removed, &all.capped].map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect()),
         },
         exp,
     ))

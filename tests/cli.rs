@@ -177,3 +177,13 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
     let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
     assert_eq!(csv.lines().count(), 51);
 }
+
+#[test]
+fn no_colour_codes_and_no_progress_bar_in_pipes() {
+    let mut args = demo_args();
+    args.extend(["--placebo", "5", "--bootstrap", "5"].map(String::from));
+    let o = bin().env("NO_COLOR", "1").args(&args).output().unwrap();
+    assert!(o.status.success());
+    assert!(!o.stdout.contains(&0x1b) && !o.stderr.contains(&0x1b), "escape codes in output");
+    assert!(o.stderr.is_empty(), "stderr is a pipe: no progress bar expected, got {}", stderr(&o));
+}

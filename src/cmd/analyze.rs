@@ -37,7 +37,8 @@ pub struct AnalyzeArgs {
     /// Print summary JSON to stdout instead of tables.
     #[arg(long)]
     pub json: bool,
-    /// Write summary.json, trades.csv (or .parquet) and releases.csv here.
+    /// Write report.html, summary.json, trades.csv (or .parquet), releases.csv,
+    /// tail.csv and the charts (SVG) here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Format of the annotated trade file in --out.
@@ -65,6 +66,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let (result, exposure) = analysis::analyze(&trades, &cal.releases, &currencies, &settings)?;
     let (placebo, bootstrap) = chance(&args, &trades, &cal.releases, &currencies, &settings, &exposure, result.initial_equity);
     let sorted_abs = result.sorted_abs.clone();
+    let curves = result.curves.clone();
     let inputs = Inputs::new(&trade_summary, args.trades.trades_tz.clone(), &cal.summary, args.calendar.calendar_tz.clone());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
@@ -79,6 +81,26 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         };
         out.write("releases.csv", &crate::render::files::releases_csv(&summary.attribution.by_release))?;
         out.write("tail.csv", &crate::render::files::tail_csv(&sorted_abs))?;
+        let high_releases = cal
+            .releases
+            .iter()
+            .filter(|r| r.tier == crate::calendar::Tier::High && summary.settings.windows.window_for(r).is_some())
+            .map(|r| r.at)
+            .collect();
+        let scatter = (0..trades.len()).map(|i| (exposure.minutes_from_nearest[i], trades.pnl[i], exposure.k[i] > 0)).collect();
+        let data = crate::render::charts::AnalyzeCharts {
+            summary: &summary,
+            sorted_abs: &sorted_abs,
+            curves: &curves,
+            span_start: trades.span().map_or(0, |s| s.0),
+            high_releases,
+            scatter,
+        };
+        let figures = crate::render::charts::analyze_figures(&data).map_err(anyhow::Error::msg)?;
+        for f in &figures {
+            out.write(&format!("chart-{}.svg", f.id), f.svg.as_bytes())?;
+        }
+        out.write("report.html", crate::render::html::analyze_report(&summary, &figures).as_bytes())?;
         out.write("summary.json", json.as_bytes())?;
     }
     if args.json {
@@ -87,7 +109,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         crate::output::stdout(crate::render::table::analyze(&summary).as_bytes())?;
         if let Some(dir) = &args.out {
             let ext = if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" };
-            crate::output::stdout(format!("Wrote summary.json, trades.{ext}, releases.csv, tail.csv to {}\n", dir.display()).as_bytes())?;
+            crate::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
         }
     }
     Ok(std::process::ExitCode::SUCCESS)

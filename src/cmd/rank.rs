@@ -53,7 +53,7 @@ pub struct RankArgs {
     /// Print JSON instead of the table.
     #[arg(long)]
     pub json: bool,
-    /// Write runs.csv (or runs.parquet) here.
+    /// Write runs.csv (or runs.parquet), chart-rank-shift.svg and report.html here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Format of the runs file in --out.
@@ -115,6 +115,12 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
             super::analyze::TradesFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
             super::analyze::TradesFormat::Parquet => out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?,
         };
+        let pts: Vec<(usize, usize, String)> = rows.iter().map(|r| (r.rank_baseline, r.rank_removed, r.run.clone())).collect();
+        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades").map_err(anyhow::Error::msg)?;
+        out.write("chart-rank-shift.svg", svg.as_bytes())?;
+        let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
+        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs", rows.len()), &[fig], CAUTION);
+        out.write("report.html", page.as_bytes())?;
     }
     if let Some(n) = args.top {
         rows.truncate(n);

@@ -48,7 +48,7 @@ pub struct TuneArgs {
     /// Print JSON instead of the table.
     #[arg(long)]
     pub json: bool,
-    /// Write grid.csv and tune.json here.
+    /// Write grid.csv, tune.json, chart-tune.svg and report.html here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
 }
@@ -90,6 +90,14 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         let out = OutDir::new(dir, &inputs)?;
         out.write("grid.csv", &crate::render::files::grid_csv(&report.result.cells))?;
         out.write("tune.json", json.as_bytes())?;
+        let res = &report.result;
+        let cell = |a: usize, b: usize| &res.cells[a * res.post.len() + b];
+        let svg = crate::render::charts::heatmap(&res.pre, &res.post, &|a, b| cell(a, b).tcr_reduction, &|a, b| cell(a, b).frontier, "Tail reduction by window (frontier outlined)")
+            .map_err(anyhow::Error::msg)?;
+        out.write("chart-tune.svg", svg.as_bytes())?;
+        let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
+        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells", res.pre.len(), res.post.len()), &[fig], CAUTION);
+        out.write("report.html", page.as_bytes())?;
     }
     if args.json {
         crate::output::stdout(format!("{json}\n").as_bytes())?;

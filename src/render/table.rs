@@ -211,40 +211,8 @@ pub fn analyze(s: &Summary) -> String {
         t.add_row(vec![Cell::new(label), num(f(b)), num(f(r)), num(d(b, r)), num(f(c)), num(d(b, c))]);
     }
     let _ = writeln!(out, "{t}");
-    let tail = &s.tail;
-    let _ = writeln!(
-        out,
-        "Tail concentration: mean of the top {} % |P/L| over mean |P/L|; threshold {} — {}.",
-        tail.p, tail.threshold, tail.threshold_source
-    );
-    for (name, l) in [("baseline", &tail.baseline), ("removed", &tail.removed), ("capped", &tail.capped)] {
-        let _ = writeln!(
-            out,
-            "  {name:<8} TCR {} ({}){}; Hill tail index {}",
-            fmt_opt(l.tcr, 2),
-            match l.above_threshold {
-                Some(true) => "above threshold: leans on a handful of trades",
-                Some(false) => "at or below threshold",
-                None => "undefined",
-            },
-            if l.too_few { format!(", top bucket of {} trade(s) is too few to judge", l.top_bucket) } else { String::new() },
-            l.hill.map_or("—".to_string(), |h| format!("{:.2} (k = {} of {})", h.alpha, h.k, h.n)),
-        );
-    }
-    if let Some(p) = &s.placebo {
-        let _ = writeln!(
-            out,
-            "\nPlacebo calendars ({}, seed {}): exposed share of net {} → p = {}; mean exposed − mean unexposed {} → p = {}.",
-            p.placebos,
-            p.seed,
-            pct(p.observed_share),
-            fmt_opt(p.p_share, 4),
-            fmt_opt(p.observed_mean_diff, 2),
-            fmt_opt(p.p_mean_diff, 4)
-        );
-    }
+    let _ = writeln!(out, "{}", chance_text(s));
     if let Some(b) = &s.bootstrap {
-        let _ = writeln!(out, "\nBootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline", b.resamples, b.seed, b.confidence * 100.0);
         let mut t = new_table(&["figure", "change", "low", "high"]);
         for (name, i) in &b.intervals {
             t.add_row(vec![Cell::new(name.replace('_', " ")), num(fmt_opt(i.observed, 3)), num(fmt_opt(i.low, 3)), num(fmt_opt(i.high, 3))]);
@@ -252,7 +220,6 @@ pub fn analyze(s: &Summary) -> String {
         let _ = writeln!(out, "{t}");
     }
     let _ = writeln!(out);
-
     let mut top: Vec<&crate::attribution::ReleaseLine> = s.attribution.by_release.iter().filter(|r| r.trades_touched > 0).collect();
     top.sort_by(|a, b| b.attributed_pnl.abs().total_cmp(&a.attributed_pnl.abs()));
     if !top.is_empty() {
@@ -385,4 +352,63 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
     let _ = writeln!(out, "{t}");
     let _ = writeln!(out, "{}", wrap(r.caution, 78));
     out
+}
+
+/// Tail, placebo and bootstrap findings as text lines (terminal and HTML).
+pub fn chance_text(s: &Summary) -> String {
+    let mut out = String::new();
+    let tail = &s.tail;
+    let _ = writeln!(
+        out,
+        "Tail concentration: mean of the top {} % |P/L| over mean |P/L|; threshold {} — {}.",
+        tail.p, tail.threshold, tail.threshold_source
+    );
+    for (name, l) in [("baseline", &tail.baseline), ("removed", &tail.removed), ("capped", &tail.capped)] {
+        let _ = writeln!(
+            out,
+            "  {name:<8} TCR {} ({}){}; Hill tail index {}",
+            fmt_opt(l.tcr, 2),
+            match l.above_threshold {
+                Some(true) => "above threshold: leans on a handful of trades",
+                Some(false) => "at or below threshold",
+                None => "undefined",
+            },
+            if l.too_few { format!(", top bucket of {} trade(s) is too few to judge", l.top_bucket) } else { String::new() },
+            l.hill.map_or("—".to_string(), |h| format!("{:.2} (k = {} of {})", h.alpha, h.k, h.n)),
+        );
+    }
+    if let Some(p) = &s.placebo {
+        let _ = writeln!(
+            out,
+            "Placebo calendars ({}, seed {}): exposed share of net {} → p = {}; mean exposed − mean unexposed {} → p = {}.",
+            p.placebos,
+            p.seed,
+            pct(p.observed_share),
+            fmt_opt(p.p_share, 4),
+            fmt_opt(p.observed_mean_diff, 2),
+            fmt_opt(p.p_mean_diff, 4)
+        );
+    }
+    if let Some(b) = &s.bootstrap {
+        let _ = write!(out, "Bootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline:", b.resamples, b.seed, b.confidence * 100.0);
+        for (name, i) in &b.intervals {
+            let _ = write!(out, "\n  {:<14} {} [{}, {}]", name.replace('_', " "), fmt_opt(i.observed, 3), fmt_opt(i.low, 3), fmt_opt(i.high, 3));
+        }
+    }
+    out
+}
+
+/// The scenario table as HTML.
+pub fn scenario_html(s: &Summary) -> String {
+    use super::html::esc;
+    let mut h = String::from("<table><tr><th>figure</th><th>baseline</th><th>removed</th><th>Δ removed</th><th>capped</th><th>Δ capped</th></tr>");
+    let sc = &s.scenarios;
+    for (label, get, dec, is_pct) in METRIC_ROWS {
+        let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
+        let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
+        let d = |a: Option<f64>, b: Option<f64>| if *is_pct { delta(a.map(|x| x * 100.0), b.map(|x| x * 100.0), 1) } else { delta(a, b, *dec) };
+        let _ = write!(h, "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>", esc(label), f(b), f(r), d(b, r), f(c), d(b, c));
+    }
+    h.push_str("</table>");
+    h
 }

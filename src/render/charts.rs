@@ -1,0 +1,343 @@
+//! Charts as SVG (plotters), in our own colour-blind-safe palette. Each
+//! function turns plain data into one self-contained SVG string. Large
+//! series are thinned deterministically so every chart stays small.
+
+use plotters::prelude::*;
+
+/// Scenario colours: dark blue, bluish green, reddish purple; exposed
+/// trades in amber; release ticks in grey. Chosen to stay distinct under
+/// the common colour-vision deficiencies; tiers are never colour-coded
+/// red/orange/yellow.
+pub const BASELINE: RGBColor = RGBColor(0x1b, 0x4f, 0x8a);
+pub const REMOVED: RGBColor = RGBColor(0x1a, 0x9e, 0x77);
+pub const CAPPED: RGBColor = RGBColor(0xa8, 0x4c, 0x9a);
+pub const EXPOSED: RGBColor = RGBColor(0xe0, 0x9b, 0x1f);
+pub const TICK: RGBColor = RGBColor(0xbb, 0xbb, 0xbb);
+pub const NEGATIVE: RGBColor = RGBColor(0x6a, 0x3d, 0x9a);
+
+const SIZE: (u32, u32) = (760, 420);
+const FONT: &str = "sans-serif";
+
+type Res = Result<String, String>;
+
+fn err<E: std::fmt::Debug>(e: E) -> String {
+    format!("chart: {e:?}")
+}
+
+/// Keeps at most `max` items, evenly spaced, always keeping the last.
+pub fn thin<T: Clone>(v: &[T], max: usize) -> Vec<T> {
+    if v.len() <= max || max < 2 {
+        return v.to_vec();
+    }
+    let step = (v.len() - 1) as f64 / (max - 1) as f64;
+    (0..max).map(|i| v[((i as f64 * step).round() as usize).min(v.len() - 1)].clone()).collect()
+}
+
+/// Keeps the first `head` items whole (they matter on a log axis) and thins
+/// the rest to at most `max` in all.
+pub fn thin_head<T: Clone>(v: &[T], head: usize, max: usize) -> Vec<T> {
+    if v.len() <= max || head >= max {
+        return thin(v, max);
+    }
+    let mut out = v[..head].to_vec();
+    out.extend(thin(&v[head..], max - head));
+    out
+}
+
+fn range(values: impl Iterator<Item = f64>) -> (f64, f64) {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for v in values.filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if !lo.is_finite() {
+        return (0.0, 1.0);
+    }
+    if hi - lo < 1e-12 {
+        return (lo - 1.0, hi + 1.0);
+    }
+    let pad = (hi - lo) * 0.05;
+    (lo - pad, hi + pad)
+}
+
+/// Sorted |P/L| (largest first) of baseline, exposed trades marked, with the
+/// removed scenario's curve on the same axes.
+pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let n = baseline.len().max(removed.len()).max(2) as f64;
+        let top = baseline.first().map(|x| x.0).unwrap_or(1.0).max(removed.first().copied().unwrap_or(0.0)) * 1.05;
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(60)
+            .build_cartesian_2d((1f64..n).log_scale(), 0f64..top.max(1e-9))
+            .map_err(err)?;
+        c.configure_mesh().x_desc("rank by |P/L| (1 = largest, log scale)").y_desc("|P/L|").light_line_style(WHITE).draw().map_err(err)?;
+        let pts: Vec<(f64, f64)> = baseline.iter().enumerate().map(|(i, x)| ((i + 1) as f64, x.0)).collect();
+        c.draw_series(LineSeries::new(thin_head(&pts, 400, 1500), BASELINE.stroke_width(2)))
+            .map_err(err)?
+            .label("baseline")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BASELINE.stroke_width(2)));
+        let rem: Vec<(f64, f64)> = removed.iter().enumerate().map(|(i, v)| ((i + 1) as f64, *v)).collect();
+        c.draw_series(LineSeries::new(thin_head(&rem, 400, 1500), REMOVED.stroke_width(2)))
+            .map_err(err)?
+            .label("removed")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], REMOVED.stroke_width(2)));
+        let exposed: Vec<(f64, f64)> = baseline.iter().enumerate().filter(|x| x.1.1).map(|(i, x)| ((i + 1) as f64, x.0)).collect();
+        c.draw_series(thin_head(&exposed, 200, 600).into_iter().map(|p| Circle::new(p, 3, EXPOSED.filled())))
+            .map_err(err)?
+            .label("exposed trade")
+            .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
+        c.configure_series_labels().background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Equity curves (cumulative P/L against days since the first open), with
+/// faint vertical ticks at top-tier releases.
+pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let (x0, x1) = range(curves.iter().flat_map(|c| c.1.iter().map(|p| p.0)));
+        let (y0, y1) = range(curves.iter().flat_map(|c| c.1.iter().map(|p| p.1)).chain([0.0]));
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(70)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(err)?;
+        c.configure_mesh().x_desc("days since first open").y_desc("cumulative P/L").light_line_style(WHITE).draw().map_err(err)?;
+        c.draw_series(thin(ticks_days, 400).into_iter().filter(|d| *d >= x0 && *d <= x1).map(|d| PathElement::new(vec![(d, y0), (d, y1)], TICK.mix(0.5))))
+            .map_err(err)?
+            .label("top-tier release")
+            .legend(|(x, y)| PathElement::new(vec![(x + 9, y - 6), (x + 9, y + 6)], TICK));
+        for (i, (name, pts)) in curves.iter().enumerate() {
+            let col = [BASELINE, REMOVED, CAPPED][i % 3];
+            c.draw_series(LineSeries::new(thin(pts, 1500), col.stroke_width(2)))
+                .map_err(err)?
+                .label(*name)
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2)));
+        }
+        c.configure_series_labels().position(SeriesLabelPosition::UpperLeft).background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Signed horizontal bars (attributed P/L by group).
+pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let h = (80 + 28 * items.len().max(1)) as u32;
+        let root = SVGBackend::with_string(&mut s, (SIZE.0, h.max(200))).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let (lo, hi) = range(items.iter().map(|x| x.1).chain([0.0]));
+        let n = items.len().max(1);
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(30)
+            .y_label_area_size(130)
+            .build_cartesian_2d(lo..hi, (0..n).into_segmented())
+            .map_err(err)?;
+        let labels: Vec<String> = items.iter().map(|x| x.0.clone()).collect();
+        c.configure_mesh()
+            .y_labels(n)
+            .y_label_formatter(&|v| match v {
+                SegmentValue::CenterOf(i) => labels.get(*i).cloned().unwrap_or_default(),
+                _ => String::new(),
+            })
+            .x_desc("attributed P/L")
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
+        c.draw_series(items.iter().enumerate().map(|(i, (_, v))| {
+            let col = if *v >= 0.0 { BASELINE } else { NEGATIVE };
+            let mut r = Rectangle::new([(0.0, SegmentValue::Exact(i)), (*v, SegmentValue::Exact(i + 1))], col.filled());
+            r.set_margin(4, 4, 0, 0);
+            r
+        }))
+        .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Trade P/L against minutes from the nearest release, window bounds drawn.
+pub fn scatter(points: &[(f64, f64, bool)], pre: f64, post: f64, span_min: f64, caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let inside: Vec<(f64, f64, bool)> = points.iter().copied().filter(|p| p.0.abs() <= span_min && p.1.is_finite()).collect();
+        let (y0, y1) = range(inside.iter().map(|p| p.1));
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(60)
+            .build_cartesian_2d(-span_min..span_min, y0..y1)
+            .map_err(err)?;
+        c.configure_mesh().x_desc("minutes from nearest release to the open").y_desc("P/L").light_line_style(WHITE).draw().map_err(err)?;
+        let calm: Vec<(f64, f64)> = inside.iter().filter(|p| !p.2).map(|p| (p.0, p.1)).collect();
+        let hit: Vec<(f64, f64)> = inside.iter().filter(|p| p.2).map(|p| (p.0, p.1)).collect();
+        c.draw_series(thin(&calm, 2500).into_iter().map(|p| Circle::new(p, 2, BASELINE.mix(0.35).filled())))
+            .map_err(err)?
+            .label("not exposed")
+            .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        c.draw_series(thin(&hit, 1500).into_iter().map(|p| Circle::new(p, 2, EXPOSED.filled())))
+            .map_err(err)?
+            .label("exposed")
+            .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
+        for b in [-pre, post] {
+            c.draw_series(std::iter::once(PathElement::new(vec![(b, y0), (b, y1)], BLACK.mix(0.5))))
+                .map_err(err)?;
+        }
+        c.configure_series_labels().background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Heat map of tail reduction over the pre × post grid, frontier cells outlined.
+pub fn heatmap(pre: &[i64], post: &[i64], value: &dyn Fn(usize, usize) -> Option<f64>, frontier: &dyn Fn(usize, usize) -> bool, caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(50)
+            .build_cartesian_2d(0..post.len(), 0..pre.len())
+            .map_err(err)?;
+        c.configure_mesh()
+            .disable_mesh()
+            .x_labels(post.len())
+            .y_labels(pre.len())
+            .x_label_formatter(&|i| post.get(*i).map(|v| v.to_string()).unwrap_or_default())
+            .y_label_formatter(&|i| pre.get(*i).map(|v| v.to_string()).unwrap_or_default())
+            .x_desc("minutes after")
+            .y_desc("minutes before")
+            .draw()
+            .map_err(err)?;
+        let vals: Vec<f64> = (0..pre.len()).flat_map(|a| (0..post.len()).map(move |b| (a, b))).filter_map(|(a, b)| value(a, b)).collect();
+        let (lo, hi) = range(vals.into_iter());
+        for a in 0..pre.len() {
+            for b in 0..post.len() {
+                let shade = value(a, b).map(|v| ((v - lo) / (hi - lo)).clamp(0.0, 1.0)).unwrap_or(0.0);
+                // White to dark blue.
+                let mix = |w: u8, d: u8| (w as f64 + (d as f64 - w as f64) * shade) as u8;
+                let col = RGBColor(mix(0xf4, BASELINE.0), mix(0xf7, BASELINE.1), mix(0xfb, BASELINE.2));
+                c.draw_series(std::iter::once(Rectangle::new([(b, a), (b + 1, a + 1)], col.filled()))).map_err(err)?;
+                if frontier(a, b) {
+                    c.draw_series(std::iter::once(Rectangle::new([(b, a), (b + 1, a + 1)], EXPOSED.stroke_width(3)))).map_err(err)?;
+                }
+            }
+        }
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Baseline rank against removed rank, one point per run, with the
+/// no-change diagonal.
+pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, (560, 560)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let n = points.len().max(2) as f64 + 1.0;
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(50)
+            .build_cartesian_2d(0f64..n, 0f64..n)
+            .map_err(err)?;
+        c.configure_mesh().x_desc("rank with all trades").y_desc("rank without release trades").light_line_style(WHITE).draw().map_err(err)?;
+        c.draw_series(std::iter::once(PathElement::new(vec![(0.0, 0.0), (n, n)], TICK.stroke_width(1)))).map_err(err)?;
+        let pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 as f64, p.1 as f64)).collect();
+        c.draw_series(thin(&pts, 3000).into_iter().map(|p| Circle::new(p, 3, BASELINE.filled()))).map_err(err)?.label("run").legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        c.configure_series_labels().position(SeriesLabelPosition::LowerRight).background_style(WHITE.mix(0.9)).draw().map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
+/// Everything the analyze charts draw.
+pub struct AnalyzeCharts<'a> {
+    pub summary: &'a crate::report::Summary,
+    pub sorted_abs: &'a [(f64, bool)],
+    /// Scenario (close instant, P/L) in close order: baseline, removed, capped.
+    pub curves: &'a [Vec<(i64, f64)>; 3],
+    pub span_start: i64,
+    /// Instants of used high-tier releases.
+    pub high_releases: Vec<i64>,
+    /// (minutes from nearest release, P/L, exposed) per trade.
+    pub scatter: Vec<(f64, f64, bool)>,
+}
+
+/// The analyze figures, in report order.
+pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, String> {
+    use super::html::Figure;
+    let s = d.summary;
+    let day = crate::zones::DAY_MS as f64;
+    let mut removed_abs: Vec<f64> = d.curves[1].iter().map(|x| x.1.abs()).collect();
+    removed_abs.sort_by(|a, b| b.total_cmp(a));
+    let t = &s.tail;
+    let caption = format!(
+        "Sorted |P/L|: TCR {} → {} (threshold {})",
+        super::table::fmt_opt(t.baseline.tcr, 1),
+        super::table::fmt_opt(t.removed.tcr, 1),
+        t.threshold
+    );
+    let eq = |c: &[(i64, f64)]| {
+        let mut acc = 0.0;
+        std::iter::once((0.0, 0.0))
+            .chain(c.iter().map(|&(t, p)| {
+                acc += p;
+                ((t - d.span_start) as f64 / day, acc)
+            }))
+            .collect::<Vec<_>>()
+    };
+    let curves = [("baseline", eq(&d.curves[0])), ("removed", eq(&d.curves[1])), ("capped", eq(&d.curves[2]))];
+    let ticks: Vec<f64> = d.high_releases.iter().map(|&t| (t - d.span_start) as f64 / day).collect();
+    let cats: Vec<(String, f64)> = s.attribution.by_category.iter().map(|(k, g)| (k.clone(), g.attributed_pnl)).collect();
+    let curs: Vec<(String, f64)> = s.attribution.by_currency.iter().map(|(k, g)| (k.clone(), g.attributed_pnl)).collect();
+    let high = s.settings.windows.high.unwrap_or(crate::windows::Window { pre_min: 0, post_min: 0 });
+    Ok(vec![
+        Figure { id: "tail", caption: "Trades by size of |P/L|, largest first; exposed trades marked. A steep start means a few trades carry the result.".into(), svg: tail_curve(d.sorted_abs, &removed_abs, &caption)? },
+        Figure { id: "equity", caption: "Cumulative P/L of the three scenarios; grey ticks are top-tier releases.".into(), svg: equity(&curves, &ticks, "Equity: baseline, removed, capped")? },
+        Figure { id: "by-category", caption: "P/L attributed to releases, by category.".into(), svg: bars(&cats, "Attributed P/L by category")? },
+        Figure { id: "by-currency", caption: "P/L attributed to releases, by currency.".into(), svg: bars(&curs, "Attributed P/L by currency")? },
+        Figure {
+            id: "scatter",
+            caption: format!("Trade P/L against minutes from the nearest relevant release to the open; lines at −{} and +{} minutes (high-tier window).", high.pre_min, high.post_min),
+            svg: scatter(&d.scatter, high.pre_min as f64, high.post_min as f64, 240.0, "P/L around releases")?,
+        },
+    ])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn thinning_keeps_ends_and_bounds() {
+        let v: Vec<usize> = (0..10_000).collect();
+        let t = thin(&v, 100);
+        assert_eq!(t.len(), 100);
+        assert_eq!((t[0], t[99]), (0, 9_999));
+        assert_eq!(thin(&v[..5], 100).len(), 5);
+    }
+}
