@@ -156,18 +156,7 @@ pub fn analyze(
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
     scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let exposed = |i: usize| exp.k[i] > 0;
-    fn view<'a>(order: &'a [u32], trades: &'a Trades, exposed: &'a dyn Fn(usize) -> bool) -> TradeView<'a> {
-        TradeView {
-            order,
-            pnl: &trades.pnl,
-            opened: &trades.opened,
-            closed: &trades.closed,
-            exposed,
-            equity_before: trades.equity_before.as_deref(),
-            pnl_pct: trades.pnl_pct.as_deref(),
-        }
-    }
-    let all = scenarios::build(&view(&order, trades, &exposed), &settings.scenario)?;
+    let all = scenarios::build(&TradeView::of(&order, trades, &exposed), &settings.scenario)?;
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
     let overall = metrics_of(&all, &ctx);
     let tl = |sr: &scenarios::Series| tail_line(&sr.pnl, settings.tcr_p, settings.tcr_threshold);
@@ -191,7 +180,7 @@ pub fn analyze(
             .par_iter()
             .enumerate()
             .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
-                let sc = scenarios::build(&view(idx, trades, &exposed), &settings.scenario)?;
+                let sc = scenarios::build(&TradeView::of(idx, trades, &exposed), &settings.scenario)?;
                 let run_span = (
                     idx.iter().map(|&i| trades.opened[i as usize]).min().unwrap_or(span.0),
                     idx.iter().map(|&i| trades.closed[i as usize]).max().unwrap_or(span.1),

@@ -154,15 +154,7 @@ fn run_row(
     let mut order: Vec<u32> = (0..t.len() as u32).collect();
     scenarios::close_order(&mut order, &t.opened, &t.closed);
     let is_exposed = |i: usize| flags[i];
-    let view = TradeView {
-        order: &order,
-        pnl: &t.pnl,
-        opened: &t.opened,
-        closed: &t.closed,
-        exposed: &is_exposed,
-        equity_before: t.equity_before.as_deref(),
-        pnl_pct: t.pnl_pct.as_deref(),
-    };
+    let view = TradeView::of(&order, &t, &is_exposed);
     let sc = scenarios::build(&view, &settings.scenario)?;
     let span = t.span().unwrap_or((0, 0));
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };

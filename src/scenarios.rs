@@ -125,6 +125,21 @@ pub struct TradeView<'a> {
     pub pnl_pct: Option<&'a [f64]>,
 }
 
+impl<'a> TradeView<'a> {
+    /// A view of imported trades in the given order.
+    pub fn of(order: &'a [u32], t: &'a crate::trades::Trades, exposed: &'a dyn Fn(usize) -> bool) -> TradeView<'a> {
+        TradeView {
+            order,
+            pnl: &t.pnl,
+            opened: &t.opened,
+            closed: &t.closed,
+            exposed,
+            equity_before: t.equity_before.as_deref(),
+            pnl_pct: t.pnl_pct.as_deref(),
+        }
+    }
+}
+
 /// Sorts indices by close, then open, then input order.
 pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
     idx.sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));

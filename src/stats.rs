@@ -264,15 +264,7 @@ pub fn changes(
     let mut order = idx.to_vec();
     scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let is_exposed = |i: usize| exposed[i];
-    let view = TradeView {
-        order: &order,
-        pnl: &trades.pnl,
-        opened: &trades.opened,
-        closed: &trades.closed,
-        exposed: &is_exposed,
-        equity_before: trades.equity_before.as_deref(),
-        pnl_pct: trades.pnl_pct.as_deref(),
-    };
+    let view = TradeView::of(&order, trades, &is_exposed);
     let Ok(sc) = scenarios::build(&view, settings) else { return [None; 5] };
     let ctx = Context { initial_equity: sc.initial_equity, ..*ctx };
     let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, &ctx);

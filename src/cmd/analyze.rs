@@ -1,11 +1,11 @@
 //! `eventfence analyze`: the main job — exposure, attribution, scenarios
 //! and metrics, shown as a table, JSON, or a folder of files.
 
-use super::common::{self, CalendarArgs, ChanceArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
+use super::common::{self, ChanceArgs, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use crate::analysis;
 use crate::output::OutDir;
 use crate::report::{Inputs, Summary};
-use anyhow::{Result, bail};
+use anyhow::Result;
 use clap::Args;
 use std::path::PathBuf;
 
@@ -19,13 +19,7 @@ use std::path::PathBuf;
 #[derive(Debug, Args)]
 pub struct AnalyzeArgs {
     #[command(flatten)]
-    pub trades: TradeArgs,
-    #[command(flatten)]
-    pub calendar: CalendarArgs,
-    #[command(flatten)]
-    pub instruments: InstrumentArgs,
-    #[command(flatten)]
-    pub rows: RowArgs,
+    pub input: InputArgs,
     #[command(flatten)]
     pub windows: WindowArgs,
     #[command(flatten)]
@@ -53,28 +47,20 @@ pub enum TradesFormat {
 }
 
 pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
-    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
-        bail!("analyze needs --trades and --calendar");
-    }
     // Resolve every flag before reading data.
     let settings = args.scenario.settings(&args.windows)?;
-    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
-    let (trades, trade_summary) = common::load_trades(&args.trades, &trade_opts)?;
-    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
-    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
-    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
-    let (result, exposure) = analysis::analyze(&trades, &cal.releases, &currencies, &settings)?;
-    let (placebo, bootstrap) = chance(&args, &trades, &cal.releases, &currencies, &settings, &exposure, result.initial_equity);
+    let loaded = args.input.load("analyze")?;
+    let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
+    let (result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings)?;
+    let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
     let sorted_abs = result.sorted_abs.clone();
     let curves = result.curves.clone();
-    let inputs = Inputs::new(&trade_summary, args.trades.trades_tz.clone(), &cal.summary, args.calendar.calendar_tz.clone());
+    let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz.clone());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     if let Some(dir) = &args.out {
-        let mut input_paths: Vec<PathBuf> = trade_summary.files.iter().map(PathBuf::from).collect();
-        input_paths.extend(args.calendar.calendar.iter().cloned());
-        let out = OutDir::new(dir, &input_paths)?;
-        let annotated = crate::render::files::annotated_trades(&trades, &exposure, &cal.releases, &trade_summary.files);
+        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
+        let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
         match args.trades_format {
             TradesFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
             TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,

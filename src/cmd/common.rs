@@ -305,3 +305,55 @@ pub fn progress_bar(t: &TerminalArgs, len: u64, what: &str) -> indicatif::Progre
     pb.set_message(what.to_string());
     pb
 }
+
+/// Trades, calendar, instrument mapping and row handling: the inputs of
+/// every analysing subcommand.
+#[derive(Debug, Clone, Args)]
+pub struct InputArgs {
+    #[command(flatten)]
+    pub trades: TradeArgs,
+    #[command(flatten)]
+    pub calendar: CalendarArgs,
+    #[command(flatten)]
+    pub instruments: InstrumentArgs,
+    #[command(flatten)]
+    pub rows: RowArgs,
+}
+
+/// Everything read from the inputs.
+pub struct Loaded {
+    pub trades: Trades,
+    pub trade_summary: TradeSummary,
+    pub calendar: Calendar,
+    pub currencies: Vec<InstrumentCurrencies>,
+}
+
+impl Loaded {
+    /// Each instrument's currencies, indexed like `trades.instruments`.
+    pub fn currency_lists(&self) -> Vec<Vec<String>> {
+        self.currencies.iter().map(|c| c.currencies.clone()).collect()
+    }
+}
+
+impl InputArgs {
+    /// Reads trades, then the calendar over the trades' span, then resolves
+    /// instrument currencies. `command` names the subcommand in errors.
+    pub fn load(&self, command: &str) -> Result<Loaded> {
+        if self.trades.trades.is_empty() || self.calendar.calendar.is_empty() {
+            bail!("{command} needs --trades and --calendar");
+        }
+        let trade_opts = trade_options(&self.trades, &self.rows)?;
+        let (trades, trade_summary) = load_trades(&self.trades, &trade_opts)?;
+        let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?;
+        let calendar = load_calendar(&self.calendar, &cal_opts)?;
+        let currencies = instrument_currencies(&self.instruments, &trades, &calendar_currencies(&calendar))?;
+        Ok(Loaded { trades, trade_summary, calendar, currencies })
+    }
+
+    /// Every input file, for the output folder's overwrite guard.
+    pub fn input_paths(&self, loaded: &Loaded) -> Vec<PathBuf> {
+        let mut v: Vec<PathBuf> = loaded.trade_summary.files.iter().map(PathBuf::from).collect();
+        v.extend(self.calendar.calendar.iter().cloned());
+        v
+    }
+}

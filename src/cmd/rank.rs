@@ -1,7 +1,7 @@
 //! `eventfence rank`: many parameter sets side by side — which stay on top
 //! once the release-exposed trades are removed.
 
-use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
+use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use crate::output::OutDir;
 use crate::rank::{self, RankBy, RunRow};
 use crate::report::{CAUTION, ToolInfo};
@@ -20,13 +20,7 @@ use std::path::PathBuf;
 #[derive(Debug, Args)]
 pub struct RankArgs {
     #[command(flatten)]
-    pub trades: TradeArgs,
-    #[command(flatten)]
-    pub calendar: CalendarArgs,
-    #[command(flatten)]
-    pub instruments: InstrumentArgs,
-    #[command(flatten)]
-    pub rows: RowArgs,
+    pub input: InputArgs,
     #[command(flatten)]
     pub windows: WindowArgs,
     #[command(flatten)]
@@ -81,23 +75,18 @@ pub struct RankReport {
 }
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
-    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
-        bail!("rank needs --trades and --calendar");
-    }
     let settings = args.scenario.settings(&args.windows)?;
-    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
-    let (trades, summary) = common::load_trades(&args.trades, &trade_opts)?;
+    let loaded = args.input.load("rank")?;
+    let trades = &loaded.trades;
     if !trades.has_runs() {
         bail!("the trades have no runs: map a run column (--map run=<column>) or give one file per run");
     }
-    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
-    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
-    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
-    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let cal = &loaded.calendar;
+    let cur = loaded.currency_lists();
     let windows = crate::exposure::used_windows(&cal.releases, &settings.windows);
     let pb = common::progress_bar(&args.terminal, trades.runs.len() as u64, "runs");
     let placebo = crate::stats::PlaceboSettings { n: args.placebo, seed: args.seed };
-    let mut rows = rank::rank(&trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
+    let mut rows = rank::rank(trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
     pb.finish_and_clear();
     let total = rows.len();
     rows.retain(|r| r.trades >= args.min_trades);
@@ -108,9 +97,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         SortBy::Run => rows.sort_by(|a, b| a.run.cmp(&b.run)),
     }
     if let Some(dir) = &args.out {
-        let mut inputs: Vec<PathBuf> = summary.files.iter().map(PathBuf::from).collect();
-        inputs.extend(args.calendar.calendar.iter().cloned());
-        let out = OutDir::new(dir, &inputs)?;
+        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         match args.runs_format {
             super::analyze::TradesFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
             super::analyze::TradesFormat::Parquet => out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?,

@@ -1,11 +1,11 @@
 //! `eventfence tune`: sweep pre/post window lengths and find the windows
 //! that remove the damage at least cost.
 
-use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, ScenarioArgs, TerminalArgs, TradeArgs, WindowArgs};
+use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use crate::calendar::Tier;
 use crate::output::OutDir;
 use crate::report::{CAUTION, ToolInfo};
-use anyhow::{Result, bail};
+use anyhow::Result;
 use clap::Args;
 use serde::Serialize;
 use std::path::PathBuf;
@@ -19,13 +19,7 @@ use std::path::PathBuf;
 #[derive(Debug, Args)]
 pub struct TuneArgs {
     #[command(flatten)]
-    pub trades: TradeArgs,
-    #[command(flatten)]
-    pub calendar: CalendarArgs,
-    #[command(flatten)]
-    pub instruments: InstrumentArgs,
-    #[command(flatten)]
-    pub rows: RowArgs,
+    pub input: InputArgs,
     #[command(flatten)]
     pub windows: WindowArgs,
     #[command(flatten)]
@@ -63,9 +57,6 @@ pub struct TuneReport {
 }
 
 pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
-    if args.trades.trades.is_empty() || args.calendar.calendar.is_empty() {
-        bail!("tune needs --trades and --calendar");
-    }
     let pre = crate::tune::parse_range(&args.pre).map_err(|e| anyhow::anyhow!("--pre {e}"))?;
     let post = crate::tune::parse_range(&args.post).map_err(|e| anyhow::anyhow!("--post {e}"))?;
     let tier = match &args.tier {
@@ -73,21 +64,17 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         Some(t) => Some(Tier::parse(t).ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?),
     };
     let settings = args.scenario.settings(&args.windows)?;
-    let trade_opts = common::trade_options(&args.trades, &args.rows)?;
-    let (trades, summary) = common::load_trades(&args.trades, &trade_opts)?;
-    let cal_opts = common::calendar_options(&args.calendar, &args.rows, args.trades.delimiter, trades.span())?;
-    let cal = common::load_calendar(&args.calendar, &cal_opts)?;
-    let currencies = common::instrument_currencies(&args.instruments, &trades, &common::calendar_currencies(&cal))?;
-    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let loaded = args.input.load("tune")?;
+    let trades = &loaded.trades;
+    let cal = &loaded.calendar;
+    let cur = loaded.currency_lists();
     let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
-    let result = crate::tune::tune(&trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1));
+    let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1));
     pb.finish_and_clear();
     let report = TuneReport { tool: ToolInfo::current(), settings, result, caution: CAUTION };
     let json = serde_json::to_string_pretty(&report)?;
     if let Some(dir) = &args.out {
-        let mut inputs: Vec<PathBuf> = summary.files.iter().map(PathBuf::from).collect();
-        inputs.extend(args.calendar.calendar.iter().cloned());
-        let out = OutDir::new(dir, &inputs)?;
+        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         out.write("grid.csv", &crate::render::files::grid_csv(&report.result.cells))?;
         out.write("tune.json", json.as_bytes())?;
         let res = &report.result;
