@@ -42,7 +42,13 @@ fn count(svg: &str, tag: &str, stroke: &str) -> usize {
 fn every_chart_renders_with_its_series() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("a");
-    demo("analyze", &out, &["--placebo", "19", "--bootstrap", "20"]);
+    demo("analyze", &out, &["--placebo", "19", "--bootstrap", "20", "--png"]);
+    for id in ["tail", "equity", "by-category", "by-currency", "scatter"] {
+        // PNG signature, then the IHDR width (760 px) as a big-endian u32.
+        let png = std::fs::read(out.join(format!("chart-{id}.png"))).unwrap();
+        assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n", "{id}");
+        assert_eq!(u32::from_be_bytes(png[16..20].try_into().unwrap()), 760, "{id}");
+    }
     let tail = svg(&out.join("chart-tail.svg"));
     let t = texts(&tail);
     for label in ["baseline", "removed", "exposed trade"] {

@@ -28,6 +28,8 @@ pub struct AnalyzeArgs {
     pub chance: ChanceArgs,
     #[command(flatten)]
     pub terminal: TerminalArgs,
+    #[command(flatten)]
+    pub charts: common::ChartArgs,
     /// Print summary JSON to stdout instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -49,7 +51,7 @@ pub enum TradesFormat {
 pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     // Resolve every flag before reading data.
     let settings = args.scenario.settings(&args.windows)?;
-    let loaded = args.input.load("analyze")?;
+    let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
     let (result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings)?;
     let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
@@ -84,7 +86,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         };
         let figures = crate::render::charts::analyze_figures(&data).map_err(anyhow::Error::msg)?;
         for f in &figures {
-            out.write(&format!("chart-{}.svg", f.id), f.svg.as_bytes())?;
+            common::write_chart(&out, f.id, &f.svg, &args.charts)?;
         }
         out.write("report.html", crate::render::html::analyze_report(&summary, &figures).as_bytes())?;
         out.write("summary.json", json.as_bytes())?;

@@ -289,6 +289,19 @@ pub struct TerminalArgs {
     pub quiet: bool,
 }
 
+/// A spinner on stderr (terminal only, not under --quiet) for steps of
+/// unknown length such as reading a large file.
+pub fn spinner(t: &TerminalArgs, what: &str) -> indicatif::ProgressBar {
+    use std::io::IsTerminal;
+    if t.quiet || !std::io::stderr().is_terminal() {
+        return indicatif::ProgressBar::hidden();
+    }
+    let pb = indicatif::ProgressBar::new_spinner();
+    pb.set_message(what.to_string());
+    pb.enable_steady_tick(std::time::Duration::from_millis(120));
+    pb
+}
+
 /// A progress bar on stderr when it is a terminal and --quiet is not given;
 /// hidden otherwise.
 pub fn progress_bar(t: &TerminalArgs, len: u64, what: &str) -> indicatif::ProgressBar {
@@ -338,12 +351,14 @@ impl Loaded {
 impl InputArgs {
     /// Reads trades, then the calendar over the trades' span, then resolves
     /// instrument currencies. `command` names the subcommand in errors.
-    pub fn load(&self, command: &str) -> Result<Loaded> {
+    pub fn load(&self, command: &str, terminal: &TerminalArgs) -> Result<Loaded> {
         if self.trades.trades.is_empty() || self.calendar.calendar.is_empty() {
             bail!("{command} needs --trades and --calendar");
         }
         let trade_opts = trade_options(&self.trades, &self.rows)?;
+        let spin = spinner(terminal, "reading trades");
         let (trades, trade_summary) = load_trades(&self.trades, &trade_opts)?;
+        spin.finish_and_clear();
         let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?;
         let calendar = load_calendar(&self.calendar, &cal_opts)?;
         let currencies = instrument_currencies(&self.instruments, &trades, &calendar_currencies(&calendar))?;
@@ -356,4 +371,25 @@ impl InputArgs {
         v.extend(self.calendar.calendar.iter().cloned());
         v
     }
+}
+
+/// Chart output options.
+#[derive(Debug, Clone, Args, Default)]
+pub struct ChartArgs {
+    /// Also write each chart as PNG beside its SVG (needs a system font for
+    /// the text, e.g. Debian's fonts-dejavu-core).
+    #[arg(long)]
+    pub png: bool,
+}
+
+/// Writes `chart-ID.svg` (and `.png` when asked) into the output folder.
+pub fn write_chart(out: &crate::output::OutDir, id: &str, svg: &str, charts: &ChartArgs) -> Result<()> {
+    out.write(&format!("chart-{id}.svg"), svg.as_bytes())?;
+    if charts.png {
+        if !crate::render::png::have_fonts() {
+            eprintln!("eventfence: no system fonts found; chart-{id}.png has no text");
+        }
+        out.write(&format!("chart-{id}.png"), &crate::render::png::svg_to_png(svg).map_err(anyhow::Error::msg)?)?;
+    }
+    Ok(())
 }

@@ -27,6 +27,8 @@ pub struct RankArgs {
     pub scenario: ScenarioArgs,
     #[command(flatten)]
     pub terminal: TerminalArgs,
+    #[command(flatten)]
+    pub charts: common::ChartArgs,
     /// Figure to rank by.
     #[arg(long, value_enum, default_value_t = RankBy::Sharpe)]
     pub by: RankBy,
@@ -76,7 +78,7 @@ pub struct RankReport {
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let settings = args.scenario.settings(&args.windows)?;
-    let loaded = args.input.load("rank")?;
+    let loaded = args.input.load("rank", &args.terminal)?;
     let trades = &loaded.trades;
     if !trades.has_runs() {
         bail!("the trades have no runs: map a run column (--map run=<column>) or give one file per run");
@@ -104,7 +106,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         };
         let pts: Vec<(usize, usize, String)> = rows.iter().map(|r| (r.rank_baseline, r.rank_removed, r.run.clone())).collect();
         let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades").map_err(anyhow::Error::msg)?;
-        out.write("chart-rank-shift.svg", svg.as_bytes())?;
+        common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
         let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs", rows.len()), &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;

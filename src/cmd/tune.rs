@@ -26,6 +26,8 @@ pub struct TuneArgs {
     pub scenario: ScenarioArgs,
     #[command(flatten)]
     pub terminal: TerminalArgs,
+    #[command(flatten)]
+    pub charts: common::ChartArgs,
     /// Minutes before the release: START..END/STEP.
     #[arg(long, value_name = "RANGE", default_value = "0..60/5")]
     pub pre: String,
@@ -64,7 +66,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         Some(t) => Some(Tier::parse(t).ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?),
     };
     let settings = args.scenario.settings(&args.windows)?;
-    let loaded = args.input.load("tune")?;
+    let loaded = args.input.load("tune", &args.terminal)?;
     let trades = &loaded.trades;
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
@@ -81,7 +83,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         let cell = |a: usize, b: usize| &res.cells[a * res.post.len() + b];
         let svg = crate::render::charts::heatmap(&res.pre, &res.post, &|a, b| cell(a, b).tcr_reduction, &|a, b| cell(a, b).frontier, "Tail reduction by window (frontier outlined)")
             .map_err(anyhow::Error::msg)?;
-        out.write("chart-tune.svg", svg.as_bytes())?;
+        common::write_chart(&out, "tune", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
         let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells", res.pre.len(), res.post.len()), &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;

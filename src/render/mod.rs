@@ -4,5 +4,6 @@
 pub mod charts;
 pub mod files;
 pub mod html;
+pub mod png;
 pub mod schedule;
 pub mod table;
