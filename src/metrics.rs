@@ -14,7 +14,6 @@
 //! A figure that cannot be computed is `None` (JSON `null`), never invented.
 
 use crate::zones::{DAY_MS, Zone};
-use chrono::{Datelike, NaiveDate, Weekday};
 use serde::Serialize;
 
 /// Trading days per year used to annualise daily ratios (empyrical's
@@ -181,38 +180,17 @@ pub fn quantile_type7(sorted: &[f64], q: f64) -> Option<f64> {
     Some(sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]))
 }
 
-/// The day a close counts on: its local date, moved to Monday when it falls
-/// on a weekend.
-fn trading_day(zone: &Zone, ms: i64) -> NaiveDate {
-    let mut d = zone.local_date(ms);
-    while matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
-        d = d.succ_opt().expect("date in range");
-    }
-    d
-}
-
 /// Daily P/L (or returns when equity is known) over the weekdays of the
-/// span in the report zone.
+/// span in the report zone. A close on a weekend counts on the next Monday.
 pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
-    let first = ctx.report_zone.local_date(ctx.span.0);
-    let mut last = ctx.report_zone.local_date(ctx.span.1);
-    while matches!(last.weekday(), Weekday::Sat | Weekday::Sun) {
-        last = last.succ_opt().expect("date in range");
-    }
-    let mut day_index = Vec::new();
-    let mut d = first;
-    let mut idx = std::collections::HashMap::new();
-    while d <= last {
-        if !matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
-            idx.insert(d, day_index.len());
-            day_index.push(d);
-        }
-        d = d.succ_opt().expect("date in range");
-    }
-    let mut pnl = vec![0.0; day_index.len()];
+    use crate::zones::{local_day, weekday_index};
+    let z = &ctx.report_zone;
+    let first = weekday_index(local_day(z, ctx.span.0));
+    let last = weekday_index(local_day(z, ctx.span.1));
+    let n = (last - first + 1).max(0) as usize;
+    let mut pnl = vec![0.0; n];
     for (p, &cl) in c.pnl.iter().zip(c.closed) {
-        let day = trading_day(&ctx.report_zone, cl);
-        let i = idx.get(&day).copied().unwrap_or(day_index.len().saturating_sub(1));
+        let i = (weekday_index(local_day(z, cl)) - first).clamp(0, n as i64 - 1) as usize;
         if let Some(slot) = pnl.get_mut(i) {
             *slot += p;
         }

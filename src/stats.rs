@@ -11,7 +11,7 @@ use crate::metrics::{self, Context, Curve, quantile_type7};
 use crate::scenarios::{self, ScenarioSettings, TradeView};
 use crate::trades::Trades;
 use crate::zones::DAY_MS;
-use chrono::{Datelike, Days, NaiveDate, Weekday};
+use chrono::NaiveDate;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
@@ -50,22 +50,13 @@ pub fn default_hill_k(n: usize) -> usize {
     ((n as f64).sqrt() as usize).max(1)
 }
 
-/// Weekday number of a date (Mondays to Fridays counted from 1970-01-05);
-/// Saturdays and Sundays count as the following Monday.
 fn weekday_index(d: NaiveDate) -> i64 {
-    let base = NaiveDate::from_ymd_opt(1970, 1, 5).expect("a Monday");
-    let mut d = d;
-    while matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
-        d = d + Days::new(1);
-    }
-    let days = (d - base).num_days();
-    days.div_euclid(7) * 5 + days.rem_euclid(7)
+    let days = (d - NaiveDate::from_ymd_opt(1970, 1, 1).expect("epoch")).num_days();
+    crate::zones::weekday_index(days)
 }
 
 fn date_of_weekday_index(w: i64) -> NaiveDate {
-    let base = NaiveDate::from_ymd_opt(1970, 1, 5).expect("a Monday");
-    let days = w.div_euclid(5) * 7 + w.rem_euclid(5);
-    base + chrono::Duration::days(days)
+    NaiveDate::from_ymd_opt(1970, 1, 1).expect("epoch") + chrono::Duration::days(crate::zones::day_of_weekday_index(w))
 }
 
 /// Placebo settings.
@@ -325,6 +316,7 @@ pub const BOOTSTRAP_METHOD: &str = "trades resampled with replacement, keeping t
 #[cfg(test)]
 mod tests {
     use super::*;
+    use chrono::{Datelike, Days, Weekday};
 
     /// REFERENCES.md §5.1 check values: [8,4,2,1], k=3 → H = 2 ln 2,
     /// α̂ = 0.7213475204444817; ideal Pareto quantiles x(i) = (n/i)^(1/α),

@@ -196,8 +196,8 @@ pub fn expand_paths(specs: &[String]) -> Result<Vec<PathBuf>, TradeError> {
 pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSummary), TradeError> {
     let mut trades = Trades::default();
     let mut summary = TradeSummary::default();
-    let mut instruments: HashMap<String, u32> = HashMap::new();
-    let mut runs: HashMap<String, u32> = HashMap::new();
+    let mut instruments = Interner::default();
+    let mut runs = Interner::default();
     let run_per_file = paths.len() > 1;
     for (fi, path) in paths.iter().enumerate() {
         let table = Table::read(path, opts.delimiter)
@@ -267,8 +267,8 @@ fn read_table(
     opts: &TradeOptions,
     trades: &mut Trades,
     summary: &mut TradeSummary,
-    instruments: &mut HashMap<String, u32>,
-    runs: &mut HashMap<String, u32>,
+    instruments: &mut Interner,
+    runs: &mut Interner,
 ) -> Result<(), TradeError> {
     let opened = col(table, path, opts, "opened_at")?.expect("required");
     let closed = col(table, path, opts, "closed_at")?.expect("required");
@@ -338,16 +338,16 @@ fn read_table(
                     "closes at {} before it opens at {}", crate::zones::format_utc(c), crate::zones::format_utc(o)
                 )));
             }
-            let inst = match instrument.get(i) {
-                Cell::Str(s) if !s.trim().is_empty() => s.trim().to_string(),
-                Cell::Num(v) => v.to_string(),
+            let inst: std::borrow::Cow<str> = match instrument.get(i) {
+                Cell::Str(s) if !s.trim().is_empty() => s.trim().into(),
+                Cell::Num(v) => v.to_string().into(),
                 _ => return Err(row_err("instrument", "missing_value", "empty")),
             };
             let p = number(&pnl, i, "pnl", true)?;
             let r = match &run {
                 Some(rc) => match rc.get(i) {
-                    Cell::Str(s) if !s.trim().is_empty() => Some(s.trim().to_string()),
-                    Cell::Num(v) => Some(format_run_number(v)),
+                    Cell::Str(s) if !s.trim().is_empty() => Some(std::borrow::Cow::Borrowed(s.trim())),
+                    Cell::Num(v) => Some(format_run_number(v).into()),
                     _ => return Err(row_err("run", "missing_value", "empty")),
                 },
                 None => None,
@@ -425,7 +425,27 @@ fn optional_slot<'a>(t: &'a mut Trades, field: &str) -> &'a mut Option<Vec<f64>>
     }
 }
 
-fn intern(map: &mut HashMap<String, u32>, s: &str) -> u32 {
+/// FNV-1a: a fast hash for interning short codes (instrument and run
+/// names), where SipHash's protection against crafted keys is not needed.
+#[derive(Default, Clone, Copy)]
+pub struct Fnv(u64);
+
+impl std::hash::Hasher for Fnv {
+    fn finish(&self) -> u64 {
+        self.0
+    }
+    fn write(&mut self, bytes: &[u8]) {
+        let mut h = if self.0 == 0 { 0xcbf2_9ce4_8422_2325 } else { self.0 };
+        for &b in bytes {
+            h = (h ^ b as u64).wrapping_mul(0x100_0000_01b3);
+        }
+        self.0 = h;
+    }
+}
+
+type Interner = HashMap<String, u32, std::hash::BuildHasherDefault<Fnv>>;
+
+fn intern(map: &mut Interner, s: &str) -> u32 {
     if let Some(&i) = map.get(s) {
         return i;
     }

@@ -269,6 +269,24 @@ impl Zone {
     }
 }
 
+/// Local day number (days since 1970-01-01 on this zone's clock) of an instant.
+pub fn local_day(zone: &Zone, ms: i64) -> i64 {
+    (ms + zone.offset_at(ms) as i64 * 1000).div_euclid(DAY_MS)
+}
+
+/// Weekday number of a day number: Mondays to Fridays counted from Monday
+/// 1970-01-05 (day 4); a Saturday or Sunday counts as the following Monday.
+pub fn weekday_index(day: i64) -> i64 {
+    let d = day - 4;
+    let (week, dow) = (d.div_euclid(7), d.rem_euclid(7));
+    if dow >= 5 { (week + 1) * 5 } else { week * 5 + dow }
+}
+
+/// Day number of a weekday number (inverse of [`weekday_index`] on weekdays).
+pub fn day_of_weekday_index(w: i64) -> i64 {
+    w.div_euclid(5) * 7 + w.rem_euclid(5) + 4
+}
+
 /// RFC 3339 UTC text (`2024-03-08T13:30:00Z`) of an instant. Written by
 /// hand rather than with a strftime pattern: it runs twice per trade when
 /// the annotated trade file is written.
