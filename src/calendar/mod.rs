@@ -27,9 +27,11 @@ pub enum Tier {
 impl Tier {
     pub fn parse(s: &str) -> Option<Tier> {
         match s.trim().to_ascii_lowercase().as_str() {
-            "high" | "h" | "3" => Some(Tier::High),
-            "medium" | "med" | "m" | "2" => Some(Tier::Medium),
-            "low" | "l" | "1" => Some(Tier::Low),
+            // No numeric aliases: "1" means highest in RFC 5545 PRIORITY
+            // but lowest on many 1–3 scales, so a number is refused.
+            "high" | "h" => Some(Tier::High),
+            "medium" | "med" | "m" => Some(Tier::Medium),
+            "low" | "l" => Some(Tier::Low),
             _ => None,
         }
     }
@@ -267,6 +269,14 @@ mod tests {
     fn currency_list_is_sorted_for_binary_search() {
         assert!(ISO_4217.windows(2).all(|w| w[0] < w[1]));
         assert!(is_currency("usd") && is_currency("XAU") && !is_currency("CPI"));
+    }
+
+    #[test]
+    fn tier_words_only() {
+        assert_eq!(Tier::parse(" High "), Some(Tier::High));
+        assert_eq!(Tier::parse("med"), Some(Tier::Medium));
+        assert_eq!(Tier::parse("1"), None);
+        assert_eq!(Tier::parse("3"), None);
     }
 
     #[test]
