@@ -235,7 +235,14 @@ fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
 
 /// Union length of [open, close] intervals.
 fn union_length(opened: &[i64], closed: &[i64]) -> i64 {
-    let mut iv: Vec<(i64, i64)> = opened.iter().copied().zip(closed.iter().copied()).collect();
+    union_within(opened.iter().copied().zip(closed.iter().copied()).collect(), None)
+}
+
+/// Union length of intervals, each first clipped to `clip` when given.
+pub fn union_within(mut iv: Vec<(i64, i64)>, clip: Option<(i64, i64)>) -> i64 {
+    if let Some((lo, hi)) = clip {
+        iv = iv.into_iter().map(|(a, b)| (a.max(lo), b.min(hi))).filter(|(a, b)| b > a).collect();
+    }
     iv.sort_unstable();
     let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
     for (a, b) in iv {
@@ -248,10 +255,7 @@ fn union_length(opened: &[i64], closed: &[i64]) -> i64 {
             None => Some((a, b)),
         };
     }
-    if let Some((s, e)) = cur {
-        total += e - s;
-    }
-    total
+    total + cur.map_or(0, |(s, e)| e - s)
 }
 
 /// All figures for one scenario.
@@ -383,5 +387,6 @@ mod tests {
         // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
         assert_eq!(longest_drawdown_days(&Curve { pnl: &pnl, opened: &t, closed: &t }, &ctx), 9.0);
         assert_eq!(union_length(&[0, 5, 20], &[10, 12, 25]), 17);
+        assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))), 25);
     }
 }

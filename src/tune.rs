@@ -90,26 +90,6 @@ fn weekday_ms(span: (i64, i64)) -> i64 {
     total
 }
 
-fn union_within(mut iv: Vec<(i64, i64)>, span: (i64, i64)) -> i64 {
-    iv.sort_unstable();
-    let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
-    for (a, b) in iv {
-        let (a, b) = (a.max(span.0), b.min(span.1));
-        if b <= a {
-            continue;
-        }
-        cur = match cur {
-            Some((s, e)) if a <= e => Some((s, e.max(b))),
-            Some((s, e)) => {
-                total += e - s;
-                Some((a, b))
-            }
-            None => Some((a, b)),
-        };
-    }
-    total + cur.map_or(0, |(s, e)| e - s)
-}
-
 /// Sweeps the grid.
 #[allow(clippy::too_many_arguments)]
 pub fn tune(
@@ -152,7 +132,7 @@ pub fn tune(
                 }
             }
             let m = metrics::compute(&Curve { pnl: &pnl, opened: &op, closed: &cl }, &ctx);
-            let blocked = union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), span);
+            let blocked = metrics::union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), Some(span));
             progress();
             Cell {
                 pre_min: a,
@@ -211,10 +191,9 @@ mod tests {
     }
 
     #[test]
-    fn weekday_time_and_union() {
+    fn weekday_time() {
         // 2024-03-08 (Fri) 00:00Z to 2024-03-11 (Mon) 12:00Z: Friday + half Monday.
         let fri = 1_709_856_000_000;
         assert_eq!(weekday_ms((fri, fri + 3 * DAY_MS + DAY_MS / 2)), DAY_MS + DAY_MS / 2);
-        assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], (0, 35)), 25);
     }
 }
