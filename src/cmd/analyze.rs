@@ -94,7 +94,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     if args.json {
         crate::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        crate::output::stdout(crate::render::table::analyze(&summary).as_bytes())?;
+        crate::output::stdout(crate::render::term::emphasise(&crate::render::table::analyze(&summary), crate::render::term::use_colour()).as_bytes())?;
         if let Some(dir) = &args.out {
             let ext = if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" };
             crate::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;

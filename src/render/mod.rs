@@ -7,3 +7,4 @@ pub mod html;
 pub mod png;
 pub mod schedule;
 pub mod table;
+pub mod term;

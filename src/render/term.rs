@@ -1,0 +1,45 @@
+//! Terminal emphasis: bold for the one-sentence answer, bold blue for
+//! warnings — only on a terminal and never when NO_COLOR is set
+//! (https://no-color.org convention: any non-empty value).
+
+use std::io::IsTerminal;
+
+/// Whether stdout gets colour.
+pub fn use_colour() -> bool {
+    std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()) && std::io::stdout().is_terminal()
+}
+
+/// Adds emphasis to a rendered report when `colour` is true.
+pub fn emphasise(text: &str, colour: bool) -> String {
+    if !colour {
+        return text.to_string();
+    }
+    let mut out = String::with_capacity(text.len() + 64);
+    for line in text.split_inclusive('\n') {
+        let body = line.trim_end_matches('\n');
+        let nl = &line[body.len()..];
+        if body.starts_with("WARNING") {
+            out.push_str(&format!("\x1b[1;34m{body}\x1b[0m{nl}"));
+        } else if body.contains(" were exposed to ") {
+            out.push_str(&format!("\x1b[1m{body}\x1b[0m{nl}"));
+        } else {
+            out.push_str(line);
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn emphasis_only_when_asked() {
+        let t = "head\nWARNING COVERAGE: x\n3 of 9 trades (33.3 %) were exposed to 2 of 4 used releases\n";
+        assert_eq!(emphasise(t, false), t);
+        let c = emphasise(t, true);
+        assert!(c.contains("\x1b[1;34mWARNING COVERAGE: x\x1b[0m\n"));
+        assert!(c.contains("\x1b[1m3 of 9 trades"));
+        assert!(c.starts_with("head\n"));
+    }
+}
