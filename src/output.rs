@@ -22,6 +22,15 @@ impl OutDir {
     /// Creates the folder if needed.
     pub fn new(dir: &Path, inputs: &[PathBuf]) -> Result<OutDir, OutputError> {
         std::fs::create_dir_all(dir).map_err(|source| OutputError::Io { path: dir.into(), source })?;
+        // Temp files left by a run that was killed mid-write: only ever ours.
+        if let Ok(entries) = std::fs::read_dir(dir) {
+            for e in entries.flatten() {
+                let name = e.file_name().to_string_lossy().into_owned();
+                if is_temp_name(&name) {
+                    let _ = std::fs::remove_file(e.path());
+                }
+            }
+        }
         let inputs = inputs.iter().filter_map(|p| std::fs::canonicalize(p).ok()).collect();
         Ok(OutDir { dir: dir.into(), inputs })
     }
@@ -50,6 +59,12 @@ impl OutDir {
     }
 }
 
+/// `.NAME.tmp-PID`, the shape of [`OutDir::write`]'s temp files.
+fn is_temp_name(name: &str) -> bool {
+    name.starts_with('.')
+        && name.rsplit_once(".tmp-").is_some_and(|(_, pid)| !pid.is_empty() && pid.bytes().all(|b| b.is_ascii_digit()))
+}
+
 /// Writes to stdout, returning an error (not panicking) when the reader has
 /// gone away; `main` treats a closed pipe as success.
 pub fn stdout(text: &[u8]) -> std::io::Result<()> {
@@ -75,5 +90,10 @@ mod tests {
         assert_eq!(std::fs::read_to_string(dir.path().join("summary.json")).unwrap(), "{\"a\":1}");
         let leftovers: Vec<_> = std::fs::read_dir(dir.path()).unwrap().filter_map(Result::ok).filter(|e| e.file_name().to_string_lossy().contains(".tmp-")).collect();
         assert!(leftovers.is_empty());
+        // A killed run's temp file is swept by the next run.
+        std::fs::write(dir.path().join(".summary.json.tmp-999999"), "{\"half").unwrap();
+        OutDir::new(dir.path(), &[]).unwrap();
+        assert!(!dir.path().join(".summary.json.tmp-999999").exists());
+        assert!(is_temp_name(".trades.csv.tmp-42") && !is_temp_name("trades.csv") && !is_temp_name(".x.tmp-abc"));
     }
 }
