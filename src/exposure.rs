@@ -100,9 +100,6 @@ pub struct Exposure {
 }
 
 impl Exposure {
-    pub fn exposed(&self, i: usize) -> bool {
-        self.k[i] > 0
-    }
     pub fn matches(&self, i: usize) -> &[u32] {
         &self.match_release[self.match_ptr[i] as usize..self.match_ptr[i + 1] as usize]
     }

@@ -138,7 +138,7 @@ mod tests {
         let w = build(&rs, &inst, &s);
         assert_eq!(w[0].start / MINUTE_MS, 995);
         assert_eq!(w[0].end / MINUTE_MS, 1005);
-        assert_eq!(w[0].uid(), w[0].uid());
-        assert!(w[0].uid().starts_with("EURUSD-"));
+        // Instrument + first release instant (minute 1000 = 1970-01-01T16:40Z).
+        assert_eq!(w[0].uid(), "EURUSD-19700101T164000Z@eventfence");
     }
 }

@@ -15,9 +15,8 @@ use chrono_tz::Tz;
 use std::fmt;
 use std::str::FromStr;
 
-/// Milliseconds in one minute, hour and day.
+/// Milliseconds in one minute and one day.
 pub const MINUTE_MS: i64 = 60_000;
-pub const HOUR_MS: i64 = 3_600_000;
 pub const DAY_MS: i64 = 86_400_000;
 
 /// Errors from parsing a zone spec or converting a local time.
