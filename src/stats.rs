@@ -11,7 +11,6 @@ use crate::metrics::{self, Context, Curve, quantile_type7};
 use crate::scenarios::{self, ScenarioSettings, TradeView};
 use crate::trades::Trades;
 use crate::zones::DAY_MS;
-use chrono::NaiveDate;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
@@ -48,15 +47,6 @@ pub fn hill(values: &[f64], k: usize) -> Option<HillEstimate> {
 /// REFERENCES.md §5.1), at least 1.
 pub fn default_hill_k(n: usize) -> usize {
     ((n as f64).sqrt() as usize).max(1)
-}
-
-fn weekday_index(d: NaiveDate) -> i64 {
-    let days = (d - NaiveDate::from_ymd_opt(1970, 1, 1).expect("epoch")).num_days();
-    crate::zones::weekday_index(days)
-}
-
-fn date_of_weekday_index(w: i64) -> NaiveDate {
-    NaiveDate::from_ymd_opt(1970, 1, 1).expect("epoch") + chrono::Duration::days(crate::zones::day_of_weekday_index(w))
 }
 
 /// Placebo settings.
@@ -149,14 +139,16 @@ pub fn placebo(
     for v in series.values_mut() {
         v.sort_unstable();
     }
+    // Per window, once: its weekday number, time of day, and the sorted
+    // real instants of its series (looked up here, not per placebo).
     let wd: Vec<(i64, i64)> = windows
         .iter()
         .map(|w| {
             let day = w.at.div_euclid(DAY_MS);
-            let date = crate::zones::ms_to_naive(day * DAY_MS).date();
-            (weekday_index(date), w.at - day * DAY_MS)
+            (crate::zones::weekday_index(day), w.at - day * DAY_MS)
         })
         .collect();
+    let real_of: Vec<&[i64]> = windows.iter().map(|w| series[&series_of(&releases[w.release as usize])].as_slice()).collect();
     let w0 = wd.iter().map(|x| x.0).min().expect("non-empty");
     let span = wd.iter().map(|x| x.0).max().expect("non-empty") - w0 + 1;
     let mut rng = ChaCha8Rng::seed_from_u64(s.seed);
@@ -168,12 +160,9 @@ pub fn placebo(
         .map(|&d| {
             let mut moved = Vec::with_capacity(windows.len());
             let mut dropped = 0;
-            for (w, &(idx, tod)) in windows.iter().zip(&wd) {
+            for ((w, &(idx, tod)), real) in windows.iter().zip(&wd).zip(&real_of) {
                 let new_idx = w0 + (idx - w0 + d).rem_euclid(span);
-                let date = date_of_weekday_index(new_idx);
-                let new_at = crate::zones::naive_to_ms(&date.and_time(chrono::NaiveTime::MIN)) + tod;
-                let key = series_of(&releases[w.release as usize]);
-                let real = &series[&key];
+                let new_at = crate::zones::day_of_weekday_index(new_idx) * DAY_MS + tod;
                 let p = real.partition_point(|&t| t < new_at - DAY_MS);
                 if real.get(p).is_some_and(|&t| t <= new_at + DAY_MS) {
                     dropped += 1;
@@ -316,7 +305,7 @@ pub const BOOTSTRAP_METHOD: &str = "trades resampled with replacement, keeping t
 #[cfg(test)]
 mod tests {
     use super::*;
-    use chrono::{Datelike, Days, Weekday};
+    use chrono::{Datelike, Days, NaiveDate, Weekday};
 
     /// REFERENCES.md §5.1 check values: [8,4,2,1], k=3 → H = 2 ln 2,
     /// α̂ = 0.7213475204444817; ideal Pareto quantiles x(i) = (n/i)^(1/α),
@@ -352,15 +341,17 @@ mod tests {
 
     #[test]
     fn weekday_arithmetic_round_trips() {
-        let fri = NaiveDate::from_ymd_opt(2024, 3, 8).unwrap();
+        use crate::zones::{day_of_weekday_index, weekday_index};
+        let days = |d: NaiveDate| (d - NaiveDate::from_ymd_opt(1970, 1, 1).unwrap()).num_days();
+        let fri = days(NaiveDate::from_ymd_opt(2024, 3, 8).unwrap());
         let w = weekday_index(fri);
-        assert_eq!(date_of_weekday_index(w), fri);
-        assert_eq!(date_of_weekday_index(w + 1), NaiveDate::from_ymd_opt(2024, 3, 11).unwrap());
-        assert_eq!(weekday_index(NaiveDate::from_ymd_opt(2024, 3, 9).unwrap()), w + 1);
+        assert_eq!(day_of_weekday_index(w), fri);
+        assert_eq!(day_of_weekday_index(w + 1), days(NaiveDate::from_ymd_opt(2024, 3, 11).unwrap()));
+        assert_eq!(weekday_index(fri + 1), w + 1, "Saturday counts as Monday");
         for d in 0..3000 {
             let date = NaiveDate::from_ymd_opt(2018, 1, 1).unwrap() + Days::new(d);
             if !matches!(date.weekday(), Weekday::Sat | Weekday::Sun) {
-                assert_eq!(date_of_weekday_index(weekday_index(date)), date);
+                assert_eq!(day_of_weekday_index(weekday_index(days(date))), days(date));
             }
         }
     }
