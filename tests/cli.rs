@@ -132,6 +132,11 @@ fn flags_and_unmapped_instruments_fail_clearly() {
     assert!(stderr(&o).contains("--trades-tz: unknown time zone 'Mars/Olympus'"), "{}", stderr(&o));
     let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
     assert!(stderr(&o).contains("no currencies known for instrument(s) US500"), "{}", stderr(&o));
+    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
+    assert_eq!(o.status.code(), Some(3), "check lists unmapped instruments and exits 3");
+    assert!(String::from_utf8_lossy(&o.stdout).contains("no currencies known for instrument(s) US500"));
+    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD"], dir.path());
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD", "--json"], dir.path());
     assert!(o.status.success(), "{}", stderr(&o));
     let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--map", "pnl=Profit"], dir.path());

@@ -1,9 +1,9 @@
 //! `eventfence check`: load trades and/or a calendar and show what was
 //! understood, so a user can fix mappings and zones before analysing.
 
-use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, TradeArgs};
+use super::common::{self, InputArgs, InstrumentArgs, RowArgs};
 use crate::calendar::{CalendarSummary, Tier};
-use crate::relevance::InstrumentCurrencies;
+use crate::relevance::{InstrumentCurrencies, RelevanceError, Source, Unmapped};
 use crate::report::{CAUTION, ToolInfo};
 use crate::trades::TradeSummary;
 use crate::zones::{Zone, format_utc};
@@ -20,13 +20,7 @@ use std::collections::BTreeMap;
 #[derive(Debug, Args)]
 pub struct CheckArgs {
     #[command(flatten)]
-    pub trades: TradeArgs,
-    #[command(flatten)]
-    pub calendar: CalendarArgs,
-    #[command(flatten)]
-    pub instruments: InstrumentArgs,
-    #[command(flatten)]
-    pub rows: RowArgs,
+    pub input: InputArgs,
     /// Print JSON instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -73,31 +67,33 @@ pub struct CheckReport {
 
 /// Exit status 0 when every row imported and every instrument resolved.
 pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
-    if args.trades.trades.is_empty() && args.calendar.calendar.is_empty() {
+    if args.input.trades.trades.is_empty() && args.input.calendar.calendar.is_empty() {
         bail!("nothing to check: give --trades and/or --calendar");
     }
     // check always reads past bad rows so it can list them all.
-    let rows = RowArgs { skip_bad_rows: true, ..args.rows.clone() };
+    let rows = RowArgs { skip_bad_rows: true, ..args.input.rows.clone() };
     let mut problems = Vec::new();
-    let trade_opts = common::trade_options(&args.trades, &rows)?;
-    let loaded = if args.trades.trades.is_empty() { None } else { Some(common::load_trades(&args.trades, &trade_opts)?) };
+    let trade_opts = common::trade_options(&args.input.trades, &rows)?;
+    let loaded = if args.input.trades.trades.is_empty() { None } else { Some(common::load_trades(&args.input.trades, &trade_opts)?) };
     let span = loaded.as_ref().and_then(|(t, _)| t.span());
-    let cal_opts = common::calendar_options(&args.calendar, &rows, args.trades.delimiter, span)?;
-    let cal = if args.calendar.calendar.is_empty() { None } else { Some(common::load_calendar(&args.calendar, &cal_opts)?) };
+    let cal_opts = common::calendar_options(&args.input.calendar, &rows, args.input.trades.delimiter, span)?;
+    let cal = if args.input.calendar.calendar.is_empty() { None } else { Some(common::load_calendar(&args.input.calendar, &cal_opts)?) };
     let cal_currencies = cal.as_ref().map(common::calendar_currencies).unwrap_or_default();
 
-    let trades = loaded.map(|(t, import)| {
+    let mut trades = None;
+    if let Some((t, import)) = loaded {
         let counts = crate::relevance::trades_per_instrument(&t.instrument, &t.instruments);
-        let resolved = match common::instrument_currencies(&args.instruments, &t, &cal_currencies) {
-            Ok(r) => r,
-            Err(e) => {
-                problems.push(format!("{e:#}"));
-                let lenient = InstrumentArgs { unmapped: crate::relevance::Unmapped::None, ..args.instruments.clone() };
-                common::instrument_currencies(&lenient, &t, &cal_currencies).unwrap_or_default()
-            }
-        };
+        // Unmapped instruments are listed as a problem here, not fatal.
+        let strict = args.input.instruments.unmapped == Unmapped::Error;
+        let policy = InstrumentArgs { unmapped: if strict { Unmapped::None } else { args.input.instruments.unmapped }, ..args.input.instruments.clone() };
+        let resolved = common::instrument_currencies(&policy, &t.instruments, &cal_currencies)?;
+        let mut missing: Vec<String> = resolved.iter().filter(|c| c.source == Source::NoCurrencies).map(|c| c.instrument.clone()).collect();
+        if strict && !missing.is_empty() {
+            missing.sort();
+            problems.push(RelevanceError::Unmapped(missing.join(", ")).to_string());
+        }
         let zone = trade_opts.zone;
-        TradesOverview {
+        trades = Some(TradesOverview {
             import,
             input_zone: zone,
             span_utc: t.span().map(|(a, b)| [format_utc(a), format_utc(b)]),
@@ -107,8 +103,8 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
                 .into_iter()
                 .map(|c| InstrumentLine { trades: counts.get(&c.instrument).copied().unwrap_or(0), currencies: c })
                 .collect(),
-        }
-    });
+        });
+    }
     let calendar = cal.map(|c| {
         let mut by: BTreeMap<String, BTreeMap<Tier, usize>> = BTreeMap::new();
         for r in &c.releases {

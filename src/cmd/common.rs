@@ -174,13 +174,13 @@ pub fn calendar_currencies(cal: &Calendar) -> Vec<String> {
 }
 
 /// Resolves instrument currencies from the flags.
-pub fn instrument_currencies(i: &InstrumentArgs, trades: &Trades, cal_currencies: &[String]) -> Result<Vec<InstrumentCurrencies>> {
+pub fn instrument_currencies(i: &InstrumentArgs, instruments: &[String], cal_currencies: &[String]) -> Result<Vec<InstrumentCurrencies>> {
     let mut map = HashMap::new();
     if let Some(p) = &i.instrument_map_file {
         map = relevance::load_instrument_map(p)?;
     }
     map.extend(relevance::parse_instrument_map(&i.instrument_map)?);
-    Ok(relevance::resolve(&trades.instruments, &map, i.unmapped, cal_currencies)?)
+    Ok(relevance::resolve(instruments, &map, i.unmapped, cal_currencies)?)
 }
 
 /// Release windows and the exposure rule.
@@ -361,7 +361,7 @@ impl InputArgs {
         spin.finish_and_clear();
         let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?;
         let calendar = load_calendar(&self.calendar, &cal_opts)?;
-        let currencies = instrument_currencies(&self.instruments, &trades, &calendar_currencies(&calendar))?;
+        let currencies = instrument_currencies(&self.instruments, &trades.instruments, &calendar_currencies(&calendar))?;
         Ok(Loaded { trades, trade_summary, calendar, currencies })
     }
 

@@ -91,8 +91,7 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     let cal = common::load_calendar(&args.calendar, &cal_opts)?;
     let mut pairs: Vec<(String, Vec<String>)> = Vec::new();
     if !args.instruments_list.is_empty() {
-        let fake = crate::trades::Trades { instruments: args.instruments_list.clone(), ..Default::default() };
-        for c in common::instrument_currencies(&args.instruments, &fake, &common::calendar_currencies(&cal))? {
+        for c in common::instrument_currencies(&args.instruments, &args.instruments_list, &common::calendar_currencies(&cal))? {
             pairs.push((c.instrument, c.currencies));
         }
     }
