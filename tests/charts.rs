@@ -1,24 +1,12 @@
 //! Charts and report from the demo: every SVG parses as XML and holds the
 //! expected series and labels; report.html is self-contained and small.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
+
+use std::path::Path;
 
 fn demo(cmd: &str, out: &Path, extra: &[&str]) {
-    let r = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
-    let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
-        .arg(cmd)
-        .arg("--trades")
-        .arg(r.join("demo/trades.csv"))
-        .args(["--trades-tz", "America/New_York+07:00", "--calendar"])
-        .arg(r.join("calendars/demo-usd.ics"))
-        .arg(r.join("calendars/demo-eur.csv"))
-        .arg(r.join("calendars/demo-gbp-jpy.ics"))
-        .args(["--calendar-tz", "Europe/Berlin", "--instrument-map", "US500=USD", "--out"])
-        .arg(out)
-        .args(extra)
-        .output()
-        .unwrap();
+    let o = common::demo(cmd).arg("--out").arg(out).args(extra).output().unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
 

@@ -1,16 +1,14 @@
 //! The real binary on small inputs: exit codes, error wording (file, row,
 //! field), JSON layout, and the bundled demo.
 
+mod common;
+
 use serde_json::Value;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Output};
 
 fn bin() -> Command {
     Command::new(env!("CARGO_BIN_EXE_eventfence"))
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
 fn run(args: &[&str], dir: &Path) -> Output {
@@ -23,31 +21,9 @@ fn stderr(o: &Output) -> String {
 
 const CAL: &str = "released_at,title,currency,tier,category\n2024-03-08 13:30,Jobs,USD,high,employment\n2024-03-12 12:30,Prices,USD,high,inflation\n";
 
-fn demo_args() -> Vec<String> {
-    let r = root();
-    let p = |s: &str| r.join(s).display().to_string();
-    vec![
-        "analyze".into(),
-        "--trades".into(),
-        p("demo/trades.csv"),
-        "--trades-tz".into(),
-        "America/New_York+07:00".into(),
-        "--calendar".into(),
-        p("calendars/demo-usd.ics"),
-        p("calendars/demo-eur.csv"),
-        p("calendars/demo-gbp-jpy.ics"),
-        "--calendar-tz".into(),
-        "Europe/Berlin".into(),
-        "--instrument-map-file".into(),
-        p("demo/instruments.json"),
-    ]
-}
-
 #[test]
 fn demo_analysis_shows_a_difference_and_carries_the_caution() {
-    let mut args = demo_args();
-    args.extend(["--json", "--placebo", "19", "--bootstrap", "10"].map(String::from));
-    let o = bin().args(&args).output().unwrap();
+    let o = common::demo("analyze").args(["--json", "--placebo", "19", "--bootstrap", "10"]).output().unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     for key in ["tool", "inputs", "settings", "exposure", "scenarios", "attribution", "runs", "caution"] {
@@ -77,9 +53,7 @@ fn demo_analysis_shows_a_difference_and_carries_the_caution() {
     let sum: f64 = j["attribution"]["by_release"].as_array().unwrap().iter().map(|r| r["attributed_pnl"].as_f64().unwrap()).sum();
     assert!((sum - en).abs() < 0.005);
 
-    let mut args = demo_args();
-    args.extend(["--placebo", "0", "--bootstrap", "0"].map(String::from));
-    let o = bin().args(&args).output().unwrap();
+    let o = common::demo("analyze").args(["--placebo", "0", "--bootstrap", "0"]).output().unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(text.contains("profit factor") && text.contains("not investment advice"));
     assert!(!text.contains('\u{1b}'), "no escape codes in piped output");
@@ -157,11 +131,7 @@ fn out_folder_never_overwrites_an_input() {
 
 #[test]
 fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
-    let mut args = demo_args();
-    args[0] = "rank".into();
-    let mut json_args = args.clone();
-    json_args.push("--json".into());
-    let o = bin().args(&json_args).output().unwrap();
+    let o = common::demo("rank").arg("--json").output().unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let runs = j["runs"].as_array().unwrap();
@@ -175,8 +145,7 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
         assert_eq!(r, (1..=50).collect::<Vec<_>>());
     }
     let dir = tempfile::tempdir().unwrap();
-    args.extend(["--out".to_string(), dir.path().display().to_string()]);
-    let o = bin().args(&args).output().unwrap();
+    let o = common::demo("rank").arg("--out").arg(dir.path()).output().unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(text.lines().all(|l| l.chars().count() <= 80), "table wider than 80 columns:\n{text}");
     let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
@@ -185,9 +154,7 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
 
 #[test]
 fn no_colour_codes_and_no_progress_bar_in_pipes() {
-    let mut args = demo_args();
-    args.extend(["--placebo", "5", "--bootstrap", "5"].map(String::from));
-    let o = bin().env("NO_COLOR", "1").args(&args).output().unwrap();
+    let o = common::demo("analyze").env("NO_COLOR", "1").args(["--placebo", "5", "--bootstrap", "5"]).output().unwrap();
     assert!(o.status.success());
     assert!(!o.stdout.contains(&0x1b) && !o.stderr.contains(&0x1b), "escape codes in output");
     assert!(o.stderr.is_empty(), "stderr is a pipe: no progress bar expected, got {}", stderr(&o));

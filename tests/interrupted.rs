@@ -1,28 +1,18 @@
 //! A run killed while writing its output folder leaves either the previous
 //! complete files or none: never a half-written file under a real name.
 
-use std::path::PathBuf;
-use std::process::{Command, Stdio};
+mod common;
+
+use std::process::Stdio;
 use std::time::Duration;
 
 #[test]
 fn killed_run_leaves_old_complete_outputs() {
-    let r = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
     let cmd = || {
-        let mut c = Command::new(env!("CARGO_BIN_EXE_eventfence"));
-        c.arg("analyze")
-            .arg("--trades")
-            .arg(r.join("demo/trades.csv"))
-            .args(["--trades-tz", "America/New_York+07:00", "--calendar"])
-            .arg(r.join("calendars/demo-usd.ics"))
-            .arg(r.join("calendars/demo-eur.csv"))
-            .arg(r.join("calendars/demo-gbp-jpy.ics"))
-            .args(["--calendar-tz", "Europe/Berlin", "--instrument-map", "US500=USD", "--placebo", "0", "--bootstrap", "0", "--out"])
-            .arg(&out)
-            .stdout(Stdio::null())
-            .stderr(Stdio::null());
+        let mut c = common::demo("analyze");
+        c.args(["--placebo", "0", "--bootstrap", "0", "--out"]).arg(&out).stdout(Stdio::null()).stderr(Stdio::null());
         c
     };
     assert!(cmd().status().unwrap().success());

@@ -2,15 +2,13 @@
 //! parser (the `icalendar` crate, not our own reader), stable UIDs, CSV
 //! round trip, and local times across DST changes in the output zone.
 
-use std::path::{Path, PathBuf};
+mod common;
+
+use std::path::Path;
 use std::process::Command;
 
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
 fn schedule(dir: &Path, extra: &[&str]) {
-    let r = root();
+    let r = common::root();
     let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
         .current_dir(dir)
         .arg("schedule")

@@ -1,24 +1,12 @@
 //! `eventfence tune` on the demo: a non-empty frontier, and cells that agree
 //! with `analyze` run at the same windows.
 
+mod common;
+
 use serde_json::Value;
-use std::path::PathBuf;
-use std::process::Command;
 
 fn demo(cmd: &str, extra: &[&str]) -> Value {
-    let r = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
-    let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
-        .arg(cmd)
-        .arg("--trades")
-        .arg(r.join("demo/trades.csv"))
-        .args(["--trades-tz", "America/New_York+07:00", "--calendar"])
-        .arg(r.join("calendars/demo-usd.ics"))
-        .arg(r.join("calendars/demo-eur.csv"))
-        .arg(r.join("calendars/demo-gbp-jpy.ics"))
-        .args(["--calendar-tz", "Europe/Berlin", "--instrument-map", "US500=USD", "--json"])
-        .args(extra)
-        .output()
-        .unwrap();
+    let o = common::demo(cmd).arg("--json").args(extra).output().unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     serde_json::from_slice(&o.stdout).unwrap()
 }
