@@ -43,9 +43,9 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         ("calendar files", c.files.join(", ")),
         ("releases / used / touched", format!("{} / {} / {}", c.releases, s.exposure.releases_used, s.exposure.releases_touched)),
         ("calendar time zone", c.calendar_tz.clone()),
-        ("exposure rule", serde_json::to_value(s.settings.exposure_rule).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default()),
-        ("windows (minutes before/after)", window_text(s)),
-        ("sizing", serde_json::to_value(s.settings.scenario.sizing).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default()),
+        ("exposure rule", super::label(&s.settings.exposure_rule)),
+        ("windows (minutes before/after)", super::windows_text(&s.settings.windows)),
+        ("sizing", super::label(&s.settings.scenario.sizing)),
         ("cap for capped scenario", super::table::fmt_opt(s.cap_value, 4)),
         ("report zone for days", s.settings.report_tz.to_string()),
     ];
@@ -89,12 +89,6 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     let _ = write!(h, "<p class=\"caution\">{}</p>", esc(s.caution));
     let _ = write!(h, "<p class=\"caution\">{} {}</p></body></html>", esc(s.tool.name), esc(s.tool.version));
     h
-}
-
-fn window_text(s: &Summary) -> String {
-    let w = &s.settings.windows;
-    let f = |x: Option<crate::windows::Window>| x.map_or("off".to_string(), |w| format!("{}/{}", w.pre_min, w.post_min));
-    format!("high {}, medium {}, low {}", f(w.high), f(w.medium), f(w.low))
 }
 
 fn strip_xml_decl(svg: &str) -> &str {

@@ -172,20 +172,16 @@ pub fn headline_sentence(s: &Summary) -> String {
 
 pub fn analyze(s: &Summary) -> String {
     let mut out = String::new();
-    let w = &s.settings.windows;
-    let win = |x: Option<crate::windows::Window>| x.map_or("off".to_string(), |w| format!("{}/{}", w.pre_min, w.post_min));
     let _ = writeln!(
         out,
-        "eventfence analyze: {} trades{} · {} releases ({} used) · rule {} · windows high {} medium {} low {} min · sizing {} · days in {}",
+        "eventfence analyze: {} trades{} · {} releases ({} used) · rule {} · windows (min) {} · sizing {} · days in {}",
         s.exposure.trades,
         if s.runs.is_empty() { String::new() } else { format!(" in {} runs", s.runs.len()) },
         s.inputs.calendar.releases,
         s.exposure.releases_used,
-        serde_json::to_value(s.settings.exposure_rule).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default(),
-        win(w.high),
-        win(w.medium),
-        win(w.low),
-        serde_json::to_value(s.settings.scenario.sizing).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default(),
+        super::label(&s.settings.exposure_rule),
+        super::windows_text(&s.settings.windows),
+        super::label(&s.settings.scenario.sizing),
         s.settings.report_tz
     );
     for warning in &s.warnings {
@@ -272,7 +268,7 @@ pub fn analyze(s: &Summary) -> String {
 /// The rank table, narrow enough for 80 columns.
 pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     let mut out = String::new();
-    let by = serde_json::to_value(r.by).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default();
+    let by = super::label(&r.by);
     let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
     let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
     let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.\n");
