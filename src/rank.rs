@@ -113,24 +113,20 @@ pub fn rank(
 /// The trades of one run as their own table (so nothing per-trade is kept
 /// for other runs).
 fn subset(t: &Trades, idx: &[u32]) -> Trades {
-    let pick_f = |v: &Option<Vec<f64>>| v.as_ref().map(|v| idx.iter().map(|&i| v[i as usize]).collect());
+    fn pick<T: Copy>(v: &[T], idx: &[u32]) -> Vec<T> {
+        idx.iter().map(|&i| v[i as usize]).collect()
+    }
     Trades {
-        opened: idx.iter().map(|&i| t.opened[i as usize]).collect(),
-        closed: idx.iter().map(|&i| t.closed[i as usize]).collect(),
-        instrument: idx.iter().map(|&i| t.instrument[i as usize]).collect(),
-        instruments: Vec::new(),
-        pnl: idx.iter().map(|&i| t.pnl[i as usize]).collect(),
+        opened: pick(&t.opened, idx),
+        closed: pick(&t.closed, idx),
+        instrument: pick(&t.instrument, idx),
+        pnl: pick(&t.pnl, idx),
         run: vec![0; idx.len()],
-        runs: Vec::new(),
-        side: None,
-        size: None,
-        entry_price: None,
-        exit_price: None,
-        fees: None,
-        equity_before: pick_f(&t.equity_before),
-        pnl_pct: pick_f(&t.pnl_pct),
+        equity_before: t.equity_before.as_deref().map(|v| pick(v, idx)),
+        pnl_pct: t.pnl_pct.as_deref().map(|v| pick(v, idx)),
         file: vec![0; idx.len()],
         row: vec![0; idx.len()],
+        ..Default::default()
     }
 }
 
