@@ -48,7 +48,7 @@ pub struct ScheduleSettings {
     /// Merge windows whose gap is at most this many minutes.
     pub merge_gap_min: i64,
     /// When set: every used release gets N minutes before and after,
-    /// replacing the per-tier windows (a simple flat-before-news rule).
+    /// replacing the per-tier windows (a simple flat-before-release rule).
     pub flat_min: Option<i64>,
     /// Range [from, to) in ms UTC: releases whose instant falls inside.
     pub range: (i64, i64),
