@@ -10,6 +10,7 @@
 pub mod analysis;
 pub mod attribution;
 pub mod calendar;
+pub mod csvchunks;
 pub mod cmd;
 pub mod exposure;
 pub mod metrics;

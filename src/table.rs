@@ -51,28 +51,6 @@ fn is_parquet(path: &Path) -> bool {
     )
 }
 
-/// Guesses the delimiter from the header line: `,`, `;`, tab or `|`,
-/// whichever occurs most outside quotes.
-pub fn sniff_delimiter(bytes: &[u8]) -> u8 {
-    let header = bytes.split(|&b| b == b'\n').next().unwrap_or(&[]);
-    let mut best = (b',', 0usize);
-    for cand in [b',', b';', b'\t', b'|'] {
-        let mut in_quote = false;
-        let mut n = 0;
-        for &b in header {
-            if b == b'"' {
-                in_quote = !in_quote;
-            } else if b == cand && !in_quote {
-                n += 1;
-            }
-        }
-        if n > best.1 {
-            best = (cand, n);
-        }
-    }
-    best.0
-}
-
 impl Table {
     /// Reads a CSV (all columns as text) or Parquet file.
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
@@ -91,7 +69,7 @@ impl Table {
         if n == 0 {
             return Err("the file is empty (expected a header row)".into());
         }
-        let sep = delimiter.unwrap_or_else(|| sniff_delimiter(&head));
+        let sep = delimiter.unwrap_or_else(|| crate::csvchunks::sniff_delimiter(&head));
         let df = CsvReadOptions::default()
             .with_has_header(true)
             .with_infer_schema_length(Some(0))
@@ -147,13 +125,6 @@ fn clean_name(n: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn sniffs_delimiters() {
-        assert_eq!(sniff_delimiter(b"a;b;c\n1;2;3"), b';');
-        assert_eq!(sniff_delimiter(b"a\tb\n"), b'\t');
-        assert_eq!(sniff_delimiter(b"\"x;y\",b,c\n"), b',');
-    }
 
     #[test]
     fn csv_cells_as_text_with_bom_and_quotes() {

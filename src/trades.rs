@@ -6,9 +6,12 @@
 //! zone. Invariant: every data row is imported or rejected with its file,
 //! row, field and reason — `rows_read = rows_imported + rows_rejected`.
 
-use crate::table::{Cell, ColumnSource, Table};
-use crate::timefmt::{TimeFormat, parse_stamp};
-use crate::zones::{LocalPolicy, Zone, ZoneError};
+use crate::csvchunks::{self, Parsed, Record, ScanError};
+use crate::table::{Cell, Table};
+use crate::timefmt::{Stamp, TimeFormat, parse_stamp};
+use crate::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
+use rayon::prelude::*;
+use std::io::Read;
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
@@ -192,22 +195,25 @@ pub fn expand_paths(specs: &[String]) -> Result<Vec<PathBuf>, TradeError> {
 }
 
 /// Reads all trade files. With several files and no `run` column, each file
-/// becomes one run named by its file stem.
+/// becomes one run named by its file stem. CSV files are read in blocks on
+/// every core ([`crate::csvchunks`]); Parquet through polars.
 pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSummary), TradeError> {
-    let mut trades = Trades::default();
-    let mut summary = TradeSummary::default();
-    let mut instruments = Interner::default();
-    let mut runs = Interner::default();
+    let mut sink = Sink::default();
     let run_per_file = paths.len() > 1;
     for (fi, path) in paths.iter().enumerate() {
-        let table = Table::read(path, opts.delimiter)
-            .map_err(|message| TradeError::Read { path: path.clone(), message })?;
-        summary.files.push(path.display().to_string());
+        sink.summary.files.push(path.display().to_string());
         let file_run = run_per_file.then(|| {
             path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default()
         });
-        read_table(&table, path, fi as u16, file_run, opts, &mut trades, &mut summary, &mut instruments, &mut runs)?;
+        sink.start_file(fi as u16, path, file_run);
+        if is_parquet(path) {
+            let table = Table::read(path, opts.delimiter).map_err(|message| TradeError::Read { path: path.clone(), message })?;
+            read_table(&table, path, opts, &mut sink)?;
+        } else {
+            read_csv(path, opts, &mut sink)?;
+        }
     }
+    let Sink { mut trades, summary, instruments, runs, .. } = sink;
     if summary.rows_rejected > 0 && !opts.skip_bad_rows {
         let examples = summary
             .rejections
@@ -218,34 +224,54 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             .join("\n");
         return Err(TradeError::Rejected { count: summary.rows_rejected, examples });
     }
-    let mut inst: Vec<(String, u32)> = instruments.into_iter().collect();
-    inst.sort_by_key(|x| x.1);
-    trades.instruments = inst.into_iter().map(|x| x.0).collect();
+    trades.instruments = names_in_order(instruments);
     if !runs.is_empty() {
-        let mut r: Vec<(String, u32)> = runs.into_iter().collect();
-        r.sort_by_key(|x| x.1);
-        trades.runs = r.into_iter().map(|x| x.0).collect();
+        trades.runs = names_in_order(runs);
     }
     Ok((trades, summary))
 }
 
-fn col(
-    table: &Table,
-    path: &Path,
-    opts: &TradeOptions,
-    field: &str,
-) -> Result<Option<ColumnSource>, TradeError> {
-    let name = opts.columns.get(field).map(String::as_str).unwrap_or(field);
-    match table.column(name) {
-        Some(c) => Ok(Some(c)),
-        None if REQUIRED.contains(&field) || opts.columns.contains_key(field) => Err(TradeError::MissingColumn {
-            path: path.to_path_buf(),
-            field: field.to_string(),
-            column: name.to_string(),
-            available: table.names().join(", "),
-        }),
-        None => Ok(None),
+fn names_in_order(map: Interner) -> Vec<String> {
+    let mut v: Vec<(String, u32)> = map.into_iter().collect();
+    v.sort_by_key(|x| x.1);
+    v.into_iter().map(|x| x.0).collect()
+}
+
+fn is_parquet(path: &Path) -> bool {
+    matches!(
+        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
+        Some("parquet" | "pq")
+    )
+}
+
+/// The source column of each field in [`FIELDS`] order, `None` when absent.
+type Slots<C> = [Option<C>; 12];
+const OPENED: usize = 0;
+const CLOSED: usize = 1;
+const INSTRUMENT: usize = 2;
+const PNL: usize = 3;
+const RUN: usize = 4;
+const SIDE: usize = 5;
+/// size, entry_price, exit_price, fees, equity_before, pnl_pct.
+const EXTRAS: std::ops::Range<usize> = 6..12;
+
+/// Finds every field's column by (mapped) name; required fields and
+/// explicitly mapped ones must exist.
+fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl FnMut(&str) -> Option<C>) -> Result<Slots<C>, TradeError> {
+    let mut out: Slots<C> = Default::default();
+    for (k, field) in FIELDS.iter().enumerate() {
+        let name = opts.columns.get(*field).map(String::as_str).unwrap_or(field);
+        out[k] = find(name);
+        if out[k].is_none() && (REQUIRED.contains(field) || opts.columns.contains_key(*field)) {
+            return Err(TradeError::MissingColumn {
+                path: path.to_path_buf(),
+                field: field.to_string(),
+                column: name.to_string(),
+                available: names.join(", "),
+            });
+        }
     }
+    Ok(out)
 }
 
 struct RowError {
@@ -258,45 +284,30 @@ fn row_err(field: &'static str, reason: &'static str, message: impl Into<String>
     RowError { field, reason, message: message.into() }
 }
 
-#[allow(clippy::too_many_arguments)]
-fn read_table(
-    table: &Table,
-    path: &Path,
-    file_index: u16,
-    file_run: Option<String>,
+/// One valid row; names borrow from the source until interned.
+struct Row<'a> {
+    opened: i64,
+    closed: i64,
+    instrument: std::borrow::Cow<'a, str>,
+    pnl: f64,
+    run: Option<std::borrow::Cow<'a, str>>,
+    side: i8,
+    extras: [f64; 6],
+}
+
+/// Validates one row. `cell(k)` reads field `k` (a [`FIELDS`] index) of a
+/// present column; `present` says which are. `decimal_comma`: numbers may
+/// use a comma as decimal mark (files not delimited by commas).
+fn parse_row<'a>(
+    present: &[bool; 12],
+    cell: impl Fn(usize) -> Result<Cell<'a>, RowError>,
     opts: &TradeOptions,
-    trades: &mut Trades,
-    summary: &mut TradeSummary,
-    instruments: &mut Interner,
-    runs: &mut Interner,
-) -> Result<(), TradeError> {
-    let opened = col(table, path, opts, "opened_at")?.expect("required");
-    let closed = col(table, path, opts, "closed_at")?.expect("required");
-    let instrument = col(table, path, opts, "instrument")?.expect("required");
-    let pnl = col(table, path, opts, "pnl")?.expect("required");
-    let run = col(table, path, opts, "run")?;
-    let side = col(table, path, opts, "side")?;
-    let optional: Vec<(&'static str, Option<ColumnSource>)> = ["size", "entry_price", "exit_price", "fees", "equity_before", "pnl_pct"]
-        .into_iter()
-        .map(|f| Ok((f, col(table, path, opts, f)?)))
-        .collect::<Result<_, TradeError>>()?;
-    // Optional columns present in any file exist for all rows (NaN elsewhere).
-    let n_before = trades.len();
-    let ensure = |v: &mut Option<Vec<f64>>, present: bool| {
-        if present && v.is_none() {
-            *v = Some(vec![f64::NAN; n_before]);
-        }
-    };
-    for (f, c) in &optional {
-        ensure(optional_slot(trades, f), c.is_some());
-    }
-    if side.is_some() && trades.side.is_none() {
-        trades.side = Some(vec![0; n_before]);
-    }
-    let file_name = path.display().to_string();
-    let file_run_id = file_run.map(|name| intern(runs, &name));
-    let time = |c: &ColumnSource, i: usize, field: &'static str| -> Result<i64, RowError> {
-        match c.get(i) {
+    decimal_comma: bool,
+    cache: &mut DayOffsetCache,
+) -> Result<Row<'a>, RowError> {
+    let mut time = |k: usize| -> Result<i64, RowError> {
+        let field = FIELDS[k];
+        match cell(k)? {
             Cell::Null => Err(row_err(field, "missing_value", "empty")),
             Cell::Instant(ms) => Ok(ms),
             Cell::Num(v) => match opts.time_format {
@@ -306,7 +317,11 @@ fn read_table(
             },
             Cell::Str(s) => {
                 let stamp = parse_stamp(s, &opts.time_format).map_err(|e| row_err(field, "bad_time", e.to_string()))?;
-                stamp.resolve(&opts.zone, opts.policy).map_err(|e| match e {
+                let resolved = match stamp {
+                    Stamp::Instant(ms) => Ok(ms),
+                    Stamp::Local(ndt) => opts.zone.to_utc_cached(&ndt, opts.policy, cache),
+                };
+                resolved.map_err(|e| match e {
                     ZoneError::Gap { .. } => row_err(field, "local_time_gap", e.to_string()),
                     ZoneError::Ambiguous { .. } => row_err(field, "local_time_ambiguous", e.to_string()),
                     other => row_err(field, "bad_time", other.to_string()),
@@ -314,115 +329,344 @@ fn read_table(
             }
         }
     };
-    let number = |c: &ColumnSource, i: usize, field: &'static str, required: bool| -> Result<f64, RowError> {
-        match c.get(i) {
+    let opened = time(OPENED)?;
+    let closed = time(CLOSED)?;
+    if closed < opened {
+        return Err(row_err("closed_at", "closed_before_opened", format!(
+            "closes at {} before it opens at {}", crate::zones::format_utc(closed), crate::zones::format_utc(opened)
+        )));
+    }
+    let number = |k: usize, required: bool| -> Result<f64, RowError> {
+        let field = FIELDS[k];
+        match cell(k)? {
             Cell::Null if required => Err(row_err(field, "missing_value", "empty")),
             Cell::Null => Ok(f64::NAN),
             Cell::Num(v) if v.is_finite() => Ok(v),
             Cell::Num(v) => Err(row_err(field, "non_finite", format!("{v} is not a finite number"))),
             Cell::Instant(_) => Err(row_err(field, "bad_number", "a time where a number was expected")),
-            Cell::Str(s) => match parse_number(s) {
+            Cell::Str(s) => match parse_number_with(s, decimal_comma) {
                 Some(v) if v.is_finite() => Ok(v),
-                Some(_) => Err(row_err(field, "non_finite", format!("'{s}' is not a finite number"))),
+                Some(_) => Err(row_err(field, "non_finite", format!("'{}' is not a finite number", truncate(s)))),
                 None => Err(row_err(field, "bad_number", format!("'{}' is not a number", truncate(s)))),
             },
         }
     };
-    for i in 0..table.height() {
-        summary.rows_read += 1;
-        let row = (|| -> Result<_, RowError> {
-            let o = time(&opened, i, "opened_at")?;
-            let c = time(&closed, i, "closed_at")?;
-            if c < o {
-                return Err(row_err("closed_at", "closed_before_opened", format!(
-                    "closes at {} before it opens at {}", crate::zones::format_utc(c), crate::zones::format_utc(o)
-                )));
-            }
-            let inst: std::borrow::Cow<str> = match instrument.get(i) {
-                Cell::Str(s) if !s.trim().is_empty() => s.trim().into(),
-                Cell::Num(v) => v.to_string().into(),
-                _ => return Err(row_err("instrument", "missing_value", "empty")),
-            };
-            let p = number(&pnl, i, "pnl", true)?;
-            let r = match &run {
-                Some(rc) => match rc.get(i) {
-                    Cell::Str(s) if !s.trim().is_empty() => Some(std::borrow::Cow::Borrowed(s.trim())),
-                    Cell::Num(v) => Some(format_run_number(v).into()),
-                    _ => return Err(row_err("run", "missing_value", "empty")),
-                },
-                None => None,
-            };
-            let sd = match &side {
-                Some(sc) => Some(match sc.get(i) {
-                    Cell::Null => 0,
-                    Cell::Num(v) if v > 0.0 => 1,
-                    Cell::Num(v) if v < 0.0 => -1,
-                    Cell::Str(s) => parse_side(s).ok_or_else(|| {
-                        row_err("side", "bad_side", format!("'{}' is not long/short, buy/sell or 1/-1", truncate(s)))
-                    })?,
-                    _ => return Err(row_err("side", "bad_side", "not long/short, buy/sell or 1/-1")),
-                }),
-                None => None,
-            };
-            let mut extras = [f64::NAN; 6];
-            for (k, (f, c)) in optional.iter().enumerate() {
-                if let Some(c) = c {
-                    extras[k] = number(c, i, f, false)?;
-                }
-            }
-            Ok((o, c, inst, p, r, sd, extras))
-        })();
+    let instrument: std::borrow::Cow<str> = match cell(INSTRUMENT)? {
+        Cell::Str(s) => s.trim().into(),
+        Cell::Num(v) => v.to_string().into(),
+        _ => return Err(row_err("instrument", "missing_value", "empty")),
+    };
+    let pnl = number(PNL, true)?;
+    let run = if present[RUN] {
+        Some(match cell(RUN)? {
+            Cell::Str(s) => std::borrow::Cow::Borrowed(s.trim()),
+            Cell::Num(v) => format_run_number(v).into(),
+            _ => return Err(row_err("run", "missing_value", "empty")),
+        })
+    } else {
+        None
+    };
+    let side = if present[SIDE] {
+        match cell(SIDE)? {
+            Cell::Null => 0,
+            Cell::Num(v) if v > 0.0 => 1,
+            Cell::Num(v) if v < 0.0 => -1,
+            Cell::Str(s) => parse_side(s).ok_or_else(|| {
+                row_err("side", "bad_side", format!("'{}' is not long/short, buy/sell or 1/-1", truncate(s)))
+            })?,
+            _ => return Err(row_err("side", "bad_side", "not long/short, buy/sell or 1/-1")),
+        }
+    } else {
+        0
+    };
+    let mut extras = [f64::NAN; 6];
+    for k in EXTRAS {
+        if present[k] {
+            extras[k - EXTRAS.start] = number(k, false)?;
+        }
+    }
+    Ok(Row { opened, closed, instrument, pnl, run, side, extras })
+}
+
+/// Rows of one block (or one whole table), with names interned locally so
+/// that blocks can be parsed in parallel and merged in order.
+#[derive(Default)]
+struct Part {
+    opened: Vec<i64>,
+    closed: Vec<i64>,
+    pnl: Vec<f64>,
+    instrument: Vec<u32>,
+    instrument_names: Interner,
+    run: Vec<u32>,
+    run_names: Interner,
+    side: Vec<i8>,
+    extras: [Vec<f64>; 6],
+    /// Record index within the part, from 0.
+    row: Vec<u32>,
+    rows_read: usize,
+    rejected: usize,
+    by_reason: BTreeMap<&'static str, usize>,
+    /// The first rejections, by record index within the part.
+    rejections: Vec<(usize, RowError)>,
+}
+
+impl Part {
+    fn take(&mut self, index: usize, row: Result<Row<'_>, RowError>, present: &[bool; 12]) {
+        self.rows_read += 1;
         match row {
-            Ok((o, c, inst, p, r, sd, extras)) => {
-                summary.rows_imported += 1;
-                trades.opened.push(o);
-                trades.closed.push(c);
-                trades.instrument.push(intern(instruments, &inst));
-                trades.pnl.push(p);
-                trades.run.push(match (r, file_run_id) {
-                    (Some(name), _) => intern(runs, &name),
-                    (None, Some(id)) => id,
-                    (None, None) => 0,
-                });
-                if let Some(v) = trades.side.as_mut() {
-                    v.push(sd.unwrap_or(0));
+            Ok(r) => {
+                self.opened.push(r.opened);
+                self.closed.push(r.closed);
+                self.pnl.push(r.pnl);
+                self.instrument.push(intern(&mut self.instrument_names, &r.instrument));
+                if let Some(name) = &r.run {
+                    self.run.push(intern(&mut self.run_names, name));
                 }
-                for (k, (f, _)) in optional.iter().enumerate() {
-                    if let Some(v) = optional_slot(trades, f) {
-                        v.push(extras[k]);
+                if present[SIDE] {
+                    self.side.push(r.side);
+                }
+                for k in EXTRAS {
+                    if present[k] {
+                        self.extras[k - EXTRAS.start].push(r.extras[k - EXTRAS.start]);
                     }
                 }
-                trades.file.push(file_index);
-                trades.row.push((i + 1) as u32);
+                self.row.push(index as u32);
             }
             Err(e) => {
-                summary.rows_rejected += 1;
-                *summary.rejected_by_reason.entry(e.reason.to_string()).or_default() += 1;
-                if summary.rejections.len() < 1000 {
-                    summary.rejections.push(Rejection {
-                        file: file_name.clone(),
-                        row: i + 1,
-                        field: e.field.to_string(),
-                        reason: e.reason,
-                        message: e.message,
-                    });
+                self.rejected += 1;
+                *self.by_reason.entry(e.reason).or_default() += 1;
+                if self.rejections.len() < KEEP_REJECTIONS {
+                    self.rejections.push((index, e));
                 }
             }
         }
     }
+}
+
+/// How many rejections a summary keeps verbatim.
+const KEEP_REJECTIONS: usize = 1000;
+
+/// The growing result of a load: parts are merged into it in file order.
+#[derive(Default)]
+struct Sink {
+    trades: Trades,
+    summary: TradeSummary,
+    instruments: Interner,
+    runs: Interner,
+    file_index: u16,
+    file_name: String,
+    file_run: Option<u32>,
+    /// Data rows of the current file merged so far.
+    file_rows: usize,
+}
+
+impl Sink {
+    fn start_file(&mut self, index: u16, path: &Path, run: Option<String>) {
+        self.file_index = index;
+        self.file_name = path.display().to_string();
+        self.file_run = run.map(|name| intern(&mut self.runs, &name));
+        self.file_rows = 0;
+    }
+
+    fn absorb(&mut self, part: Part, present: &[bool; 12]) {
+        let t = &mut self.trades;
+        let (n_before, n) = (t.len(), part.pnl.len());
+        let local = |names: Interner, global: &mut Interner| -> Vec<u32> {
+            let mut map = vec![0u32; names.len()];
+            for (name, id) in names {
+                map[id as usize] = intern(global, &name);
+            }
+            map
+        };
+        let inst = local(part.instrument_names, &mut self.instruments);
+        t.instrument.extend(part.instrument.iter().map(|&i| inst[i as usize]));
+        if present[RUN] {
+            let runs = local(part.run_names, &mut self.runs);
+            t.run.extend(part.run.iter().map(|&i| runs[i as usize]));
+        } else {
+            t.run.extend(std::iter::repeat_n(self.file_run.unwrap_or(0), n));
+        }
+        t.opened.extend_from_slice(&part.opened);
+        t.closed.extend_from_slice(&part.closed);
+        t.pnl.extend_from_slice(&part.pnl);
+        // An optional column present in any file exists for all rows
+        // (0 / NaN where a file lacks it).
+        if present[SIDE] || t.side.is_some() {
+            let v = t.side.get_or_insert_with(|| vec![0; n_before]);
+            if present[SIDE] { v.extend_from_slice(&part.side) } else { v.extend(std::iter::repeat_n(0, n)) }
+        }
+        for (k, values) in EXTRAS.zip(part.extras) {
+            let slot = extra_slot(t, k);
+            if present[k] || slot.is_some() {
+                let v = slot.get_or_insert_with(|| vec![f64::NAN; n_before]);
+                if present[k] { v.extend_from_slice(&values) } else { v.extend(std::iter::repeat_n(f64::NAN, n)) }
+            }
+        }
+        t.file.extend(std::iter::repeat_n(self.file_index, n));
+        let base = self.file_rows;
+        t.row.extend(part.row.iter().map(|&r| (base + r as usize + 1) as u32));
+
+        let s = &mut self.summary;
+        s.rows_read += part.rows_read;
+        s.rows_imported += n;
+        s.rows_rejected += part.rejected;
+        for (reason, c) in part.by_reason {
+            *s.rejected_by_reason.entry(reason.to_string()).or_default() += c;
+        }
+        for (index, e) in part.rejections {
+            if s.rejections.len() >= KEEP_REJECTIONS {
+                break;
+            }
+            s.rejections.push(Rejection { file: self.file_name.clone(), row: base + index + 1, field: e.field.to_string(), reason: e.reason, message: e.message });
+        }
+        self.file_rows += part.rows_read;
+    }
+}
+
+fn extra_slot(t: &mut Trades, k: usize) -> &mut Option<Vec<f64>> {
+    match k {
+        6 => &mut t.size,
+        7 => &mut t.entry_price,
+        8 => &mut t.exit_price,
+        9 => &mut t.fees,
+        10 => &mut t.equity_before,
+        _ => &mut t.pnl_pct,
+    }
+}
+
+/// A Parquet (or other polars-read) table, row by row.
+fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+    let names = table.names();
+    let sources = slots(&names, path, opts, |name| table.column(name))?;
+    let present: [bool; 12] = std::array::from_fn(|k| sources[k].is_some());
+    let mut part = Part::default();
+    let mut cache = DayOffsetCache::default();
+    for i in 0..table.height() {
+        let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), opts, false, &mut cache);
+        part.take(i, row, &present);
+    }
+    sink.absorb(part, &present);
     Ok(())
 }
 
-fn optional_slot<'a>(t: &'a mut Trades, field: &str) -> &'a mut Option<Vec<f64>> {
-    match field {
-        "size" => &mut t.size,
-        "entry_price" => &mut t.entry_price,
-        "exit_price" => &mut t.exit_price,
-        "fees" => &mut t.fees,
-        "equity_before" => &mut t.equity_before,
-        "pnl_pct" => &mut t.pnl_pct,
-        _ => unreachable!("not an optional numeric field: {field}"),
+/// A delimited text file, in blocks parsed on every core.
+fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+    let err = |message: String| TradeError::Read { path: path.to_path_buf(), message };
+    let io = |e: std::io::Error| err(e.to_string());
+    let sep = match opts.delimiter {
+        Some(d) => d,
+        None => {
+            let mut head = Vec::with_capacity(64 * 1024);
+            std::fs::File::open(path).and_then(|f| f.take(64 * 1024).read_to_end(&mut head)).map_err(io)?;
+            csvchunks::sniff_delimiter(&head)
+        }
+    };
+    let mut reader = csvchunks::BlockReader::open(path, sep).map_err(io)?;
+    let mut first = reader.next_block().map_err(|e| err(e.to_string()))?.ok_or_else(|| err(ScanError::Empty.to_string()))?;
+    let header = csvchunks::take_header(&mut first, sep).map_err(|e| err(e.to_string()))?;
+    let names = &header.names;
+    if let [only] = names.as_slice()
+        && let Some(d) = [b',', b';', b'\t', b'|'].into_iter().find(|&d| d != sep && only.as_bytes().contains(&d))
+    {
+        return Err(err(format!(
+            "the header is one column '{}' when split at '{}'; it looks delimited by '{}': give --delimiter '{}'",
+            truncate(only), (sep as char).escape_default(), (d as char).escape_default(), (d as char).escape_default()
+        )));
     }
+    let columns = slots(names, path, opts, |name| names.iter().position(|n| n == name))?;
+    let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
+    let width = names.len();
+    let batch = rayon::current_num_threads().max(1) * 2;
+    let mut pending = vec![first];
+    loop {
+        while pending.len() < batch {
+            match reader.next_block() {
+                Ok(Some(b)) => pending.push(b),
+                Ok(None) => break,
+                Err(ScanError::RecordTooLong { mib, .. }) => {
+                    return Err(err(ScanError::RecordTooLong { row: sink.file_rows, mib }.to_string()));
+                }
+                Err(e) => return Err(err(e.to_string())),
+            }
+        }
+        if pending.is_empty() {
+            return Ok(());
+        }
+        let last_batch = pending.len() < batch;
+        let n_blocks = pending.len();
+        let parts: Vec<Result<Part, (usize, usize)>> = pending
+            .par_iter()
+            .enumerate()
+            .map(|(b, block)| parse_block(block, sep, width, &columns, &present, opts, last_batch && b + 1 == n_blocks))
+            .collect();
+        pending.clear();
+        for p in parts {
+            match p {
+                Ok(part) => sink.absorb(part, &present),
+                Err((rows_before, column)) => {
+                    let row = sink.file_rows + rows_before + 1;
+                    let name = names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
+                    return Err(err(format!("{}", ScanError::UnclosedQuote { row, column: format!("{column}{name}") })));
+                }
+            }
+        }
+        if last_batch {
+            return Ok(());
+        }
+    }
+}
+
+/// Parses one block of whole records. An unclosed quote (only possible in
+/// the file's last block) returns how many records came before it in the
+/// block, and its column.
+#[allow(clippy::too_many_arguments)]
+fn parse_block(
+    block: &[u8],
+    sep: u8,
+    width: usize,
+    columns: &Slots<usize>,
+    present: &[bool; 12],
+    opts: &TradeOptions,
+    last_in_file: bool,
+) -> Result<Part, (usize, usize)> {
+    let mut part = Part::default();
+    let mut cache = DayOffsetCache::default();
+    let mut rec = Record::default();
+    let mut pos = 0;
+    let mut index = 0;
+    while pos < block.len() {
+        match csvchunks::parse_record(block, pos, sep, &mut rec) {
+            Parsed::Blank { next } => pos = next,
+            Parsed::Unclosed { column } => return Err((part.rows_read, column)),
+            Parsed::Record { next } => {
+                pos = next;
+                let n = rec.len();
+                let extra_empty = n > width && (width..n).all(|k| rec.field(block, k).iter().all(u8::is_ascii_whitespace));
+                if n < width || (n > width && !extra_empty) {
+                    let hint = if n < width && last_in_file && pos >= block.len() { "; is the file truncated?" } else { "" };
+                    let e = row_err("row", "field_count", format!("{n} field(s) where the header has {width}{hint}"));
+                    part.take(index, Err(e), present);
+                } else {
+                    let cells: [std::borrow::Cow<[u8]>; 12] =
+                        std::array::from_fn(|k| columns[k].map_or(std::borrow::Cow::Borrowed(&b""[..]), |c| rec.field(block, c)));
+                    let row = parse_row(present, |k| text_cell(&cells[k], FIELDS[k]), opts, sep != b',', &mut cache);
+                    part.take(index, row, present);
+                }
+                index += 1;
+            }
+        }
+    }
+    Ok(part)
+}
+
+/// A CSV field as a cell: blank is missing, text must be UTF-8.
+fn text_cell<'a>(bytes: &'a [u8], field: &'static str) -> Result<Cell<'a>, RowError> {
+    if bytes.iter().all(u8::is_ascii_whitespace) {
+        return Ok(Cell::Null);
+    }
+    std::str::from_utf8(bytes)
+        .map(Cell::Str)
+        .map_err(|e| row_err(field, "not_utf8", format!("byte {} is not UTF-8 text; save the file as UTF-8", e.valid_up_to() + 1)))
 }
 
 /// FNV-1a: a fast hash for interning short codes (instrument and run
@@ -466,6 +710,25 @@ fn format_run_number(v: f64) -> String {
 /// is not accepted in comma-delimited files since the field would split;
 /// spaces and `_` are allowed) and an optional currency sign.
 pub fn parse_number(s: &str) -> Option<f64> {
+    parse_number_with(s, false)
+}
+
+/// [`parse_number`], also reading `12,5` as 12.5 when `decimal_comma` (a
+/// file delimited by `;`, tab or `|`, as written where the comma is the
+/// decimal mark). Only a single comma with no point counts: `1,234.5` and
+/// `1,234,567` stay refused rather than guessed.
+pub fn parse_number_with(s: &str, decimal_comma: bool) -> Option<f64> {
+    if let Some(v) = parse_plain_number(s) {
+        return Some(v);
+    }
+    let t = s.trim();
+    if decimal_comma && t.matches(',').count() == 1 && !t.contains('.') {
+        return parse_plain_number(&t.replace(',', "."));
+    }
+    None
+}
+
+fn parse_plain_number(s: &str) -> Option<f64> {
     let t = s.trim();
     if let Ok(v) = t.parse::<f64>() {
         return Some(v);

@@ -1,0 +1,341 @@
+//! Delimited text read in blocks cut at record boundaries, so a large file
+//! is parsed on every core while only a few blocks are held in memory.
+//!
+//! Quoting follows RFC 4180: a field may be quoted, `""` inside quotes is
+//! one quote, and quoted fields may hold delimiters and line breaks. Lines
+//! end in LF or CRLF; a leading byte-order mark is dropped; blank lines hold
+//! no record and are skipped. Fields are handed out as raw bytes: callers
+//! decide which fields must be UTF-8 text, so a stray byte in a column
+//! nobody reads does not fail the file.
+
+use memchr::{memchr, memchr2, memchr3, memrchr};
+
+/// Longest record accepted: beyond it a quote is almost surely never closed.
+pub const MAX_RECORD_BYTES: usize = 256 << 20;
+use std::borrow::Cow;
+use std::fs::File;
+use std::io::Read;
+use std::path::Path;
+
+/// Bytes per block handed to one worker.
+pub const BLOCK_BYTES: usize = 8 << 20;
+
+/// Why a file could not be read as delimited text (file-level errors; the
+/// caller names the file).
+#[derive(Debug, thiserror::Error)]
+pub enum ScanError {
+    #[error("{0}")]
+    Io(#[from] std::io::Error),
+    #[error("the file is empty (expected a header row)")]
+    Empty,
+    #[error("the header row is not UTF-8 text; save the file as UTF-8")]
+    HeaderEncoding,
+    #[error("column '{name}' appears twice in the header (columns {first} and {second}); rename one")]
+    DuplicateColumn { name: String, first: usize, second: usize },
+    #[error("row {row}: a quote opened in column {column} is never closed, so the rest of the file would be one field; fix the quoting")]
+    UnclosedQuote { row: usize, column: String },
+    #[error("after row {row}: a record runs over {mib} MiB without ending; a quote is probably never closed")]
+    RecordTooLong { row: usize, mib: usize },
+}
+
+/// One record's fields as byte ranges of its block; quoted fields keep a
+/// flag so that `""` is unescaped only when needed.
+#[derive(Debug, Default)]
+pub struct Record {
+    spans: Vec<(usize, usize, bool)>,
+}
+
+impl Record {
+    pub fn len(&self) -> usize {
+        self.spans.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.spans.is_empty()
+    }
+    /// Field `k` as bytes, `""` unescaped in quoted fields.
+    pub fn field<'a>(&self, block: &'a [u8], k: usize) -> Cow<'a, [u8]> {
+        let (a, b, quoted) = self.spans[k];
+        let raw = &block[a..b];
+        if quoted && memchr(b'"', raw).is_some() {
+            let mut out = Vec::with_capacity(raw.len());
+            let mut i = 0;
+            while i < raw.len() {
+                out.push(raw[i]);
+                i += if raw[i] == b'"' { 2 } else { 1 };
+            }
+            Cow::Owned(out)
+        } else {
+            Cow::Borrowed(raw)
+        }
+    }
+}
+
+/// Outcome of parsing one record.
+pub enum Parsed {
+    /// A record ends before `next`.
+    Record { next: usize },
+    /// A line holding nothing (skipped).
+    Blank { next: usize },
+    /// A quote in field `column` (from 1) runs to the end of the block.
+    Unclosed { column: usize },
+}
+
+/// Parses the record starting at `pos` into `rec`.
+pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Parsed {
+    rec.spans.clear();
+    let n = block.len();
+    if block[pos] == b'\n' {
+        return Parsed::Blank { next: pos + 1 };
+    }
+    if block[pos] == b'\r' && block.get(pos + 1) == Some(&b'\n') {
+        return Parsed::Blank { next: pos + 2 };
+    }
+    let mut i = pos;
+    loop {
+        if i < n && block[i] == b'"' {
+            // Quoted field: up to the quote not followed by another quote.
+            let start = i + 1;
+            let mut j = start;
+            let end = loop {
+                match memchr(b'"', &block[j..]) {
+                    None => return Parsed::Unclosed { column: rec.spans.len() + 1 },
+                    Some(q) if block.get(j + q + 1) == Some(&b'"') => j += q + 2,
+                    Some(q) => break j + q,
+                }
+            };
+            rec.spans.push((start, end, true));
+            // Anything between the closing quote and the delimiter (a CR
+            // included) is kept out of the field.
+            i = memchr2(delim, b'\n', &block[end + 1..]).map_or(n, |k| end + 1 + k);
+        } else {
+            let k = memchr2(delim, b'\n', &block[i..]).map_or(n, |k| i + k);
+            let mut e = k;
+            if (k == n || block[k] == b'\n') && e > i && block[e - 1] == b'\r' {
+                e -= 1;
+            }
+            rec.spans.push((i, e, false));
+            i = k;
+        }
+        if i >= n {
+            return Parsed::Record { next: n };
+        }
+        if block[i] == b'\n' {
+            return Parsed::Record { next: i + 1 };
+        }
+        i += 1; // the delimiter
+        if i == n {
+            // A trailing delimiter: one more, empty field.
+            rec.spans.push((n, n, false));
+            return Parsed::Record { next: n };
+        }
+    }
+}
+
+/// Reads a file block by block, each block ending at a record boundary.
+pub struct BlockReader {
+    file: File,
+    delim: u8,
+    carry: Vec<u8>,
+    eof: bool,
+    block_bytes: usize,
+}
+
+impl BlockReader {
+    pub fn open(path: &Path, delim: u8) -> std::io::Result<BlockReader> {
+        Ok(BlockReader { file: File::open(path)?, delim, carry: Vec::new(), eof: false, block_bytes: BLOCK_BYTES })
+    }
+
+    /// Smaller blocks, for tests of the boundary logic.
+    pub fn with_block_bytes(mut self, n: usize) -> Self {
+        self.block_bytes = n.max(1);
+        self
+    }
+
+    /// The next block of whole records, or `None` at the end. The last
+    /// block may end inside a quote; the record parser reports that. A
+    /// record longer than [`MAX_RECORD_BYTES`] is refused (row 0 here; the
+    /// caller knows how many rows came before).
+    pub fn next_block(&mut self) -> Result<Option<Vec<u8>>, ScanError> {
+        let mut buf = std::mem::take(&mut self.carry);
+        loop {
+            if !self.eof {
+                let want = self.block_bytes as u64;
+                let got = (&mut self.file).take(want).read_to_end(&mut buf)?;
+                if (got as u64) < want {
+                    self.eof = true;
+                }
+            }
+            if self.eof {
+                return Ok((!buf.is_empty()).then_some(buf));
+            }
+            if let Some(cut) = last_boundary(&buf, self.delim) {
+                self.carry = buf[cut..].to_vec();
+                buf.truncate(cut);
+                return Ok(Some(buf));
+            }
+            // One record longer than the block: read on, within bounds.
+            if buf.len() > MAX_RECORD_BYTES {
+                return Err(ScanError::RecordTooLong { row: 0, mib: MAX_RECORD_BYTES >> 20 });
+            }
+        }
+    }
+}
+
+/// The end of the last complete record (after its LF), outside quotes.
+/// Same grammar as [`parse_record`]: a quote opens a quoted field only at
+/// the start of a field; inside one, `""` toggles twice and changes nothing.
+fn last_boundary(buf: &[u8], delim: u8) -> Option<usize> {
+    if memchr(b'"', buf).is_none() {
+        return memrchr(b'\n', buf).map(|k| k + 1);
+    }
+    let mut in_quote = false;
+    let mut last = None;
+    let mut i = 0;
+    while let Some(k) = memchr3(b'"', b'\n', delim, &buf[i..]) {
+        let at = i + k;
+        match buf[at] {
+            b'"' if in_quote && buf.get(at + 1) == Some(&b'"') => {
+                i = at + 2;
+                continue;
+            }
+            b'"' if in_quote => in_quote = false,
+            b'"' if at == 0 || buf[at - 1] == delim || buf[at - 1] == b'\n' => in_quote = true,
+            b'\n' if !in_quote => last = Some(at + 1),
+            _ => {}
+        }
+        i = at + 1;
+    }
+    last
+}
+
+/// The header row: cleaned column names and where the data starts.
+pub struct Header {
+    pub names: Vec<String>,
+}
+
+/// Reads the header from the first block and removes it (and a BOM) from
+/// the block. Duplicate names are refused: a mapping could not tell them apart.
+pub fn take_header(block: &mut Vec<u8>, delim: u8) -> Result<Header, ScanError> {
+    let bom = if block.starts_with(b"\xEF\xBB\xBF") { 3 } else { 0 };
+    let mut pos = bom;
+    let mut rec = Record::default();
+    loop {
+        if pos >= block.len() {
+            return Err(ScanError::Empty);
+        }
+        match parse_record(block, pos, delim, &mut rec) {
+            Parsed::Blank { next } => pos = next,
+            Parsed::Unclosed { column } => return Err(ScanError::UnclosedQuote { row: 0, column: column.to_string() }),
+            Parsed::Record { next } => {
+                let mut names: Vec<String> = Vec::with_capacity(rec.len());
+                for k in 0..rec.len() {
+                    let f = rec.field(block, k);
+                    let s = std::str::from_utf8(&f).map_err(|_| ScanError::HeaderEncoding)?;
+                    let name = s.trim().to_string();
+                    if let Some(first) = names.iter().position(|n| !n.is_empty() && *n == name) {
+                        return Err(ScanError::DuplicateColumn { name, first: first + 1, second: k + 1 });
+                    }
+                    names.push(name);
+                }
+                block.drain(..next);
+                return Ok(Header { names });
+            }
+        }
+    }
+}
+
+/// Guesses the delimiter from the header line: `,`, `;`, tab or `|`,
+/// whichever occurs most outside quotes.
+pub fn sniff_delimiter(bytes: &[u8]) -> u8 {
+    let header = bytes.split(|&b| b == b'\n').next().unwrap_or(&[]);
+    let mut best = (b',', 0usize);
+    for cand in [b',', b';', b'\t', b'|'] {
+        let mut in_quote = false;
+        let mut n = 0;
+        for &b in header {
+            if b == b'"' {
+                in_quote = !in_quote;
+            } else if b == cand && !in_quote {
+                n += 1;
+            }
+        }
+        if n > best.1 {
+            best = (cand, n);
+        }
+    }
+    best.0
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn fields(text: &[u8], delim: u8) -> Vec<Vec<String>> {
+        let mut out = Vec::new();
+        let mut rec = Record::default();
+        let mut pos = 0;
+        while pos < text.len() {
+            match parse_record(text, pos, delim, &mut rec) {
+                Parsed::Record { next } => {
+                    out.push((0..rec.len()).map(|k| String::from_utf8(rec.field(text, k).into_owned()).unwrap()).collect());
+                    pos = next;
+                }
+                Parsed::Blank { next } => pos = next,
+                Parsed::Unclosed { column } => {
+                    out.push(vec![format!("unclosed in {column}")]);
+                    break;
+                }
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn rfc4180_records() {
+        // RFC 4180 §2: quoted fields with delimiters, line breaks and "" escapes.
+        let t = b"a,b,c\r\n\"x,y\",\"two\r\nlines\",\"say \"\"hi\"\"\"\r\n\r\n1,,\n";
+        assert_eq!(
+            fields(t, b','),
+            vec![vec!["a", "b", "c"], vec!["x,y", "two\r\nlines", "say \"hi\""], vec!["1", "", ""]]
+        );
+        assert_eq!(fields(b"a;b\n\"open;x\n", b';'), vec![vec!["a", "b"], vec!["unclosed in 1"]]);
+        assert_eq!(fields(b"last,row", b','), vec![vec!["last", "row"]]);
+        assert_eq!(fields(b"\"q\"\r\n", b','), vec![vec!["q"]]);
+    }
+
+    #[test]
+    fn blocks_end_on_record_boundaries() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("t.csv");
+        let text = "h1,h2\n1,\"a\nb\"\n2,c\n3,\"d,\"\"e\"\"\"\n4,f";
+        std::fs::write(&p, text).unwrap();
+        for size in 1..12 {
+            let mut r = BlockReader::open(&p, b',').unwrap().with_block_bytes(size);
+            let mut all = Vec::new();
+            while let Some(b) = r.next_block().unwrap() {
+                let recs = fields(&b, b',');
+                all.extend(recs);
+            }
+            assert_eq!(all.len(), 5, "block size {size}: {all:?}");
+            assert_eq!(all[1], vec!["1", "a\nb"]);
+            assert_eq!(all[3], vec!["3", "d,\"e\""]);
+        }
+    }
+
+    #[test]
+    fn header_with_bom_and_duplicates() {
+        let mut b = b"\xEF\xBB\xBF name ,pnl\n1,2\n".to_vec();
+        let h = take_header(&mut b, b',').unwrap();
+        assert_eq!(h.names, vec!["name", "pnl"]);
+        assert_eq!(b, b"1,2\n");
+        let mut d = b"pnl,x,pnl\n".to_vec();
+        assert!(matches!(take_header(&mut d, b','), Err(ScanError::DuplicateColumn { first: 1, second: 3, .. })));
+    }
+
+    #[test]
+    fn sniffs_delimiters() {
+        assert_eq!(sniff_delimiter(b"a;b;c\n1;2;3"), b';');
+        assert_eq!(sniff_delimiter(b"a\tb\n"), b'\t');
+        assert_eq!(sniff_delimiter(b"\"x;y\",b,c\n"), b',');
+    }
+}
