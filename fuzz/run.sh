@@ -22,10 +22,14 @@ esac
 export RUSTC_BOOTSTRAP=1
 export EVENTFENCE_FUZZ_DIR=${EVENTFENCE_FUZZ_DIR:-/dev/shm}
 cd "$here/.."
+cargo fuzz build -s none -a "$target"   # fails loudly on a build error
 # No sanitizer: the code under test is safe Rust; panics, overflow checks
 # (debug assertions on) and hangs are what we look for. -timeout flags hangs.
 cargo fuzz run -s none -a "$target" "$corpus" -- \
   -max_total_time="$secs" -timeout=10 -rss_limit_mb=4096 -max_len=65536 \
-  -artifact_prefix="$here/artifacts/$target/" -print_final_stats=1 2>&1 \
-  | grep -E '^(#[0-9]+ +DONE|stat::|==|SUMMARY|thread|panicked|Test unit written|INFO: Seed|Done)|panicked' || true
-ls "$here/artifacts/$target" | grep -q . && { echo "findings in fuzz/artifacts/$target"; exit 1; } || echo "no findings"
+  -artifact_prefix="$here/artifacts/$target/" -print_final_stats=1 > "$here/artifacts/$target.log" 2>&1 || status=$?
+grep -E '^(Done|stat::average_exec|stat::number_of_executed|stat::new_units|stat::peak_rss)|panicked|SUMMARY|Test unit written' "$here/artifacts/$target.log" || true
+if [ -n "${status:-}" ] || ls "$here/artifacts/$target" | grep -q .; then
+  echo "$target: findings or failure (exit ${status:-0}); see fuzz/artifacts/$target.log"; exit 1
+fi
+echo "$target: no findings"

@@ -118,13 +118,26 @@ pub struct Analysis {
     pub tail: TailSummary,
     pub attribution: Attribution,
     pub runs: Vec<RunResult>,
-    /// Baseline |P/L| sorted descending with the exposed flag (for tail
-    /// charts and tail.csv; not part of summary.json).
+    /// The three scenarios' trades in close order (for charts and
+    /// tail.csv; not part of summary.json). Kept once: the views below are
+    /// built only when a caller asks, so a run without `--out` holds no copy.
     #[serde(skip)]
-    pub sorted_abs: Vec<(f64, bool)>,
-    /// Each scenario's (close instant, P/L) in close order, for charts.
-    #[serde(skip)]
-    pub curves: [Vec<(i64, f64)>; 3],
+    pub series: Scenarios,
+}
+
+impl Scenarios {
+    /// Baseline |P/L| sorted descending with the exposed flag.
+    pub fn sorted_abs(&self, exp: &Exposure) -> Vec<(f64, bool)> {
+        let b = &self.baseline;
+        let mut v: Vec<(f64, bool)> = b.pnl.iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
+        v.sort_by(|a, b| b.0.total_cmp(&a.0));
+        v
+    }
+
+    /// Each scenario's (close instant, P/L) in close order.
+    pub fn curves(&self) -> [Vec<(i64, f64)>; 3] {
+        [&self.baseline, &self.removed, &self.capped].map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect())
+    }
 }
 
 fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
@@ -168,8 +181,6 @@ pub fn analyze(
         removed: tl(&all.removed),
         capped: tl(&all.capped),
     };
-    let mut sorted_abs: Vec<(f64, bool)> = all.baseline.pnl.iter().zip(&all.baseline.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
-    sorted_abs.sort_by(|a, b| b.0.total_cmp(&a.0));
 
     let runs = if trades.has_runs() {
         let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
@@ -217,8 +228,7 @@ pub fn analyze(
             tail,
             attribution,
             runs,
-            sorted_abs,
-            curves: [&all.baseline, &all.removed, &all.capped].map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect()),
+            series: all,
         },
         exp,
     ))

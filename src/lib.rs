@@ -9,6 +9,7 @@
 
 pub mod analysis;
 pub mod attribution;
+pub mod budget;
 pub mod calendar;
 pub mod csvchunks;
 pub mod cmd;

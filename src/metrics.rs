@@ -233,9 +233,24 @@ fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
     longest as f64 / DAY_MS as f64
 }
 
-/// Union length of [open, close] intervals.
+/// Union length of [open, close] intervals given in close order (as every
+/// scenario series is): one backward sweep, no sort. Walking closes from the
+/// last, an interval that ends before the current merged segment starts can
+/// overlap no interval already seen, so the segment is complete.
 fn union_length(opened: &[i64], closed: &[i64]) -> i64 {
-    union_within(opened.iter().copied().zip(closed.iter().copied()).collect(), None)
+    debug_assert!(closed.windows(2).all(|w| w[0] <= w[1]), "close order");
+    let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
+    for (&a, &b) in opened.iter().zip(closed).rev() {
+        cur = match cur {
+            Some((s, e)) if b >= s => Some((s.min(a), e)),
+            Some((s, e)) => {
+                total += e - s;
+                Some((a, b))
+            }
+            None => Some((a, b)),
+        };
+    }
+    total + cur.map_or(0, |(s, e)| e - s)
 }
 
 /// Union length of intervals, each first clipped to `clip` when given.
@@ -306,6 +321,24 @@ pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn union_in_close_order_equals_the_sorted_union() {
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(3);
+        for _ in 0..500 {
+            let n = rng.random_range(0..40);
+            let mut iv: Vec<(i64, i64)> = (0..n)
+                .map(|_| {
+                    let a = rng.random_range(0..200);
+                    (a, a + rng.random_range(0..30))
+                })
+                .collect();
+            iv.sort_by_key(|&(a, b)| (b, a));
+            let (o, c): (Vec<i64>, Vec<i64>) = iv.iter().copied().unzip();
+            assert_eq!(union_length(&o, &c), union_within(iv.clone(), None), "{iv:?}");
+        }
+    }
 
     /// REFERENCES.md §4.5 reference trade list (scipy/numpy computed).
     const REF: [f64; 10] = [250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0];

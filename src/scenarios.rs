@@ -90,6 +90,18 @@ pub struct Series {
     pub trade: Vec<u32>,
 }
 
+impl Scenarios {
+    /// Room for `n` trades in each series (removed may use less).
+    fn reserve(&mut self, n: usize) {
+        for s in [&mut self.baseline, &mut self.removed, &mut self.capped] {
+            s.pnl.reserve(n);
+            s.opened.reserve(n);
+            s.closed.reserve(n);
+            s.trade.reserve(n);
+        }
+    }
+}
+
 impl Series {
     fn push(&mut self, i: usize, pnl: f64, opened: &[i64], closed: &[i64]) {
         self.pnl.push(pnl);
@@ -182,6 +194,7 @@ fn equity_before(v: &TradeView, e0: Option<f64>) -> Option<Vec<f64>> {
 
 fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
     let mut out = Scenarios { initial_equity: s.initial_equity, ..Default::default() };
+    out.reserve(v.order.len());
     let per_trade_cap: Option<Vec<f64>> = match s.cap {
         CapRule::EquityPct(p) => {
             let eb = equity_before(v, s.initial_equity).ok_or(ScenarioError::NoEquityForCap)?;

@@ -38,7 +38,10 @@ pub fn hill(values: &[f64], k: usize) -> Option<HillEstimate> {
     if k == 0 || x.len() <= k {
         return None;
     }
-    x.sort_by(|a, b| b.total_cmp(a));
+    // Only the k + 1 largest matter: select them, then order the top k
+    // (a sum in a fixed order, whatever the input order).
+    x.select_nth_unstable_by(k, |a, b| b.total_cmp(a));
+    x[..k].sort_unstable_by(|a, b| b.total_cmp(a));
     let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
     (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n: x.len() })
 }
@@ -263,10 +266,15 @@ pub fn percentile_interval(replicates: &[Option<f64>], confidence: f64) -> (Opti
     (quantile_type7(&v, a), quantile_type7(&v, 1.0 - a), v.len())
 }
 
-/// Draws the resample index sets (seeded).
-pub fn resample_indices(n: usize, resamples: usize, seed: u64) -> Vec<Vec<u32>> {
+/// Resample `r` of a seeded bootstrap: n indices drawn with replacement
+/// from ChaCha8 stream `r` of `seed`, so each resample is drawn on its own
+/// (in any order, on any thread) and only the ones being evaluated are held
+/// in memory — 2 000 resamples of 10 million trades would otherwise take
+/// 80 GB.
+pub fn resample(n: usize, seed: u64, r: usize) -> Vec<u32> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    (0..resamples).map(|_| (0..n).map(|_| rng.random_range(0..n as u32)).collect()).collect()
+    rng.set_stream(r as u64);
+    (0..n).map(|_| rng.random_range(0..n as u32)).collect()
 }
 
 /// Bootstrap intervals for given resample index sets.
@@ -279,12 +287,27 @@ pub fn bootstrap_with(
     confidence: f64,
     progress: &(dyn Fn() + Sync),
 ) -> BTreeMap<&'static str, Interval> {
+    bootstrap_drawn(sets.len(), &|r| sets[r].clone(), trades, exposed, settings, ctx, confidence, progress)
+}
+
+/// Bootstrap intervals over `count` resamples, resample `r` given by `draw(r)`.
+#[allow(clippy::too_many_arguments)]
+pub fn bootstrap_drawn(
+    count: usize,
+    draw: &(dyn Fn(usize) -> Vec<u32> + Sync),
+    trades: &Trades,
+    exposed: &[bool],
+    settings: &ScenarioSettings,
+    ctx: &Context,
+    confidence: f64,
+    progress: &(dyn Fn() + Sync),
+) -> BTreeMap<&'static str, Interval> {
     let all: Vec<u32> = (0..trades.len() as u32).collect();
     let observed = changes(&all, trades, exposed, settings, ctx);
-    let reps: Vec<[Option<f64>; 5]> = sets
-        .par_iter()
-        .map(|s| {
-            let c = changes(s, trades, exposed, settings, ctx);
+    let reps: Vec<[Option<f64>; 5]> = (0..count)
+        .into_par_iter()
+        .map(|r| {
+            let c = changes(&draw(r), trades, exposed, settings, ctx);
             progress();
             c
         })

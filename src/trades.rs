@@ -397,6 +397,8 @@ struct Part {
     pnl: Vec<f64>,
     instrument: Vec<u32>,
     instrument_names: Interner,
+    /// The last instrument seen and its id: rows often repeat it.
+    last_instrument: Option<(String, u32)>,
     run: Vec<u32>,
     run_names: Interner,
     side: Vec<i8>,
@@ -411,6 +413,26 @@ struct Part {
 }
 
 impl Part {
+    /// Room for `n` rows in the columns this source has.
+    fn reserve(&mut self, n: usize, present: &[bool; 12]) {
+        self.opened.reserve(n);
+        self.closed.reserve(n);
+        self.pnl.reserve(n);
+        self.instrument.reserve(n);
+        self.row.reserve(n);
+        if present[RUN] {
+            self.run.reserve(n);
+        }
+        if present[SIDE] {
+            self.side.reserve(n);
+        }
+        for k in EXTRAS {
+            if present[k] {
+                self.extras[k - EXTRAS.start].reserve(n);
+            }
+        }
+    }
+
     fn take(&mut self, index: usize, row: Result<Row<'_>, RowError>, present: &[bool; 12]) {
         self.rows_read += 1;
         match row {
@@ -418,7 +440,15 @@ impl Part {
                 self.opened.push(r.opened);
                 self.closed.push(r.closed);
                 self.pnl.push(r.pnl);
-                self.instrument.push(intern(&mut self.instrument_names, &r.instrument));
+                let id = match &self.last_instrument {
+                    Some((name, id)) if *name == r.instrument => *id,
+                    _ => {
+                        let id = intern(&mut self.instrument_names, &r.instrument);
+                        self.last_instrument = Some((r.instrument.to_string(), id));
+                        id
+                    }
+                };
+                self.instrument.push(id);
                 if let Some(name) = &r.run {
                     self.run.push(intern(&mut self.run_names, name));
                 }
@@ -630,6 +660,7 @@ fn parse_block(
     last_in_file: bool,
 ) -> Result<Part, (usize, usize)> {
     let mut part = Part::default();
+    part.reserve(memchr::memchr_iter(b'\n', block).count() + 1, present);
     let mut cache = DayOffsetCache::default();
     let mut rec = Record::default();
     let mut pos = 0;
@@ -663,6 +694,11 @@ fn parse_block(
 fn text_cell<'a>(bytes: &'a [u8], field: &'static str) -> Result<Cell<'a>, RowError> {
     if bytes.iter().all(u8::is_ascii_whitespace) {
         return Ok(Cell::Null);
+    }
+    if bytes.is_ascii() {
+        // SAFETY: ASCII bytes are valid UTF-8 (the common case, checked in
+        // one pass instead of the full decoder's per-call overhead).
+        return Ok(Cell::Str(unsafe { std::str::from_utf8_unchecked(bytes) }));
     }
     std::str::from_utf8(bytes)
         .map(Cell::Str)
@@ -739,11 +775,16 @@ fn parse_plain_number(s: &str) -> Option<f64> {
 
 /// long/buy/1 → +1, short/sell/-1 → −1.
 pub fn parse_side(s: &str) -> Option<i8> {
-    match s.trim().to_ascii_lowercase().as_str() {
-        "long" | "buy" | "b" | "l" | "1" | "+1" => Some(1),
-        "short" | "sell" | "s" | "-1" => Some(-1),
-        "" => Some(0),
-        _ => None,
+    let t = s.trim();
+    let is = |words: &[&str]| words.iter().any(|w| t.eq_ignore_ascii_case(w));
+    if t.is_empty() {
+        Some(0)
+    } else if is(&["long", "buy", "b", "l", "1", "+1"]) {
+        Some(1)
+    } else if is(&["short", "sell", "s", "-1"]) {
+        Some(-1)
+    } else {
+        None
     }
 }
 

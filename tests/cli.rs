@@ -159,3 +159,15 @@ fn no_colour_codes_and_no_progress_bar_in_pipes() {
     assert!(!o.stdout.contains(&0x1b) && !o.stderr.contains(&0x1b), "escape codes in output");
     assert!(o.stderr.is_empty(), "stderr is a pipe: no progress bar expected, got {}", stderr(&o));
 }
+
+/// A trade input estimated to need more memory than allowed is refused
+/// before reading, naming the file, the estimate and the way out.
+#[test]
+fn input_larger_than_the_memory_budget_is_refused_up_front() {
+    let o = common::demo("check").args(["--max-memory", "8M"]).output().unwrap();
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    let e = stderr(&o);
+    assert!(e.contains("trades.csv") && e.contains("rows need about") && e.contains("--max-memory"), "{e}");
+    let o = common::demo("check").args(["--max-memory", "4G"]).output().unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+}

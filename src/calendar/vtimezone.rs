@@ -27,7 +27,7 @@ pub fn expand_local(
     use chrono::TimeZone;
     let rule: rrule::RRule<rrule::Unvalidated> =
         rrule_text.parse().map_err(|e: rrule::RRuleError| format!("bad RRULE '{rrule_text}': {e}"))?;
-    let start = rrule::Tz::UTC.from_utc_datetime(&dtstart);
+    let start = rrule::Tz::UTC.from_utc_datetime(&skip_ahead(dtstart, rrule_text, from));
     let set = rule.build(start).map_err(|e| format!("bad RRULE '{rrule_text}': {e}"))?;
     let mut out = Vec::new();
     for (steps, occ) in set.into_iter().enumerate() {
@@ -50,6 +50,41 @@ pub fn expand_local(
         }
     }
     Ok(out)
+}
+
+/// A start moved forward by whole rule periods to just before `from`, for
+/// fixed-length frequencies (SECONDLY to WEEKLY) without COUNT: the
+/// occurrences from `from` on are the same, and a minutely rule begun in
+/// year 4 no longer steps through 1 000 million minutes to reach the span
+/// (found by fuzzing). The moved start stays before `from`, so it is never
+/// kept even where it would not match the rule's BY parts.
+fn skip_ahead(dtstart: NaiveDateTime, rule: &str, from: NaiveDateTime) -> NaiveDateTime {
+    let mut freq = None;
+    let mut interval = 1i64;
+    for part in rule.split(';') {
+        let (k, v) = part.split_once('=').unwrap_or((part, ""));
+        match k.trim().to_ascii_uppercase().as_str() {
+            "COUNT" => return dtstart,
+            "FREQ" => freq = Some(v.trim().to_ascii_uppercase()),
+            "INTERVAL" => interval = v.trim().parse().unwrap_or(1).max(1),
+            _ => {}
+        }
+    }
+    let unit = match freq.as_deref() {
+        Some("SECONDLY") => 1,
+        Some("MINUTELY") => 60,
+        Some("HOURLY") => 3_600,
+        Some("DAILY") => 86_400,
+        Some("WEEKLY") => 604_800,
+        _ => return dtstart,
+    };
+    let period = unit * interval;
+    let gap = (from - dtstart).num_seconds();
+    let whole = gap / period - 1;
+    if whole <= 0 {
+        return dtstart;
+    }
+    dtstart + chrono::Duration::seconds(whole * period)
 }
 
 /// One observance (STANDARD or DAYLIGHT) of a VTIMEZONE.
@@ -171,12 +206,25 @@ mod tests {
 
     #[test]
     fn expansion_is_bounded() {
-        let e = expand_local(ndt("19900101T000000"), "FREQ=MINUTELY", ndt("20200101T000000"), ndt("20200102T000000"), 50_000, 1_000_000)
+        // COUNT forbids skipping ahead: the steps before the span are bounded.
+        let e = expand_local(ndt("19900101T000000"), "FREQ=MINUTELY;COUNT=900000000", ndt("20200101T000000"), ndt("20200102T000000"), 50_000, 1_000_000)
             .unwrap_err();
         assert!(e.contains("steps"), "{e}");
+        // Without COUNT the same rule skips ahead to the span: 1 441 minutes.
+        let ok = expand_local(ndt("19900101T000000"), "FREQ=MINUTELY", ndt("20200101T000000"), ndt("20200102T000000"), 50_000, 1_000_000).unwrap();
+        assert_eq!(ok.len(), 1441);
         let e = expand_local(ndt("20200101T000000"), "FREQ=MINUTELY", ndt("20200101T000000"), ndt("20210101T000000"), 50_000, 1_000_000)
             .unwrap_err();
         assert!(e.contains("occurrences"), "{e}");
+        // Started centuries before the span: skipped ahead, same occurrences.
+        let late = expand_local(ndt("00040204T000000"), "FREQ=MINUTELY;INTERVAL=7", ndt("20200101T000000"), ndt("20200101T010000"), 50_000, 1_000)
+            .unwrap();
+        let step = (ndt("20200101T000000") - ndt("00040204T000000")).num_minutes().rem_euclid(7);
+        assert_eq!(late[0], ndt("20200101T000000") + chrono::Duration::minutes((7 - step) % 7));
+        assert_eq!(late.len(), 9);
+        assert!(late.windows(2).all(|w| (w[1] - w[0]).num_minutes() == 7));
+        let weekly = expand_local(ndt("19000102T083000"), "FREQ=WEEKLY;BYDAY=TU,TH", ndt("20240101T000000"), ndt("20240115T000000"), 100, 1_000).unwrap();
+        assert_eq!(weekly, vec![ndt("20240102T083000"), ndt("20240104T083000"), ndt("20240109T083000"), ndt("20240111T083000")]);
         let ok = expand_local(ndt("20240105T083000"), "FREQ=MONTHLY;BYDAY=1FR;COUNT=3", ndt("20240101T000000"), ndt("20250101T000000"), 10, 100).unwrap();
         assert_eq!(ok, vec![ndt("20240105T083000"), ndt("20240202T083000"), ndt("20240301T083000")]);
     }

@@ -53,15 +53,19 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let settings = args.scenario.settings(&args.windows)?;
     let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
-    let (result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings)?;
+    let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings)?;
+    // The scenario series feed only the files of --out; without it they go now.
+    let series = std::mem::take(&mut result.series);
+    let series = args.out.is_some().then_some(series);
     let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
-    let sorted_abs = result.sorted_abs.clone();
-    let curves = result.curves.clone();
     let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz.clone());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
+        let series = series.expect("kept for --out");
+        let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves());
+        drop(series);
         let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
         match args.trades_format {
             TradesFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
@@ -141,8 +145,9 @@ fn chance(
             initial_equity,
             tcr_p: settings.tcr_p,
         };
-        let sets = stats::resample_indices(trades.len(), c.bootstrap, c.seed);
-        let intervals = stats::bootstrap_with(&sets, trades, &flags, &settings.scenario, &ctx, 0.95, &|| pb.inc(1));
+        let n = trades.len();
+        let draw = |r: usize| stats::resample(n, c.seed, r);
+        let intervals = stats::bootstrap_drawn(c.bootstrap, &draw, trades, &flags, &settings.scenario, &ctx, 0.95, &|| pb.inc(1));
         pb.finish_and_clear();
         stats::BootstrapResult { resamples: c.bootstrap, seed: c.seed, confidence: 0.95, method: stats::BOOTSTRAP_METHOD, intervals }
     });

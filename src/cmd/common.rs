@@ -38,6 +38,10 @@ pub struct TradeArgs {
     /// Field delimiter of CSV inputs (default: guessed from the header).
     #[arg(long, value_name = "CHAR")]
     pub delimiter: Option<char>,
+    /// Refuse trade inputs estimated to need more memory than this (e.g.
+    /// 8G; default: the memory available when the run starts).
+    #[arg(long, value_name = "SIZE")]
+    pub max_memory: Option<String>,
 }
 
 /// Where the release calendar comes from and how to read it.
@@ -157,6 +161,8 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
 /// Loads trades named by the flags.
 pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeSummary)> {
     let paths = trades::expand_paths(&t.trades)?;
+    let limit = t.max_memory.as_deref().map(crate::budget::parse_size).transpose()?;
+    crate::budget::check(&paths, limit)?;
     Ok(trades::load(&paths, opts)?)
 }
 
