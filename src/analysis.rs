@@ -53,16 +53,15 @@ pub struct TailSummary {
     pub capped: TailLine,
 }
 
-fn tail_line(pnl: &[f64], p: f64, threshold: f64) -> TailLine {
-    let abs: Vec<f64> = pnl.iter().map(|v| v.abs()).collect();
-    let tcr = metrics::tcr(pnl, p);
+/// `tcr` is the scenario's metric (computed once, in [`metrics::compute`]).
+fn tail_line(pnl: &[f64], tcr: Option<f64>, p: f64, threshold: f64) -> TailLine {
     let k = if pnl.is_empty() { 0 } else { metrics::tcr_k(pnl.len(), p) };
     TailLine {
         tcr,
         top_bucket: k,
         too_few: k < 10,
         above_threshold: tcr.map(|t| t > threshold),
-        hill: crate::stats::hill(&abs, crate::stats::default_hill_k(abs.len())),
+        hill: crate::stats::hill_of_abs(pnl, crate::stats::default_hill_k(pnl.len())),
     }
 }
 
@@ -125,24 +124,12 @@ pub struct Analysis {
     pub series: Scenarios,
 }
 
-impl Scenarios {
-    /// Baseline |P/L| sorted descending with the exposed flag.
-    pub fn sorted_abs(&self, exp: &Exposure) -> Vec<(f64, bool)> {
-        let b = &self.baseline;
-        let mut v: Vec<(f64, bool)> = b.pnl.iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
-        v.sort_by(|a, b| b.0.total_cmp(&a.0));
-        v
-    }
-
-    /// Each scenario's (close instant, P/L) in close order.
-    pub fn curves(&self) -> [Vec<(i64, f64)>; 3] {
-        [&self.baseline, &self.removed, &self.capped].map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect())
-    }
-}
 
 fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
-    let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, ctx);
-    ScenarioMetrics { baseline: m(&sc.baseline), removed: m(&sc.removed), capped: m(&sc.capped) }
+    let m = |s: scenarios::SeriesView| metrics::compute(&Curve { pnl: s.pnl, opened: s.opened, closed: s.closed }, ctx);
+    let [b, r, c] = sc.views();
+    let (baseline, (removed, capped)) = rayon::join(|| m(b), || rayon::join(|| m(r), || m(c)));
+    ScenarioMetrics { baseline, removed, capped }
 }
 
 /// Runs the exposure engine only (shared with other commands).
@@ -172,14 +159,17 @@ pub fn analyze(
     let all = scenarios::build(&TradeView::of(&order, trades, &exposed), &settings.scenario)?;
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
     let overall = metrics_of(&all, &ctx);
-    let tl = |sr: &scenarios::Series| tail_line(&sr.pnl, settings.tcr_p, settings.tcr_threshold);
+    let tl = |sr: &scenarios::Series, m: &Metrics| tail_line(&sr.pnl, m.tcr, settings.tcr_p, settings.tcr_threshold);
+    let o = &overall;
+    let (baseline, (removed, capped)) =
+        rayon::join(|| tl(&all.baseline, &o.baseline), || rayon::join(|| tl(&all.removed, &o.removed), || tl(&all.capped, &o.capped)));
     let tail = TailSummary {
         p: settings.tcr_p,
         threshold: settings.tcr_threshold,
         threshold_source: TCR_THRESHOLD_SOURCE,
-        baseline: tl(&all.baseline),
-        removed: tl(&all.removed),
-        capped: tl(&all.capped),
+        baseline,
+        removed,
+        capped,
     };
 
     let runs = if trades.has_runs() {

@@ -180,6 +180,20 @@ pub fn quantile_type7(sorted: &[f64], q: f64) -> Option<f64> {
     Some(sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]))
 }
 
+/// [`quantile_type7`] of values in any order, by selection (O(n)) rather
+/// than a full sort; `values` is reordered. NaN sorts last (total order).
+pub fn quantile_type7_unsorted(values: &mut [f64], q: f64) -> Option<f64> {
+    if values.is_empty() {
+        return None;
+    }
+    let h = (values.len() - 1) as f64 * q.clamp(0.0, 1.0);
+    let lo = h.floor() as usize;
+    let (_, &mut a, rest) = values.select_nth_unstable_by(lo, f64::total_cmp);
+    // The next order statistic is the least of what lies above.
+    let b = rest.iter().copied().min_by(f64::total_cmp).unwrap_or(a);
+    Some(a + (h - lo as f64) * (b - a))
+}
+
 /// Daily P/L (or returns when equity is known) over the weekdays of the
 /// span in the report zone. A close on a weekend counts on the next Monday.
 pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
@@ -321,6 +335,20 @@ pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn quantile_by_selection_equals_the_sorted_one() {
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+        for n in [1usize, 2, 3, 10, 101, 1000] {
+            let v: Vec<f64> = (0..n).map(|_| (rng.random_range(0..50) as f64) / 4.0).collect();
+            let mut sorted = v.clone();
+            sorted.sort_by(f64::total_cmp);
+            for q in [0.0, 0.01, 0.25, 0.5, 0.9, 0.99, 1.0] {
+                assert_eq!(quantile_type7_unsorted(&mut v.clone(), q), quantile_type7(&sorted, q), "n {n} q {q}");
+            }
+        }
+    }
 
     #[test]
     fn union_in_close_order_equals_the_sorted_union() {

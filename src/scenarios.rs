@@ -9,7 +9,7 @@
 //! counterfactual equity before it × r. The baseline is replayed the same
 //! way so the three scenarios are comparable.
 
-use crate::metrics::quantile_type7;
+use crate::metrics::quantile_type7_unsorted;
 use serde::Serialize;
 
 /// Starting value of the equity index when only `pnl_pct` is known.
@@ -90,19 +90,56 @@ pub struct Series {
     pub trade: Vec<u32>,
 }
 
+/// One scenario's kept trades, borrowed.
+#[derive(Debug, Clone, Copy)]
+pub struct SeriesView<'a> {
+    pub pnl: &'a [f64],
+    pub opened: &'a [i64],
+    pub closed: &'a [i64],
+    pub trade: &'a [u32],
+}
+
 impl Scenarios {
+    /// The capped scenario with the baseline's times and trades.
+    pub fn capped_view(&self) -> SeriesView<'_> {
+        SeriesView { pnl: &self.capped.pnl, ..self.baseline.view() }
+    }
+
+    /// baseline, removed, capped.
+    pub fn views(&self) -> [SeriesView<'_>; 3] {
+        [self.baseline.view(), self.removed.view(), self.capped_view()]
+    }
+
+    /// Baseline |P/L| sorted descending with the exposed flag.
+    pub fn sorted_abs(&self, exp: &crate::exposure::Exposure) -> Vec<(f64, bool)> {
+        let b = &self.baseline;
+        let mut v: Vec<(f64, bool)> = b.pnl.iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
+        v.sort_by(|a, b| b.0.total_cmp(&a.0));
+        v
+    }
+
+    /// Each scenario's (close instant, P/L) in close order.
+    pub fn curves(&self) -> [Vec<(i64, f64)>; 3] {
+        self.views().map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect())
+    }
+
     /// Room for `n` trades in each series (removed may use less).
     fn reserve(&mut self, n: usize) {
-        for s in [&mut self.baseline, &mut self.removed, &mut self.capped] {
+        for s in [&mut self.baseline, &mut self.removed] {
             s.pnl.reserve(n);
             s.opened.reserve(n);
             s.closed.reserve(n);
             s.trade.reserve(n);
         }
+        self.capped.pnl.reserve(n);
     }
 }
 
 impl Series {
+    pub fn view(&self) -> SeriesView<'_> {
+        SeriesView { pnl: &self.pnl, opened: &self.opened, closed: &self.closed, trade: &self.trade }
+    }
+
     fn push(&mut self, i: usize, pnl: f64, opened: &[i64], closed: &[i64]) {
         self.pnl.push(pnl);
         self.opened.push(opened[i]);
@@ -116,6 +153,9 @@ impl Series {
 pub struct Scenarios {
     pub baseline: Series,
     pub removed: Series,
+    /// Only `pnl` is filled: the capped scenario keeps exactly the
+    /// baseline's trades in the same order, so its times and trade indices
+    /// are the baseline's (not stored twice; see [`Scenarios::capped_view`]).
     pub capped: Series,
     /// C: in account currency, or as a return fraction under compounding
     /// (quantile/median caps); `None` when there are no unexposed trades to
@@ -154,15 +194,15 @@ impl<'a> TradeView<'a> {
 
 /// Sorts indices by close, then open, then input order.
 pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
-    idx.sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
+    use rayon::slice::ParallelSliceMut;
+    idx.par_sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
 }
 
 fn cap_from(values: impl Iterator<Item = f64>, rule: CapRule) -> Option<f64> {
     let mut v: Vec<f64> = values.map(f64::abs).collect();
-    v.sort_by(f64::total_cmp);
     match rule {
-        CapRule::Quantile(q) => quantile_type7(&v, q),
-        CapRule::MedianMultiple(m) => quantile_type7(&v, 0.5).map(|x| x * m),
+        CapRule::Quantile(q) => quantile_type7_unsorted(&mut v, q),
+        CapRule::MedianMultiple(m) => quantile_type7_unsorted(&mut v, 0.5).map(|x| x * m),
         _ => None,
     }
 }
@@ -216,10 +256,10 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, Scenari
                 Some(caps) => caps[i].abs(),
                 None => out.cap_value.unwrap_or(0.0),
             };
-            out.capped.push(i, p.clamp(-c, c), v.opened, v.closed);
+            out.capped.pnl.push(p.clamp(-c, c));
         } else {
             out.removed.push(i, p, v.opened, v.closed);
-            out.capped.push(i, p, v.opened, v.closed);
+            out.capped.pnl.push(p);
         }
     }
     Ok(out)
@@ -270,14 +310,14 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
                 }
             };
             eq_cap += pc;
-            out.capped.push(i, pc, v.opened, v.closed);
+            out.capped.pnl.push(pc);
         } else {
             let pr = eq_rem * r;
             eq_rem += pr;
             out.removed.push(i, pr, v.opened, v.closed);
             let pc = eq_cap * r;
             eq_cap += pc;
-            out.capped.push(i, pc, v.opened, v.closed);
+            out.capped.pnl.push(pc);
         }
     }
     Ok(out)

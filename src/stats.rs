@@ -34,7 +34,15 @@ pub struct HillEstimate {
 /// packages use X(k)). Values ≤ 0 are left out; `None` when fewer than
 /// k + 1 positive values remain or H_k is 0.
 pub fn hill(values: &[f64], k: usize) -> Option<HillEstimate> {
-    let mut x: Vec<f64> = values.iter().copied().filter(|v| *v > 0.0 && v.is_finite()).collect();
+    hill_owned(values.iter().copied().filter(|v| *v > 0.0 && v.is_finite()).collect(), k)
+}
+
+/// [`hill`] of |pnl|, with one copy of the data.
+pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
+    hill_owned(pnl.iter().map(|v| v.abs()).filter(|v| *v > 0.0 && v.is_finite()).collect(), k)
+}
+
+fn hill_owned(mut x: Vec<f64>, k: usize) -> Option<HillEstimate> {
     if k == 0 || x.len() <= k {
         return None;
     }

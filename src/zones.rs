@@ -97,6 +97,11 @@ pub fn parse_offset(s: &str) -> Option<i32> {
         _ => return None,
     };
     let rest = &s[1..];
+    // Byte slicing below needs ASCII (found by fuzzing: "-\u{7f}〲" split
+    // inside a character and panicked).
+    if !rest.is_ascii() {
+        return None;
+    }
     let (h, m) = match rest.len() {
         2 => (rest, "00"),
         4 => (&rest[..2], &rest[2..]),
@@ -480,5 +485,16 @@ mod tests {
                 assert_eq!(zone.to_utc_cached(&local, LocalPolicy::Error, &mut cache), zone.to_utc(&local, LocalPolicy::Error), "{zone} {local}");
             }
         }
+    }
+
+    /// Fuzzing finding: an offset with a multi-byte character is refused,
+    /// not split inside the character.
+    #[test]
+    fn offsets_with_non_ascii_are_refused() {
+        assert_eq!(parse_offset("-\u{7f}〲"), None);
+        assert_eq!(parse_offset("+〲"), None);
+        assert!("UTC-\u{7f}〲".parse::<Zone>().is_err());
+        assert_eq!(crate::timefmt::parse_stamp("2024-01-08 03:34-\u{7f}〲", &crate::timefmt::TimeFormat::Auto).ok(), None);
+        assert_eq!(parse_offset("+05:30"), Some(19_800));
     }
 }
