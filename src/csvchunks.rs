@@ -43,6 +43,8 @@ pub enum ScanError {
 #[derive(Debug, Default)]
 pub struct Record {
     spans: Vec<(usize, usize, bool)>,
+    /// A quoted field holds `""`: its text differs from its bytes.
+    escaped: bool,
 }
 
 impl Record {
@@ -52,6 +54,18 @@ impl Record {
     pub fn is_empty(&self) -> bool {
         self.spans.is_empty()
     }
+    /// Whether any field needs unescaping (see [`Record::field`]).
+    pub fn has_escapes(&self) -> bool {
+        self.escaped
+    }
+
+    /// Field `k` as it lies in the block (quotes removed, `""` kept): the
+    /// field's text when [`Record::has_escapes`] is false.
+    pub fn raw<'a>(&self, block: &'a [u8], k: usize) -> &'a [u8] {
+        let (a, b, _) = self.spans[k];
+        &block[a..b]
+    }
+
     /// Field `k` as bytes, `""` unescaped in quoted fields.
     pub fn field<'a>(&self, block: &'a [u8], k: usize) -> Cow<'a, [u8]> {
         let (a, b, quoted) = self.spans[k];
@@ -83,6 +97,7 @@ pub enum Parsed {
 /// Parses the record starting at `pos` into `rec`.
 pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Parsed {
     rec.spans.clear();
+    rec.escaped = false;
     let n = block.len();
     if block[pos] == b'\n' {
         return Parsed::Blank { next: pos + 1 };
@@ -99,7 +114,10 @@ pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Pa
             let end = loop {
                 match memchr(b'"', &block[j..]) {
                     None => return Parsed::Unclosed { column: rec.spans.len() + 1 },
-                    Some(q) if block.get(j + q + 1) == Some(&b'"') => j += q + 2,
+                    Some(q) if block.get(j + q + 1) == Some(&b'"') => {
+                        rec.escaped = true;
+                        j += q + 2
+                    }
                     Some(q) => break j + q,
                 }
             };

@@ -425,8 +425,11 @@ struct Part {
     pnl: Vec<f64>,
     instrument: Vec<u32>,
     instrument_names: Interner,
-    /// The last instrument seen and its id: rows often repeat it.
+    /// The last instrument and run seen, with their ids: rows often repeat
+    /// them (a run's rows are usually together), and a comparison is cheaper
+    /// than a hash lookup.
     last_instrument: Option<(String, u32)>,
+    last_run: Option<(String, u32)>,
     run: Vec<u32>,
     run_names: Interner,
     side: Vec<i8>,
@@ -468,17 +471,9 @@ impl Part {
                 self.opened.push(r.opened);
                 self.closed.push(r.closed);
                 self.pnl.push(r.pnl);
-                let id = match &self.last_instrument {
-                    Some((name, id)) if *name == r.instrument => *id,
-                    _ => {
-                        let id = intern(&mut self.instrument_names, &r.instrument);
-                        self.last_instrument = Some((r.instrument.to_string(), id));
-                        id
-                    }
-                };
-                self.instrument.push(id);
+                self.instrument.push(intern_cached(&mut self.instrument_names, &mut self.last_instrument, &r.instrument));
                 if let Some(name) = &r.run {
-                    self.run.push(intern(&mut self.run_names, name));
+                    self.run.push(intern_cached(&mut self.run_names, &mut self.last_run, name));
                 }
                 if present[SIDE] {
                     self.side.push(r.side);
@@ -714,6 +709,11 @@ fn parse_block(
                     let hint = if n < width && last_in_file && pos >= block.len() { "; is the file truncated?" } else { "" };
                     let e = row_err("row", "field_count", format!("{n} field(s) where the header has {width}{hint}"));
                     part.take(index, Err(e), present);
+                } else if !rec.has_escapes() {
+                    // The common case: every field's text is its bytes.
+                    let cell = |k: usize| columns[k].map_or(Ok(Cell::Null), |c| text_cell(rec.raw(block, c), FIELDS[k]));
+                    let row = parse_row(present, cell, opts, sep != b',', &mut cache);
+                    part.take(index, row, present);
                 } else {
                     let cells: [std::borrow::Cow<[u8]>; 12] =
                         std::array::from_fn(|k| columns[k].map_or(std::borrow::Cow::Borrowed(&b""[..]), |c| rec.field(block, c)));
@@ -769,6 +769,18 @@ fn intern(map: &mut Interner, s: &str) -> u32 {
     let i = map.len() as u32;
     map.insert(s.to_string(), i);
     i
+}
+
+/// [`intern`] behind a one-entry cache of the last name.
+fn intern_cached(map: &mut Interner, last: &mut Option<(String, u32)>, s: &str) -> u32 {
+    if let Some((name, id)) = last
+        && name == s
+    {
+        return *id;
+    }
+    let id = intern(map, s);
+    *last = Some((s.to_string(), id));
+    id
 }
 
 fn truncate(s: &str) -> String {
