@@ -194,8 +194,13 @@ impl<'a> TradeView<'a> {
 
 /// Sorts indices by close, then open, then input order.
 pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
-    use rayon::slice::ParallelSliceMut;
-    idx.par_sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
+    // Sorting the keys themselves (contiguous) beats sorting indices whose
+    // keys are looked up at random on every comparison; keys are unique
+    // (they end in the index), so an unstable sort gives the one order.
+    use rayon::prelude::*;
+    let mut keys: Vec<(i64, i64, u32)> = idx.par_iter().map(|&i| (closed[i as usize], opened[i as usize], i)).collect();
+    keys.par_sort_unstable();
+    idx.par_iter_mut().zip(keys.par_iter()).for_each(|(slot, k)| *slot = k.2);
 }
 
 fn cap_from(values: impl Iterator<Item = f64>, rule: CapRule) -> Option<f64> {
