@@ -93,6 +93,7 @@ pub struct Exposure {
     pub match_ptr: Vec<u64>,
     pub match_release: Vec<u32>,
     /// Nearest relevant used release to the open (by |t − open|), or u32::MAX.
+    /// Empty from [`Engine::run_matches`].
     pub nearest: Vec<u32>,
     /// Signed minutes from the nearest release to the open (open − t);
     /// NaN when there is none.
@@ -150,6 +151,17 @@ impl Engine {
     /// Runs every trade. `instrument_currencies[i]` lists the currencies of
     /// instrument i.
     pub fn run(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>]) -> Exposure {
+        self.run_with(opened, closed, instrument, instrument_currencies, true)
+    }
+
+    /// [`Engine::run`] without the nearest release of each trade (`nearest`
+    /// and `minutes_from_nearest` stay empty): for placebo calendars, window
+    /// grids and per-run ranking, which use only the matches.
+    pub fn run_matches(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>]) -> Exposure {
+        self.run_with(opened, closed, instrument, instrument_currencies, false)
+    }
+
+    fn run_with(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>], want_nearest: bool) -> Exposure {
         let ids: Vec<Vec<usize>> = instrument_currencies.iter().map(|c| self.currency_ids(c)).collect();
         let n = opened.len();
         // Work in parallel chunks; each returns its own compressed matches.
@@ -187,6 +199,10 @@ impl Engine {
                                 rel.push(s.release);
                             }
                         }
+                        if !want_nearest {
+                            *h = [from, to, 0];
+                            continue;
+                        }
                         // Nearest instant to the open: neighbours of the open.
                         let p = partition_point_near(&ix.instants, h[2], |x| x.0 < o);
                         *h = [from, to, p];
@@ -201,6 +217,9 @@ impl Engine {
                     }
                     rel[before..].sort_unstable();
                     k.push((rel.len() - before) as u32);
+                    if !want_nearest {
+                        continue;
+                    }
                     match best {
                         Some((_, r, t)) => {
                             nearest.push(r);
@@ -219,8 +238,8 @@ impl Engine {
             k: Vec::with_capacity(n),
             match_ptr: Vec::with_capacity(n + 1),
             match_release: Vec::new(),
-            nearest: Vec::with_capacity(n),
-            minutes_from_nearest: Vec::with_capacity(n),
+            nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
+            minutes_from_nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
         };
         out.match_ptr.push(0);
         for (k, rel, nearest, minutes) in parts {
@@ -310,7 +329,8 @@ pub fn coverage(
     let mut all: Vec<&String> = instrument_currencies.iter().flatten().collect();
     all.sort();
     all.dedup();
-    all.into_iter()
+    // One pass over the trades per currency, currencies in parallel.
+    all.into_par_iter()
         .map(|cur| {
             let days = span.get(cur.as_str()).map(|&(a, b)| (a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS));
             let mut line = CoverageLine {

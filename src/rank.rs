@@ -144,7 +144,7 @@ fn run_row(
     placebo: PlaceboSettings,
 ) -> Result<RunRow, scenarios::ScenarioError> {
     let t = subset(all, idx);
-    let exp = engine.run(&t.opened, &t.closed, &t.instrument, currencies);
+    let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, currencies);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
     drop(exp);
     let mut order: Vec<u32> = (0..t.len() as u32).collect();

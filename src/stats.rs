@@ -183,7 +183,7 @@ pub fn placebo(
                 moved.push(UsedWindow { start: w.start + delta, end: w.end + delta, at: new_at, ..w.clone() });
             }
             let engine = Engine::from_windows(&moved, rule, releases.len());
-            let exp = engine.run(&trades.opened, &trades.closed, &trades.instrument, currencies);
+            let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
             let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
             let (a, b) = effect_statistics(&trades.pnl, &flags);
             progress();

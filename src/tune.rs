@@ -118,7 +118,7 @@ pub fn tune(
             let ws = cell_windows(&settings.windows, tier, Window { pre_min: a, post_min: b });
             let used = used_windows(releases, &ws);
             let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
-            let exp = engine.run(&trades.opened, &trades.closed, &trades.instrument, currencies);
+            let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
             let (mut pnl, mut op, mut cl) = (Vec::new(), Vec::new(), Vec::new());
             let mut exposed_pnl = 0.0;
             for &i in &order {
