@@ -126,7 +126,9 @@ pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Pa
             // included) is kept out of the field.
             i = memchr2(delim, b'\n', &block[end + 1..]).map_or(n, |k| end + 1 + k);
         } else {
-            let k = memchr2(delim, b'\n', &block[i..]).map_or(n, |k| i + k);
+            // Fields are short: a plain scan beats a vectorised search's
+            // set-up cost per call.
+            let k = block[i..].iter().position(|&b| b == delim || b == b'\n').map_or(n, |k| i + k);
             let mut e = k;
             if (k == n || block[k] == b'\n') && e > i && block[e - 1] == b'\r' {
                 e -= 1;
