@@ -285,20 +285,8 @@ pub fn resample(n: usize, seed: u64, r: usize) -> Vec<u32> {
     (0..n).map(|_| rng.random_range(0..n as u32)).collect()
 }
 
-/// Bootstrap intervals for given resample index sets.
-pub fn bootstrap_with(
-    sets: &[Vec<u32>],
-    trades: &Trades,
-    exposed: &[bool],
-    settings: &ScenarioSettings,
-    ctx: &Context,
-    confidence: f64,
-    progress: &(dyn Fn() + Sync),
-) -> BTreeMap<&'static str, Interval> {
-    bootstrap_drawn(sets.len(), &|r| sets[r].clone(), trades, exposed, settings, ctx, confidence, progress)
-}
-
-/// Bootstrap intervals over `count` resamples, resample `r` given by `draw(r)`.
+/// Bootstrap intervals over `count` resamples, resample `r` given by
+/// `draw(r)` (e.g. [`resample`], or index sets drawn elsewhere).
 #[allow(clippy::too_many_arguments)]
 pub fn bootstrap_drawn(
     count: usize,

@@ -45,7 +45,7 @@ fn bootstrap_percentiles_match_numpy() {
     let t = trades_from(opened, closed, pnl);
     let settings = ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::Quantile(0.99), initial_equity: None };
     let ctx = Context { span: t.span().unwrap(), report_zone: Zone::Utc, initial_equity: None, tcr_p: f["tcr_p"].as_f64().unwrap() };
-    let got = stats::bootstrap_with(&sets, &t, &exposed, &settings, &ctx, 0.95, &|| {});
+    let got = stats::bootstrap_drawn(sets.len(), &|r| sets[r].clone(), &t, &exposed, &settings, &ctx, 0.95, &|| {});
     for name in ["net", "profit_factor", "max_drawdown", "tcr"] {
         let want = &f["percentiles"][name];
         let g = &got[name];
