@@ -132,11 +132,21 @@ fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
     ScenarioMetrics { baseline, removed, capped }
 }
 
-/// Runs the exposure engine only (shared with other commands).
-pub fn exposure_of(trades: &Trades, releases: &[Release], currencies: &[InstrumentCurrencies], windows: &WindowSettings, rule: ExposureRule) -> (Engine, Exposure) {
+/// Runs the exposure engine only: the matches, and with `nearest` also
+/// each trade's nearest release (needed only for the annotated trade file
+/// and the distance chart, so the main analysis leaves it out).
+pub fn exposure_of(
+    trades: &Trades,
+    releases: &[Release],
+    currencies: &[InstrumentCurrencies],
+    windows: &WindowSettings,
+    rule: ExposureRule,
+    nearest: bool,
+) -> (Engine, Exposure) {
     let engine = Engine::new(releases, windows, rule);
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
-    let exp = engine.run(&trades.opened, &trades.closed, &trades.instrument, &cur);
+    let (o, c, i) = (&trades.opened, &trades.closed, &trades.instrument);
+    let exp = if nearest { engine.run(o, c, i, &cur) } else { engine.run_matches(o, c, i, &cur) };
     (engine, exp)
 }
 
@@ -148,7 +158,7 @@ pub fn analyze(
     settings: &AnalysisSettings,
 ) -> Result<(Analysis, Exposure), AnalysisError> {
     let span = trades.span().ok_or(AnalysisError::NoTrades)?;
-    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule);
+    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, false);
     let attribution = attribution::attribute(&exp, &trades.pnl, releases, &engine.used)?;
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let coverage = exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur);

@@ -63,6 +63,8 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let json = serde_json::to_string_pretty(&summary)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
+        // The files need each trade's nearest release as well as its matches.
+        let (_, exposure) = analysis::exposure_of(trades, &cal.releases, currencies, &summary.settings.windows, summary.settings.exposure_rule, true);
         let series = series.expect("kept for --out");
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves());
         drop(series);
