@@ -37,9 +37,17 @@ pub fn hill(values: &[f64], k: usize) -> Option<HillEstimate> {
     hill_owned(values.iter().copied().filter(|v| *v > 0.0 && v.is_finite()).collect(), k)
 }
 
-/// [`hill`] of |pnl|, with one copy of the data.
+/// [`hill`] of |pnl| without copying the data: only the k + 1 largest are
+/// kept, and the count of positive values decides whether there are enough.
 pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
-    hill_owned(pnl.iter().map(|v| v.abs()).filter(|v| *v > 0.0 && v.is_finite()).collect(), k)
+    let usable = || pnl.iter().map(|v| v.abs()).filter(|v| *v > 0.0 && v.is_finite());
+    let n = usable().count();
+    if k == 0 || n <= k {
+        return None;
+    }
+    let x = crate::metrics::top_abs(usable(), k + 1);
+    let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
+    (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n })
 }
 
 fn hill_owned(mut x: Vec<f64>, k: usize) -> Option<HillEstimate> {
