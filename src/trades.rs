@@ -668,7 +668,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                 Err((rows_before, column)) => {
                     let row = sink.file_rows + rows_before + 1;
                     let name = names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
-                    return Err(err(format!("{}", ScanError::UnclosedQuote { row, column: format!("{column}{name}") })));
+                    return Err(err(ScanError::UnclosedQuote { row, column: format!("{column}{name}") }.to_string()));
                 }
             }
         }
