@@ -4,7 +4,7 @@
 use crate::attribution::{self, Attribution, ConservationError};
 use crate::calendar::Release;
 use crate::exposure::{self, CoverageLine, Engine, Exposure, ExposureRule};
-use crate::metrics::{self, Context, Curve, Metrics};
+use crate::metrics::{self, Context, Metrics};
 use crate::relevance::InstrumentCurrencies;
 use crate::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios, TradeView};
 use crate::trades::Trades;
@@ -125,8 +125,9 @@ pub struct Analysis {
 }
 
 
-fn metrics_of(sc: &Scenarios, ctx: &Context) -> ScenarioMetrics {
-    let m = |s: scenarios::SeriesView| metrics::compute(&Curve { pnl: s.pnl, opened: s.opened, closed: s.closed }, ctx);
+/// `opened`/`closed`: the input's columns (series hold trade indices).
+fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> ScenarioMetrics {
+    let m = |s: scenarios::SeriesView| metrics::compute(&s.curve(opened, closed), ctx);
     let [b, r, c] = sc.views();
     let (baseline, (removed, capped)) = rayon::join(|| m(b), || rayon::join(|| m(r), || m(c)));
     ScenarioMetrics { baseline, removed, capped }
@@ -168,7 +169,7 @@ pub fn analyze(
     let exposed = |i: usize| exp.k[i] > 0;
     let all = scenarios::build(&TradeView::of(&order, trades, &exposed), &settings.scenario)?;
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
-    let overall = metrics_of(&all, &ctx);
+    let overall = metrics_of(&all, &trades.opened, &trades.closed, &ctx);
     let tl = |sr: &scenarios::Series, m: &Metrics| tail_line(&sr.pnl, m.tcr, settings.tcr_p, settings.tcr_threshold);
     let o = &overall;
     let (baseline, (removed, capped)) =
@@ -203,7 +204,7 @@ pub fn analyze(
                     exposed_trades: idx.iter().filter(|&&i| exp.k[i as usize] > 0).count(),
                     exposed_pnl: idx.iter().filter(|&&i| exp.k[i as usize] > 0).map(|&i| trades.pnl[i as usize]).sum(),
                     cap_value: sc.cap_value,
-                    scenarios: metrics_of(&sc, &ctx),
+                    scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
                 })
             })
             .collect::<Result<Vec<_>, _>>()?

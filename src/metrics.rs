@@ -80,9 +80,25 @@ pub struct Context {
 
 /// One scenario's kept trades, in close order.
 pub struct Curve<'a> {
+    /// P/L of each kept trade, in close order.
     pub pnl: &'a [f64],
+    /// Input index of each kept trade; its times are `opened[trade[j]]` and
+    /// `closed[trade[j]]` (the input's columns, not copies per scenario).
+    pub trade: &'a [u32],
     pub opened: &'a [i64],
     pub closed: &'a [i64],
+}
+
+impl Curve<'_> {
+    /// Close instants of the kept trades, in order.
+    fn closes(&self) -> impl DoubleEndedIterator<Item = i64> + '_ {
+        self.trade.iter().map(|&i| self.closed[i as usize])
+    }
+
+    /// (open, close) of the kept trades, in order.
+    fn intervals(&self) -> impl DoubleEndedIterator<Item = (i64, i64)> + '_ {
+        self.trade.iter().map(|&i| (self.opened[i as usize], self.closed[i as usize]))
+    }
 }
 
 /// Sample mean and standard deviation (ddof 1).
@@ -236,7 +252,7 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
     let last = weekday_index(local_day(z, ctx.span.1));
     let n = (last - first + 1).max(0) as usize;
     let mut pnl = vec![0.0; n];
-    for (p, &cl) in c.pnl.iter().zip(c.closed) {
+    for (p, cl) in c.pnl.iter().zip(c.closes()) {
         let i = (weekday_index(local_day(z, cl)) - first).clamp(0, n as i64 - 1) as usize;
         if let Some(slot) = pnl.get_mut(i) {
             *slot += p;
@@ -261,7 +277,7 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
 fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
     let (mut eq, mut peak, mut peak_t, mut longest) = (0.0f64, 0.0f64, ctx.span.0, 0i64);
     let mut under = false;
-    for (p, &t) in c.pnl.iter().zip(c.closed) {
+    for (p, t) in c.pnl.iter().zip(c.closes()) {
         eq += p;
         if eq >= peak {
             if under {
@@ -284,10 +300,12 @@ fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
 /// scenario series is): one backward sweep, no sort. Walking closes from the
 /// last, an interval that ends before the current merged segment starts can
 /// overlap no interval already seen, so the segment is complete.
-fn union_length(opened: &[i64], closed: &[i64]) -> i64 {
-    debug_assert!(closed.windows(2).all(|w| w[0] <= w[1]), "close order");
+fn union_length(intervals: impl DoubleEndedIterator<Item = (i64, i64)>) -> i64 {
     let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
-    for (&a, &b) in opened.iter().zip(closed).rev() {
+    let mut last_close = i64::MAX;
+    for (a, b) in intervals.rev() {
+        debug_assert!(b <= last_close, "close order");
+        last_close = b;
         cur = match cur {
             Some((s, e)) if b >= s => Some((s.min(a), e)),
             Some((s, e)) => {
@@ -360,7 +378,7 @@ pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
     m.sortino = sortino(&daily, DAYS_PER_YEAR);
     m.t_stat = t_stat(c.pnl);
     let span = ctx.span.1 - ctx.span.0;
-    m.time_in_market = (span > 0).then(|| union_length(c.opened, c.closed) as f64 / span as f64);
+    m.time_in_market = (span > 0).then(|| union_length(c.intervals()) as f64 / span as f64);
     m.tcr = tcr(c.pnl, ctx.tcr_p);
     m
 }
@@ -410,8 +428,7 @@ mod tests {
                 })
                 .collect();
             iv.sort_by_key(|&(a, b)| (b, a));
-            let (o, c): (Vec<i64>, Vec<i64>) = iv.iter().copied().unzip();
-            assert_eq!(union_length(&o, &c), union_within(iv.clone(), None), "{iv:?}");
+            assert_eq!(union_length(iv.iter().copied()), union_within(iv.clone(), None), "{iv:?}");
         }
     }
 
@@ -426,7 +443,7 @@ mod tests {
     fn reference_trade_list() {
         let t: Vec<i64> = (0..10).map(|i| i * DAY_MS).collect();
         let ctx = Context { span: (0, 9 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 10.0 };
-        let m = compute(&Curve { pnl: &REF, opened: &t, closed: &t }, &ctx);
+        let m = compute(&Curve { pnl: &REF, trade: &[0, 1, 2, 3, 4, 5, 6, 7, 8, 9], opened: &t, closed: &t }, &ctx);
         assert_eq!((m.trades, m.wins, m.losses), (10, 6, 4));
         assert!(close(m.net, 600.0) && close(m.gross_profit, 1030.0) && close(m.gross_loss, -430.0));
         assert!(close(m.profit_factor.unwrap(), 2.395348837209302));
@@ -493,8 +510,8 @@ mod tests {
         let pnl = [5.0, -3.0, 1.0, 4.0];
         let ctx = Context { span: (0, 12 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
         // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
-        assert_eq!(longest_drawdown_days(&Curve { pnl: &pnl, opened: &t, closed: &t }, &ctx), 9.0);
-        assert_eq!(union_length(&[0, 5, 20], &[10, 12, 25]), 17);
+        assert_eq!(longest_drawdown_days(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t }, &ctx), 9.0);
+        assert_eq!(union_length([(0, 10), (5, 12), (20, 25)].into_iter()), 17);
         assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))), 25);
     }
 }

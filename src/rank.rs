@@ -9,7 +9,7 @@
 use crate::analysis::AnalysisSettings;
 use crate::calendar::Release;
 use crate::exposure::{Engine, UsedWindow};
-use crate::metrics::{self, Context, Curve, Metrics};
+use crate::metrics::{self, Context, Metrics};
 use crate::scenarios::{self, TradeView};
 use crate::stats::{self, PlaceboSettings};
 use crate::trades::Trades;
@@ -154,7 +154,7 @@ fn run_row(
     let sc = scenarios::build(&view, &settings.scenario)?;
     let span = t.span().unwrap_or((0, 0));
     let ctx = Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
-    let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, &ctx);
+    let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&t.opened, &t.closed), &ctx);
     let (b, rm) = (m(&sc.baseline), m(&sc.removed));
     let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
     let placebo_p = (placebo.n > 0).then(|| {

@@ -84,9 +84,8 @@ pub enum ScenarioError {
 pub struct Series {
     /// Scenario P/L per kept trade.
     pub pnl: Vec<f64>,
-    pub opened: Vec<i64>,
-    pub closed: Vec<i64>,
-    /// Index of each kept trade in the input.
+    /// Index of each kept trade in the input; its times are read from the
+    /// input's columns through it (not copied per scenario).
     pub trade: Vec<u32>,
 }
 
@@ -94,9 +93,14 @@ pub struct Series {
 #[derive(Debug, Clone, Copy)]
 pub struct SeriesView<'a> {
     pub pnl: &'a [f64],
-    pub opened: &'a [i64],
-    pub closed: &'a [i64],
     pub trade: &'a [u32],
+}
+
+impl<'a> SeriesView<'a> {
+    /// The metrics' view, times from the input columns.
+    pub fn curve(self, opened: &'a [i64], closed: &'a [i64]) -> crate::metrics::Curve<'a> {
+        crate::metrics::Curve { pnl: self.pnl, trade: self.trade, opened, closed }
+    }
 }
 
 impl Scenarios {
@@ -118,17 +122,16 @@ impl Scenarios {
         v
     }
 
-    /// Each scenario's (close instant, P/L) in close order.
-    pub fn curves(&self) -> [Vec<(i64, f64)>; 3] {
-        self.views().map(|sr| sr.closed.iter().copied().zip(sr.pnl.iter().copied()).collect())
+    /// Each scenario's (close instant, P/L) in close order; `closed` is the
+    /// input's close column.
+    pub fn curves(&self, closed: &[i64]) -> [Vec<(i64, f64)>; 3] {
+        self.views().map(|sr| sr.trade.iter().map(|&i| closed[i as usize]).zip(sr.pnl.iter().copied()).collect())
     }
 
     /// Room for `n` trades in each series (removed may use less).
     fn reserve(&mut self, n: usize) {
         for s in [&mut self.baseline, &mut self.removed] {
             s.pnl.reserve(n);
-            s.opened.reserve(n);
-            s.closed.reserve(n);
             s.trade.reserve(n);
         }
         self.capped.pnl.reserve(n);
@@ -137,13 +140,11 @@ impl Scenarios {
 
 impl Series {
     pub fn view(&self) -> SeriesView<'_> {
-        SeriesView { pnl: &self.pnl, opened: &self.opened, closed: &self.closed, trade: &self.trade }
+        SeriesView { pnl: &self.pnl, trade: &self.trade }
     }
 
-    fn push(&mut self, i: usize, pnl: f64, opened: &[i64], closed: &[i64]) {
+    fn push(&mut self, i: usize, pnl: f64) {
         self.pnl.push(pnl);
-        self.opened.push(opened[i]);
-        self.closed.push(closed[i]);
         self.trade.push(i as u32);
     }
 }
@@ -255,7 +256,7 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, Scenari
     for &i in v.order {
         let i = i as usize;
         let p = v.pnl[i];
-        out.baseline.push(i, p, v.opened, v.closed);
+        out.baseline.push(i, p);
         if (v.exposed)(i) {
             let c = match &per_trade_cap {
                 Some(caps) => caps[i].abs(),
@@ -263,7 +264,7 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, Scenari
             };
             out.capped.pnl.push(p.clamp(-c, c));
         } else {
-            out.removed.push(i, p, v.opened, v.closed);
+            out.removed.push(i, p);
             out.capped.pnl.push(p);
         }
     }
@@ -305,7 +306,7 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
         let r = ret[i];
         let pb = eq_base * r;
         eq_base += pb;
-        out.baseline.push(i, pb, v.opened, v.closed);
+        out.baseline.push(i, pb);
         if (v.exposed)(i) {
             let pc = match s.cap {
                 CapRule::Amount(a) => (eq_cap * r).clamp(-a, a),
@@ -319,7 +320,7 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
         } else {
             let pr = eq_rem * r;
             eq_rem += pr;
-            out.removed.push(i, pr, v.opened, v.closed);
+            out.removed.push(i, pr);
             let pc = eq_cap * r;
             eq_cap += pc;
             out.capped.pnl.push(pc);

@@ -7,7 +7,7 @@
 
 use crate::calendar::{Release, normalise_title};
 use crate::exposure::{Engine, ExposureRule, UsedWindow};
-use crate::metrics::{self, Context, Curve, quantile_type7};
+use crate::metrics::{self, Context, quantile_type7};
 use crate::scenarios::{self, ScenarioSettings, TradeView};
 use crate::trades::Trades;
 use crate::zones::DAY_MS;
@@ -266,7 +266,7 @@ pub fn changes(
     let view = TradeView::of(&order, trades, &is_exposed);
     let Ok(sc) = scenarios::build(&view, settings) else { return [None; 5] };
     let ctx = Context { initial_equity: sc.initial_equity, ..*ctx };
-    let m = |s: &scenarios::Series| metrics::compute(&Curve { pnl: &s.pnl, opened: &s.opened, closed: &s.closed }, &ctx);
+    let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&trades.opened, &trades.closed), &ctx);
     let (b, r) = (m(&sc.baseline), m(&sc.removed));
     BOOTSTRAP_FIGURES.map(|f| match (figure(&b, f), figure(&r, f)) {
         (Some(x), Some(y)) => Some(y - x),

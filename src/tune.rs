@@ -119,7 +119,7 @@ pub fn tune(
             let used = used_windows(releases, &ws);
             let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
             let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
-            let (mut pnl, mut op, mut cl) = (Vec::new(), Vec::new(), Vec::new());
+            let (mut pnl, mut kept) = (Vec::new(), Vec::new());
             let mut exposed_pnl = 0.0;
             for &i in &order {
                 let i = i as usize;
@@ -127,11 +127,10 @@ pub fn tune(
                     exposed_pnl += trades.pnl[i];
                 } else {
                     pnl.push(trades.pnl[i]);
-                    op.push(trades.opened[i]);
-                    cl.push(trades.closed[i]);
+                    kept.push(i as u32);
                 }
             }
-            let m = metrics::compute(&Curve { pnl: &pnl, opened: &op, closed: &cl }, &ctx);
+            let m = metrics::compute(&Curve { pnl: &pnl, trade: &kept, opened: &trades.opened, closed: &trades.closed }, &ctx);
             let blocked = metrics::union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), Some(span));
             progress();
             Cell {

@@ -27,9 +27,8 @@ fn metrics_match_library_reference_values() {
         let mut order: Vec<u32> = (0..t.len() as u32).collect();
         close_order(&mut order, &t.opened, &t.closed);
         let pick = |v: &[f64]| order.iter().map(|&i| v[i as usize]).collect::<Vec<_>>();
-        let picki = |v: &[i64]| order.iter().map(|&i| v[i as usize]).collect::<Vec<_>>();
-        let (pnl, opened, closed) = (pick(&t.pnl), picki(&t.opened), picki(&t.closed));
-        let curve = Curve { pnl: &pnl, opened: &opened, closed: &closed };
+        let pnl = pick(&t.pnl);
+        let curve = Curve { pnl: &pnl, trade: &order, opened: &t.opened, closed: &t.closed };
         let mut ctx = Context { span: t.span().unwrap(), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
         let m = metrics::compute(&curve, &ctx);
         let w = |k: &str| want[k].as_f64().unwrap_or_else(|| panic!("{name}.{k}"));

@@ -66,7 +66,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         // The files need each trade's nearest release as well as its matches.
         let (_, exposure) = analysis::exposure_of(trades, &cal.releases, currencies, &summary.settings.windows, summary.settings.exposure_rule, true);
         let series = series.expect("kept for --out");
-        let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves());
+        let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
         drop(series);
         let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
         match args.trades_format {
