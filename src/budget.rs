@@ -61,8 +61,7 @@ pub fn available() -> Option<u64> {
 pub fn estimate_rows(path: &Path) -> Result<u64, BudgetError> {
     let err = |e: String| BudgetError::Read { path: path.to_path_buf(), message: e };
     let size = std::fs::metadata(path).map_err(|e| err(e.to_string()))?.len();
-    let ext = path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase());
-    if matches!(ext.as_deref(), Some("parquet" | "pq")) {
+    if crate::table::is_parquet(path) {
         // Parquet compresses; its footer holds the row count.
         use polars::prelude::*;
         let file = std::fs::File::open(path).map_err(|e| err(e.to_string()))?;

@@ -44,7 +44,8 @@ impl ColumnSource {
     }
 }
 
-fn is_parquet(path: &Path) -> bool {
+/// Parquet by extension (`.parquet`, `.pq`); anything else is read as CSV.
+pub fn is_parquet(path: &Path) -> bool {
     matches!(
         path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
         Some("parquet" | "pq")

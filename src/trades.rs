@@ -233,7 +233,7 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default()
         });
         sink.start_file(fi as u16, path, file_run);
-        if is_parquet(path) {
+        if crate::table::is_parquet(path) {
             let table = Table::read(path, opts.delimiter).map_err(|message| TradeError::Read { path: path.clone(), message })?;
             read_table(&table, path, opts, &mut sink)?;
         } else {
@@ -263,13 +263,6 @@ fn names_in_order(map: Interner) -> Vec<String> {
     let mut v: Vec<(String, u32)> = map.into_iter().collect();
     v.sort_by_key(|x| x.1);
     v.into_iter().map(|x| x.0).collect()
-}
-
-fn is_parquet(path: &Path) -> bool {
-    matches!(
-        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
-        Some("parquet" | "pq")
-    )
 }
 
 /// The source column of each field in [`FIELDS`] order, `None` when absent.
@@ -617,14 +610,11 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
     let mut reader = csvchunks::BlockReader::open(path, sep).map_err(io)?;
     let mut first = reader.next_block().map_err(|e| err(e.to_string()))?.ok_or_else(|| err(ScanError::Empty.to_string()))?;
     let header = csvchunks::take_header(&mut first, sep).map_err(|e| err(e.to_string()))?;
-    // Room for the whole file, estimated from the first block's records: the
+    // Room for the whole file (the memory budget's row estimate): the
     // columns then grow once instead of doubling (which can leave up to half
     // of each column as unused capacity on a large input).
-    if let Ok(meta) = std::fs::metadata(path)
-        && !first.is_empty()
-    {
-        let per_byte = (memchr::memchr_iter(b'\n', &first).count() + 1) as f64 / first.len() as f64;
-        sink.trades.reserve((meta.len() as f64 * per_byte * 1.02) as usize);
+    if let Ok(rows) = crate::budget::estimate_rows(path) {
+        sink.trades.reserve((rows as f64 * 1.02) as usize);
     }
     let names = &header.names;
     if let [only] = names.as_slice()
