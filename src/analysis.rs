@@ -133,10 +133,9 @@ fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> 
     ScenarioMetrics { baseline, removed, capped }
 }
 
-/// Runs the exposure engine only: the matches, and with `nearest` also
-/// each trade's nearest release (needed only for the annotated trade file
-/// and the distance chart, so the main analysis leaves it out).
-pub fn exposure_of(
+/// Runs the exposure engine: the matches, and with `nearest` also each
+/// trade's nearest release.
+fn exposure_of(
     trades: &Trades,
     releases: &[Release],
     currencies: &[InstrumentCurrencies],
@@ -151,15 +150,18 @@ pub fn exposure_of(
     (engine, exp)
 }
 
-/// The whole analysis.
+/// The whole analysis. `nearest`: also find each trade's nearest release
+/// (in the returned exposure; only the annotated trade file and the
+/// distance chart use it).
 pub fn analyze(
     trades: &Trades,
     releases: &[Release],
     currencies: &[InstrumentCurrencies],
     settings: &AnalysisSettings,
+    nearest: bool,
 ) -> Result<(Analysis, Exposure), AnalysisError> {
     let span = trades.span().ok_or(AnalysisError::NoTrades)?;
-    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, false);
+    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, nearest);
     let attribution = attribution::attribute(&exp, &trades.pnl, releases, &engine.used)?;
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let coverage = exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur);

@@ -160,7 +160,7 @@ fn analyse(t: &Trades, rel: &[Release]) -> Option<Analysis> {
         return None;
     }
     let cur = relevance::resolve(&t.instruments, &HashMap::new(), Unmapped::Error, &[]).unwrap();
-    Some(analysis::analyze(t, rel, &cur, &settings()).unwrap().0)
+    Some(analysis::analyze(t, rel, &cur, &settings(), false).unwrap().0)
 }
 
 /// Equal JSON, numbers to 1e-9 relative (summation order may differ).

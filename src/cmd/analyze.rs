@@ -53,7 +53,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let settings = args.scenario.settings(&args.windows)?;
     let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
-    let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings)?;
+    let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings, args.out.is_some())?;
     // The scenario series feed only the files of --out; without it they go now.
     let series = std::mem::take(&mut result.series);
     let series = args.out.is_some().then_some(series);
@@ -63,8 +63,6 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let json = serde_json::to_string_pretty(&summary)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        // The files need each trade's nearest release as well as its matches.
-        let (_, exposure) = analysis::exposure_of(trades, &cal.releases, currencies, &summary.settings.windows, summary.settings.exposure_rule, true);
         let series = series.expect("kept for --out");
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
         drop(series);
