@@ -6,7 +6,7 @@ use crate::calendar::Release;
 use crate::exposure::{self, CoverageLine, Engine, Exposure, ExposureRule};
 use crate::metrics::{self, Context, Metrics};
 use crate::relevance::InstrumentCurrencies;
-use crate::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios, TradeView};
+use crate::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios};
 use crate::trades::Trades;
 use crate::windows::WindowSettings;
 use crate::zones::Zone;
@@ -118,8 +118,7 @@ pub struct Analysis {
     pub attribution: Attribution,
     pub runs: Vec<RunResult>,
     /// The three scenarios' trades in close order (for charts and
-    /// tail.csv; not part of summary.json). Kept once: the views below are
-    /// built only when a caller asks, so a run without `--out` holds no copy.
+    /// tail.csv; not part of summary.json); empty unless asked for.
     #[serde(skip)]
     pub series: Scenarios,
 }
@@ -127,9 +126,16 @@ pub struct Analysis {
 
 /// `opened`/`closed`: the input's columns (series hold trade indices).
 fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> ScenarioMetrics {
-    let m = |s: scenarios::SeriesView| metrics::compute(&s.curve(opened, closed), ctx);
-    let [b, r, c] = sc.views();
-    let (baseline, (removed, capped)) = rayon::join(|| m(b), || rayon::join(|| m(r), || m(c)));
+    let [b, r, c] = sc.views().map(|s| s.curve(opened, closed));
+    // The capped scenario holds the baseline's trades: one union of their
+    // holding periods serves both.
+    let ((baseline, capped), removed) = rayon::join(
+        || {
+            let held = metrics::time_held(&b);
+            rayon::join(|| metrics::compute_with_union(&b, ctx, Some(held)), || metrics::compute_with_union(&c, ctx, Some(held)))
+        },
+        || metrics::compute(&r, ctx),
+    );
     ScenarioMetrics { baseline, removed, capped }
 }
 
@@ -150,30 +156,10 @@ fn exposure_of(
     (engine, exp)
 }
 
-/// The whole analysis. `nearest`: also find each trade's nearest release
-/// (in the returned exposure; only the annotated trade file and the
-/// distance chart use it).
-pub fn analyze(
-    trades: &Trades,
-    releases: &[Release],
-    currencies: &[InstrumentCurrencies],
-    settings: &AnalysisSettings,
-    nearest: bool,
-) -> Result<(Analysis, Exposure), AnalysisError> {
-    let span = trades.span().ok_or(AnalysisError::NoTrades)?;
-    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, nearest);
-    let attribution = attribution::attribute(&exp, &trades.pnl, releases, &engine.used)?;
-    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
-    let coverage = exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur);
-
-    let mut order: Vec<u32> = (0..trades.len() as u32).collect();
-    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-    let exposed = |i: usize| exp.k[i] > 0;
-    let all = scenarios::build(&TradeView::of(&order, trades, &exposed), &settings.scenario)?;
-    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: all.initial_equity, tcr_p: settings.tcr_p };
-    let overall = metrics_of(&all, &trades.opened, &trades.closed, &ctx);
+/// Metrics and tail figures of the three scenarios of all trades.
+fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &AnalysisSettings) -> (ScenarioMetrics, TailSummary) {
+    let o = metrics_of(all, &trades.opened, &trades.closed, ctx);
     let tl = |sr: &scenarios::Series, m: &Metrics| tail_line(&sr.pnl, m.tcr, settings.tcr_p, settings.tcr_threshold);
-    let o = &overall;
     let (baseline, (removed, capped)) =
         rayon::join(|| tl(&all.baseline, &o.baseline), || rayon::join(|| tl(&all.removed, &o.removed), || tl(&all.capped, &o.capped)));
     let tail = TailSummary {
@@ -184,35 +170,101 @@ pub fn analyze(
         removed,
         capped,
     };
+    (o, tail)
+}
 
-    let runs = if trades.has_runs() {
-        let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
-        for &i in &order {
-            by_run[trades.run[i as usize] as usize].push(i);
-        }
-        by_run
-            .par_iter()
-            .enumerate()
-            .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
-                let sc = scenarios::build(&TradeView::of(idx, trades, &exposed), &settings.scenario)?;
-                let run_span = (
-                    idx.iter().map(|&i| trades.opened[i as usize]).min().unwrap_or(span.0),
-                    idx.iter().map(|&i| trades.closed[i as usize]).max().unwrap_or(span.1),
-                );
-                let ctx = Context { span: run_span, initial_equity: sc.initial_equity, ..ctx };
-                Ok(RunResult {
-                    run: trades.runs[r].clone(),
-                    trades: idx.len(),
-                    exposed_trades: idx.iter().filter(|&&i| exp.k[i as usize] > 0).count(),
-                    exposed_pnl: idx.iter().filter(|&&i| exp.k[i as usize] > 0).map(|&i| trades.pnl[i as usize]).sum(),
-                    cap_value: sc.cap_value,
-                    scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
-                })
+/// Each run's trade indices in close order, from the overall close order.
+fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
+    // Sized exactly first: grown by doubling they would hold up to twice
+    // the trade count while the overall series still live.
+    let mut count = vec![0usize; trades.runs.len()];
+    for &r in &trades.run {
+        count[r as usize] += 1;
+    }
+    let mut by_run: Vec<Vec<u32>> = count.into_iter().map(Vec::with_capacity).collect();
+    for &i in order {
+        by_run[trades.run[i as usize] as usize].push(i);
+    }
+    by_run
+}
+
+/// Scenarios and metrics of each run (`by_run` from [`split_by_run`]).
+fn runs_of(
+    by_run: Vec<Vec<u32>>,
+    trades: &Trades,
+    exposed: &(dyn Fn(usize) -> bool + Sync),
+    ctx: &Context,
+    settings: &AnalysisSettings,
+) -> Result<Vec<RunResult>, AnalysisError> {
+    by_run
+        .into_par_iter()
+        .enumerate()
+        .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
+            let sc = scenarios::build_in_order(idx, trades, exposed, &settings.scenario)?;
+            let idx = &sc.baseline.trade;
+            let run_span = (
+                idx.iter().map(|&i| trades.opened[i as usize]).min().unwrap_or(ctx.span.0),
+                idx.iter().map(|&i| trades.closed[i as usize]).max().unwrap_or(ctx.span.1),
+            );
+            let ctx = Context { span: run_span, initial_equity: sc.initial_equity, ..*ctx };
+            Ok(RunResult {
+                run: trades.runs[r].clone(),
+                trades: idx.len(),
+                exposed_trades: idx.iter().filter(|&&i| exposed(i as usize)).count(),
+                exposed_pnl: idx.iter().filter(|&&i| exposed(i as usize)).map(|&i| trades.pnl[i as usize]).sum(),
+                cap_value: sc.cap_value,
+                scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
             })
-            .collect::<Result<Vec<_>, _>>()?
-    } else {
-        Vec::new()
-    };
+        })
+        .collect()
+}
+
+/// The whole analysis. `files`: also compute what only the output files
+/// use — each trade's nearest release (in the returned exposure) and the
+/// scenario series (`Analysis::series`, else left empty).
+pub fn analyze(
+    trades: &Trades,
+    releases: &[Release],
+    currencies: &[InstrumentCurrencies],
+    settings: &AnalysisSettings,
+    files: bool,
+) -> Result<(Analysis, Exposure), AnalysisError> {
+    let span = trades.span().ok_or(AnalysisError::NoTrades)?;
+    crate::phases::mark("start analysis");
+    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, files);
+    crate::phases::mark("exposure");
+    let exposed = |i: usize| exp.k[i] > 0;
+    // Attribution and coverage (single passes) beside the close-order sort
+    // and the scenario build.
+    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
+    let ((attribution, coverage), all) = rayon::join(
+        || {
+            let a = attribution::attribute(&exp, &trades.pnl, releases, &engine.used);
+            (a, exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur))
+        },
+        || {
+            let mut order: Vec<u32> = (0..trades.len() as u32).collect();
+            scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+            scenarios::build_in_order(order, trades, &exposed, &settings.scenario)
+        },
+    );
+    let (attribution, all) = (attribution?, all?);
+    crate::phases::mark("attribution, scenarios");
+    let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
+    let ctx = Context { span, report_zone: settings.report_tz, initial_equity, tcr_p: settings.tcr_p };
+    let by_run = trades.has_runs().then(|| split_by_run(&all.baseline.trade, trades));
+    // The overall figures beside the runs'.
+    let ((overall, tail), runs) = rayon::join(
+        || overall_of(&all, trades, &ctx, settings),
+        || match by_run {
+            Some(by_run) => runs_of(by_run, trades, &exposed, &ctx, settings),
+            None => Ok(Vec::new()),
+        },
+    );
+    let runs = runs?;
+    // The series feed only the output files; without them they go now.
+    let series = if files { all } else { Scenarios::default() };
+    crate::phases::mark("runs");
     let summary = ExposureSummary {
         trades: trades.len(),
         exposed_trades: exp.exposed_count(),
@@ -225,13 +277,13 @@ pub fn analyze(
         Analysis {
             exposure: summary,
             coverage,
-            cap_value: all.cap_value,
-            initial_equity: all.initial_equity,
+            cap_value,
+            initial_equity,
             scenarios: overall,
             tail,
             attribution,
             runs,
-            series: all,
+            series,
         },
         exp,
     ))

@@ -73,8 +73,7 @@ pub struct ConservationError {
 pub fn per_release(exp: &Exposure, pnl: &[f64], n_releases: usize) -> (Vec<usize>, Vec<f64>) {
     let mut touched = vec![0usize; n_releases];
     let mut amount = vec![0.0f64; n_releases];
-    for (i, &p) in pnl.iter().enumerate() {
-        let m = exp.matches(i);
+    for (&p, m) in pnl.iter().zip(exp.match_lists()) {
         if m.is_empty() {
             continue;
         }

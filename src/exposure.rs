@@ -89,8 +89,8 @@ pub struct Engine {
 pub struct Exposure {
     /// Number of matched releases per trade (k).
     pub k: Vec<u32>,
-    /// `match_ptr[i]..match_ptr[i+1]` indexes `match_release` for trade i.
-    pub match_ptr: Vec<u64>,
+    /// Every trade's matched releases, trade after trade (k of them each,
+    /// sorted): walk them with [`Exposure::match_lists`].
     pub match_release: Vec<u32>,
     /// Nearest relevant used release to the open (by |t − open|), or u32::MAX.
     /// Empty from [`Engine::run_matches`].
@@ -101,8 +101,15 @@ pub struct Exposure {
 }
 
 impl Exposure {
-    pub fn matches(&self, i: usize) -> &[u32] {
-        &self.match_release[self.match_ptr[i] as usize..self.match_ptr[i + 1] as usize]
+    /// Each trade's matched releases, in trade order (no per-trade offsets
+    /// are stored: the lists are cut by k as they are walked).
+    pub fn match_lists(&self) -> impl Iterator<Item = &[u32]> + '_ {
+        let mut rest = self.match_release.as_slice();
+        self.k.iter().map(move |&k| {
+            let (here, after) = rest.split_at(k as usize);
+            rest = after;
+            here
+        })
     }
     pub fn exposed_count(&self) -> usize {
         self.k.iter().filter(|&&k| k > 0).count()
@@ -236,17 +243,11 @@ impl Engine {
             .collect();
         let mut out = Exposure {
             k: Vec::with_capacity(n),
-            match_ptr: Vec::with_capacity(n + 1),
-            match_release: Vec::new(),
+            match_release: Vec::with_capacity(parts.iter().map(|p| p.1.len()).sum()),
             nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
             minutes_from_nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
         };
-        out.match_ptr.push(0);
         for (k, rel, nearest, minutes) in parts {
-            for &kk in &k {
-                let last = *out.match_ptr.last().expect("starts with 0");
-                out.match_ptr.push(last + kk as u64);
-            }
             out.k.extend(k);
             out.match_release.extend(rel);
             out.nearest.extend(nearest);
@@ -329,33 +330,39 @@ pub fn coverage(
     let mut all: Vec<&String> = instrument_currencies.iter().flatten().collect();
     all.sort();
     all.dedup();
-    // One pass over the trades per currency, currencies in parallel.
-    all.into_par_iter()
-        .map(|cur| {
-            let days = span.get(cur.as_str()).map(|&(a, b)| (a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS));
-            let mut line = CoverageLine {
-                currency: cur.clone(),
-                calendar_from: days.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
-                calendar_to: days.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
-                trades_outside: 0,
-                pnl_outside: 0.0,
+    // Each currency's whole UTC days, and per instrument its currencies'
+    // positions in `all`; then one pass over the trades (in input order, so
+    // each sum adds in the same order whatever the currency count).
+    let days: Vec<Option<(i64, i64)>> = all
+        .iter()
+        .map(|cur| span.get(cur.as_str()).map(|&(a, b)| (a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS)))
+        .collect();
+    let of_instrument: Vec<Vec<usize>> = instrument_currencies
+        .iter()
+        .map(|cs| cs.iter().filter_map(|c| all.binary_search(&c).ok()).collect())
+        .collect();
+    let mut outside = vec![(0usize, 0.0f64); all.len()];
+    for i in 0..opened.len() {
+        for &c in &of_instrument[instrument[i] as usize] {
+            let out = match days[c] {
+                None => true,
+                Some((a, b)) => opened[i] < a || closed[i] >= b,
             };
-            // Which instruments carry this currency, decided once per instrument.
-            let carries: Vec<bool> = instrument_currencies.iter().map(|c| c.contains(cur)).collect();
-            for i in 0..opened.len() {
-                if !carries[instrument[i] as usize] {
-                    continue;
-                }
-                let outside = match days {
-                    None => true,
-                    Some((a, b)) => opened[i] < a || closed[i] >= b,
-                };
-                if outside {
-                    line.trades_outside += 1;
-                    line.pnl_outside += pnl[i];
-                }
+            if out {
+                outside[c].0 += 1;
+                outside[c].1 += pnl[i];
             }
-            line
+        }
+    }
+    all.iter()
+        .zip(days)
+        .zip(outside)
+        .map(|((cur, d), (trades_outside, pnl_outside))| CoverageLine {
+            currency: (*cur).clone(),
+            calendar_from: d.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
+            calendar_to: d.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
+            trades_outside,
+            pnl_outside,
         })
         .collect()
 }

@@ -16,6 +16,7 @@ pub mod cmd;
 pub mod exposure;
 pub mod metrics;
 pub mod output;
+pub mod phases;
 pub mod relevance;
 pub mod render;
 pub mod rank;

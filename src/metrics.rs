@@ -246,19 +246,48 @@ pub fn quantile_type7_unsorted(values: &mut [f64], q: f64) -> Option<f64> {
 /// Daily P/L (or returns when equity is known) over the weekdays of the
 /// span in the report zone. A close on a weekend counts on the next Monday.
 pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
-    use crate::zones::{local_day, weekday_index};
+    walk_closes(c, ctx).0
+}
+
+/// One pass over the closes in order: the daily series (see
+/// [`daily_series`]) and the longest peak-to-recovery time in days.
+fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
+    use crate::zones::{local_day, weekday_index, LocalDayCursor};
     let z = &ctx.report_zone;
     let first = weekday_index(local_day(z, ctx.span.0));
     let last = weekday_index(local_day(z, ctx.span.1));
     let n = (last - first + 1).max(0) as usize;
     let mut pnl = vec![0.0; n];
-    for (p, cl) in c.pnl.iter().zip(c.closes()) {
-        let i = (weekday_index(local_day(z, cl)) - first).clamp(0, n as i64 - 1) as usize;
-        if let Some(slot) = pnl.get_mut(i) {
-            *slot += p;
+    let mut days = LocalDayCursor::new(z);
+    // Closes come in order, so the slot changes only when the day does.
+    let (mut day, mut slot) = (i64::MIN, 0usize);
+    let (mut eq, mut peak, mut peak_t, mut longest) = (0.0f64, 0.0f64, ctx.span.0, 0i64);
+    let mut under = false;
+    for (&p, cl) in c.pnl.iter().zip(c.closes()) {
+        let d = days.day(cl);
+        if d != day {
+            day = d;
+            slot = (weekday_index(d) - first).clamp(0, n as i64 - 1) as usize;
+        }
+        if let Some(s) = pnl.get_mut(slot) {
+            *s += p;
+        }
+        eq += p;
+        if eq >= peak {
+            if under {
+                longest = longest.max(cl - peak_t);
+            }
+            peak = eq;
+            peak_t = cl;
+            under = false;
+        } else {
+            under = true;
         }
     }
-    match ctx.initial_equity {
+    if under {
+        longest = longest.max(ctx.span.1 - peak_t);
+    }
+    let daily = match ctx.initial_equity {
         None => pnl,
         Some(e0) => {
             let mut eq = e0;
@@ -270,30 +299,8 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
                 })
                 .collect()
         }
-    }
-}
-
-/// Longest peak-to-recovery time in days; closes in order at `closed`.
-fn longest_drawdown_days(c: &Curve, ctx: &Context) -> f64 {
-    let (mut eq, mut peak, mut peak_t, mut longest) = (0.0f64, 0.0f64, ctx.span.0, 0i64);
-    let mut under = false;
-    for (p, t) in c.pnl.iter().zip(c.closes()) {
-        eq += p;
-        if eq >= peak {
-            if under {
-                longest = longest.max(t - peak_t);
-            }
-            peak = eq;
-            peak_t = t;
-            under = false;
-        } else {
-            under = true;
-        }
-    }
-    if under {
-        longest = longest.max(ctx.span.1 - peak_t);
-    }
-    longest as f64 / DAY_MS as f64
+    };
+    (daily, longest as f64 / DAY_MS as f64)
 }
 
 /// Union length of [open, close] intervals given in close order (as every
@@ -340,6 +347,18 @@ pub fn union_within(mut iv: Vec<(i64, i64)>, clip: Option<(i64, i64)>) -> i64 {
 
 /// All figures for one scenario.
 pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
+    compute_with_union(c, ctx, None)
+}
+
+/// Union length of a curve's holding periods (ms), for
+/// [`compute_with_union`].
+pub fn time_held(c: &Curve) -> i64 {
+    union_length(c.intervals())
+}
+
+/// [`compute`], given the union length of the holding periods when it is
+/// already known (the capped scenario holds the baseline's trades).
+pub fn compute_with_union(c: &Curve, ctx: &Context, union: Option<i64>) -> Metrics {
     let n = c.pnl.len();
     let mut m = Metrics { trades: n, ..Default::default() };
     let (mut big_win, mut big_loss) = (f64::NEG_INFINITY, f64::INFINITY);
@@ -371,14 +390,14 @@ pub fn compute(c: &Curve, ctx: &Context) -> Metrics {
     let (dd, dd_pct) = max_drawdown(c.pnl, ctx.initial_equity.unwrap_or(0.0));
     m.max_drawdown = dd;
     m.max_drawdown_pct = ctx.initial_equity.and(dd_pct);
-    m.longest_drawdown_days = longest_drawdown_days(c, ctx);
+    let (daily, longest) = walk_closes(c, ctx);
+    m.longest_drawdown_days = longest;
     m.return_to_drawdown = (dd > 0.0).then(|| m.net / dd);
-    let daily = daily_series(c, ctx);
     m.sharpe = sharpe(&daily, DAYS_PER_YEAR);
     m.sortino = sortino(&daily, DAYS_PER_YEAR);
     m.t_stat = t_stat(c.pnl);
     let span = ctx.span.1 - ctx.span.0;
-    m.time_in_market = (span > 0).then(|| union_length(c.intervals()) as f64 / span as f64);
+    m.time_in_market = (span > 0).then(|| union.unwrap_or_else(|| time_held(c)) as f64 / span as f64);
     m.tcr = tcr(c.pnl, ctx.tcr_p);
     m
 }
@@ -510,7 +529,7 @@ mod tests {
         let pnl = [5.0, -3.0, 1.0, 4.0];
         let ctx = Context { span: (0, 12 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
         // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
-        assert_eq!(longest_drawdown_days(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t }, &ctx), 9.0);
+        assert_eq!(walk_closes(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t }, &ctx).1, 9.0);
         assert_eq!(union_length([(0, 10), (5, 12), (20, 25)].into_iter()), 17);
         assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))), 25);
     }

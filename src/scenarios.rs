@@ -129,10 +129,13 @@ impl Scenarios {
     }
 
     /// Room for `n` trades in each series (removed may use less).
-    fn reserve(&mut self, n: usize) {
+    fn reserve(&mut self, n: usize, baseline_trades: bool) {
         for s in [&mut self.baseline, &mut self.removed] {
             s.pnl.reserve(n);
-            s.trade.reserve(n);
+        }
+        self.removed.trade.reserve(n);
+        if baseline_trades {
+            self.baseline.trade.reserve(n);
         }
         self.capped.pnl.reserve(n);
     }
@@ -173,14 +176,14 @@ pub struct TradeView<'a> {
     pub pnl: &'a [f64],
     pub opened: &'a [i64],
     pub closed: &'a [i64],
-    pub exposed: &'a dyn Fn(usize) -> bool,
+    pub exposed: &'a (dyn Fn(usize) -> bool + Sync),
     pub equity_before: Option<&'a [f64]>,
     pub pnl_pct: Option<&'a [f64]>,
 }
 
 impl<'a> TradeView<'a> {
     /// A view of imported trades in the given order.
-    pub fn of(order: &'a [u32], t: &'a crate::trades::Trades, exposed: &'a dyn Fn(usize) -> bool) -> TradeView<'a> {
+    pub fn of(order: &'a [u32], t: &'a crate::trades::Trades, exposed: &'a (dyn Fn(usize) -> bool + Sync)) -> TradeView<'a> {
         TradeView {
             order,
             pnl: &t.pnl,
@@ -196,12 +199,25 @@ impl<'a> TradeView<'a> {
 /// Sorts indices by close, then open, then input order.
 pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
     // Sorting the keys themselves (contiguous) beats sorting indices whose
-    // keys are looked up at random on every comparison; keys are unique
-    // (they end in the index), so an unstable sort gives the one order.
+    // keys are looked up at random on every comparison. The keys hold the
+    // close and the index only (16 bytes, not 24 with the open): unique, so
+    // an unstable sort gives one order; runs of equal closes are then put
+    // in open order (they are short).
     use rayon::prelude::*;
-    let mut keys: Vec<(i64, i64, u32)> = idx.par_iter().map(|&i| (closed[i as usize], opened[i as usize], i)).collect();
+    let mut keys: Vec<(i64, u32)> = idx.par_iter().map(|&i| (closed[i as usize], i)).collect();
     keys.par_sort_unstable();
-    idx.par_iter_mut().zip(keys.par_iter()).for_each(|(slot, k)| *slot = k.2);
+    let mut a = 0;
+    while a < keys.len() {
+        let mut b = a + 1;
+        while b < keys.len() && keys[b].0 == keys[a].0 {
+            b += 1;
+        }
+        if b - a > 1 {
+            keys[a..b].sort_unstable_by_key(|&(_, i)| (opened[i as usize], i));
+        }
+        a = b;
+    }
+    idx.par_iter_mut().zip(keys.par_iter()).for_each(|(slot, k)| *slot = k.1);
 }
 
 fn cap_from(values: impl Iterator<Item = f64>, rule: CapRule) -> Option<f64> {
@@ -215,9 +231,27 @@ fn cap_from(values: impl Iterator<Item = f64>, rule: CapRule) -> Option<f64> {
 
 /// Builds the three scenarios.
 pub fn build(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+    build_with(v, s, true)
+}
+
+/// [`build`] over imported trades in `order`, which becomes the baseline's
+/// trade list as it is (the baseline keeps every trade in that order), so
+/// the indices are held once.
+pub fn build_in_order(order: Vec<u32>, t: &crate::trades::Trades, exposed: &(dyn Fn(usize) -> bool + Sync), s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+    let mut sc = build_with(&TradeView::of(&order, t, exposed), s, false)?;
+    sc.baseline.trade = order;
+    Ok(sc)
+}
+
+/// `baseline_trades`: fill the baseline's trade list (else the caller sets it).
+fn build_with(v: &TradeView, s: &ScenarioSettings, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
+    let mut out = Scenarios::default();
     match s.sizing {
-        Sizing::Fixed => build_fixed(v, s),
-        Sizing::Compounding => build_compounding(v, s),
+        Sizing::Fixed => build_fixed(v, s, out, baseline_trades),
+        Sizing::Compounding => {
+            out.reserve(v.order.len(), baseline_trades);
+            build_compounding(v, s, out, baseline_trades)
+        }
     }
 }
 
@@ -238,9 +272,12 @@ fn equity_before(v: &TradeView, e0: Option<f64>) -> Option<Vec<f64>> {
     Some(out)
 }
 
-fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
-    let mut out = Scenarios { initial_equity: s.initial_equity, ..Default::default() };
-    out.reserve(v.order.len());
+fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
+    use rayon::prelude::*;
+    // Each series is a gather or filter of the input in close order, built
+    // in parallel (in one piece for small trade sets).
+    const PIECE: usize = 1 << 15;
+    out.initial_equity = s.initial_equity;
     let per_trade_cap: Option<Vec<f64>> = match s.cap {
         CapRule::EquityPct(p) => {
             let eb = equity_before(v, s.initial_equity).ok_or(ScenarioError::NoEquityForCap)?;
@@ -248,30 +285,43 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, Scenari
         }
         _ => None,
     };
+    let order = v.order;
+    let exposed = v.exposed;
+    let (baseline_pnl, (baseline_trade, removed_trade)) = rayon::join(
+        || order.par_iter().with_min_len(PIECE).map(|&i| v.pnl[i as usize]).collect::<Vec<f64>>(),
+        || {
+            rayon::join(
+                || if baseline_trades { order.to_vec() } else { Vec::new() },
+                || order.par_iter().with_min_len(PIECE).copied().filter(|&i| !exposed(i as usize)).collect::<Vec<u32>>(),
+            )
+        },
+    );
+    let removed_pnl: Vec<f64> = removed_trade.par_iter().with_min_len(PIECE).map(|&i| v.pnl[i as usize]).collect();
+    // The removed series holds exactly the unexposed trades.
     out.cap_value = match s.cap {
         CapRule::Amount(a) => Some(a),
         CapRule::EquityPct(_) => None,
-        rule => cap_from(v.order.iter().map(|&i| i as usize).filter(|&i| !(v.exposed)(i)).map(|i| v.pnl[i]), rule),
+        rule => cap_from(removed_pnl.iter().copied(), rule),
     };
-    for &i in v.order {
-        let i = i as usize;
-        let p = v.pnl[i];
-        out.baseline.push(i, p);
-        if (v.exposed)(i) {
-            let c = match &per_trade_cap {
-                Some(caps) => caps[i].abs(),
-                None => out.cap_value.unwrap_or(0.0),
-            };
-            out.capped.pnl.push(p.clamp(-c, c));
-        } else {
-            out.removed.push(i, p);
-            out.capped.pnl.push(p);
-        }
-    }
+    let cap = out.cap_value.unwrap_or(0.0);
+    out.capped.pnl = order
+        .par_iter()
+        .zip(baseline_pnl.par_iter())
+        .with_min_len(PIECE)
+        .map(|(&i, &p)| {
+            if !exposed(i as usize) {
+                return p;
+            }
+            let c = per_trade_cap.as_ref().map_or(cap, |caps| caps[i as usize].abs());
+            p.clamp(-c, c)
+        })
+        .collect();
+    out.baseline = Series { pnl: baseline_pnl, trade: baseline_trade };
+    out.removed = Series { pnl: removed_pnl, trade: removed_trade };
     Ok(out)
 }
 
-fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
     let n = v.pnl.len();
     let ret: Vec<f64> = if let Some(eb) = v.equity_before {
         (0..n).map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 }).collect()
@@ -295,7 +345,7 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
         CapRule::EquityPct(p) => Some(p / 100.0),
         CapRule::Amount(_) => None,
     };
-    let mut out = Scenarios { initial_equity: Some(e0), ..Default::default() };
+    out.initial_equity = Some(e0);
     out.cap_value = match s.cap {
         CapRule::Amount(a) => Some(a),
         _ => cap_r,
@@ -306,7 +356,10 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
         let r = ret[i];
         let pb = eq_base * r;
         eq_base += pb;
-        out.baseline.push(i, pb);
+        out.baseline.pnl.push(pb);
+        if baseline_trades {
+            out.baseline.trade.push(i as u32);
+        }
         if (v.exposed)(i) {
             let pc = match s.cap {
                 CapRule::Amount(a) => (eq_cap * r).clamp(-a, a),
@@ -333,7 +386,7 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, S
 mod tests {
     use super::*;
 
-    fn view<'a>(order: &'a [u32], pnl: &'a [f64], t: &'a [i64], exposed: &'a dyn Fn(usize) -> bool, eb: Option<&'a [f64]>) -> TradeView<'a> {
+    fn view<'a>(order: &'a [u32], pnl: &'a [f64], t: &'a [i64], exposed: &'a (dyn Fn(usize) -> bool + Sync), eb: Option<&'a [f64]>) -> TradeView<'a> {
         TradeView { order, pnl, opened: t, closed: t, exposed, equity_before: eb, pnl_pct: None }
     }
 
@@ -375,6 +428,22 @@ mod tests {
         let sc = build(&view(&order[..4], &pnl, &t, &some, None), &s).unwrap();
         assert_eq!(sc.cap_value, Some(75.0));
         assert_eq!(sc.capped.pnl, vec![75.0, -100.0, 75.0, -50.0]);
+    }
+
+    #[test]
+    fn close_order_is_close_then_open_then_input_order() {
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(4);
+        for n in [0usize, 1, 2, 7, 300, 5000] {
+            // Few distinct times: many ties in close, and in close and open.
+            let opened: Vec<i64> = (0..n).map(|_| rng.random_range(0..6)).collect();
+            let closed: Vec<i64> = opened.iter().map(|o| o + rng.random_range(0..4)).collect();
+            let mut got: Vec<u32> = (0..n as u32).collect();
+            close_order(&mut got, &opened, &closed);
+            let mut want: Vec<u32> = (0..n as u32).collect();
+            want.sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
+            assert_eq!(got, want, "n {n}");
+        }
     }
 
     #[test]

@@ -157,8 +157,42 @@ pub fn scan_time(b: &[u8]) -> Option<(NaiveTime, usize)> {
     Some((NaiveTime::from_hms_milli_opt(h, m, s, ms)?, i))
 }
 
+/// Days from 1970-01-01 to a proleptic Gregorian date (H. Hinnant,
+/// "chrono-Compatible Low-Level Date Algorithms", days_from_civil).
+fn days_from_civil(y: i64, m: u32, d: u32) -> i64 {
+    let y = if m <= 2 { y - 1 } else { y };
+    let era = y.div_euclid(400);
+    let yoe = y - era * 400;
+    let mp = (m as i64 + 9) % 12;
+    let doy = (153 * mp + 2) / 5 + d as i64 - 1;
+    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+    era * 146_097 + doe - 719_468
+}
+
+/// `YYYY-MM-DDTHH:MM:SSZ` exactly (the form most exports write), read
+/// without building calendar types (seconds above 59 read as 59, as the
+/// general reader does); anything else, or an impossible date
+/// or time, is left to the general reader (which names the fault).
+fn scan_utc_seconds(b: &[u8]) -> Option<i64> {
+    if b.len() != 20 || b[4] != b'-' || b[7] != b'-' || !matches!(b[10], b'T' | b't' | b' ') || b[13] != b':' || b[16] != b':' || !matches!(b[19], b'Z' | b'z') {
+        return None;
+    }
+    let (y, mo, d) = (digits(b, 0, 4)?, digits(b, 5, 2)?, digits(b, 8, 2)?);
+    let (h, mi, sec) = (digits(b, 11, 2)?, digits(b, 14, 2)?, digits(b, 17, 2)?);
+    let leap = y % 4 == 0 && (y % 100 != 0 || y % 400 == 0);
+    let month_days = [31, if leap { 29 } else { 28 }, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
+    if !(1..=12).contains(&mo) || d == 0 || d > month_days[mo as usize - 1] || h > 23 || mi > 59 {
+        return None;
+    }
+    let secs = days_from_civil(y as i64, mo, d) * 86_400 + (h * 3600 + mi * 60 + sec.min(59)) as i64;
+    Some(secs * 1000)
+}
+
 fn scan_auto(t: &str) -> Option<Stamp> {
     let b = t.as_bytes();
+    if let Some(ms) = scan_utc_seconds(b) {
+        return Some(Stamp::Instant(ms));
+    }
     let (date, mut i) = scan_date(b)?;
     if i == b.len() {
         return Some(Stamp::Local(date.and_time(NaiveTime::MIN)));
@@ -190,6 +224,40 @@ fn scan_auto(t: &str) -> Option<Stamp> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn fast_utc_form_equals_the_general_reader() {
+        // Every day of years around leap rules (1900, 2000, 2024, 2100) plus
+        // impossible dates and times: the short path answers exactly as the
+        // general one, or steps aside.
+        let mut texts = Vec::new();
+        for y in [1600, 1899, 1900, 1970, 1999, 2000, 2023, 2024, 2100, 9999] {
+            for m in 0..=13 {
+                for d in 0..=32 {
+                    texts.push(format!("{y:04}-{m:02}-{d:02}T23:59:59Z"));
+                }
+            }
+        }
+        for hms in ["00:00:00", "24:00:00", "12:60:00", "12:00:60", "12:00:61", "1a:00:00"] {
+            texts.push(format!("2024-02-29t{hms}z"));
+            texts.push(format!("2024-02-29 {hms}Z"));
+        }
+        let mut fast = 0;
+        for t in &texts {
+            let b = t.as_bytes();
+            let general = {
+                let (date, i) = scan_date(b).map(|(d, i)| (Some(d), i)).unwrap_or((None, 0));
+                date.and_then(|date| scan_time(&b[i + 1..]).map(|(tm, _)| naive_to_ms(&date.and_time(tm))))
+            };
+            let short = scan_utc_seconds(b);
+            if short.is_some() {
+                fast += 1;
+            }
+            assert!(short.is_none() || short == general, "{t}: {short:?} vs {general:?}");
+            assert_eq!(short.is_some(), general.is_some(), "{t}");
+        }
+        assert!(fast > 3000, "{fast}");
+    }
 
     fn at(s: &str) -> i64 {
         naive_to_ms(&NaiveDateTime::parse_from_str(s, "%Y-%m-%d %H:%M:%S%.f").unwrap())

@@ -685,14 +685,13 @@ fn parse_block(
     part.reserve(memchr::memchr_iter(b'\n', block).count() + 1, present);
     let mut cache = DayOffsetCache::default();
     let mut rec = Record::default();
-    let mut pos = 0;
+    let mut records = csvchunks::Records::new(block, sep);
     let mut index = 0;
-    while pos < block.len() {
-        match csvchunks::parse_record(block, pos, sep, &mut rec) {
-            Parsed::Blank { next } => pos = next,
+    while let Some(parsed) = records.next_into(&mut rec) {
+        match parsed {
+            Parsed::Blank { .. } => {}
             Parsed::Unclosed { column } => return Err((part.rows_read, column)),
-            Parsed::Record { next } => {
-                pos = next;
+            Parsed::Record { next: pos } => {
                 let n = rec.len();
                 let extra_empty = n > width && (width..n).all(|k| rec.field(block, k).iter().all(u8::is_ascii_whitespace));
                 if n < width || (n > width && !extra_empty) {

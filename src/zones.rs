@@ -324,6 +324,41 @@ pub fn local_day(zone: &Zone, ms: i64) -> i64 {
     (ms + zone.offset_at(ms) as i64 * 1000).div_euclid(DAY_MS)
 }
 
+/// [`local_day`] for many instants that come mostly in time order (closes
+/// of a curve): remembers the UTC span `[lo, hi)` of the last answer's local
+/// day, over which the zone keeps one offset, so most instants cost two
+/// comparisons instead of a zone lookup and three divisions.
+#[derive(Debug, Clone)]
+pub struct LocalDayCursor<'a> {
+    zone: &'a Zone,
+    lo: i64,
+    hi: i64,
+    day: i64,
+}
+
+impl<'a> LocalDayCursor<'a> {
+    pub fn new(zone: &'a Zone) -> Self {
+        LocalDayCursor { zone, lo: 0, hi: 0, day: 0 }
+    }
+
+    pub fn day(&mut self, ms: i64) -> i64 {
+        if self.lo <= ms && ms < self.hi {
+            return self.day;
+        }
+        let off = self.zone.offset_at(ms) as i64 * 1000;
+        let day = (ms + off).div_euclid(DAY_MS);
+        // The local day under this offset spans these instants; keep the
+        // span only when the offset holds at both ends (no transition in it).
+        let (lo, hi) = (day * DAY_MS - off, day * DAY_MS + DAY_MS - off);
+        let steady = match self.zone {
+            Zone::Utc | Zone::Fixed(_) => true,
+            z => z.offset_at(lo) as i64 * 1000 == off && z.offset_at(hi - 1) as i64 * 1000 == off,
+        };
+        (self.lo, self.hi, self.day) = if steady { (lo, hi, day) } else { (ms, ms + 1, day) };
+        day
+    }
+}
+
 /// Weekday number of a day number: Mondays to Fridays counted from Monday
 /// 1970-01-05 (day 4); a Saturday or Sunday counts as the following Monday.
 pub fn weekday_index(day: i64) -> i64 {
@@ -356,6 +391,26 @@ pub fn format_utc(ms: i64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn day_cursor_equals_local_day_across_transitions() {
+        // Hour steps through 2024 (every DST change of these zones), then a
+        // shuffled pass; Lord Howe moves by 30 minutes.
+        use rand::{seq::SliceRandom, SeedableRng};
+        let start = naive_to_ms(&ndt("2024-01-01 00:00"));
+        let mut t: Vec<i64> = (0..366 * 24 * 4).map(|q| start + q * 15 * MINUTE_MS - 1).collect();
+        for spec in ["UTC", "+05:30", "Europe/Berlin", "America/New_York", "Australia/Lord_Howe", "America/New_York+07:00"] {
+            let z: Zone = spec.parse().unwrap();
+            let mut cur = LocalDayCursor::new(&z);
+            for &ms in &t {
+                assert_eq!(cur.day(ms), local_day(&z, ms), "{spec} at {}", format_utc(ms));
+            }
+        }
+        t.shuffle(&mut rand_chacha::ChaCha8Rng::seed_from_u64(1));
+        let z: Zone = "Europe/Berlin".parse().unwrap();
+        let mut cur = LocalDayCursor::new(&z);
+        assert!(t.iter().all(|&ms| cur.day(ms) == local_day(&z, ms)));
+    }
 
     fn ndt(s: &str) -> NaiveDateTime {
         NaiveDateTime::parse_from_str(s, "%Y-%m-%d %H:%M").unwrap()

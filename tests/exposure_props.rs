@@ -103,8 +103,10 @@ proptest! {
 
         let exp = Engine::new(&releases, &w, rule).run(&opened, &closed, &inst, &cur);
         let expect = naive(&opened, &closed, &inst, &releases, &w, rule);
+        let lists: Vec<&[u32]> = exp.match_lists().collect();
+        prop_assert_eq!(lists.len(), expect.len());
         for (i, m) in expect.iter().enumerate() {
-            prop_assert_eq!(exp.matches(i), m.as_slice(), "trade {}", i);
+            prop_assert_eq!(lists[i], m.as_slice(), "trade {}", i);
             prop_assert_eq!(exp.k[i] as usize, m.len());
         }
         // Per-release attribution against the plain split.

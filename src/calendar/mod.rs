@@ -209,7 +209,8 @@ pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, Calen
     Ok(Calendar { releases, summary })
 }
 
-fn is_ics(path: &Path) -> bool {
+/// Whether a calendar file is read as iCalendar (by its extension).
+pub fn is_ics(path: &Path) -> bool {
     matches!(
         path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
         Some("ics" | "ical" | "ifb" | "icalendar")

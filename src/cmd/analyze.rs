@@ -61,6 +61,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz.clone());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
+    crate::phases::mark("summary");
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         let series = series.expect("kept for --out");

@@ -355,18 +355,33 @@ impl Loaded {
 }
 
 impl InputArgs {
-    /// Reads trades, then the calendar over the trades' span, then resolves
-    /// instrument currencies. `command` names the subcommand in errors.
+    /// Reads trades and the calendar (over the trades' span when it holds
+    /// iCalendar files), then resolves instrument currencies. `command` names the subcommand in errors.
     pub fn load(&self, command: &str, terminal: &TerminalArgs) -> Result<Loaded> {
         if self.trades.trades.is_empty() || self.calendar.calendar.is_empty() {
             bail!("{command} needs --trades and --calendar");
         }
         let trade_opts = trade_options(&self.trades, &self.rows)?;
         let spin = spinner(terminal, "reading trades");
-        let (trades, trade_summary) = load_trades(&self.trades, &trade_opts)?;
+        crate::phases::mark("start");
+        // Only iCalendar files need the trades' span (to bound open-ended
+        // recurrences); other calendars are read alongside the trades.
+        // Errors keep their order: the trades' first.
+        let needs_span = self.calendar.calendar.iter().any(|p| calendar::is_ics(p));
+        let (trades, early) = if needs_span {
+            (load_trades(&self.trades, &trade_opts), None)
+        } else {
+            let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, None)?;
+            let (t, c) = rayon::join(|| load_trades(&self.trades, &trade_opts), || load_calendar(&self.calendar, &cal_opts));
+            (t, Some(c))
+        };
+        let (trades, trade_summary) = trades?;
+        crate::phases::mark("trades");
         spin.finish_and_clear();
-        let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?;
-        let calendar = load_calendar(&self.calendar, &cal_opts)?;
+        let calendar = match early {
+            Some(c) => c?,
+            None => load_calendar(&self.calendar, &calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?)?,
+        };
         let currencies = instrument_currencies(&self.instruments, &trades.instruments, &calendar_currencies(&calendar))?;
         Ok(Loaded { trades, trade_summary, calendar, currencies })
     }
