@@ -173,6 +173,14 @@ fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &Analys
     (o, tail)
 }
 
+/// Sort key of a run name: numbers first, by value; then names.
+fn run_key(name: &str) -> (bool, f64) {
+    match name.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() => (false, v),
+        _ => (true, 0.0),
+    }
+}
+
 /// Each run's trade indices in close order, from the overall close order.
 fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
     // Sized exactly first: grown by doubling they would hold up to twice
@@ -240,11 +248,13 @@ pub fn analyze(
     let ((attribution, coverage), all) = rayon::join(
         || {
             let a = attribution::attribute(&exp, &trades.pnl, releases, &engine.used);
+            crate::phases::mark("(attribution)");
             (a, exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur))
         },
         || {
             let mut order: Vec<u32> = (0..trades.len() as u32).collect();
             scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+            crate::phases::mark("(close order)");
             scenarios::build_in_order(order, trades, &exposed, &settings.scenario)
         },
     );
@@ -255,13 +265,20 @@ pub fn analyze(
     let by_run = trades.has_runs().then(|| split_by_run(&all.baseline.trade, trades));
     // The overall figures beside the runs'.
     let ((overall, tail), runs) = rayon::join(
-        || overall_of(&all, trades, &ctx, settings),
+        || {
+            let o = overall_of(&all, trades, &ctx, settings);
+            crate::phases::mark("(overall)");
+            o
+        },
         || match by_run {
             Some(by_run) => runs_of(by_run, trades, &exposed, &ctx, settings),
             None => Ok(Vec::new()),
         },
     );
-    let runs = runs?;
+    let mut runs = runs?;
+    // Runs listed by name, numbers by value (2 before 10), whatever the
+    // row order.
+    runs.sort_by(|a, b| run_key(&a.run).partial_cmp(&run_key(&b.run)).unwrap_or(std::cmp::Ordering::Equal).then_with(|| a.run.cmp(&b.run)));
     // The series feed only the output files; without them they go now.
     let series = if files { all } else { Scenarios::default() };
     crate::phases::mark("runs");

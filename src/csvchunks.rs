@@ -249,8 +249,13 @@ impl BlockReader {
     /// block may end inside a quote; the record parser reports that. A
     /// record longer than [`MAX_RECORD_BYTES`] is refused (row 0 here; the
     /// caller knows how many rows came before).
-    pub fn next_block(&mut self) -> Result<Option<Vec<u8>>, ScanError> {
-        let mut buf = std::mem::take(&mut self.carry);
+    /// The next block, read into `reuse` when given (a spent block: its
+    /// memory is kept rather than allocated afresh).
+    pub fn next_block(&mut self, reuse: Option<Vec<u8>>) -> Result<Option<Vec<u8>>, ScanError> {
+        let mut buf = reuse.unwrap_or_default();
+        buf.clear();
+        buf.reserve(self.carry.len() + self.block_bytes);
+        buf.append(&mut self.carry);
         loop {
             if !self.eof {
                 let want = self.block_bytes as u64;
@@ -263,7 +268,7 @@ impl BlockReader {
                 return Ok((!buf.is_empty()).then_some(buf));
             }
             if let Some(cut) = last_boundary(&buf, self.delim) {
-                self.carry = buf[cut..].to_vec();
+                self.carry.extend_from_slice(&buf[cut..]);
                 buf.truncate(cut);
                 return Ok(Some(buf));
             }
@@ -454,7 +459,7 @@ mod tests {
         for size in 1..12 {
             let mut r = BlockReader::open(&p, b',').unwrap().with_block_bytes(size);
             let mut all = Vec::new();
-            while let Some(b) = r.next_block().unwrap() {
+            while let Some(b) = r.next_block(None).unwrap() {
                 let recs = fields(&b, b',');
                 all.extend(recs);
             }

@@ -45,7 +45,8 @@ pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
     if k == 0 || n <= k {
         return None;
     }
-    let x = crate::metrics::top_abs(usable(), k + 1);
+    // More than k positive values: the k + 1 largest |pnl| are all positive.
+    let x = crate::metrics::top_abs_of(pnl, k + 1);
     let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
     (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n })
 }

@@ -437,6 +437,30 @@ struct Part {
 }
 
 impl Part {
+    /// Empties the part, keeping its buffers for the next block (fresh
+    /// buffers for every block would cost a page fault per 4 KiB).
+    fn clear(&mut self) {
+        for v in [&mut self.opened, &mut self.closed] {
+            v.clear();
+        }
+        self.pnl.clear();
+        self.instrument.clear();
+        self.instrument_names.clear();
+        self.last_instrument = None;
+        self.last_run = None;
+        self.run.clear();
+        self.run_names.clear();
+        self.side.clear();
+        for e in &mut self.extras {
+            e.clear();
+        }
+        self.row.clear();
+        self.rows_read = 0;
+        self.rejected = 0;
+        self.by_reason.clear();
+        self.rejections.clear();
+    }
+
     /// Room for `n` rows in the columns this source has.
     fn reserve(&mut self, n: usize, present: &[bool; 12]) {
         self.opened.reserve(n);
@@ -514,20 +538,24 @@ impl Sink {
         self.file_rows = 0;
     }
 
-    fn absorb(&mut self, part: Part, present: &[bool; 12]) {
+    /// Appends a part's rows; the part is left empty for reuse.
+    fn absorb(&mut self, part: &mut Part, present: &[bool; 12]) {
         let t = &mut self.trades;
         let (n_before, n) = (t.len(), part.pnl.len());
-        let local = |names: Interner, global: &mut Interner| -> Vec<u32> {
-            let mut map = vec![0u32; names.len()];
-            for (name, id) in names {
-                map[id as usize] = intern(global, &name);
+        // Local names enter the global list in local id order (the order
+        // they first appear), so names are numbered by first appearance in
+        // the file, whatever the hash map's layout.
+        let local = |names: &Interner, global: &mut Interner| -> Vec<u32> {
+            let mut by_id: Vec<&str> = vec![""; names.len()];
+            for (name, &id) in names {
+                by_id[id as usize] = name;
             }
-            map
+            by_id.into_iter().map(|name| intern(global, name)).collect()
         };
-        let inst = local(part.instrument_names, &mut self.instruments);
+        let inst = local(&part.instrument_names, &mut self.instruments);
         t.instrument.extend(part.instrument.iter().map(|&i| inst[i as usize]));
         if present[RUN] {
-            let runs = local(part.run_names, &mut self.runs);
+            let runs = local(&part.run_names, &mut self.runs);
             t.run.extend(part.run.iter().map(|&i| runs[i as usize]));
         } else {
             t.run.extend(std::iter::repeat_n(self.file_run.unwrap_or(0), n));
@@ -541,11 +569,11 @@ impl Sink {
             let v = t.side.get_or_insert_with(|| vec![0; n_before]);
             if present[SIDE] { v.extend_from_slice(&part.side) } else { v.extend(std::iter::repeat_n(0, n)) }
         }
-        for (k, values) in EXTRAS.zip(part.extras) {
+        for (k, values) in EXTRAS.zip(&part.extras) {
             let slot = extra_slot(t, k);
             if present[k] || slot.is_some() {
                 let v = slot.get_or_insert_with(|| vec![f64::NAN; n_before]);
-                if present[k] { v.extend_from_slice(&values) } else { v.extend(std::iter::repeat_n(f64::NAN, n)) }
+                if present[k] { v.extend_from_slice(values) } else { v.extend(std::iter::repeat_n(f64::NAN, n)) }
             }
         }
         t.file.extend(std::iter::repeat_n(self.file_index, n));
@@ -556,16 +584,17 @@ impl Sink {
         s.rows_read += part.rows_read;
         s.rows_imported += n;
         s.rows_rejected += part.rejected;
-        for (reason, c) in part.by_reason {
+        for (reason, c) in std::mem::take(&mut part.by_reason) {
             *s.rejected_by_reason.entry(reason.to_string()).or_default() += c;
         }
-        for (index, e) in part.rejections {
+        for (index, e) in part.rejections.drain(..) {
             if s.rejections.len() >= KEEP_REJECTIONS {
                 break;
             }
             s.rejections.push(Rejection { file: self.file_name.clone(), row: base + index + 1, field: e.field.to_string(), reason: e.reason, message: e.message });
         }
         self.file_rows += part.rows_read;
+        part.clear();
     }
 }
 
@@ -591,7 +620,7 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
         let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), opts, false, &mut cache);
         part.take(i, row, &present);
     }
-    sink.absorb(part, &present);
+    sink.absorb(&mut part, &present);
     Ok(())
 }
 
@@ -608,7 +637,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         }
     };
     let mut reader = csvchunks::BlockReader::open(path, sep).map_err(io)?;
-    let mut first = reader.next_block().map_err(|e| err(e.to_string()))?.ok_or_else(|| err(ScanError::Empty.to_string()))?;
+    let mut first = reader.next_block(None).map_err(|e| err(e.to_string()))?.ok_or_else(|| err(ScanError::Empty.to_string()))?;
     let header = csvchunks::take_header(&mut first, sep).map_err(|e| err(e.to_string()))?;
     // Room for the whole file (the memory budget's row estimate): the
     // columns then grow once instead of doubling (which can leave up to half
@@ -630,9 +659,11 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
     let width = names.len();
     let batch = rayon::current_num_threads().max(1) * 2;
     let mut pending = vec![first];
+    // Block buffers and parts are reused from batch to batch.
+    let (mut spare_blocks, mut spare_parts): (Vec<Vec<u8>>, Vec<Part>) = (Vec::new(), Vec::new());
     loop {
         while pending.len() < batch {
-            match reader.next_block() {
+            match reader.next_block(spare_blocks.pop()) {
                 Ok(Some(b)) => pending.push(b),
                 Ok(None) => break,
                 Err(ScanError::RecordTooLong { mib, .. }) => {
@@ -646,15 +677,20 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         }
         let last_batch = pending.len() < batch;
         let n_blocks = pending.len();
+        let fresh: Vec<Part> = (0..n_blocks).map(|_| spare_parts.pop().unwrap_or_default()).collect();
         let parts: Vec<Result<Part, (usize, usize)>> = pending
             .par_iter()
+            .zip(fresh)
             .enumerate()
-            .map(|(b, block)| parse_block(block, sep, width, &columns, &present, opts, last_batch && b + 1 == n_blocks))
+            .map(|(b, (block, part))| parse_block(block, part, sep, width, &columns, &present, opts, last_batch && b + 1 == n_blocks))
             .collect();
-        pending.clear();
+        spare_blocks.append(&mut pending);
         for p in parts {
             match p {
-                Ok(part) => sink.absorb(part, &present),
+                Ok(mut part) => {
+                    sink.absorb(&mut part, &present);
+                    spare_parts.push(part);
+                }
                 Err((rows_before, column)) => {
                     let row = sink.file_rows + rows_before + 1;
                     let name = names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
@@ -674,6 +710,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
 #[allow(clippy::too_many_arguments)]
 fn parse_block(
     block: &[u8],
+    mut part: Part,
     sep: u8,
     width: usize,
     columns: &Slots<usize>,
@@ -681,7 +718,6 @@ fn parse_block(
     opts: &TradeOptions,
     last_in_file: bool,
 ) -> Result<Part, (usize, usize)> {
-    let mut part = Part::default();
     part.reserve(memchr::memchr_iter(b'\n', block).count() + 1, present);
     let mut cache = DayOffsetCache::default();
     let mut rec = Record::default();
