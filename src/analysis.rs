@@ -239,24 +239,22 @@ pub fn analyze(
 ) -> Result<(Analysis, Exposure), AnalysisError> {
     let span = trades.span().ok_or(AnalysisError::NoTrades)?;
     crate::phases::mark("start analysis");
-    let (engine, exp) = exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, files);
-    crate::phases::mark("exposure");
-    let exposed = |i: usize| exp.k[i] > 0;
-    // Attribution and coverage (single passes) beside the close-order sort
-    // and the scenario build.
+    // Exposure beside the close-order sort and the coverage (independent
+    // passes); then attribution beside the scenario build.
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
-    let ((attribution, coverage), all) = rayon::join(
-        || {
-            let a = attribution::attribute(&exp, &trades.pnl, releases, &engine.used);
-            crate::phases::mark("(attribution)");
-            (a, exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur))
-        },
+    let ((engine, exp), (order, coverage)) = rayon::join(
+        || exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, files),
         || {
             let mut order: Vec<u32> = (0..trades.len() as u32).collect();
             scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-            crate::phases::mark("(close order)");
-            scenarios::build_in_order(order, trades, &exposed, &settings.scenario)
+            (order, exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur))
         },
+    );
+    crate::phases::mark("exposure, close order");
+    let exposed = |i: usize| exp.k[i] > 0;
+    let (attribution, all) = rayon::join(
+        || attribution::attribute(&exp, &trades.pnl, releases, &engine.used),
+        || scenarios::build_in_order(order, trades, &exposed, &settings.scenario),
     );
     let (attribution, all) = (attribution?, all?);
     crate::phases::mark("attribution, scenarios");

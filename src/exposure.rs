@@ -171,24 +171,34 @@ impl Engine {
     fn run_with(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>], want_nearest: bool) -> Exposure {
         let ids: Vec<Vec<usize>> = instrument_currencies.iter().map(|c| self.currency_ids(c)).collect();
         let n = opened.len();
-        // Work in parallel chunks; each returns its own compressed matches.
+        // Work in parallel chunks, each writing its trades' k (and nearest
+        // release) in place and returning its own matched releases.
         const CHUNK: usize = 1 << 16;
-        // Per chunk: k, matched releases, nearest release, minutes from it.
-        type ChunkOut = (Vec<u32>, Vec<u32>, Vec<u32>, Vec<f64>);
-        let parts: Vec<ChunkOut> = (0..n.div_ceil(CHUNK))
-            .into_par_iter()
-            .map(|c| {
+        let mut out = Exposure {
+            k: vec![0; n],
+            match_release: Vec::new(),
+            nearest: vec![u32::MAX; if want_nearest { n } else { 0 }],
+            minutes_from_nearest: vec![f64::NAN; if want_nearest { n } else { 0 }],
+        };
+        let nearest_chunks: Vec<(&mut [u32], &mut [f64])> = if want_nearest {
+            out.nearest.chunks_mut(CHUNK).zip(out.minutes_from_nearest.chunks_mut(CHUNK)).collect()
+        } else {
+            (0..n.div_ceil(CHUNK)).map(|_| (&mut [][..], &mut [][..])).collect()
+        };
+        let parts: Vec<Vec<u32>> = out
+            .k
+            .par_chunks_mut(CHUNK)
+            .zip(nearest_chunks)
+            .enumerate()
+            .map(|(c, (k, (nearest, minutes)))| {
                 let lo = c * CHUNK;
-                let hi = (lo + CHUNK).min(n);
-                let mut k = Vec::with_capacity(hi - lo);
                 let mut rel = Vec::new();
-                let mut nearest = Vec::with_capacity(hi - lo);
-                let mut minutes = Vec::with_capacity(hi - lo);
                 // Per currency, the last answers of the three searches: trade
                 // lists come mostly in time order (per run), so the next
                 // answer is near the last one.
                 let mut hints = vec![[0usize; 3]; self.index.len()];
-                for i in lo..hi {
+                for (j, kj) in k.iter_mut().enumerate() {
+                    let i = lo + j;
                     let (o, cl) = (opened[i], closed[i]);
                     let (qa, qb) = match self.rule {
                         ExposureRule::Entered => (o, o),
@@ -223,36 +233,16 @@ impl Engine {
                         }
                     }
                     rel[before..].sort_unstable();
-                    k.push((rel.len() - before) as u32);
-                    if !want_nearest {
-                        continue;
-                    }
-                    match best {
-                        Some((_, r, t)) => {
-                            nearest.push(r);
-                            minutes.push((o - t) as f64 / MINUTE_MS as f64);
-                        }
-                        None => {
-                            nearest.push(u32::MAX);
-                            minutes.push(f64::NAN);
-                        }
+                    *kj = (rel.len() - before) as u32;
+                    if let Some((_, r, t)) = best {
+                        nearest[j] = r;
+                        minutes[j] = (o - t) as f64 / MINUTE_MS as f64;
                     }
                 }
-                (k, rel, nearest, minutes)
+                rel
             })
             .collect();
-        let mut out = Exposure {
-            k: Vec::with_capacity(n),
-            match_release: Vec::with_capacity(parts.iter().map(|p| p.1.len()).sum()),
-            nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
-            minutes_from_nearest: Vec::with_capacity(if want_nearest { n } else { 0 }),
-        };
-        for (k, rel, nearest, minutes) in parts {
-            out.k.extend(k);
-            out.match_release.extend(rel);
-            out.nearest.extend(nearest);
-            out.minutes_from_nearest.extend(minutes);
-        }
+        out.match_release = parts.concat();
         out
     }
 }
