@@ -193,10 +193,10 @@ impl Engine {
             .map(|(c, (k, (nearest, minutes)))| {
                 let lo = c * CHUNK;
                 let mut rel = Vec::new();
-                // Per currency, the last answers of the three searches: trade
+                // Per currency, the last answers of the two searches: trade
                 // lists come mostly in time order (per run), so the next
                 // answer is near the last one.
-                let mut hints = vec![[0usize; 3]; self.index.len()];
+                let mut hints = vec![[0usize; 2]; self.index.len()];
                 for (j, kj) in k.iter_mut().enumerate() {
                     let i = lo + j;
                     let (o, cl) = (opened[i], closed[i]);
@@ -210,19 +210,22 @@ impl Engine {
                         let ix = &self.index[ci];
                         let h = &mut hints[ci];
                         let from = partition_point_near(&ix.slots, h[0], |s| s.start < qa.saturating_sub(ix.max_len));
-                        let to = partition_point_near(&ix.slots, h[1].max(from), |s| s.start <= qb);
-                        for s in &ix.slots[from..to] {
+                        // The candidates are few: walk them rather than
+                        // search for their end.
+                        let mut to = from;
+                        while let Some(s) = ix.slots.get(to).filter(|s| s.start <= qb) {
                             if s.end >= qa {
                                 rel.push(s.release);
                             }
+                            to += 1;
                         }
                         if !want_nearest {
-                            *h = [from, to, 0];
+                            h[0] = from;
                             continue;
                         }
                         // Nearest instant to the open: neighbours of the open.
-                        let p = partition_point_near(&ix.instants, h[2], |x| x.0 < o);
-                        *h = [from, to, p];
+                        let p = partition_point_near(&ix.instants, h[1], |x| x.0 < o);
+                        *h = [from, p];
                         for cand in [p.checked_sub(1), Some(p)].into_iter().flatten() {
                             if let Some(&(t, r)) = ix.instants.get(cand) {
                                 let d = (o - t).abs();
@@ -232,7 +235,9 @@ impl Engine {
                             }
                         }
                     }
-                    rel[before..].sort_unstable();
+                    if rel.len() - before > 1 {
+                        rel[before..].sort_unstable();
+                    }
                     *kj = (rel.len() - before) as u32;
                     if let Some((_, r, t)) = best {
                         nearest[j] = r;

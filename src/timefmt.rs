@@ -70,9 +70,18 @@ fn err(text: &str, expected: &'static str) -> TimeError {
     TimeError { text: text.chars().take(60).collect(), expected }
 }
 
+/// `s.trim()`, without the Unicode scan when both ends are plain ASCII
+/// text (the common case on hot paths).
+pub fn trim_fast(s: &str) -> &str {
+    match (s.as_bytes().first(), s.as_bytes().last()) {
+        (Some(&a), Some(&b)) if a.is_ascii_graphic() && b.is_ascii_graphic() => s,
+        _ => s.trim(),
+    }
+}
+
 /// Reads one stamp.
 pub fn parse_stamp(text: &str, fmt: &TimeFormat) -> Result<Stamp, TimeError> {
-    let t = text.trim();
+    let t = trim_fast(text);
     match fmt {
         TimeFormat::Auto => scan_auto(t).ok_or_else(|| err(t, EXPECT_AUTO)),
         TimeFormat::EpochSeconds => {

@@ -8,7 +8,7 @@
 
 use crate::csvchunks::{self, Parsed, Record, ScanError};
 use crate::table::{Cell, Table};
-use crate::timefmt::{Stamp, TimeFormat, parse_stamp};
+use crate::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
 use crate::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
 use rayon::prelude::*;
 use std::io::Read;
@@ -373,14 +373,14 @@ fn parse_row<'a>(
         }
     };
     let instrument: std::borrow::Cow<str> = match cell(INSTRUMENT)? {
-        Cell::Str(s) => s.trim().into(),
+        Cell::Str(s) => trim_fast(s).into(),
         Cell::Num(v) => v.to_string().into(),
         _ => return Err(row_err("instrument", "missing_value", "empty")),
     };
     let pnl = number(PNL, true)?;
     let run = if present[RUN] {
         Some(match cell(RUN)? {
-            Cell::Str(s) => std::borrow::Cow::Borrowed(s.trim()),
+            Cell::Str(s) => std::borrow::Cow::Borrowed(trim_fast(s)),
             Cell::Num(v) => format_run_number(v).into(),
             _ => return Err(row_err("run", "missing_value", "empty")),
         })
@@ -838,8 +838,48 @@ pub fn parse_number_with(s: &str, decimal_comma: bool) -> Option<f64> {
     None
 }
 
+/// `[+-]digits[.digits]` with at most 19 digits, read as an integer and
+/// one division by a power of ten: when the integer is at most 2^53 and the
+/// power at most 10^22 both are exact, so the one rounding of the division
+/// gives the correctly rounded value, as `str::parse` does (W. D. Clinger,
+/// "How to Read Floating Point Numbers Accurately", PLDI 1990, fast path).
+/// Anything else is left to `str::parse`.
+fn parse_simple_decimal(b: &[u8]) -> Option<f64> {
+    const POW10: [f64; 23] = [
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+    ];
+    let (neg, digits) = match b.first()? {
+        b'-' => (true, &b[1..]),
+        b'+' => (false, &b[1..]),
+        _ => (false, b),
+    };
+    if digits.len() > 20 {
+        return None;
+    }
+    let (mut mant, mut frac, mut seen_dot, mut n) = (0u64, 0usize, false, 0);
+    for &c in digits {
+        match c {
+            b'0'..=b'9' => {
+                mant = mant * 10 + (c - b'0') as u64;
+                n += 1;
+                frac += usize::from(seen_dot);
+            }
+            b'.' if !seen_dot => seen_dot = true,
+            _ => return None,
+        }
+    }
+    if n == 0 || n > 19 || mant > 1 << 53 {
+        return None;
+    }
+    let v = mant as f64 / POW10[frac];
+    Some(if neg { -v } else { v })
+}
+
 fn parse_plain_number(s: &str) -> Option<f64> {
-    let t = s.trim();
+    let t = trim_fast(s);
+    if let Some(v) = parse_simple_decimal(t.as_bytes()) {
+        return Some(v);
+    }
     if let Ok(v) = t.parse::<f64>() {
         return Some(v);
     }
@@ -865,6 +905,44 @@ pub fn parse_side(s: &str) -> Option<i8> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn simple_decimals_read_as_the_standard_parser_does() {
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(21);
+        let mut texts: Vec<String> = ["0", "-0", "+0", "5.", ".5", "-.5", "+.25", ".", "-", "", "1..2", "9007199254740993", "0.1", "-4.23", "123456789012345678.9", "00012.3400"]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        for _ in 0..200_000 {
+            let int_digits = rng.random_range(0..12);
+            let frac_digits = rng.random_range(0..10);
+            let digit = |r: &mut rand_chacha::ChaCha8Rng| char::from(b'0' + r.random_range(0..10u8));
+            let mut t = String::new();
+            if rng.random_range(0..3) == 0 {
+                t.push('-');
+            }
+            (0..int_digits).for_each(|_| t.push(digit(&mut rng)));
+            if rng.random_range(0..4) > 0 {
+                t.push('.');
+                (0..frac_digits).for_each(|_| t.push(digit(&mut rng)));
+            }
+            texts.push(t);
+        }
+        let mut fast = 0;
+        for t in &texts {
+            let std = t.parse::<f64>().ok();
+            let ours = parse_simple_decimal(t.as_bytes());
+            if let Some(v) = ours {
+                fast += 1;
+                assert_eq!(Some(v.to_bits()), std.map(f64::to_bits), "{t}");
+            }
+        }
+        assert!(fast > 150_000, "{fast}");
+        assert_eq!(crate::timefmt::trim_fast(" a "), "a");
+        assert_eq!(crate::timefmt::trim_fast("a\u{a0}"), "a");
+        assert_eq!(crate::timefmt::trim_fast("ab"), "ab");
+    }
 
     #[test]
     fn sides_and_numbers() {
