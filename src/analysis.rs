@@ -184,7 +184,7 @@ fn run_key(name: &str) -> (bool, f64) {
 /// Each run's trade indices in close order, from the overall close order.
 fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
     // Sized exactly first: grown by doubling they would hold up to twice
-    // the trade count while the overall series still live.
+    // the trade count.
     let mut count = vec![0usize; trades.runs.len()];
     for &r in &trades.run {
         count[r as usize] += 1;
@@ -252,27 +252,30 @@ pub fn analyze(
     );
     crate::phases::mark("exposure, close order");
     let exposed = |i: usize| exp.k[i] > 0;
-    let (attribution, all) = rayon::join(
-        || attribution::attribute(&exp, &trades.pnl, releases, &engine.used),
-        || scenarios::build_in_order(order, trades, &exposed, &settings.scenario),
-    );
-    let (attribution, all) = (attribution?, all?);
-    crate::phases::mark("attribution, scenarios");
-    let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
-    let ctx = Context { span, report_zone: settings.report_tz, initial_equity, tcr_p: settings.tcr_p };
-    let by_run = trades.has_runs().then(|| split_by_run(&all.baseline.trade, trades));
-    // The overall figures beside the runs'.
-    let ((overall, tail), runs) = rayon::join(
+    let base_ctx = Context { span, report_zone: settings.report_tz, initial_equity: None, tcr_p: settings.tcr_p };
+    let by_run = trades.has_runs().then(|| split_by_run(&order, trades));
+    // Attribution, the overall scenarios and their figures, and the runs',
+    // side by side.
+    let ((attribution, overall), runs) = rayon::join(
         || {
-            let o = overall_of(&all, trades, &ctx, settings);
-            crate::phases::mark("(overall)");
-            o
+            rayon::join(
+                || attribution::attribute(&exp, &trades.pnl, releases, &engine.used),
+                || -> Result<_, AnalysisError> {
+                    let all = scenarios::build_in_order(order, trades, &exposed, &settings.scenario)?;
+                    let ctx = Context { initial_equity: all.initial_equity, ..base_ctx };
+                    let (metrics, tail) = overall_of(&all, trades, &ctx, settings);
+                    crate::phases::mark("(overall)");
+                    Ok((all, metrics, tail))
+                },
+            )
         },
         || match by_run {
-            Some(by_run) => runs_of(by_run, trades, &exposed, &ctx, settings),
+            Some(by_run) => runs_of(by_run, trades, &exposed, &base_ctx, settings),
             None => Ok(Vec::new()),
         },
     );
+    let (attribution, (all, overall, tail)) = (attribution?, overall?);
+    let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
     let mut runs = runs?;
     // Runs listed by name, numbers by value (2 before 10), whatever the
     // row order.
