@@ -12,6 +12,8 @@ the release binary, then runs, alternately and --reps times each:
   - `eventfence check --trades` (the floor: reading and parsing the trades),
   - `eventfence analyze --json` (import, exposure, attribution, three
     scenarios, per-run figures; no charts),
+  - the same analyze on a Parquet copy of the trades (same rows; its
+    figures must equal the CSV run's),
   - `eventfence rank` (per-run table),
   - pandas_peer.py and duckdb_peer.py with --per-run and --releases-out.
 Prints medians of wall time, peak RSS (from /usr/bin/time -v), the ratios
@@ -71,7 +73,8 @@ def timed(cmd, stdout_path=None):
 
 def ensure_data(n, m, runs, years, seed, parquet=False):
     d = f"/tmp/eventfence-data-{n}-{m}-{runs}-{years}-{seed}"
-    if not os.path.exists(os.path.join(d, "trades.csv")):
+    have = os.path.exists(os.path.join(d, "trades.csv")) and (not parquet or os.path.exists(os.path.join(d, "trades.parquet")))
+    if not have:
         cmd = [sys.executable, os.path.join(PEERS, "gen_data.py"), "--trades", str(n), "--releases", str(m),
                "--runs", str(runs), "--years", str(years), "--seed", str(seed), "--out", d]
         if parquet:
@@ -113,8 +116,9 @@ def to_peer_format(summary_path, work):
 
 
 def compare(n, m, runs, years, reps, seed):
-    d = ensure_data(n, m, runs, years, seed)
+    d = ensure_data(n, m, runs, years, seed, parquet=True)
     trades, cal = os.path.join(d, "trades.csv"), os.path.join(d, "calendar.csv")
+    trades_pq = os.path.join(d, "trades.parquet")
     work = tempfile.mkdtemp(prefix="ef-bench-")
     size = os.path.getsize(trades)
     jobs = {
@@ -122,6 +126,9 @@ def compare(n, m, runs, years, reps, seed):
         "eventfence analyze": lambda: timed([BIN, "analyze", "--quiet", "--trades", trades, "--calendar", cal,
                                              "--placebo", "0", "--bootstrap", "0", "--json"],
                                             os.path.join(work, "summary.json")),
+        "analyze (Parquet)": lambda: timed([BIN, "analyze", "--quiet", "--trades", trades_pq, "--calendar", cal,
+                                            "--placebo", "0", "--bootstrap", "0", "--json"],
+                                           os.path.join(work, "summary_parquet.json")),
         "eventfence rank": lambda: timed([BIN, "rank", "--quiet", "--trades", trades, "--calendar", cal, "--top", "1"]),
     }
     for p in ("pandas", "duckdb"):
@@ -147,12 +154,17 @@ def compare(n, m, runs, years, reps, seed):
     print(f"  analyze / floor          {ef / fl:.2f}  (<= 2)")
     print(f"  peak RSS / CSV size      {med['eventfence analyze'][1] / size:.2f}  (<= 1.5)")
     print(f"  rank / fastest peer      {rk / fastest:.2f}  (<= 0.33; peers ran with --per-run)")
+    print(f"  Parquet / CSV analyze    {med['analyze (Parquet)'][0] / ef:.2f}  (< 1)")
+    figures = lambda f: {k: v for k, v in json.load(open(os.path.join(work, f))).items() if k != "inputs"}
+    same = figures("summary.json") == figures("summary_parquet.json")
     to_peer_format(os.path.join(work, "summary.json"), work)
     sys.path.insert(0, PEERS)
     import check_agree
     problems = check_agree.compare_outputs(work, names=("eventfence", "pandas")) + \
         check_agree.compare_outputs(work, names=("eventfence", "duckdb"))
-    print("figures agree with both peers" if not problems else "DISAGREEMENT:\n  " + "\n  ".join(problems[:20]))
+    if not same:
+        problems.append("the Parquet run's summary differs from the CSV run's")
+    print("figures agree with both peers (and Parquet equals CSV)" if not problems else "DISAGREEMENT:\n  " + "\n  ".join(problems[:20]))
     return not problems
 
 

@@ -35,7 +35,7 @@ impl ColumnSource {
     pub fn get(&self, i: usize) -> Cell<'_> {
         match self {
             ColumnSource::Str(c) => match c.get(i) {
-                Some(s) if !s.trim().is_empty() => Cell::Str(s),
+                Some(s) if !crate::timefmt::trim_fast(s).is_empty() => Cell::Str(s),
                 _ => Cell::Null,
             },
             ColumnSource::Num(c) => c.get(i).map_or(Cell::Null, Cell::Num),
@@ -52,7 +52,35 @@ pub fn is_parquet(path: &Path) -> bool {
     )
 }
 
+/// The rows of a Parquet file as (first row, rows) per row group, so that a
+/// large file can be read one group at a time.
+pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, String> {
+    let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+    let mut reader = ParquetReader::new(file);
+    let meta = reader.get_metadata().map_err(|e| format!("not a readable Parquet file: {e}"))?;
+    let mut first = 0;
+    Ok(meta
+        .row_groups
+        .iter()
+        .map(|g| {
+            let span = (first, g.num_rows());
+            first += g.num_rows();
+            span
+        })
+        .collect())
+}
+
 impl Table {
+    /// Rows `first..first + rows` of a Parquet file.
+    pub fn read_parquet_rows(path: &Path, first: usize, rows: usize) -> Result<Table, String> {
+        let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+        let df = ParquetReader::new(file)
+            .with_slice(Some((first, rows)))
+            .finish()
+            .map_err(|e| format!("not a readable Parquet file: {e}"))?;
+        Ok(Table { df })
+    }
+
     /// Reads a CSV (all columns as text) or Parquet file.
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
         if is_parquet(path) {

@@ -234,8 +234,7 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
         });
         sink.start_file(fi as u16, path, file_run);
         if crate::table::is_parquet(path) {
-            let table = Table::read(path, opts.delimiter).map_err(|message| TradeError::Read { path: path.clone(), message })?;
-            read_table(&table, path, opts, &mut sink)?;
+            read_parquet(path, opts, &mut sink)?;
         } else {
             read_csv(path, opts, &mut sink)?;
         }
@@ -311,9 +310,16 @@ struct Row<'a> {
     closed: i64,
     instrument: std::borrow::Cow<'a, str>,
     pnl: f64,
-    run: Option<std::borrow::Cow<'a, str>>,
+    run: Option<RunName<'a>>,
     side: i8,
     extras: [f64; 6],
+}
+
+/// A run as a row gives it: text, or a number (a typed Parquet column),
+/// named in text only when first met.
+enum RunName<'a> {
+    Text(&'a str),
+    Number(f64),
 }
 
 /// Validates one row. `cell(k)` reads field `k` (a [`FIELDS`] index) of a
@@ -380,8 +386,8 @@ fn parse_row<'a>(
     let pnl = number(PNL, true)?;
     let run = if present[RUN] {
         Some(match cell(RUN)? {
-            Cell::Str(s) => std::borrow::Cow::Borrowed(trim_fast(s)),
-            Cell::Num(v) => format_run_number(v).into(),
+            Cell::Str(s) => RunName::Text(trim_fast(s)),
+            Cell::Num(v) => RunName::Number(v),
             _ => return Err(row_err("run", "missing_value", "empty")),
         })
     } else {
@@ -423,6 +429,8 @@ struct Part {
     /// than a hash lookup.
     last_instrument: Option<(String, u32)>,
     last_run: Option<(String, u32)>,
+    /// The last numeric run (its bits) and its id.
+    last_run_number: Option<(u64, u32)>,
     run: Vec<u32>,
     run_names: Interner,
     side: Vec<i8>,
@@ -448,6 +456,7 @@ impl Part {
         self.instrument_names.clear();
         self.last_instrument = None;
         self.last_run = None;
+        self.last_run_number = None;
         self.run.clear();
         self.run_names.clear();
         self.side.clear();
@@ -489,8 +498,17 @@ impl Part {
                 self.closed.push(r.closed);
                 self.pnl.push(r.pnl);
                 self.instrument.push(intern_cached(&mut self.instrument_names, &mut self.last_instrument, &r.instrument));
-                if let Some(name) = &r.run {
-                    self.run.push(intern_cached(&mut self.run_names, &mut self.last_run, name));
+                match r.run {
+                    Some(RunName::Text(name)) => self.run.push(intern_cached(&mut self.run_names, &mut self.last_run, name)),
+                    Some(RunName::Number(v)) => {
+                        let id = match self.last_run_number {
+                            Some((bits, id)) if bits == v.to_bits() => id,
+                            _ => intern(&mut self.run_names, &format_run_number(v)),
+                        };
+                        self.last_run_number = Some((v.to_bits(), id));
+                        self.run.push(id);
+                    }
+                    None => {}
                 }
                 if present[SIDE] {
                     self.side.push(r.side);
@@ -609,18 +627,47 @@ fn extra_slot(t: &mut Trades, k: usize) -> &mut Option<Vec<f64>> {
     }
 }
 
-/// A Parquet (or other polars-read) table, row by row.
+/// A Parquet file, one row group at a time (so only one group's decoded
+/// columns are held beside the imported ones), each group's rows parsed on
+/// every core in pieces merged in order.
+fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+    let err = |message: String| TradeError::Read { path: path.to_path_buf(), message };
+    let groups = crate::table::parquet_row_groups(path).map_err(err)?;
+    sink.trades.reserve(groups.iter().map(|g| g.1).sum());
+    // A file without row groups still has a schema: one empty read checks
+    // the column mapping.
+    for (first, rows) in if groups.is_empty() { vec![(0, 0)] } else { groups } {
+        let table = Table::read_parquet_rows(path, first, rows).map_err(err)?;
+        read_table(&table, path, opts, sink)?;
+    }
+    Ok(())
+}
+
+/// A polars-read table: its rows parsed in pieces on every core, merged in
+/// order.
 fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+    const PIECE: usize = 1 << 16;
     let names = table.names();
     let sources = slots(&names, path, opts, |name| table.column(name))?;
     let present: [bool; 12] = std::array::from_fn(|k| sources[k].is_some());
-    let mut part = Part::default();
-    let mut cache = DayOffsetCache::default();
-    for i in 0..table.height() {
-        let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), opts, false, &mut cache);
-        part.take(i, row, &present);
+    let n = table.height();
+    let parts: Vec<Part> = (0..n.div_ceil(PIECE))
+        .into_par_iter()
+        .map(|p| {
+            let (lo, hi) = (p * PIECE, ((p + 1) * PIECE).min(n));
+            let mut part = Part::default();
+            part.reserve(hi - lo, &present);
+            let mut cache = DayOffsetCache::default();
+            for i in lo..hi {
+                let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), opts, false, &mut cache);
+                part.take(i - lo, row, &present);
+            }
+            part
+        })
+        .collect();
+    for mut part in parts {
+        sink.absorb(&mut part, &present);
     }
-    sink.absorb(&mut part, &present);
     Ok(())
 }
 
