@@ -61,3 +61,45 @@ fn several_files_become_runs_and_epoch_times_read() {
     assert!(warnings.iter().any(|w| w.contains("no releases for EUR") && w.contains("2 trade(s)")), "{warnings:?}");
     assert!(warnings.iter().any(|w| w.contains("covers 2024-03-08 to 2024-03-08 for USD") && w.contains("1 trade(s)")), "{warnings:?}");
 }
+
+#[test]
+fn parquet_read_group_by_group_keeps_row_numbers_and_runs() {
+    // 300 rows in row groups of 64, an integer run column (runs 7 and 12 in
+    // turn, 30 rows each), and one damaged row (it closes before it opens)
+    // in the fourth group (row 200, in run 7): row 200 must be the one
+    // named, the rest imported; runs listed by value, 7 before 12.
+    let dir = tempfile::tempdir().unwrap();
+    let n = 300;
+    let base = 1_709_904_000_000i64;
+    let open_ms: Vec<i64> = (0..n).map(|i| base + i as i64 * 3_600_000).collect();
+    let close_ms: Vec<i64> = (0..n).map(|i| if i == 199 { base - 1 } else { base + i as i64 * 3_600_000 + 60_000 }).collect();
+    let run: Vec<i64> = (0..n).map(|i| if (i / 30) % 2 == 0 { 7 } else { 12 }).collect();
+    let mut df = DataFrame::new(
+        n,
+        vec![
+            Column::new("run".into(), run),
+            Column::new("opened_at".into(), open_ms).cast(&DataType::Datetime(TimeUnit::Milliseconds, None)).unwrap(),
+            Column::new("closed_at".into(), close_ms).cast(&DataType::Datetime(TimeUnit::Milliseconds, None)).unwrap(),
+            Column::new("instrument".into(), vec!["EURUSD"; n]),
+            Column::new("pnl".into(), vec![1.0f64; n]),
+        ],
+    )
+    .unwrap();
+    let p = dir.path().join("t.parquet");
+    ParquetWriter::new(std::fs::File::create(&p).unwrap()).with_row_group_size(Some(64)).finish(&mut df).unwrap();
+    std::fs::write(dir.path().join("c.csv"), CAL).unwrap();
+    let run = |extra: &[&str]| {
+        let mut args = vec!["analyze", "--trades", "t.parquet", "--calendar", "c.csv", "--json", "--placebo", "0", "--bootstrap", "0"];
+        args.extend_from_slice(extra);
+        bin().current_dir(dir.path()).args(&args).output().unwrap()
+    };
+    let refused = run(&[]);
+    assert!(!refused.status.success());
+    assert!(String::from_utf8_lossy(&refused.stderr).contains("row 200"), "{}", String::from_utf8_lossy(&refused.stderr));
+    let o = run(&["--skip-bad-rows"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(j["exposure"]["trades"], 299);
+    let runs: Vec<(String, u64)> = j["runs"].as_array().unwrap().iter().map(|r| (r["run"].as_str().unwrap().to_string(), r["trades"].as_u64().unwrap())).collect();
+    assert_eq!(runs, vec![("7".to_string(), 149), ("12".to_string(), 150)]);
+}
