@@ -240,7 +240,7 @@ pub fn analyze(
     let span = trades.span().ok_or(AnalysisError::NoTrades)?;
     crate::phases::mark("start analysis");
     // Exposure beside the close-order sort and the coverage (independent
-    // passes); then attribution beside the scenario build.
+    // passes).
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let ((engine, exp), (order, coverage)) = rayon::join(
         || exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, files),
@@ -282,7 +282,7 @@ pub fn analyze(
     runs.sort_by(|a, b| run_key(&a.run).partial_cmp(&run_key(&b.run)).unwrap_or(std::cmp::Ordering::Equal).then_with(|| a.run.cmp(&b.run)));
     // The series feed only the output files; without them they go now.
     let series = if files { all } else { Scenarios::default() };
-    crate::phases::mark("runs");
+    crate::phases::mark("attribution, scenarios, runs");
     let summary = ExposureSummary {
         trades: trades.len(),
         exposed_trades: exp.exposed_count(),
