@@ -907,7 +907,7 @@ fn parse_simple_decimal(b: &[u8]) -> Option<f64> {
     for &c in digits {
         match c {
             b'0'..=b'9' => {
-                mant = mant * 10 + (c - b'0') as u64;
+                mant = mant.checked_mul(10)?.checked_add((c - b'0') as u64)?;
                 n += 1;
                 frac += usize::from(seen_dot);
             }
@@ -957,7 +957,7 @@ mod tests {
     fn simple_decimals_read_as_the_standard_parser_does() {
         use rand::{RngExt, SeedableRng};
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(21);
-        let mut texts: Vec<String> = ["0", "-0", "+0", "5.", ".5", "-.5", "+.25", ".", "-", "", "1..2", "9007199254740993", "0.1", "-4.23", "123456789012345678.9", "00012.3400"]
+        let mut texts: Vec<String> = ["0", "-0", "+0", "5.", ".5", "-.5", "+.25", ".", "-", "", "1..2", "9007199254740993", "0.1", "-4.23", "123456789012345678.9", "00012.3400", "99999999999999999999", "9999999999999999999.9"]
             .iter()
             .map(|s| s.to_string())
             .collect();
