@@ -140,19 +140,11 @@ fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> 
 }
 
 /// Runs the exposure engine: the matches, and with `nearest` also each
-/// trade's nearest release.
-fn exposure_of(
-    trades: &Trades,
-    releases: &[Release],
-    currencies: &[InstrumentCurrencies],
-    windows: &WindowSettings,
-    rule: ExposureRule,
-    nearest: bool,
-) -> (Engine, Exposure) {
+/// trade's nearest release. `cur[i]`: the currencies of instrument i.
+fn exposure_of(trades: &Trades, releases: &[Release], cur: &[Vec<String>], windows: &WindowSettings, rule: ExposureRule, nearest: bool) -> (Engine, Exposure) {
     let engine = Engine::new(releases, windows, rule);
-    let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let (o, c, i) = (&trades.opened, &trades.closed, &trades.instrument);
-    let exp = if nearest { engine.run(o, c, i, &cur) } else { engine.run_matches(o, c, i, &cur) };
+    let exp = if nearest { engine.run(o, c, i, cur) } else { engine.run_matches(o, c, i, cur) };
     (engine, exp)
 }
 
@@ -173,12 +165,17 @@ fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &Analys
     (o, tail)
 }
 
-/// Sort key of a run name: numbers first, by value; then names.
-fn run_key(name: &str) -> (bool, f64) {
-    match name.trim().parse::<f64>() {
-        Ok(v) if v.is_finite() => (false, v),
-        _ => (true, 0.0),
+/// Run names in listing order: numbers first, by value (2 before 10), then
+/// the other names; ties by text.
+fn run_order(a: &str, b: &str) -> std::cmp::Ordering {
+    let number = |s: &str| s.trim().parse::<f64>().ok().filter(|v| v.is_finite());
+    match (number(a), number(b)) {
+        (Some(x), Some(y)) => x.total_cmp(&y),
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => std::cmp::Ordering::Equal,
     }
+    .then_with(|| a.cmp(b))
 }
 
 /// Each run's trade indices in close order, from the overall close order.
@@ -243,7 +240,7 @@ pub fn analyze(
     // passes).
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let ((engine, exp), (order, coverage)) = rayon::join(
-        || exposure_of(trades, releases, currencies, &settings.windows, settings.exposure_rule, files),
+        || exposure_of(trades, releases, &cur, &settings.windows, settings.exposure_rule, files),
         || {
             let mut order: Vec<u32> = (0..trades.len() as u32).collect();
             scenarios::close_order(&mut order, &trades.opened, &trades.closed);
@@ -277,9 +274,8 @@ pub fn analyze(
     let (attribution, (all, overall, tail)) = (attribution?, overall?);
     let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
     let mut runs = runs?;
-    // Runs listed by name, numbers by value (2 before 10), whatever the
-    // row order.
-    runs.sort_by(|a, b| run_key(&a.run).partial_cmp(&run_key(&b.run)).unwrap_or(std::cmp::Ordering::Equal).then_with(|| a.run.cmp(&b.run)));
+    // Listed by name, whatever the row order.
+    runs.sort_by(|a, b| run_order(&a.run, &b.run));
     // The series feed only the output files; without them they go now.
     let series = if files { all } else { Scenarios::default() };
     crate::phases::mark("attribution, scenarios, runs");

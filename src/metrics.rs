@@ -174,9 +174,10 @@ pub fn tcr(pnl: &[f64], p: f64) -> Option<f64> {
     Some((top / k as f64) / (total / n as f64))
 }
 
-/// The k largest of `values`, largest first, kept in a heap of k: no copy
-/// of the data (10 M trades × 3 scenarios would otherwise copy 240 MB at
-/// once). NaN is never among them.
+/// The k largest |value|, largest first, without copying the data (10 M
+/// trades × 3 scenarios would otherwise copy 240 MB at once): through a
+/// sampled threshold on large inputs, else a heap of k ([`top_abs`]). NaN
+/// is never among them.
 pub fn top_abs_of(values: &[f64], k: usize) -> Vec<f64> {
     let n = values.len();
     if k == 0 {

@@ -1,6 +1,7 @@
 //! Phase timings for profiling: with `EVENTFENCE_PHASES=1` in the
 //! environment, each [`mark`] prints the wall time since the previous mark,
-//! the resident memory and its peak so far (Linux) to stderr. Off by default; never part of any output file.
+//! the resident memory and its peak so far (Linux) to stderr. Off by
+//! default; never part of any output file.
 
 use std::sync::Mutex;
 use std::time::Instant;

@@ -46,7 +46,12 @@ pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
         return None;
     }
     // More than k positive values: the k + 1 largest |pnl| are all positive.
-    let x = crate::metrics::top_abs_of(pnl, k + 1);
+    hill_of_top(&crate::metrics::top_abs_of(pnl, k + 1), k, n)
+}
+
+/// H_k and α̂ from the k + 1 largest values, largest first (the top k summed
+/// in that order, whatever the input order); `n` values in all.
+fn hill_of_top(x: &[f64], k: usize, n: usize) -> Option<HillEstimate> {
     let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
     (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n })
 }
@@ -59,8 +64,7 @@ fn hill_owned(mut x: Vec<f64>, k: usize) -> Option<HillEstimate> {
     // (a sum in a fixed order, whatever the input order).
     x.select_nth_unstable_by(k, |a, b| b.total_cmp(a));
     x[..k].sort_unstable_by(|a, b| b.total_cmp(a));
-    let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
-    (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n: x.len() })
+    hill_of_top(&x[..=k], k, x.len())
 }
 
 /// The default k: ⌊√n⌋ (the convention of the `arch` package's estimator,

@@ -448,9 +448,8 @@ impl Part {
     /// Empties the part, keeping its buffers for the next block (fresh
     /// buffers for every block would cost a page fault per 4 KiB).
     fn clear(&mut self) {
-        for v in [&mut self.opened, &mut self.closed] {
-            v.clear();
-        }
+        self.opened.clear();
+        self.closed.clear();
         self.pnl.clear();
         self.instrument.clear();
         self.instrument_names.clear();

@@ -394,8 +394,9 @@ mod tests {
 
     #[test]
     fn day_cursor_equals_local_day_across_transitions() {
-        // Hour steps through 2024 (every DST change of these zones), then a
-        // shuffled pass; Lord Howe moves by 30 minutes.
+        // Quarter-hour steps (1 ms before each) through 2024, past every DST
+        // change of these zones, then a shuffled pass; Lord Howe moves by
+        // 30 minutes.
         use rand::{seq::SliceRandom, SeedableRng};
         let start = naive_to_ms(&ndt("2024-01-01 00:00"));
         let mut t: Vec<i64> = (0..366 * 24 * 4).map(|q| start + q * 15 * MINUTE_MS - 1).collect();

@@ -54,9 +54,8 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
     let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings, args.out.is_some())?;
-    // The scenario series feed only the files of --out; without it they go now.
+    // The scenario series (filled only for --out) go to the files below.
     let series = std::mem::take(&mut result.series);
-    let series = args.out.is_some().then_some(series);
     let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
     let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz.clone());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
@@ -64,7 +63,6 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     crate::phases::mark("summary");
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        let series = series.expect("kept for --out");
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
         drop(series);
         let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
