@@ -45,6 +45,10 @@ pub struct Record {
     spans: Vec<(usize, usize, bool)>,
     /// A quoted field holds `""`: its text differs from its bytes.
     escaped: bool,
+    /// The first field (from 0) with text between its closing quote and the
+    /// delimiter, and that text's byte range: RFC 4180 allows none, so the
+    /// record is malformed rather than trimmed.
+    after_quote: Option<(usize, usize, usize)>,
 }
 
 impl Record {
@@ -57,6 +61,13 @@ impl Record {
     /// Whether any field needs unescaping (see [`Record::field`]).
     pub fn has_escapes(&self) -> bool {
         self.escaped
+    }
+
+    /// The first field with text after its closing quote, as (field index
+    /// from 0, the stray text's byte range in the block); spaces and a CR
+    /// before the line end do not count.
+    pub fn text_after_quote(&self) -> Option<(usize, usize, usize)> {
+        self.after_quote
     }
 
     /// Field `k` as it lies in the block (quotes removed, `""` kept): the
@@ -98,6 +109,7 @@ pub enum Parsed {
 pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Parsed {
     rec.spans.clear();
     rec.escaped = false;
+    rec.after_quote = None;
     let n = block.len();
     if block[pos] == b'\n' {
         return Parsed::Blank { next: pos + 1 };
@@ -122,9 +134,12 @@ pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Pa
                 }
             };
             rec.spans.push((start, end, true));
-            // Anything between the closing quote and the delimiter (a CR
-            // included) is kept out of the field.
+            // Anything between the closing quote and the delimiter other
+            // than spaces (and the CR of a CRLF) makes the record malformed.
             i = memchr2(delim, b'\n', &block[end + 1..]).map_or(n, |k| end + 1 + k);
+            if rec.after_quote.is_none() && block[end + 1..i].iter().any(|&b| !matches!(b, b' ' | b'\t' | b'\r')) {
+                rec.after_quote = Some((rec.spans.len() - 1, end + 1, i));
+            }
         } else {
             // Fields are short: a plain scan beats a vectorised search's
             // set-up cost per call.
@@ -185,6 +200,7 @@ impl<'a> Records<'a> {
         };
         rec.spans.clear();
         rec.escaped = false;
+        rec.after_quote = None;
         // A blank line: its line end is the next position found.
         let blank = match block[pos] {
             b'\n' => Some(pos + 1),

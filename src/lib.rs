@@ -15,6 +15,7 @@ pub mod csvchunks;
 pub mod cmd;
 pub mod exposure;
 pub mod metrics;
+pub mod number;
 pub mod output;
 pub mod phases;
 pub mod relevance;

@@ -19,16 +19,33 @@ pub enum Cell<'a> {
     Null,
     Str(&'a str),
     Num(f64),
-    /// A timestamp column's value, ms since epoch UTC.
+    /// A zoned timestamp column's value, ms since epoch UTC.
     Instant(i64),
+    /// A timestamp column without a zone: a wall-clock reading, as ms since
+    /// 1970-01-01T00:00 on that clock (the reader's zone applies).
+    Local(i64),
+    /// A date column's value, days since 1970-01-01.
+    Date(i32),
 }
 
 /// A column ready for row access.
 pub enum ColumnSource {
     Str(StringChunked),
     Num(Float64Chunked),
-    /// Physical i64 values and the divisor that turns them into ms.
-    Time(Int64Chunked, i64),
+    /// Physical i64 values and the divisor that turns them into ms; zoned
+    /// columns hold instants, naive ones wall-clock readings.
+    Time(Int64Chunked, i64, TimeKind),
+    /// Days since the epoch.
+    Date(Int32Chunked),
+}
+
+/// How a timestamp column's values are to be read.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum TimeKind {
+    /// Stored with a zone (its name): instants, used as stored.
+    Zoned(String),
+    /// Stored without a zone: local times in the reader's zone.
+    Naive,
 }
 
 impl ColumnSource {
@@ -39,7 +56,24 @@ impl ColumnSource {
                 _ => Cell::Null,
             },
             ColumnSource::Num(c) => c.get(i).map_or(Cell::Null, Cell::Num),
-            ColumnSource::Time(c, div) => c.get(i).map_or(Cell::Null, |v| Cell::Instant(v.div_euclid(*div))),
+            ColumnSource::Time(c, div, TimeKind::Zoned(_)) => c.get(i).map_or(Cell::Null, |v| Cell::Instant(v.div_euclid(*div))),
+            ColumnSource::Time(c, div, TimeKind::Naive) => c.get(i).map_or(Cell::Null, |v| Cell::Local(v.div_euclid(*div))),
+            ColumnSource::Date(c) => c.get(i).map_or(Cell::Null, Cell::Date),
+        }
+    }
+
+    /// What the column holds, in words for `check` (`zone`: the reader's
+    /// zone, which applies to text and naive timestamps).
+    pub fn describe(&self, zone: &str, epoch: Option<&str>) -> String {
+        match self {
+            ColumnSource::Str(_) => format!("text; local to {zone} unless a value carries an offset or Z"),
+            ColumnSource::Num(_) => match epoch {
+                Some(e) => format!("numbers read as {e}"),
+                None => "numbers (refused as times without --time-format epoch-s|epoch-ms)".into(),
+            },
+            ColumnSource::Time(_, _, TimeKind::Zoned(tz)) => format!("timestamps with zone {tz}: instants, used as stored"),
+            ColumnSource::Time(_, _, TimeKind::Naive) => format!("timestamps without a zone: local to {zone}"),
+            ColumnSource::Date(_) => "dates without a time of day".into(),
         }
     }
 }
@@ -125,14 +159,22 @@ impl Table {
         let s = col.as_materialized_series();
         match s.dtype() {
             DataType::String => Some(ColumnSource::Str(s.str().ok()?.clone())),
-            DataType::Datetime(unit, _) => {
+            DataType::Datetime(unit, zone) => {
                 let div = match unit {
                     TimeUnit::Milliseconds => 1,
                     TimeUnit::Microseconds => 1_000,
                     TimeUnit::Nanoseconds => 1_000_000,
                 };
-                let phys = s.cast(&DataType::Int64).ok()?;
-                Some(ColumnSource::Time(phys.i64().ok()?.clone(), div))
+                let kind = match zone {
+                    Some(z) => TimeKind::Zoned(z.to_string()),
+                    None => TimeKind::Naive,
+                };
+                let phys = s.to_physical_repr().into_owned();
+                Some(ColumnSource::Time(phys.i64().ok()?.clone(), div, kind))
+            }
+            DataType::Date => {
+                let phys = s.to_physical_repr().into_owned();
+                Some(ColumnSource::Date(phys.i32().ok()?.clone()))
             }
             dt if dt.is_primitive_numeric() || dt == &DataType::Boolean => {
                 let f = s.cast(&DataType::Float64).ok()?;

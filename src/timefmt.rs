@@ -79,6 +79,12 @@ pub fn trim_fast(s: &str) -> &str {
     }
 }
 
+/// Epoch seconds as ms, when finite and within the accepted years.
+pub fn epoch_seconds_to_ms(v: f64) -> Option<i64> {
+    let ms = (v * 1000.0).round();
+    (ms.is_finite() && ms >= crate::zones::EARLIEST_MS as f64 && ms <= crate::zones::LATEST_MS as f64).then_some(ms as i64)
+}
+
 /// Reads one stamp.
 pub fn parse_stamp(text: &str, fmt: &TimeFormat) -> Result<Stamp, TimeError> {
     let t = trim_fast(text);
@@ -86,15 +92,12 @@ pub fn parse_stamp(text: &str, fmt: &TimeFormat) -> Result<Stamp, TimeError> {
         TimeFormat::Auto => scan_auto(t).ok_or_else(|| err(t, EXPECT_AUTO)),
         TimeFormat::EpochSeconds => {
             let v: f64 = t.parse().map_err(|_| err(t, "expected epoch seconds"))?;
-            if !v.is_finite() || v.abs() > 1e13 {
-                return Err(err(t, "expected epoch seconds within years 1653–2286"));
-            }
-            Ok(Stamp::Instant((v * 1000.0).round() as i64))
+            epoch_seconds_to_ms(v).map(Stamp::Instant).ok_or_else(|| err(t, crate::zones::YEARS_MESSAGE))
         }
         TimeFormat::EpochMillis => {
             let v: i64 = t.parse().map_err(|_| err(t, "expected integer epoch milliseconds"))?;
-            if v.abs() > 10_000_000_000_000_000 {
-                return Err(err(t, "expected epoch milliseconds within chrono's range"));
+            if !crate::zones::in_accepted_years(v) {
+                return Err(err(t, crate::zones::YEARS_MESSAGE));
             }
             Ok(Stamp::Instant(v))
         }

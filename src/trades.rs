@@ -7,7 +7,7 @@
 //! row, field and reason — `rows_read = rows_imported + rows_rejected`.
 
 use crate::csvchunks::{self, Parsed, Record, ScanError};
-use crate::table::{Cell, Table};
+use crate::table::{Cell, ColumnSource, Table};
 use crate::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
 use crate::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
 use rayon::prelude::*;
@@ -127,6 +127,19 @@ pub struct TradeSummary {
     pub rejected_by_reason: BTreeMap<String, usize>,
     /// The first rejections (at most 1000), in input order.
     pub rejections: Vec<Rejection>,
+    /// How each file's time columns were read (which zone rule applied).
+    pub time_columns: Vec<TimeColumn>,
+}
+
+/// How one file's time column was read.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct TimeColumn {
+    pub file: String,
+    pub field: &'static str,
+    pub column: String,
+    /// In words: text, zoned or naive timestamps, or epoch numbers, and the
+    /// zone that applied.
+    pub read_as: String,
 }
 
 /// Errors that stop a trade import.
@@ -334,27 +347,42 @@ fn parse_row<'a>(
 ) -> Result<Row<'a>, RowError> {
     let mut time = |k: usize| -> Result<i64, RowError> {
         let field = FIELDS[k];
-        match cell(k)? {
-            Cell::Null => Err(row_err(field, "missing_value", "empty")),
-            Cell::Instant(ms) => Ok(ms),
+        let out_of_range = |what: String| row_err(field, "bad_time", format!("{what} is {}", crate::zones::YEARS_MESSAGE));
+        let local = |ndt: chrono::NaiveDateTime, cache: &mut DayOffsetCache| {
+            opts.zone.to_utc_cached(&ndt, opts.policy, cache).map_err(|e| match e {
+                ZoneError::Gap { .. } => row_err(field, "local_time_gap", e.to_string()),
+                ZoneError::Ambiguous { .. } => row_err(field, "local_time_ambiguous", e.to_string()),
+                other => row_err(field, "bad_time", other.to_string()),
+            })
+        };
+        let ms = match cell(k)? {
+            Cell::Null => return Err(row_err(field, "missing_value", "empty")),
+            Cell::Instant(ms) => ms,
+            Cell::Local(wall) => {
+                if !crate::zones::in_accepted_years(wall) {
+                    return Err(out_of_range(format!("timestamp {wall} ms")));
+                }
+                local(crate::zones::ms_to_naive(wall), cache)?
+            }
+            Cell::Date(_) => return Err(row_err(field, "bad_time", "a date without a time of day; trade times need one")),
             Cell::Num(v) => match opts.time_format {
-                TimeFormat::EpochSeconds if v.is_finite() => Ok((v * 1000.0).round() as i64),
-                TimeFormat::EpochMillis if v.is_finite() => Ok(v as i64),
-                _ => Err(row_err(field, "bad_time", format!("number {v} where a time was expected; for epoch times give --time-format epoch-s or epoch-ms"))),
+                TimeFormat::EpochSeconds => crate::timefmt::epoch_seconds_to_ms(v).ok_or_else(|| out_of_range(format!("epoch seconds {v}")))?,
+                TimeFormat::EpochMillis if v.is_finite() && v.fract() == 0.0 => v as i64,
+                TimeFormat::EpochMillis => return Err(row_err(field, "bad_time", format!("{v} is not whole epoch milliseconds"))),
+                _ => return Err(row_err(field, "bad_time", format!("number {v} where a time was expected; for epoch times give --time-format epoch-s or epoch-ms"))),
             },
             Cell::Str(s) => {
                 let stamp = parse_stamp(s, &opts.time_format).map_err(|e| row_err(field, "bad_time", e.to_string()))?;
-                let resolved = match stamp {
-                    Stamp::Instant(ms) => Ok(ms),
-                    Stamp::Local(ndt) => opts.zone.to_utc_cached(&ndt, opts.policy, cache),
-                };
-                resolved.map_err(|e| match e {
-                    ZoneError::Gap { .. } => row_err(field, "local_time_gap", e.to_string()),
-                    ZoneError::Ambiguous { .. } => row_err(field, "local_time_ambiguous", e.to_string()),
-                    other => row_err(field, "bad_time", other.to_string()),
-                })
+                match stamp {
+                    Stamp::Instant(ms) => ms,
+                    Stamp::Local(ndt) => local(ndt, cache)?,
+                }
             }
+        };
+        if !crate::zones::in_accepted_years(ms) {
+            return Err(out_of_range(format!("{ms} ms since 1970")));
         }
+        Ok(ms)
     };
     let opened = time(OPENED)?;
     let closed = time(CLOSED)?;
@@ -370,8 +398,8 @@ fn parse_row<'a>(
             Cell::Null => Ok(f64::NAN),
             Cell::Num(v) if v.is_finite() => Ok(v),
             Cell::Num(v) => Err(row_err(field, "non_finite", format!("{v} is not a finite number"))),
-            Cell::Instant(_) => Err(row_err(field, "bad_number", "a time where a number was expected")),
-            Cell::Str(s) => match parse_number_with(s, decimal_comma) {
+            Cell::Instant(_) | Cell::Local(_) | Cell::Date(_) => Err(row_err(field, "bad_number", "a time where a number was expected")),
+            Cell::Str(s) => match crate::number::parse_number(s, decimal_comma) {
                 Some(v) if v.is_finite() => Ok(v),
                 Some(_) => Err(row_err(field, "non_finite", format!("'{}' is not a finite number", truncate(s)))),
                 None => Err(row_err(field, "bad_number", format!("'{}' is not a number", truncate(s)))),
@@ -649,6 +677,25 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
     let names = table.names();
     let sources = slots(&names, path, opts, |name| table.column(name))?;
     let present: [bool; 12] = std::array::from_fn(|k| sources[k].is_some());
+    if sink.file_rows == 0 {
+        let epoch = match opts.time_format {
+            TimeFormat::EpochSeconds => Some("epoch seconds (--time-format epoch-s)"),
+            TimeFormat::EpochMillis => Some("epoch milliseconds (--time-format epoch-ms)"),
+            _ => None,
+        };
+        for k in [OPENED, CLOSED] {
+            let source = sources[k].as_ref().expect("required columns are present");
+            let column = opts.columns.get(FIELDS[k]).cloned().unwrap_or_else(|| FIELDS[k].to_string());
+            if matches!(source, ColumnSource::Date(_)) {
+                return Err(TradeError::Read {
+                    path: path.to_path_buf(),
+                    message: format!("column '{column}' ({}) holds dates without a time of day; trade times need one", FIELDS[k]),
+                });
+            }
+            let read_as = source.describe(&format!("--trades-tz {}", opts.zone), epoch);
+            sink.summary.time_columns.push(TimeColumn { file: sink.file_name.clone(), field: FIELDS[k], column, read_as });
+        }
+    }
     let n = table.height();
     let parts: Vec<Part> = (0..n.div_ceil(PIECE))
         .into_par_iter()
@@ -702,6 +749,15 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
     }
     let columns = slots(names, path, opts, |name| names.iter().position(|n| n == name))?;
     let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
+    for k in [OPENED, CLOSED] {
+        let read_as = match &opts.time_format {
+            TimeFormat::Auto => format!("text; local to --trades-tz {} unless a value carries an offset or Z", opts.zone),
+            TimeFormat::EpochSeconds => "epoch seconds (--time-format epoch-s)".into(),
+            TimeFormat::EpochMillis => "epoch milliseconds (--time-format epoch-ms)".into(),
+            TimeFormat::Pattern(p) => format!("text by --time-format '{p}'; local to --trades-tz {} unless the pattern reads an offset", opts.zone),
+        };
+        sink.summary.time_columns.push(TimeColumn { file: sink.file_name.clone(), field: FIELDS[k], column: names[columns[k].expect("required")].clone(), read_as });
+    }
     let width = names.len();
     let batch = rayon::current_num_threads().max(1) * 2;
     let mut pending = vec![first];
@@ -779,6 +835,14 @@ fn parse_block(
                 if n < width || (n > width && !extra_empty) {
                     let hint = if n < width && last_in_file && pos >= block.len() { "; is the file truncated?" } else { "" };
                     let e = row_err("row", "field_count", format!("{n} field(s) where the header has {width}{hint}"));
+                    part.take(index, Err(e), present);
+                } else if let Some((k, a, b)) = rec.text_after_quote() {
+                    let field = columns.iter().position(|c| *c == Some(k)).map_or("row", |f| FIELDS[f]);
+                    let stray = String::from_utf8_lossy(&block[a..b]);
+                    let text = String::from_utf8_lossy(rec.raw(block, k));
+                    let e = row_err(field, "bad_quote", format!(
+                        "column {}: text '{}' follows the closing quote of \"{}\"; a quoted field must end at its quote", k + 1, truncate(&stray), truncate(&text)
+                    ));
                     part.take(index, Err(e), present);
                 } else if !rec.has_escapes() {
                     // The common case: every field's text is its bytes.
@@ -862,75 +926,9 @@ fn format_run_number(v: f64) -> String {
     if v.fract() == 0.0 && v.abs() < 1e15 { format!("{}", v as i64) } else { v.to_string() }
 }
 
-/// Reads a number written with an optional thousands separator (`1,234.5`
-/// is not accepted in comma-delimited files since the field would split;
-/// spaces and `_` are allowed) and an optional currency sign.
+/// A number by the rule of [`crate::number`], in a comma-delimited file.
 pub fn parse_number(s: &str) -> Option<f64> {
-    parse_number_with(s, false)
-}
-
-/// [`parse_number`], also reading `12,5` as 12.5 when `decimal_comma` (a
-/// file delimited by `;`, tab or `|`, as written where the comma is the
-/// decimal mark). Only a single comma with no point counts: `1,234.5` and
-/// `1,234,567` stay refused rather than guessed.
-pub fn parse_number_with(s: &str, decimal_comma: bool) -> Option<f64> {
-    if let Some(v) = parse_plain_number(s) {
-        return Some(v);
-    }
-    let t = s.trim();
-    if decimal_comma && t.matches(',').count() == 1 && !t.contains('.') {
-        return parse_plain_number(&t.replace(',', "."));
-    }
-    None
-}
-
-/// `[+-]digits[.digits]` with at most 19 digits, read as an integer and
-/// one division by a power of ten: when the integer is at most 2^53 and the
-/// power at most 10^22 both are exact, so the one rounding of the division
-/// gives the correctly rounded value, as `str::parse` does (W. D. Clinger,
-/// "How to Read Floating Point Numbers Accurately", PLDI 1990, fast path).
-/// Anything else is left to `str::parse`.
-fn parse_simple_decimal(b: &[u8]) -> Option<f64> {
-    const POW10: [f64; 23] = [
-        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
-    ];
-    let (neg, digits) = match b.first()? {
-        b'-' => (true, &b[1..]),
-        b'+' => (false, &b[1..]),
-        _ => (false, b),
-    };
-    if digits.len() > 20 {
-        return None;
-    }
-    let (mut mant, mut frac, mut seen_dot, mut n) = (0u64, 0usize, false, 0);
-    for &c in digits {
-        match c {
-            b'0'..=b'9' => {
-                mant = mant.checked_mul(10)?.checked_add((c - b'0') as u64)?;
-                n += 1;
-                frac += usize::from(seen_dot);
-            }
-            b'.' if !seen_dot => seen_dot = true,
-            _ => return None,
-        }
-    }
-    if n == 0 || n > 19 || mant > 1 << 53 {
-        return None;
-    }
-    let v = mant as f64 / POW10[frac];
-    Some(if neg { -v } else { v })
-}
-
-fn parse_plain_number(s: &str) -> Option<f64> {
-    let t = trim_fast(s);
-    if let Some(v) = parse_simple_decimal(t.as_bytes()) {
-        return Some(v);
-    }
-    if let Ok(v) = t.parse::<f64>() {
-        return Some(v);
-    }
-    let cleaned: String = t.chars().filter(|c| !matches!(c, ' ' | '_' | '\u{a0}' | '$' | '€' | '£')).collect();
-    cleaned.parse().ok()
+    crate::number::parse_number(s, false)
 }
 
 /// long/buy/1 → +1, short/sell/-1 → −1.
@@ -978,7 +976,7 @@ mod tests {
         let mut fast = 0;
         for t in &texts {
             let std = t.parse::<f64>().ok();
-            let ours = parse_simple_decimal(t.as_bytes());
+            let ours = crate::number::parse_simple_decimal(t.as_bytes());
             if let Some(v) = ours {
                 fast += 1;
                 assert_eq!(Some(v.to_bits()), std.map(f64::to_bits), "{t}");

@@ -164,6 +164,21 @@ pub fn naive_to_ms(ndt: &NaiveDateTime) -> i64 {
     ndt.and_utc().timestamp_millis()
 }
 
+/// First instant accepted from any input: 1000-01-01T00:00:00Z (ms).
+pub const EARLIEST_MS: i64 = -30_610_224_000_000;
+/// Last instant accepted from any input: 9999-12-31T23:59:59.999Z (ms).
+pub const LATEST_MS: i64 = 253_402_300_799_999;
+
+/// Whether an instant lies in the years every reader accepts (1000–9999,
+/// four-digit years, well inside chrono's range), so that nothing later
+/// formats or shifts a time chrono cannot hold.
+pub fn in_accepted_years(ms: i64) -> bool {
+    (EARLIEST_MS..=LATEST_MS).contains(&ms)
+}
+
+/// What a reader says of a time outside [`in_accepted_years`].
+pub const YEARS_MESSAGE: &str = "outside the years 1000-9999 that eventfence reads";
+
 /// The naive UTC date-time of an instant.
 pub fn ms_to_naive(ms: i64) -> NaiveDateTime {
     DateTime::<Utc>::from_timestamp_millis(ms)

@@ -132,7 +132,20 @@ fn resolve_time(
     };
     if let Some(rc) = released {
         match rc.get(i) {
-            Cell::Instant(ms) => return Ok((ms, ms, false)),
+            Cell::Instant(ms) if crate::zones::in_accepted_years(ms) => return Ok((ms, ms, false)),
+            Cell::Instant(_) | Cell::Local(_) => {
+                let wall = match rc.get(i) {
+                    Cell::Local(w) if crate::zones::in_accepted_years(w) => w,
+                    _ => return Err(("released_at", "bad_time", format!("a timestamp {}", crate::zones::YEARS_MESSAGE))),
+                };
+                let ndt = crate::zones::ms_to_naive(wall);
+                if all_day {
+                    return day_bounds(ndt.date());
+                }
+                let ms = Stamp::Local(ndt).resolve(&opts.zone, opts.policy).map_err(zone_err("released_at"))?;
+                return Ok((ms, ms, false));
+            }
+            Cell::Date(days) => return day_bounds(chrono::DateTime::UNIX_EPOCH.date_naive() + chrono::TimeDelta::days(days as i64)),
             Cell::Str(s) => {
                 let s = s.trim();
                 if s.len() == 10 && let Some((d, 10)) = scan_date(s.as_bytes()) {
@@ -160,8 +173,11 @@ fn resolve_time(
             Some((d, n)) if n == s.trim().len() => d,
             _ => return Err(("date", "bad_time", format!("'{s}' is not a date YYYY-MM-DD"))),
         },
-        Cell::Instant(ms) => opts.zone.local_date(ms),
-        _ => return Err(("date", "missing_value", "empty".into())),
+        Cell::Instant(ms) if crate::zones::in_accepted_years(ms) => opts.zone.local_date(ms),
+        Cell::Local(w) if crate::zones::in_accepted_years(w) => crate::zones::ms_to_naive(w).date(),
+        Cell::Date(days) => chrono::DateTime::UNIX_EPOCH.date_naive() + chrono::TimeDelta::days(days as i64),
+        Cell::Null => return Err(("date", "missing_value", "empty".into())),
+        _ => return Err(("date", "bad_time", "not a date".into())),
     };
     let t = match time.as_ref().map(|c| c.get(i)) {
         None | Some(Cell::Null) => None,

@@ -94,8 +94,8 @@ impl AnnotatedTrades<'_> {
                 Column::new("source_file".into(), (0..n).map(|i| self.files[t.file[i] as usize].as_str()).collect::<Vec<_>>()),
                 Column::new("source_row".into(), t.row.clone()),
                 Column::new("run".into(), (0..n).map(|i| t.runs.get(t.run[i] as usize).map(String::as_str).unwrap_or("")).collect::<Vec<_>>()),
-                Column::new("opened_at".into(), t.opened.iter().map(|&v| format_utc(v)).collect::<Vec<_>>()),
-                Column::new("closed_at".into(), t.closed.iter().map(|&v| format_utc(v)).collect::<Vec<_>>()),
+                utc_column("opened_at", &t.opened),
+                utc_column("closed_at", &t.closed),
                 Column::new("instrument".into(), (0..n).map(|i| t.instruments[t.instrument[i] as usize].as_str()).collect::<Vec<_>>()),
                 Column::new("pnl".into(), t.pnl.clone()),
                 Column::new("exposed".into(), self.exposure.k.iter().map(|&k| k > 0).collect::<Vec<_>>()),
@@ -113,6 +113,16 @@ impl AnnotatedTrades<'_> {
         ParquetWriter::new(&mut buf).finish(&mut df)?;
         Ok(buf)
     }
+}
+
+/// Instants (ms) as a Parquet timestamp column in UTC, so readers get
+/// instants rather than text to parse.
+fn utc_column(name: &str, ms: &[i64]) -> polars::prelude::Column {
+    use polars::prelude::*;
+    Int64Chunked::from_vec(name.into(), ms.to_vec())
+        .into_datetime(TimeUnit::Milliseconds, Some(TimeZone::UTC))
+        .into_series()
+        .into()
 }
 
 /// releases.csv: one row per used release.

@@ -40,6 +40,10 @@ pub fn check(r: &CheckReport) -> String {
         if t.runs > 0 {
             let _ = writeln!(out, "  parameter sets (runs): {}", t.runs);
         }
+        for c in &i.time_columns {
+            let file = if i.files.len() > 1 { format!("{}: ", c.file) } else { String::new() };
+            let _ = writeln!(out, "  {file}{} from '{}': {}", c.field, c.column, c.read_as);
+        }
         let mut tab = new_table(&["instrument", "trades", "currencies", "from"]);
         for l in &t.instruments {
             let c = &l.currencies;
