@@ -165,19 +165,6 @@ fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &Analys
     (o, tail)
 }
 
-/// Run names in listing order: numbers first, by value (2 before 10), then
-/// the other names; ties by text.
-fn run_order(a: &str, b: &str) -> std::cmp::Ordering {
-    let number = |s: &str| s.trim().parse::<f64>().ok().filter(|v| v.is_finite());
-    match (number(a), number(b)) {
-        (Some(x), Some(y)) => x.total_cmp(&y),
-        (Some(_), None) => std::cmp::Ordering::Less,
-        (None, Some(_)) => std::cmp::Ordering::Greater,
-        (None, None) => std::cmp::Ordering::Equal,
-    }
-    .then_with(|| a.cmp(b))
-}
-
 /// Each run's trade indices in close order, from the overall close order.
 fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
     // Sized exactly first: grown by doubling they would hold up to twice
@@ -275,7 +262,7 @@ pub fn analyze(
     let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
     let mut runs = runs?;
     // Listed by name, whatever the row order.
-    runs.sort_by(|a, b| run_order(&a.run, &b.run));
+    runs.sort_by(|a, b| crate::trades::run_order(&a.run, &b.run));
     // The series feed only the output files; without them they go now.
     let series = if files { all } else { Scenarios::default() };
     crate::phases::mark("attribution, scenarios, runs");

@@ -93,9 +93,13 @@ pub fn rank(
 ) -> Result<Vec<RunRow>, scenarios::ScenarioError> {
     let engine = Engine::from_windows(windows, settings.exposure_rule, releases.len());
     let n_runs = trades.runs.len().max(1);
+    // Each run's trades in close order, so that every per-run sum runs in
+    // an order that does not depend on the input's row order.
+    let mut order: Vec<u32> = (0..trades.len() as u32).collect();
+    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); n_runs];
-    for i in 0..trades.len() {
-        by_run[trades.run[i] as usize].push(i as u32);
+    for &i in &order {
+        by_run[trades.run[i as usize] as usize].push(i);
     }
     let mut rows = by_run
         .par_iter()
@@ -157,11 +161,13 @@ fn run_row(
     let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&t.opened, &t.closed), &ctx);
     let (b, rm) = (m(&sc.baseline), m(&sc.removed));
     let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
+    let name = all.runs.get(r).cloned().unwrap_or_else(|| "all".into());
     let placebo_p = (placebo.n > 0).then(|| {
-        stats::placebo(&t, releases, windows, currencies, settings.exposure_rule, &flags, PlaceboSettings { seed: placebo.seed.wrapping_add(r as u64), ..placebo }, &|| {}).p_share
+        let seed = crate::trades::run_seed(placebo.seed, &name);
+        stats::placebo(&t, releases, windows, currencies, settings.exposure_rule, &flags, PlaceboSettings { seed, ..placebo }, &|| {}).p_share
     });
     Ok(RunRow {
-        run: all.runs.get(r).cloned().unwrap_or_else(|| "all".into()),
+        run: name,
         trades: t.len(),
         exposed_trades: flags.iter().filter(|&&f| f).count(),
         exposed_pnl,
@@ -185,17 +191,19 @@ fn run_row(
     })
 }
 
-/// Ranks 1..n by the figure (ties and undefined values by run order).
-fn ranks(values: &[Option<f64>], higher_is_better: bool) -> Vec<usize> {
+/// Ranks 1..n by the figure; ties and undefined values (ranked last) in
+/// the natural order of run names ([`crate::trades::run_order`]).
+fn ranks(values: &[Option<f64>], names: &[&str], higher_is_better: bool) -> Vec<usize> {
     let mut idx: Vec<usize> = (0..values.len()).collect();
+    let by_name = |a: usize, b: usize| crate::trades::run_order(names[a], names[b]);
     idx.sort_by(|&a, &b| match (values[a], values[b]) {
         (Some(x), Some(y)) => {
             let o = if higher_is_better { y.total_cmp(&x) } else { x.total_cmp(&y) };
-            o.then(a.cmp(&b))
+            o.then_with(|| by_name(a, b))
         }
         (Some(_), None) => std::cmp::Ordering::Less,
         (None, Some(_)) => std::cmp::Ordering::Greater,
-        (None, None) => a.cmp(&b),
+        (None, None) => by_name(a, b),
     });
     let mut out = vec![0; values.len()];
     for (pos, &i) in idx.iter().enumerate() {
@@ -207,7 +215,8 @@ fn ranks(values: &[Option<f64>], higher_is_better: bool) -> Vec<usize> {
 fn assign_ranks(rows: &mut [RunRow], by: RankBy) {
     let b: Vec<Option<f64>> = rows.iter().map(|r| r.by_baseline).collect();
     let r: Vec<Option<f64>> = rows.iter().map(|r| r.by_removed).collect();
-    let (rb, rr) = (ranks(&b, by.higher_is_better()), ranks(&r, by.higher_is_better()));
+    let names: Vec<&str> = rows.iter().map(|r| r.run.as_str()).collect();
+    let (rb, rr) = (ranks(&b, &names, by.higher_is_better()), ranks(&r, &names, by.higher_is_better()));
     for (i, row) in rows.iter_mut().enumerate() {
         row.rank_baseline = rb[i];
         row.rank_removed = rr[i];
@@ -221,8 +230,11 @@ mod tests {
 
     #[test]
     fn ranking_orders_and_puts_undefined_last() {
-        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], true), vec![3, 4, 1, 2]);
-        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], false), vec![1, 4, 3, 2]);
-        assert_eq!(ranks(&[Some(1.0), Some(1.0)], true), vec![1, 2]);
+        let names = ["a", "b", "c", "d"];
+        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, true), vec![3, 4, 1, 2]);
+        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, false), vec![1, 4, 3, 2]);
+        // Ties by the runs' natural name order, not by their input position.
+        assert_eq!(ranks(&[Some(1.0), Some(1.0)], &["p10", "p2"], true), vec![2, 1]);
+        assert_eq!(ranks(&[Some(1.0), Some(1.0), None, None], &["10", "9", "b", "a"], true), vec![2, 1, 4, 3]);
     }
 }

@@ -271,6 +271,33 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
     Ok((trades, summary))
 }
 
+/// Run names in their one natural order, used by every listing, tie-break
+/// and sort: numbers first, by value (2 before 10), then the other names;
+/// ties by text.
+pub fn run_order(a: &str, b: &str) -> std::cmp::Ordering {
+    let number = |s: &str| s.trim().parse::<f64>().ok().filter(|v| v.is_finite());
+    match (number(a), number(b)) {
+        (Some(x), Some(y)) => x.total_cmp(&y),
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => std::cmp::Ordering::Equal,
+    }
+    .then_with(|| a.cmp(b))
+}
+
+/// A run's own random seed: `--seed` mixed with the run's name (FNV-1a,
+/// then SplitMix64's finaliser), so a run draws the same stream whatever
+/// the row order and however the runs are split across files.
+pub fn run_seed(seed: u64, run: &str) -> u64 {
+    use std::hash::Hasher;
+    let mut h = Fnv::default();
+    h.write(run.as_bytes());
+    let mut z = seed ^ h.finish();
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
+}
+
 fn names_in_order(map: Interner) -> Vec<String> {
     let mut v: Vec<(String, u32)> = map.into_iter().collect();
     v.sort_by_key(|x| x.1);
@@ -571,6 +598,7 @@ struct Sink {
     file_index: u16,
     file_name: String,
     file_run: Option<u32>,
+    file_run_name: Option<String>,
     /// Data rows of the current file merged so far.
     file_rows: usize,
 }
@@ -579,7 +607,10 @@ impl Sink {
     fn start_file(&mut self, index: u16, path: &Path, run: Option<String>) {
         self.file_index = index;
         self.file_name = path.display().to_string();
-        self.file_run = run.map(|name| intern(&mut self.runs, &name));
+        // Named as a run only once a part shows the file has no run column
+        // (a file with one would otherwise add an empty run).
+        self.file_run_name = run;
+        self.file_run = None;
         self.file_rows = 0;
     }
 
@@ -603,6 +634,11 @@ impl Sink {
             let runs = local(&part.run_names, &mut self.runs);
             t.run.extend(part.run.iter().map(|&i| runs[i as usize]));
         } else {
+            if self.file_run.is_none()
+                && let Some(name) = &self.file_run_name
+            {
+                self.file_run = Some(intern(&mut self.runs, name));
+            }
             t.run.extend(std::iter::repeat_n(self.file_run.unwrap_or(0), n));
         }
         t.opened.extend_from_slice(&part.opened);

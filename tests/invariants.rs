@@ -4,7 +4,9 @@
 //!   are rejected (counts add up);
 //! - the summary does not depend on the order of the input rows;
 //! - the summary does not depend on the zone the same instants are written in;
-//! - removed ∪ exposed = baseline, in trades and in P/L (SPEC §3).
+//! - removed ∪ exposed = baseline, in trades and in P/L (SPEC §3);
+//! - per-run figures, placebo p-values and ranks do not depend on the row
+//!   order nor on how the rows are split across files.
 //!
 //! Each property runs 1 000 random cases or more.
 
@@ -119,10 +121,34 @@ fn csv_text(c: &Case, order: &[usize], zone: &Zone) -> String {
 }
 
 fn import(text: &str, zone: &Zone, dir: &Path) -> (Trades, TradeSummary) {
-    let p = dir.join("trades.csv");
-    std::fs::write(&p, text).unwrap();
+    import_files(&[text.to_string()], zone, dir)
+}
+
+/// Each text as its own file (with a `run` column, files do not name runs).
+fn import_files(texts: &[String], zone: &Zone, dir: &Path) -> (Trades, TradeSummary) {
+    let paths: Vec<_> = texts
+        .iter()
+        .enumerate()
+        .map(|(k, text)| {
+            let p = dir.join(format!("trades-{k}.csv"));
+            std::fs::write(&p, text).unwrap();
+            p
+        })
+        .collect();
     let opts = TradeOptions { zone: *zone, policy: LocalPolicy::Error, skip_bad_rows: true, ..TradeOptions::default() };
-    trades::load(&[p], &opts).unwrap()
+    trades::load(&paths, &opts).unwrap()
+}
+
+/// `rank` with a 19-placebo p-value per run, rows listed by run name.
+fn ranked(t: &Trades, rel: &[Release]) -> Value {
+    let cur = relevance::resolve(&t.instruments, &HashMap::new(), Unmapped::Error, &[]).unwrap();
+    let lists: Vec<Vec<String>> = cur.iter().map(|c| c.currencies.clone()).collect();
+    let s = settings();
+    let windows = eventfence::exposure::used_windows(rel, &s.windows);
+    let placebo = eventfence::stats::PlaceboSettings { n: 19, seed: 7 };
+    let mut rows = eventfence::rank::rank(t, rel, &windows, &lists, &s, eventfence::rank::RankBy::Net, placebo, &|| {}).unwrap();
+    rows.sort_by(|a, b| a.run.cmp(&b.run));
+    serde_json::to_value(rows).unwrap()
 }
 
 fn releases(c: &Case) -> Vec<Release> {
@@ -256,6 +282,33 @@ proptest! {
         let rel = releases(&c);
         let (a, b) = (summary(&analyse(&t1, &rel)), summary(&analyse(&t2, &rel)));
         prop_assert!(same(&a, &b, "summary").is_ok(), "{}", same(&a, &b, "summary").unwrap_err());
+    }
+
+    /// The rows shuffled and cut into one to four files give the same
+    /// per-run figures, placebo p-values (seeded by run name) and ranks
+    /// (ties by run name). Rows with equal open and close keep their
+    /// relative order (SPEC §5 makes it significant), so the files are
+    /// consecutive pieces of the shuffled rows.
+    #[test]
+    fn runs_independent_of_order_and_files(c in case(0), cuts in prop::collection::vec(0usize..40, 0..3)) {
+        let dir = tempfile::tempdir().unwrap();
+        let rel = releases(&c);
+        let in_order: Vec<usize> = (0..c.trades.len()).collect();
+        let (t1, _) = import(&csv_text(&c, &in_order, &Zone::Utc), &Zone::Utc, dir.path());
+        let mut bounds: Vec<usize> = cuts.iter().map(|&k| k % (c.order.len() + 1)).collect();
+        bounds.extend([0, c.order.len()]);
+        bounds.sort();
+        bounds.dedup();
+        let pieces: Vec<String> = bounds.windows(2).map(|w| csv_text(&c, &c.order[w[0]..w[1]], &Zone::Utc)).collect();
+        let (t2, _) = import_files(&pieces, &Zone::Utc, dir.path());
+        prop_assert_eq!(t1.len(), t2.len());
+        let (a, b) = (ranked(&t1, &rel), ranked(&t2, &rel));
+        prop_assert!(same(&a, &b, "runs").is_ok(), "{}", same(&a, &b, "runs").unwrap_err());
+        for (x, y) in a.as_array().unwrap().iter().zip(b.as_array().unwrap()) {
+            prop_assert_eq!(&x["rank_baseline"], &y["rank_baseline"]);
+            prop_assert_eq!(&x["rank_removed"], &y["rank_removed"]);
+            prop_assert_eq!(&x["placebo_p"], &y["placebo_p"]);
+        }
     }
 
     /// removed ∪ exposed = baseline, and the exposed P/L is what the

@@ -96,7 +96,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         SortBy::RankRemoved => rows.sort_by_key(|r| r.rank_removed),
         SortBy::RankBaseline => rows.sort_by_key(|r| r.rank_baseline),
         SortBy::Shift => rows.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed)),
-        SortBy::Run => rows.sort_by(|a, b| a.run.cmp(&b.run)),
+        SortBy::Run => rows.sort_by(|a, b| crate::trades::run_order(&a.run, &b.run)),
     }
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
