@@ -272,17 +272,48 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
 }
 
 /// Run names in their one natural order, used by every listing, tie-break
-/// and sort: numbers first, by value (2 before 10), then the other names;
-/// ties by text.
+/// and sort: numbers first, by value (2 before 10, 1.25 before 1.5), then
+/// the other names with their digit runs compared by value (`p2` before
+/// `p10`); ties by text.
 pub fn run_order(a: &str, b: &str) -> std::cmp::Ordering {
+    use std::cmp::Ordering;
     let number = |s: &str| s.trim().parse::<f64>().ok().filter(|v| v.is_finite());
     match (number(a), number(b)) {
         (Some(x), Some(y)) => x.total_cmp(&y),
-        (Some(_), None) => std::cmp::Ordering::Less,
-        (None, Some(_)) => std::cmp::Ordering::Greater,
-        (None, None) => std::cmp::Ordering::Equal,
+        (Some(_), None) => Ordering::Less,
+        (None, Some(_)) => Ordering::Greater,
+        (None, None) => natural_text_order(a.as_bytes(), b.as_bytes()),
     }
     .then_with(|| a.cmp(b))
+}
+
+/// Text order with each run of ASCII digits compared by its value.
+fn natural_text_order(mut a: &[u8], mut b: &[u8]) -> std::cmp::Ordering {
+    use std::cmp::Ordering;
+    let digits = |s: &[u8]| s.iter().take_while(|c| c.is_ascii_digit()).count();
+    loop {
+        match (a.first(), b.first()) {
+            (None, None) => return Ordering::Equal,
+            (None, Some(_)) => return Ordering::Less,
+            (Some(_), None) => return Ordering::Greater,
+            (Some(x), Some(y)) if x.is_ascii_digit() && y.is_ascii_digit() => {
+                let (n, m) = (digits(a), digits(b));
+                let strip = |s: &[u8]| -> usize { s.iter().take_while(|&&c| c == b'0').count() };
+                let (da, db) = (&a[strip(&a[..n]).min(n)..n], &b[strip(&b[..m]).min(m)..m]);
+                let o = da.len().cmp(&db.len()).then_with(|| da.cmp(db));
+                if o != Ordering::Equal {
+                    return o;
+                }
+                (a, b) = (&a[n..], &b[m..]);
+            }
+            (Some(x), Some(y)) => {
+                if x != y {
+                    return x.cmp(y);
+                }
+                (a, b) = (&a[1..], &b[1..]);
+            }
+        }
+    }
 }
 
 /// A run's own random seed: `--seed` mixed with the run's name (FNV-1a,
@@ -1034,6 +1065,13 @@ mod tests {
         assert_eq!(parse_number("-$12.5"), Some(-12.5));
         assert_eq!(parse_number("abc"), None);
         assert!(parse_number("NaN").unwrap().is_nan());
+    }
+
+    #[test]
+    fn natural_run_order() {
+        let mut names = vec!["p10", "b", "p2", "10", "2", "1.5", "1.25", "p02", "a7b", "a10b", "-3"];
+        names.sort_by(|a, b| run_order(a, b));
+        assert_eq!(names, vec!["-3", "1.25", "1.5", "2", "10", "a7b", "a10b", "b", "p02", "p2", "p10"]);
     }
 
     #[test]
