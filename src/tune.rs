@@ -9,7 +9,8 @@
 use crate::analysis::AnalysisSettings;
 use crate::calendar::{Release, Tier};
 use crate::exposure::{Engine, used_windows};
-use crate::metrics::{self, Context, Curve};
+use crate::metrics::{self, Context};
+use crate::scenarios::{self, TradeView};
 use crate::trades::Trades;
 use crate::windows::{Window, WindowSettings};
 use crate::zones::DAY_MS;
@@ -101,39 +102,35 @@ pub fn tune(
     pre: &[i64],
     post: &[i64],
     progress: &(dyn Fn() + Sync),
-) -> TuneResult {
+) -> Result<TuneResult, scenarios::ScenarioError> {
     let span = trades.span().unwrap_or((0, 0));
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
     crate::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-    let sorted_pnl: Vec<f64> = order.iter().map(|&i| trades.pnl[i as usize]).collect();
-    let net: f64 = sorted_pnl.iter().sum();
-    let tcr_baseline = metrics::tcr(&sorted_pnl, settings.tcr_p);
+    let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
+    // The scenarios come from the one builder analyze uses, so a cell's
+    // figures follow the sizing (compounding replays the kept trades).
+    let build = |exposed: &(dyn Fn(usize) -> bool + Sync)| scenarios::build(&TradeView::of(&order, trades, exposed), &settings.scenario);
+    let ctx_of = |sc: &scenarios::Scenarios| Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
+    let base = build(&|_| false)?;
+    let tcr_baseline = metrics::compute(&base.baseline.view().curve(&trades.opened, &trades.closed), &ctx_of(&base)).tcr;
+    drop(base);
     let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
-    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: settings.scenario.initial_equity, tcr_p: settings.tcr_p };
     let grid: Vec<(i64, i64)> = pre.iter().flat_map(|&a| post.iter().map(move |&b| (a, b))).collect();
     let mut cells: Vec<Cell> = grid
         .par_iter()
-        .map(|&(a, b)| {
+        .map(|&(a, b)| -> Result<Cell, scenarios::ScenarioError> {
             let ws = cell_windows(&settings.windows, tier, Window { pre_min: a, post_min: b });
             let used = used_windows(releases, &ws);
             let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
             let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
-            let (mut pnl, mut kept) = (Vec::new(), Vec::new());
-            let mut exposed_pnl = 0.0;
-            for &i in &order {
-                let i = i as usize;
-                if exp.k[i] > 0 {
-                    exposed_pnl += trades.pnl[i];
-                } else {
-                    pnl.push(trades.pnl[i]);
-                    kept.push(i as u32);
-                }
-            }
-            let m = metrics::compute(&Curve { pnl: &pnl, trade: &kept, opened: &trades.opened, closed: &trades.closed }, &ctx);
+            let exposed_pnl: f64 = order.iter().map(|&i| i as usize).filter(|&i| exp.k[i] > 0).map(|i| trades.pnl[i]).sum();
+            let is_exposed = |i: usize| exp.k[i] > 0;
+            let sc = build(&is_exposed)?;
+            let m = metrics::compute(&sc.removed.view().curve(&trades.opened, &trades.closed), &ctx_of(&sc));
             let blocked = metrics::union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), Some(span));
             progress();
-            Cell {
+            Ok(Cell {
                 pre_min: a,
                 post_min: b,
                 trades_removed: exp.exposed_count(),
@@ -144,11 +141,11 @@ pub fn tune(
                 max_drawdown_after: m.max_drawdown,
                 blocked_share: if week > 0.0 { blocked as f64 / week } else { 0.0 },
                 frontier: false,
-            }
+            })
         })
-        .collect();
+        .collect::<Result<_, _>>()?;
     mark_frontier(&mut cells);
-    TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, cells }
+    Ok(TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, cells })
 }
 
 /// Pareto frontier: maximise tail reduction, minimise time blocked.

@@ -71,7 +71,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
     let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
-    let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1));
+    let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1))?;
     pb.finish_and_clear();
     let report = TuneReport { tool: ToolInfo::current(), settings, result, caution: CAUTION };
     let json = serde_json::to_string_pretty(&report)?;
