@@ -45,6 +45,8 @@ pub struct TailLine {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct TailSummary {
+    /// `amount`: tail figures on P/L; `return`: on per-trade returns.
+    pub tcr_basis: scenarios::TailBasis,
     pub p: f64,
     pub threshold: f64,
     pub threshold_source: &'static str,
@@ -151,10 +153,11 @@ fn exposure_of(trades: &Trades, releases: &[Release], cur: &[Vec<String>], windo
 /// Metrics and tail figures of the three scenarios of all trades.
 fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &AnalysisSettings) -> (ScenarioMetrics, TailSummary) {
     let o = metrics_of(all, &trades.opened, &trades.closed, ctx);
-    let tl = |sr: &scenarios::Series, m: &Metrics| tail_line(&sr.pnl, m.tcr, settings.tcr_p, settings.tcr_threshold);
+    let tl = |sr: scenarios::SeriesView, m: &Metrics| tail_line(sr.tail_values(), m.tcr, settings.tcr_p, settings.tcr_threshold);
     let (baseline, (removed, capped)) =
-        rayon::join(|| tl(&all.baseline, &o.baseline), || rayon::join(|| tl(&all.removed, &o.removed), || tl(&all.capped, &o.capped)));
+        rayon::join(|| tl(all.baseline.view(), &o.baseline), || rayon::join(|| tl(all.removed.view(), &o.removed), || tl(all.capped_view(), &o.capped)));
     let tail = TailSummary {
+        tcr_basis: all.tail_basis,
         p: settings.tcr_p,
         threshold: settings.tcr_threshold,
         threshold_source: TCR_THRESHOLD_SOURCE,

@@ -87,6 +87,9 @@ pub struct Curve<'a> {
     pub trade: &'a [u32],
     pub opened: &'a [i64],
     pub closed: &'a [i64],
+    /// The values the tail concentration is measured on (per-trade returns,
+    /// see `scenarios::TailBasis`); empty: the P/L itself.
+    pub tail: &'a [f64],
 }
 
 impl Curve<'_> {
@@ -425,7 +428,7 @@ pub fn compute_with_union(c: &Curve, ctx: &Context, union: Option<i64>) -> Metri
     m.t_stat = t_stat(c.pnl);
     let span = ctx.span.1 - ctx.span.0;
     m.time_in_market = (span > 0).then(|| union.unwrap_or_else(|| time_held(c)) as f64 / span as f64);
-    m.tcr = tcr(c.pnl, ctx.tcr_p);
+    m.tcr = tcr(if c.tail.is_empty() { c.pnl } else { c.tail }, ctx.tcr_p);
     m
 }
 
@@ -502,7 +505,7 @@ mod tests {
     fn reference_trade_list() {
         let t: Vec<i64> = (0..10).map(|i| i * DAY_MS).collect();
         let ctx = Context { span: (0, 9 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 10.0 };
-        let m = compute(&Curve { pnl: &REF, trade: &[0, 1, 2, 3, 4, 5, 6, 7, 8, 9], opened: &t, closed: &t }, &ctx);
+        let m = compute(&Curve { pnl: &REF, trade: &[0, 1, 2, 3, 4, 5, 6, 7, 8, 9], opened: &t, closed: &t, tail: &[] }, &ctx);
         assert_eq!((m.trades, m.wins, m.losses), (10, 6, 4));
         assert!(close(m.net, 600.0) && close(m.gross_profit, 1030.0) && close(m.gross_loss, -430.0));
         assert!(close(m.profit_factor.unwrap(), 2.395348837209302));
@@ -569,7 +572,7 @@ mod tests {
         let pnl = [5.0, -3.0, 1.0, 4.0];
         let ctx = Context { span: (0, 12 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
         // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
-        assert_eq!(walk_closes(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t }, &ctx).1, 9.0);
+        assert_eq!(walk_closes(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t, tail: &[] }, &ctx).1, 9.0);
         assert_eq!(union_length([(0, 10), (5, 12), (20, 25)].into_iter()), 17);
         assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))), 25);
     }

@@ -77,6 +77,9 @@ pub struct RunRow {
     pub rank_shift: i64,
     /// Placebo p-value of the exposed share (when asked for).
     pub placebo_p: Option<f64>,
+    /// What the run's tail figures were measured on (stated once per report).
+    #[serde(skip)]
+    pub tcr_basis: scenarios::TailBasis,
 }
 
 /// Computes one row per run (in run order), then ranks them.
@@ -188,6 +191,7 @@ fn run_row(
         rank_removed: 0,
         rank_shift: 0,
         placebo_p: placebo_p.flatten(),
+        tcr_basis: sc.tail_basis,
     })
 }
 

@@ -87,6 +87,22 @@ pub struct Series {
     /// Index of each kept trade in the input; its times are read from the
     /// input's columns through it (not copied per scenario).
     pub trade: Vec<u32>,
+    /// Each kept trade's return on the equity before it (P/L ÷ equity), when
+    /// the tail is measured on returns ([`TailBasis::Return`]); else empty.
+    pub ret: Vec<f64>,
+}
+
+/// What the tail figures (tail concentration, Hill index, sorted
+/// magnitudes) are measured on: P/L amounts, or per-trade returns when every
+/// trade's return on equity is known (docs/method.md "Tail basis"): with
+/// position sizes that follow equity, amounts grow with the account and the
+/// "largest" trades are merely the latest.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TailBasis {
+    #[default]
+    Amount,
+    Return,
 }
 
 /// One scenario's kept trades, borrowed.
@@ -94,19 +110,26 @@ pub struct Series {
 pub struct SeriesView<'a> {
     pub pnl: &'a [f64],
     pub trade: &'a [u32],
+    /// Returns of the kept trades, or empty (amount basis).
+    pub ret: &'a [f64],
 }
 
 impl<'a> SeriesView<'a> {
     /// The metrics' view, times from the input columns.
     pub fn curve(self, opened: &'a [i64], closed: &'a [i64]) -> crate::metrics::Curve<'a> {
-        crate::metrics::Curve { pnl: self.pnl, trade: self.trade, opened, closed }
+        crate::metrics::Curve { pnl: self.pnl, trade: self.trade, opened, closed, tail: self.ret }
+    }
+
+    /// The values the tail figures are measured on.
+    pub fn tail_values(&self) -> &'a [f64] {
+        if self.ret.is_empty() { self.pnl } else { self.ret }
     }
 }
 
 impl Scenarios {
     /// The capped scenario with the baseline's times and trades.
     pub fn capped_view(&self) -> SeriesView<'_> {
-        SeriesView { pnl: &self.capped.pnl, ..self.baseline.view() }
+        SeriesView { pnl: &self.capped.pnl, ret: &self.capped.ret, ..self.baseline.view() }
     }
 
     /// baseline, removed, capped.
@@ -114,10 +137,11 @@ impl Scenarios {
         [self.baseline.view(), self.removed.view(), self.capped_view()]
     }
 
-    /// Baseline |P/L| sorted descending with the exposed flag.
+    /// Baseline |P/L| (or |return|, see [`TailBasis`]) sorted descending
+    /// with the exposed flag.
     pub fn sorted_abs(&self, exp: &crate::exposure::Exposure) -> Vec<(f64, bool)> {
         let b = &self.baseline;
-        let mut v: Vec<(f64, bool)> = b.pnl.iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
+        let mut v: Vec<(f64, bool)> = b.view().tail_values().iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
         v.sort_by(|a, b| b.0.total_cmp(&a.0));
         v
     }
@@ -143,7 +167,7 @@ impl Scenarios {
 
 impl Series {
     pub fn view(&self) -> SeriesView<'_> {
-        SeriesView { pnl: &self.pnl, trade: &self.trade }
+        SeriesView { pnl: &self.pnl, trade: &self.trade, ret: &self.ret }
     }
 
     fn push(&mut self, i: usize, pnl: f64) {
@@ -167,6 +191,8 @@ pub struct Scenarios {
     pub cap_value: Option<f64>,
     /// Starting equity used (compounding, or given).
     pub initial_equity: Option<f64>,
+    /// What the series' tail figures are measured on.
+    pub tail_basis: TailBasis,
 }
 
 /// Inputs for one trade set (all trades, or one run).
@@ -337,9 +363,40 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline
             p.clamp(-c, c)
         })
         .collect();
-    out.baseline = Series { pnl: baseline_pnl, trade: baseline_trade };
-    out.removed = Series { pnl: removed_pnl, trade: removed_trade };
+    // Returns on the recorded equity (the column, or the one P/L % implies)
+    // when every trade has one: sizes may follow the account even when the
+    // P/L is summed as given.
+    if let Some(eq) = recorded_equity(v) {
+        let ret_of = |trade: &[u32], pnl: &[f64]| -> Vec<f64> { trade.iter().zip(pnl).map(|(&i, p)| p / eq[i as usize]).collect() };
+        let base_trade: &[u32] = if baseline_trades { &baseline_trade } else { order };
+        out.baseline.ret = ret_of(base_trade, &baseline_pnl);
+        out.removed.ret = ret_of(&removed_trade, &removed_pnl);
+        out.capped.ret = ret_of(base_trade, &out.capped.pnl);
+        out.tail_basis = TailBasis::Return;
+    }
+    out.baseline = Series { pnl: baseline_pnl, trade: baseline_trade, ret: std::mem::take(&mut out.baseline.ret) };
+    out.removed = Series { pnl: removed_pnl, trade: removed_trade, ret: std::mem::take(&mut out.removed.ret) };
     Ok(out)
+}
+
+/// Equity before each trade (by input position) as the input records it:
+/// the `equity_before` column, else the equity a `pnl_pct` implies
+/// (pnl ÷ pct × 100); `None` unless every trade of the view has a finite,
+/// non-zero one.
+fn recorded_equity(v: &TradeView) -> Option<Vec<f64>> {
+    let n = v.pnl.len();
+    let eq: Vec<f64> = if let Some(eb) = v.equity_before {
+        eb.to_vec()
+    } else {
+        let pct = v.pnl_pct?;
+        (0..n).map(|i| if pct[i] != 0.0 { v.pnl[i] / pct[i] * 100.0 } else if v.pnl[i] == 0.0 { f64::INFINITY } else { f64::NAN }).collect()
+    };
+    // A zero P/L at 0 % says nothing of equity but has return 0 (∞ → 0/∞).
+    v.order.iter().all(|&i| {
+        let e = eq[i as usize];
+        (e.is_finite() && e != 0.0) || e == f64::INFINITY
+    })
+    .then_some(eq)
 }
 
 fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
@@ -371,11 +428,16 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, ba
         CapRule::Amount(a) => Some(a),
         _ => cap_r,
     };
+    // Under compounding every trade's return is known: the tail is
+    // measured on the returns each scenario replays.
+    out.tail_basis = TailBasis::Return;
     let (mut eq_base, mut eq_rem, mut eq_cap) = (e0, e0, e0);
+    let ratio = |p: f64, e: f64| if e != 0.0 { p / e } else { 0.0 };
     for &i in v.order {
         let i = i as usize;
         let r = ret[i];
         let pb = eq_base * r;
+        out.baseline.ret.push(r);
         eq_base += pb;
         out.baseline.pnl.push(pb);
         if baseline_trades {
@@ -389,13 +451,16 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, ba
                     eq_cap * r.clamp(-c, c)
                 }
             };
+            out.capped.ret.push(ratio(pc, eq_cap));
             eq_cap += pc;
             out.capped.pnl.push(pc);
         } else {
             let pr = eq_rem * r;
             eq_rem += pr;
             out.removed.push(i, pr);
+            out.removed.ret.push(r);
             let pc = eq_cap * r;
+            out.capped.ret.push(r);
             eq_cap += pc;
             out.capped.pnl.push(pc);
         }

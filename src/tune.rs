@@ -62,6 +62,8 @@ pub struct TuneResult {
     pub pre: Vec<i64>,
     pub post: Vec<i64>,
     pub tcr_baseline: Option<f64>,
+    /// `amount` or `return`: what the cells' tail figures are measured on.
+    pub tcr_basis: scenarios::TailBasis,
     pub cells: Vec<Cell>,
 }
 
@@ -113,6 +115,7 @@ pub fn tune(
     let ctx_of = |sc: &scenarios::Scenarios| Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
     let base = build(&|_| false)?;
     let tcr_baseline = metrics::compute(&base.baseline.view().curve(&trades.opened, &trades.closed), &ctx_of(&base)).tcr;
+    let tcr_basis = base.tail_basis;
     drop(base);
     let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
@@ -145,7 +148,7 @@ pub fn tune(
         })
         .collect::<Result<_, _>>()?;
     mark_frontier(&mut cells);
-    Ok(TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, cells })
+    Ok(TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, tcr_basis, cells })
 }
 
 /// Pareto frontier: maximise tail reduction, minimise time blocked.

@@ -28,7 +28,7 @@ fn metrics_match_library_reference_values() {
         close_order(&mut order, &t.opened, &t.closed);
         let pick = |v: &[f64]| order.iter().map(|&i| v[i as usize]).collect::<Vec<_>>();
         let pnl = pick(&t.pnl);
-        let curve = Curve { pnl: &pnl, trade: &order, opened: &t.opened, closed: &t.closed };
+        let curve = Curve { pnl: &pnl, trade: &order, opened: &t.opened, closed: &t.closed, tail: &[] };
         let mut ctx = Context { span: t.span().unwrap(), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
         let m = metrics::compute(&curve, &ctx);
         let w = |k: &str| want[k].as_f64().unwrap_or_else(|| panic!("{name}.{k}"));

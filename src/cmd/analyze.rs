@@ -64,6 +64,8 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
+        let mut removed_abs: Vec<f64> = series.removed.view().tail_values().iter().map(|v| v.abs()).collect();
+        removed_abs.sort_by(|a, b| b.total_cmp(a));
         drop(series);
         let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
         match args.trades_format {
@@ -71,7 +73,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
         };
         out.write("releases.csv", &crate::render::files::releases_csv(&summary.attribution.by_release))?;
-        out.write("tail.csv", &crate::render::files::tail_csv(&sorted_abs))?;
+        out.write("tail.csv", &crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis))?;
         let high_releases = cal
             .releases
             .iter()
@@ -82,6 +84,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         let data = crate::render::charts::AnalyzeCharts {
             summary: &summary,
             sorted_abs: &sorted_abs,
+            removed_abs: &removed_abs,
             curves: &curves,
             span_start: trades.span().map_or(0, |s| s.0),
             high_releases,

@@ -72,6 +72,8 @@ pub struct RankReport {
     pub by: RankBy,
     pub settings: crate::analysis::AnalysisSettings,
     pub runs_total: usize,
+    /// `amount` or `return`: what tcr_baseline / tcr_removed are measured on.
+    pub tcr_basis: crate::scenarios::TailBasis,
     pub runs: Vec<RunRow>,
     pub caution: &'static str,
 }
@@ -91,6 +93,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let mut rows = rank::rank(trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
     pb.finish_and_clear();
     let total = rows.len();
+    let tcr_basis = rows.first().map(|r| r.tcr_basis).unwrap_or_default();
     rows.retain(|r| r.trades >= args.min_trades);
     match args.sort {
         SortBy::RankRemoved => rows.sort_by_key(|r| r.rank_removed),
@@ -114,7 +117,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     if let Some(n) = args.top {
         rows.truncate(n);
     }
-    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, runs: rows, caution: CAUTION };
+    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, tcr_basis, runs: rows, caution: CAUTION };
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {

@@ -278,6 +278,8 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
 pub struct AnalyzeCharts<'a> {
     pub summary: &'a crate::report::Summary,
     pub sorted_abs: &'a [(f64, bool)],
+    /// The removed scenario's magnitudes on the same basis, largest first.
+    pub removed_abs: &'a [f64],
     /// Scenario (close instant, P/L) in close order: baseline, removed, capped.
     pub curves: &'a [Vec<(i64, f64)>; 3],
     pub span_start: i64,
@@ -292,11 +294,13 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, St
     use super::html::Figure;
     let s = d.summary;
     let day = crate::zones::DAY_MS as f64;
-    let mut removed_abs: Vec<f64> = d.curves[1].iter().map(|x| x.1.abs()).collect();
-    removed_abs.sort_by(|a, b| b.total_cmp(a));
     let t = &s.tail;
+    let what = match t.tcr_basis {
+        crate::scenarios::TailBasis::Amount => "|P/L|",
+        crate::scenarios::TailBasis::Return => "|return|",
+    };
     let caption = format!(
-        "Sorted |P/L|: TCR {} → {} (threshold {})",
+        "Sorted {what}: TCR {} → {} (threshold {})",
         super::table::fmt_opt(t.baseline.tcr, 1),
         super::table::fmt_opt(t.removed.tcr, 1),
         t.threshold
@@ -316,7 +320,11 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, St
     let curs: Vec<(String, f64)> = s.attribution.by_currency.iter().map(|(k, g)| (k.clone(), g.attributed_pnl)).collect();
     let high = s.settings.windows.high.unwrap_or(crate::windows::Window { pre_min: 0, post_min: 0 });
     Ok(vec![
-        Figure { id: "tail", caption: "Trades by size of |P/L|, largest first; exposed trades marked. A steep start means a few trades carry the result.".into(), svg: tail_curve(d.sorted_abs, &removed_abs, &caption)? },
+        Figure {
+            id: "tail",
+            caption: format!("Trades by size of {what}, largest first; exposed trades marked. A steep start means a few trades carry the result."),
+            svg: tail_curve(d.sorted_abs, d.removed_abs, &caption)?,
+        },
         Figure { id: "equity", caption: "Cumulative P/L of the three scenarios; grey ticks are top-tier releases.".into(), svg: equity(&curves, &ticks, "Equity: baseline, removed, capped")? },
         Figure { id: "by-category", caption: "P/L attributed to releases, by category.".into(), svg: bars(&cats, "Attributed P/L by category")? },
         Figure { id: "by-currency", caption: "P/L attributed to releases, by currency.".into(), svg: bars(&curs, "Attributed P/L by currency")? },

@@ -145,9 +145,13 @@ pub fn releases_csv(lines: &[ReleaseLine]) -> Vec<u8> {
     s.into_bytes()
 }
 
-/// tail.csv: baseline |P/L| sorted descending, with the exposed flag.
-pub fn tail_csv(sorted: &[(f64, bool)]) -> Vec<u8> {
-    let mut s = String::from("rank,abs_pnl,exposed\n");
+/// tail.csv: baseline |P/L| (or |return|, by the tail basis) sorted
+/// descending, with the exposed flag.
+pub fn tail_csv(sorted: &[(f64, bool)], basis: crate::scenarios::TailBasis) -> Vec<u8> {
+    let mut s = String::from(match basis {
+        crate::scenarios::TailBasis::Amount => "rank,abs_pnl,exposed\n",
+        crate::scenarios::TailBasis::Return => "rank,abs_return,exposed\n",
+    });
     for (i, (v, e)) in sorted.iter().enumerate() {
         let _ = writeln!(s, "{},{},{}", i + 1, v, e);
     }

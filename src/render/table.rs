@@ -275,7 +275,8 @@ pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     let by = super::label(&r.by);
     let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
     let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
-    let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.\n");
+    let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.");
+    let _ = writeln!(out, "TCR b/r: tail concentration {}.\n", basis_words(r.tcr_basis));
     let with_p = r.runs.iter().any(|x| x.placebo_p.is_some());
     let mut header = vec!["run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift"];
     if with_p {
@@ -324,16 +325,25 @@ pub fn wrap(text: &str, width: usize) -> String {
     out
 }
 
+/// The tail basis in a few words.
+fn basis_words(b: crate::scenarios::TailBasis) -> &'static str {
+    match b {
+        crate::scenarios::TailBasis::Amount => "on P/L amounts",
+        crate::scenarios::TailBasis::Return => "on per-trade returns",
+    }
+}
+
 /// The tune grid as a table (one row per cell), frontier cells marked.
 pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
     let mut out = String::new();
     let res = &r.result;
     let _ = writeln!(
         out,
-        "{} × {} cells; baseline TCR {}; * = on the frontier (most tail reduction for least time blocked).\n",
+        "{} × {} cells; baseline TCR {} ({}); * = on the frontier (most tail reduction for least time blocked).\n",
         res.pre.len(),
         res.post.len(),
-        fmt_opt(res.tcr_baseline, 2)
+        fmt_opt(res.tcr_baseline, 2),
+        basis_words(res.tcr_basis)
     );
     let mut t = new_table(&["pre", "post", "removed", "% of net", "TCR after", "Sharpe after", "max DD after", "blocked", ""]);
     for c in res.cells.iter().filter(|c| c.frontier || !frontier_only) {
@@ -358,9 +368,13 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
 pub fn chance_text(s: &Summary) -> String {
     let mut out = String::new();
     let tail = &s.tail;
+    let (what, basis) = match tail.tcr_basis {
+        crate::scenarios::TailBasis::Amount => ("|P/L|", "on P/L amounts"),
+        crate::scenarios::TailBasis::Return => ("|return|", "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known"),
+    };
     let _ = writeln!(
         out,
-        "Tail concentration: mean of the top {} % |P/L| over mean |P/L|; threshold {} — {}.",
+        "Tail concentration {basis}: mean of the top {} % {what} over mean {what}; threshold {} — {}.",
         tail.p, tail.threshold, tail.threshold_source
     );
     for (name, l) in [("baseline", &tail.baseline), ("removed", &tail.removed), ("capped", &tail.capped)] {
