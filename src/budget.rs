@@ -49,12 +49,63 @@ pub fn parse_size(s: &str) -> Result<u64, BudgetError> {
     Ok((v * mult as f64) as u64)
 }
 
-/// The memory the system says is available now (Linux `MemAvailable`).
-pub fn available() -> Option<u64> {
-    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
-    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
-    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb * 1024)
+/// The memory this process may still use now: the machine's
+/// `MemAvailable`, or less when a control group (a container's limit) caps
+/// it, and what that says.
+pub fn available() -> Option<(u64, &'static str)> {
+    let host = std::fs::read_to_string("/proc/meminfo").ok().and_then(|text| {
+        let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+        let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+        Some(kb * 1024)
+    });
+    let group = std::fs::read_to_string("/proc/self/cgroup").ok().and_then(|t| cgroup_room(&t, Path::new("/sys/fs/cgroup")));
+    match (host, group) {
+        (Some(h), Some(g)) if g < h => Some((g, "left under this container's memory limit (cgroup)")),
+        (Some(h), _) => Some((h, "available on this machine now")),
+        (None, Some(g)) => Some((g, "left under this container's memory limit (cgroup)")),
+        (None, None) => None,
+    }
+}
+
+/// Room left under the tightest memory limit of this process's control
+/// group and its ancestors: limit − usage, from cgroup v2 (`memory.max`,
+/// `memory.current`) or v1 (`memory.limit_in_bytes`,
+/// `memory.usage_in_bytes`). `proc_cgroup`: the text of /proc/self/cgroup;
+/// `root`: where the hierarchies are mounted. `None` when no limit is set.
+///
+/// Written by hand: the crates that read cgroups manage them (create,
+/// attach, set limits) and bring far more than these two files need.
+pub fn cgroup_room(proc_cgroup: &str, root: &Path) -> Option<u64> {
+    // v1 values this large mean "no limit" (a page-rounded i64::MAX).
+    const UNLIMITED_V1: u64 = 1 << 62;
+    let read = |p: PathBuf| -> Option<u64> { std::fs::read_to_string(p).ok()?.trim().parse().ok() };
+    let mut best: Option<u64> = None;
+    for line in proc_cgroup.lines() {
+        let mut parts = line.splitn(3, ':');
+        let (_, controllers, path) = (parts.next()?, parts.next()?, parts.next()?);
+        let (base, limit_file, usage_file) = if controllers.is_empty() {
+            (root.to_path_buf(), "memory.max", "memory.current")
+        } else if controllers.split(',').any(|c| c == "memory") {
+            (root.join("memory"), "memory.limit_in_bytes", "memory.usage_in_bytes")
+        } else {
+            continue;
+        };
+        // From the process's own group up to the root (a container sees
+        // its own group mounted as the root: then only the root is read).
+        let mut rel = PathBuf::from(path.trim_start_matches('/'));
+        loop {
+            let dir = base.join(&rel);
+            if let Some(limit) = read(dir.join(limit_file)).filter(|&l| l < UNLIMITED_V1) {
+                let used = read(dir.join(usage_file)).unwrap_or(0);
+                let room = limit.saturating_sub(used);
+                best = Some(best.map_or(room, |b| b.min(room)));
+            }
+            if !rel.pop() {
+                break;
+            }
+        }
+    }
+    best
 }
 
 /// Estimated data rows of one trade file.
@@ -84,7 +135,7 @@ pub fn check(paths: &[PathBuf], limit: Option<u64>) -> Result<(), BudgetError> {
     let (limit, basis) = match limit {
         Some(l) => (l, "allowed by --max-memory"),
         None => match available() {
-            Some(a) => (a, "available on this machine now"),
+            Some(a) => a,
             None => return Ok(()),
         },
     };
@@ -112,6 +163,39 @@ mod tests {
         assert_eq!(parse_size("2000").unwrap(), 2000);
         assert!(parse_size("lots").is_err());
         assert!(parse_size("-1G").is_err());
+    }
+
+    /// Layouts of the kernel's cgroup documentation (Documentation/admin-
+    /// guide/cgroup-v2.rst: `memory.max` holds bytes or "max"; cgroup-v1/
+    /// memory.rst: `memory.limit_in_bytes`, unlimited as a huge value).
+    #[test]
+    fn container_limits_from_cgroup_v1_and_v2() {
+        let dir = tempfile::tempdir().unwrap();
+        let root = dir.path();
+        let put = |rel: &str, text: &str| {
+            let p = root.join(rel);
+            std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+            std::fs::write(p, text).unwrap();
+        };
+        // v2: a 4 GiB limit on the parent, none on the leaf.
+        put("memory.max", "max\n");
+        put("box/memory.max", "4294967296\n");
+        put("box/memory.current", "1073741824\n");
+        put("box/job/memory.max", "max\n");
+        put("box/job/memory.current", "1000\n");
+        assert_eq!(cgroup_room("0::/box/job\n", root), Some(3 << 30));
+        // v1: the leaf is tighter than the parent; the root is unlimited.
+        put("memory/memory.limit_in_bytes", "9223372036854771712\n");
+        put("memory/a/memory.limit_in_bytes", "8589934592\n");
+        put("memory/a/b/memory.limit_in_bytes", "2147483648\n");
+        put("memory/a/b/memory.usage_in_bytes", "536870912\n");
+        assert_eq!(cgroup_room("4:memory:/a/b\n3:cpu:/\n", root), Some(1536 << 20));
+        assert_eq!(cgroup_room("4:cpuacct,memory:/a/b\n", root), Some(1536 << 20));
+        // No limit anywhere.
+        assert_eq!(cgroup_room("4:memory:/\n", root), None);
+        assert_eq!(cgroup_room("0::/\n", root), None);
+        // The group's own path missing (a container's mount): its root counts.
+        assert_eq!(cgroup_room("4:memory:/elsewhere\n", root), None);
     }
 
     #[test]
