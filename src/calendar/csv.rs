@@ -7,7 +7,7 @@
 //! an all-day release covering its local day.
 
 use super::rules::Draft;
-use super::{CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency};
+use super::{CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, countries, is_currency};
 use crate::table::{Cell, ColumnSource, Table};
 use crate::timefmt::{Stamp, TimeFormat, parse_stamp, scan_date, scan_time};
 use crate::zones::{LocalPolicy, naive_to_ms};
@@ -15,6 +15,54 @@ use chrono::NaiveTime;
 use std::path::Path;
 
 pub const FIELDS: &[&str] = &["released_at", "date", "time", "title", "currency", "tier", "category", "region", "all_day", "id"];
+
+/// How a file of the user's own layout writes times and importance.
+#[derive(Debug, Clone, Default)]
+pub struct Layout {
+    /// strftime pattern for `released_at`, or for `date` and `time` joined
+    /// by one space (`--calendar-time-format`). The part before its first
+    /// space reads a date alone (an untimed row).
+    pub time_format: Option<String>,
+    /// The file's importance values (compared trimmed, case-insensitive)
+    /// and their tiers (`--tier-map`); when given, only these are read.
+    pub tier_map: Vec<(String, Tier)>,
+    /// The file's own words for "no fixed time" (`--untimed`, compared
+    /// trimmed, case-insensitive): such rows become all-day releases.
+    pub untimed: Vec<String>,
+}
+
+impl Layout {
+    /// Reads `--tier-map VALUE=TIER,...` (a value may be any text without
+    /// `,` or `=`: words, digits, stars).
+    pub fn parse_tier_map(specs: &[String]) -> Result<Vec<(String, Tier)>, String> {
+        let mut out = Vec::new();
+        for spec in specs {
+            for pair in spec.split(',').filter(|p| !p.trim().is_empty()) {
+                let (v, t) = pair.rsplit_once('=').ok_or_else(|| format!("--tier-map '{pair}' is not VALUE=TIER"))?;
+                let tier = Tier::parse(t).ok_or_else(|| format!("--tier-map '{pair}': '{}' is not high, medium or low", t.trim()))?;
+                out.push((v.trim().to_lowercase(), tier));
+            }
+        }
+        Ok(out)
+    }
+
+    fn is_untimed(&self, s: &str) -> bool {
+        let t = s.trim();
+        self.untimed.iter().any(|w| w.trim().eq_ignore_ascii_case(t))
+    }
+
+    /// The tier a row's value names.
+    fn tier(&self, value: &str) -> Result<Tier, RowErr> {
+        if self.tier_map.is_empty() {
+            return Tier::parse(value).ok_or(("tier", "bad_tier", format!("'{value}' is not high, medium or low; map the file's own values with --tier-map")));
+        }
+        let key = value.trim().to_lowercase();
+        self.tier_map.iter().find(|(v, _)| *v == key).map(|(_, t)| *t).ok_or_else(|| {
+            let known: Vec<&str> = self.tier_map.iter().map(|(v, _)| v.as_str()).collect();
+            ("tier", "unmapped_tier", format!("'{value}' is not in --tier-map (mapped: {})", known.join(", ")))
+        })
+    }
+}
 
 pub fn read(
     path: &Path,
@@ -67,15 +115,23 @@ pub fn read(
             // The instant, or the local day for an all-day release.
             let (at, end, is_all_day) = resolve_time(&released, &date, &time, i, flagged_all_day, opts)?;
             let mut cur = text(currency.as_ref(), i).filter(|s| !s.is_empty());
+            // A country code: the currency in force there on the release's
+            // local date.
+            if let Some(code) = cur.as_deref().filter(|c| countries::is_country(c)) {
+                let day = opts.zone.local_date(at);
+                let found = countries::currency_on(code, day)
+                    .ok_or(("currency", "bad_currency", format!("country '{code}' had no currency in the table on {day}")))?;
+                cur = Some(found.to_string());
+            }
             let mut tr = match text(tier.as_ref(), i).filter(|s| !s.is_empty()) {
                 None => None,
-                Some(s) => Some(Tier::parse(&s).ok_or(("tier", "bad_tier", format!("'{s}' is not high, medium or low")))?),
+                Some(s) => Some(opts.layout.tier(&s)?),
             };
             let mut cat = text(category.as_ref(), i).filter(|s| !s.is_empty()).map(|s| s.to_lowercase());
             opts.rules.fill(Draft { title: &t, currency: &mut cur, tier: &mut tr, category: &mut cat });
             let cur = cur.ok_or(("currency", "missing_currency", "empty; add a currency or a title rule".to_string()))?;
-            if !is_currency(&cur) {
-                return Err(("currency", "bad_currency", format!("'{cur}' is not an ISO 4217 code")));
+            if !is_currency(&cur) && !countries::FORMER.contains(&cur.to_ascii_uppercase().as_str()) {
+                return Err(("currency", "bad_currency", format!("'{cur}' is not an ISO 4217 code or a known ISO 3166 country code")));
             }
             let tr = tr.ok_or(("tier", "missing_value", "empty; give high, medium or low (or a title rule)".to_string()))?;
             Ok(Release {
@@ -146,6 +202,14 @@ fn resolve_time(
                 return Ok((ms, ms, false));
             }
             Cell::Date(days) => return day_bounds(chrono::DateTime::UNIX_EPOCH.date_naive() + chrono::TimeDelta::days(days as i64)),
+            Cell::Str(s) if opts.layout.is_untimed(s) && date.is_some() => return resolve_time(&None, date, &None, i, true, opts),
+            Cell::Str(s) if opts.layout.is_untimed(s) => {
+                return Err(("released_at", "missing_value", format!("'{}' (an --untimed word) gives no date; add a date column", s.trim())));
+            }
+            Cell::Str(s) if opts.layout.time_format.is_some() => {
+                let pattern = opts.layout.time_format.as_deref().unwrap_or_default();
+                return by_pattern(s.trim(), pattern, all_day, opts).map_err(|(r, m)| ("released_at", r, m));
+            }
             Cell::Str(s) => {
                 let s = s.trim();
                 if s.len() == 10 && let Some((d, 10)) = scan_date(s.as_bytes()) {
@@ -168,6 +232,22 @@ fn resolve_time(
         }
     }
     let dc = date.as_ref().ok_or(("released_at", "missing_value", "empty".to_string()))?;
+    if let Some(pattern) = opts.layout.time_format.as_deref() {
+        let day_text = match dc.get(i) {
+            Cell::Str(s) => s.trim(),
+            Cell::Null => return Err(("date", "missing_value", "empty".into())),
+            _ => return Err(("date", "bad_time", "not text that --calendar-time-format can read".into())),
+        };
+        let time_text = match time.as_ref().map(|c| c.get(i)) {
+            Some(Cell::Str(t)) if !opts.layout.is_untimed(t) => Some(t.trim()),
+            _ => None,
+        };
+        let joined = match time_text {
+            Some(t) => format!("{day_text} {t}"),
+            None => day_text.to_string(),
+        };
+        return by_pattern(&joined, pattern, all_day || time_text.is_none(), opts).map_err(|(r, m)| (if time_text.is_some() { "time" } else { "date" }, r, m));
+    }
     let d = match dc.get(i) {
         Cell::Str(s) => match scan_date(s.trim().as_bytes()) {
             Some((d, n)) if n == s.trim().len() => d,
@@ -183,8 +263,9 @@ fn resolve_time(
         None | Some(Cell::Null) => None,
         Some(Cell::Str(s)) => {
             let s = s.trim();
-            match s.to_ascii_lowercase().as_str() {
-                "all day" | "all-day" | "tentative" | "" => None,
+            match s {
+                "" => None,
+                _ if opts.layout.is_untimed(s) => None,
                 _ => {
                     let (tm, used) = scan_time(s.as_bytes()).ok_or(("time", "bad_time", format!("'{s}' is not a time HH:MM[:SS]")))?;
                     let rest = s[used..].trim();
@@ -209,6 +290,44 @@ fn resolve_time(
             Ok((ms, ms, false))
         }
     }
+}
+
+/// A release time by the file's own strftime pattern: with an offset an
+/// instant, else local to `--calendar-tz`; a date alone (read by the
+/// pattern's part before its first space) or `all_day` gives the local day.
+fn by_pattern(text: &str, pattern: &str, all_day: bool, opts: &CalendarOptions) -> Result<(i64, i64, bool), (&'static str, String)> {
+    let day_bounds = |d: chrono::NaiveDate| -> Result<(i64, i64, bool), (&'static str, String)> {
+        let p = LocalPolicy::Rfc5545;
+        let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p).map_err(|e| ("bad_time", e.to_string()))?;
+        let b = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), p).map_err(|e| ("bad_time", e.to_string()))?;
+        Ok((a, b, true))
+    };
+    let date_part = pattern.split_once(' ').map_or(pattern, |(d, _)| d);
+    let stamp = if let Ok(dt) = chrono::DateTime::parse_from_str(text, pattern) {
+        Stamp::Instant(dt.timestamp_millis())
+    } else if let Ok(ndt) = chrono::NaiveDateTime::parse_from_str(text, pattern) {
+        Stamp::Local(ndt)
+    } else if let Ok(d) = chrono::NaiveDate::parse_from_str(text, date_part) {
+        return day_bounds(d);
+    } else {
+        return Err(("bad_time", format!("'{text}' does not match --calendar-time-format '{pattern}'")));
+    };
+    if all_day {
+        let d = match stamp {
+            Stamp::Local(l) => l.date(),
+            Stamp::Instant(ms) => opts.zone.local_date(ms),
+        };
+        return day_bounds(d);
+    }
+    let ms = stamp.resolve(&opts.zone, opts.policy).map_err(|e| {
+        let reason = match e {
+            crate::zones::ZoneError::Gap { .. } => "local_time_gap",
+            crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
+            _ => "bad_time",
+        };
+        (reason, e.to_string())
+    })?;
+    Ok((ms, ms, false))
 }
 
 #[cfg(test)]

@@ -5,6 +5,7 @@
 //! expanded into many by RRULE), a merged duplicate, or a counted rejection.
 
 pub mod contentline;
+pub mod countries;
 pub mod csv;
 pub mod ics;
 pub mod rules;
@@ -152,6 +153,9 @@ pub struct CalendarOptions {
     /// Upper bound on occurrences one RRULE may produce.
     pub max_occurrences: usize,
     pub skip_bad_rows: bool,
+    /// CSV layout of the file's own making (`--calendar-time-format`,
+    /// `--tier-map`, `--untimed`).
+    pub layout: csv::Layout,
 }
 
 impl Default for CalendarOptions {
@@ -165,6 +169,7 @@ impl Default for CalendarOptions {
             span: None,
             max_occurrences: 50_000,
             skip_bad_rows: false,
+            layout: csv::Layout::default(),
         }
     }
 }

@@ -58,6 +58,20 @@ pub struct CalendarArgs {
     /// date, time, title, currency, tier, category, region, all_day, id).
     #[arg(long = "calendar-map", value_name = "FIELD=COLUMN,...")]
     pub calendar_map: Vec<String>,
+    /// strftime pattern of the calendar CSV's times, for `released_at` or
+    /// for `date` and `time` joined by a space (e.g. '%d/%m/%Y %I:%M %p');
+    /// the part before its first space reads a date alone.
+    #[arg(long, value_name = "PATTERN")]
+    pub calendar_time_format: Option<String>,
+    /// The calendar CSV's own importance values and their tiers, e.g.
+    /// 'Very important=high,Important=medium,***=high,1=low'; when given,
+    /// an unmapped value rejects its row.
+    #[arg(long, value_name = "VALUE=TIER,...")]
+    pub tier_map: Vec<String>,
+    /// The calendar CSV's own words for "no fixed time" (e.g. 'All Day,TBD'):
+    /// such rows become all-day releases.
+    #[arg(long, value_name = "WORD,...", value_delimiter = ',')]
+    pub untimed: Vec<String>,
     /// JSON rules mapping title patterns to currency, tier and category.
     #[arg(long, value_name = "JSON")]
     pub rules: Option<PathBuf>,
@@ -146,6 +160,11 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
         (None, None) => None,
         _ => bail!("--from and --to go together"),
     };
+    if let Some(p) = &c.calendar_time_format
+        && chrono::format::StrftimeItems::new(p).any(|item| matches!(item, chrono::format::Item::Error))
+    {
+        bail!("--calendar-time-format '{p}' is not a strftime pattern (e.g. '%d/%m/%Y %I:%M %p')");
+    }
     Ok(CalendarOptions {
         zone: zone_flag("calendar-tz", &c.calendar_tz)?,
         policy: rows.local_policy,
@@ -154,6 +173,11 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
         rules,
         span: flag_span.or(span),
         skip_bad_rows: rows.skip_bad_rows,
+        layout: calendar::csv::Layout {
+            time_format: c.calendar_time_format.clone(),
+            tier_map: calendar::csv::Layout::parse_tier_map(&c.tier_map).map_err(anyhow::Error::msg)?,
+            untimed: c.untimed.iter().map(|w| w.trim().to_string()).filter(|w| !w.is_empty()).collect(),
+        },
         ..Default::default()
     })
 }
