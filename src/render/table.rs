@@ -35,7 +35,9 @@ pub fn check(r: &CheckReport) -> String {
         let _ = writeln!(out, "  rows read {}, imported {}, rejected {}", i.rows_read, i.rows_imported, i.rows_rejected);
         if let (Some(u), Some(z)) = (&t.span_utc, &t.span_input_zone) {
             let _ = writeln!(out, "  span (UTC)        {} → {}", u[0], u[1]);
-            let _ = writeln!(out, "  span ({})  {} → {}", t.input_zone, z[0], z[1]);
+            if t.input_zone.to_string() != "UTC" {
+                let _ = writeln!(out, "  span ({})  {} → {}", t.input_zone, z[0], z[1]);
+            }
         }
         if t.runs > 0 {
             let _ = writeln!(out, "  parameter sets (runs): {}", t.runs);
