@@ -11,6 +11,17 @@ use std::path::Path;
 /// A loaded table.
 pub struct Table {
     df: DataFrame,
+    /// Rows (from 0, ascending) that could not be cut into fields.
+    problems: Vec<(usize, RowProblem)>,
+}
+
+/// Why a CSV record could not be read as a row.
+#[derive(Debug, Clone)]
+pub struct RowProblem {
+    /// The column at fault, when one is.
+    pub column: Option<String>,
+    pub reason: &'static str,
+    pub message: String,
 }
 
 /// One cell, borrowed from a column.
@@ -112,35 +123,84 @@ impl Table {
             .with_slice(Some((first, rows)))
             .finish()
             .map_err(|e| format!("not a readable Parquet file: {e}"))?;
-        Ok(Table { df })
+        Ok(Table { df, problems: Vec::new() })
     }
 
-    /// Reads a CSV (all columns as text) or Parquet file.
+    /// Reads a CSV (all columns as text) or Parquet file. CSV records are
+    /// cut by the same RFC 4180 reader as trades ([`crate::csvchunks`]); a
+    /// record that is malformed (a wrong field count, text after a closing
+    /// quote, bytes that are not UTF-8) keeps its row with empty cells and
+    /// is named in [`Table::row_problem`], so the caller rejects that row
+    /// alone.
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
         if is_parquet(path) {
             let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
             let df = ParquetReader::new(file).finish().map_err(|e| format!("not a readable Parquet file: {e}"))?;
-            return Ok(Table { df });
+            return Ok(Table { df, problems: Vec::new() });
         }
-        let mut head = vec![0u8; 64 * 1024];
-        let n = {
-            use std::io::Read;
-            let mut f = std::fs::File::open(path).map_err(|e| e.to_string())?;
-            f.read(&mut head).map_err(|e| e.to_string())?
-        };
-        head.truncate(n);
-        if n == 0 {
-            return Err("the file is empty (expected a header row)".into());
+        use crate::csvchunks::{self, Parsed, Record, Records, ScanError};
+        let mut bytes = std::fs::read(path).map_err(|e| e.to_string())?;
+        if bytes.is_empty() {
+            return Err(ScanError::Empty.to_string());
         }
-        let sep = delimiter.unwrap_or_else(|| crate::csvchunks::sniff_delimiter(&head));
-        let df = CsvReadOptions::default()
-            .with_has_header(true)
-            .with_infer_schema_length(Some(0))
-            .map_parse_options(|p| p.with_separator(sep))
-            .try_into_reader_with_file_path(Some(path.to_path_buf()))
-            .and_then(|r| r.finish())
-            .map_err(|e| format!("not readable as CSV with delimiter '{}': {e}", (sep as char).escape_default()))?;
-        Ok(Table { df })
+        let sep = delimiter.unwrap_or_else(|| csvchunks::sniff_delimiter(&bytes[..bytes.len().min(64 * 1024)]));
+        let header = csvchunks::take_header(&mut bytes, sep).map_err(|e| e.to_string())?;
+        let width = header.names.len();
+        let mut columns: Vec<Vec<Option<String>>> = vec![Vec::new(); width];
+        let mut problems = Vec::new();
+        let mut rec = Record::default();
+        let mut records = Records::new(&bytes, sep);
+        let mut row = 0usize;
+        while let Some(parsed) = records.next_into(&mut rec) {
+            let problem = match parsed {
+                Parsed::Blank { .. } => continue,
+                Parsed::Unclosed { column } => {
+                    let name = header.names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
+                    return Err(ScanError::UnclosedQuote { row: row + 1, column: format!("{column}{name}") }.to_string());
+                }
+                Parsed::Record { .. } => {
+                    let n = rec.len();
+                    let extra_empty = n > width && (width..n).all(|k| rec.field(&bytes, k).iter().all(u8::is_ascii_whitespace));
+                    if n < width || (n > width && !extra_empty) {
+                        Some(RowProblem { column: None, reason: "field_count", message: format!("{n} field(s) where the header has {width}") })
+                    } else if let Some((k, a, b)) = rec.text_after_quote() {
+                        let message = format!(
+                            "column {}: text '{}' follows the closing quote of \"{}\"; a quoted field must end at its quote",
+                            k + 1,
+                            String::from_utf8_lossy(&bytes[a..b]),
+                            String::from_utf8_lossy(rec.raw(&bytes, k))
+                        );
+                        Some(RowProblem { column: Some(header.names[k].clone()), reason: "bad_quote", message })
+                    } else {
+                        (0..width).find_map(|k| {
+                            std::str::from_utf8(&rec.field(&bytes, k)).err().map(|e| RowProblem {
+                                column: Some(header.names[k].clone()),
+                                reason: "not_utf8",
+                                message: format!("byte {} is not UTF-8 text; save the file as UTF-8", e.valid_up_to() + 1),
+                            })
+                        })
+                    }
+                }
+            };
+            for (k, col) in columns.iter_mut().enumerate() {
+                col.push(match problem {
+                    Some(_) => None,
+                    None => Some(String::from_utf8_lossy(&rec.field(&bytes, k)).into_owned()),
+                });
+            }
+            if let Some(p) = problem {
+                problems.push((row, p));
+            }
+            row += 1;
+        }
+        let cols: Vec<Column> = header.names.iter().zip(columns).map(|(name, values)| Column::new(name.as_str().into(), values)).collect();
+        let df = DataFrame::new(row, cols).map_err(|e| e.to_string())?;
+        Ok(Table { df, problems })
+    }
+
+    /// Why row `i` (from 0) could not be cut into fields, if it could not.
+    pub fn row_problem(&self, i: usize) -> Option<&RowProblem> {
+        self.problems.binary_search_by_key(&i, |p| p.0).ok().map(|k| &self.problems[k].1)
     }
 
     pub fn height(&self) -> usize {

@@ -102,6 +102,16 @@ pub fn read(
     };
     for i in 0..table.height() {
         summary.rows_read += 1;
+        if let Some(p) = table.row_problem(i) {
+            summary.reject(CalendarRejection {
+                file: file.clone(),
+                row: i + 1,
+                field: p.column.clone().unwrap_or_else(|| "row".into()),
+                reason: p.reason,
+                message: p.message.clone(),
+            });
+            continue;
+        }
         let row = (|| -> Result<Release, (&'static str, &'static str, String)> {
             let t = text(Some(&title), i).filter(|s| !s.is_empty()).ok_or(("title", "missing_value", "empty".to_string()))?;
             let flagged_all_day = match text(all_day.as_ref(), i).map(|s| s.to_ascii_lowercase()) {
