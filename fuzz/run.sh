@@ -13,7 +13,7 @@ corpus="$here/corpus/$target"
 mkdir -p "$corpus" "$here/artifacts/$target"
 seed() { for f in "$@"; do [ -f "$f" ] && cp -n "$f" "$corpus/" || true; done; }
 case "$target" in
-  ics) seed "$root"/calendars/*.ics "$root"/tests/bad_inputs/*.ics ;;
+  ics) seed "$root"/calendars/*.ics "$root"/tests/bad_inputs/*.ics "$root"/tests/fixtures/ics-corpus/*.ics ;;
   trade_csv) head -40 "$root/demo/trades.csv" > "$corpus/demo-head.csv"; seed "$root"/tests/bad_inputs/trades-*.csv ;;
   calendar_csv) head -40 "$root/calendars/demo-eur.csv" > "$corpus/demo-eur-head.csv"; seed "$root"/tests/bad_inputs/calendar-*.csv ;;
   zone_spec | time_text) seed "$here/seeds/$target"/* ;;

@@ -38,6 +38,12 @@ pub struct LineError {
 /// Unfolds and splits a whole iCalendar stream. A UTF-8 byte-order mark is
 /// skipped; CRLF and bare LF line ends are both accepted.
 pub fn parse_lines(bytes: &[u8]) -> Result<Vec<ContentLine>, LineError> {
+    parse_lines_each(bytes).into_iter().collect()
+}
+
+/// [`parse_lines`] with each logical line's own outcome, so that a reader
+/// can pass over broken lines inside components it does not use.
+pub fn parse_lines_each(bytes: &[u8]) -> Vec<Result<ContentLine, LineError>> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let mut out = Vec::new();
     let mut logical: Vec<u8> = Vec::new();
@@ -48,25 +54,26 @@ pub fn parse_lines(bytes: &[u8]) -> Result<Vec<ContentLine>, LineError> {
         let raw = raw.strip_suffix(b"\r").unwrap_or(raw);
         if let Some(cont) = raw.strip_prefix(b" ").or_else(|| raw.strip_prefix(b"\t")) {
             if logical.is_empty() && out.is_empty() {
-                return Err(LineError {
+                out.push(Err(LineError {
                     line: physical,
                     message: "continuation line (starts with a space) before any content line".into(),
-                });
+                }));
+                return out;
             }
             logical.extend_from_slice(cont);
             continue;
         }
         if !logical.is_empty() {
-            out.push(split_line(&logical, start_line)?);
+            out.push(split_line(&logical, start_line));
             logical.clear();
         }
         start_line = physical;
         logical.extend_from_slice(raw);
     }
     if !logical.is_empty() {
-        out.push(split_line(&logical, start_line)?);
+        out.push(split_line(&logical, start_line));
     }
-    Ok(out)
+    out
 }
 
 fn split_line(bytes: &[u8], line: usize) -> Result<ContentLine, LineError> {

@@ -10,7 +10,7 @@
 //! category from the first other CATEGORIES word or `X-EVENTFENCE-CATEGORY`;
 //! region from `X-EVENTFENCE-REGION`. Title rules run last.
 
-use super::contentline::{ContentLine, parse_lines, split_text_list, unescape_text};
+use super::contentline::{ContentLine, parse_lines_each, split_text_list, unescape_text};
 use super::rules::Draft;
 use super::vtimezone::{CustomZone, Observance, expand_local};
 use super::{CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency};
@@ -76,6 +76,64 @@ impl EventZone<'_> {
             EventZone::Custom(c) => c.to_utc_rfc(local),
         }
     }
+    fn to_local(&self, ms: i64) -> NaiveDateTime {
+        match self {
+            EventZone::Named(z) => z.to_local(ms),
+            EventZone::Custom(c) => ms_to_naive(ms + c.offset_at(ms) as i64 * 1000),
+        }
+    }
+}
+
+/// An RRULE with its UNTIL rewritten for the expander, which steps through
+/// DTSTART's own clock (local wall time, UTC, or midnight of a DATE) and
+/// needs UNTIL as a time on that clock. RFC 5545 §3.3.10 wants UNTIL of
+/// DTSTART's type (UTC when DTSTART is zoned); software of the RFC 2445 era
+/// writes other types, read leniently here and noted:
+/// - a DATE under a DATE-TIME DTSTART: the end of that day in DTSTART's zone;
+/// - a floating time under a zoned or UTC DTSTART: a time on DTSTART's clock.
+///
+/// `None`: UNTIL lies before DTSTART, an empty series.
+fn rule_for_expander(rule: &str, start: IcsTime, zoned: bool, zone: &EventZone, notes: &mut Vec<String>) -> Result<Option<String>, String> {
+    let mut parts: Vec<String> = Vec::new();
+    let local0 = match start {
+        IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
+        IcsTime::Utc(t) | IcsTime::Local(t) => t,
+    };
+    for part in rule.split(';').filter(|p| !p.trim().is_empty()) {
+        let Some((k, v)) = part.split_once('=') else {
+            parts.push(part.to_string());
+            continue;
+        };
+        if !k.trim().eq_ignore_ascii_case("UNTIL") {
+            parts.push(part.to_string());
+            continue;
+        }
+        let until = parse_ics_time(v, None).map_err(|m| format!("UNTIL {m}"))?;
+        let on_clock = match (until, start) {
+            (IcsTime::Date(d), IcsTime::Date(_)) => d.and_hms_opt(23, 59, 59).expect("valid"),
+            (IcsTime::Date(d), _) => {
+                notes.push(format!("RRULE '{rule}': UNTIL is a DATE under a DATE-TIME DTSTART; read as the end of {d} in DTSTART's zone"));
+                d.and_hms_opt(23, 59, 59).expect("valid")
+            }
+            (IcsTime::Utc(t), IcsTime::Utc(_)) => t,
+            (IcsTime::Utc(t), _) => zone.to_local(naive_to_ms(&t)),
+            (IcsTime::Local(t), IcsTime::Local(_)) if zoned => {
+                notes.push(format!("RRULE '{rule}': UNTIL has no Z under a zoned DTSTART; read on DTSTART's clock"));
+                t
+            }
+            (IcsTime::Local(t), IcsTime::Local(_) | IcsTime::Date(_)) => t,
+            (IcsTime::Local(t), IcsTime::Utc(_)) => {
+                notes.push(format!("RRULE '{rule}': UNTIL has no Z under a UTC DTSTART; read as UTC"));
+                t
+            }
+        };
+        if on_clock < local0 {
+            notes.push(format!("RRULE '{rule}': UNTIL lies before DTSTART, so the series is empty"));
+            return Ok(None);
+        }
+        parts.push(format!("UNTIL={}", on_clock.format("%Y%m%dT%H%M%SZ")));
+    }
+    Ok(Some(parts.join(";")))
 }
 
 /// Occurrences one RRULE may step through before and within the span: a
@@ -110,7 +168,7 @@ pub fn read_bytes(
     out: &mut Vec<Release>,
     summary: &mut CalendarSummary,
 ) -> Result<(), String> {
-    let lines = parse_lines(bytes).map_err(|e| e.to_string())?;
+    let lines = parse_lines_each(bytes);
     let mut stack: Vec<(String, usize)> = Vec::new();
     let mut events: Vec<Component> = Vec::new();
     let mut zones_raw: HashMap<String, Vec<Observance>> = HashMap::new();
@@ -118,19 +176,44 @@ pub fn read_bytes(
     let mut cur_tzid: Option<String> = None;
     let mut cur_obs: Option<Observance> = None;
     let mut saw_calendar = false;
-    for l in lines {
+    let mut wr_timezone: Option<String> = None;
+    // A component this reader does not use (VTODO, VJOURNAL, VALARM, an
+    // X- component…): everything up to its END is passed over, broken lines
+    // included (RFC 5545 §3.6: a reader may ignore what it does not use).
+    let mut skipping: Option<(String, usize)> = None;
+    for item in lines {
+        let l = match item {
+            Ok(l) => l,
+            Err(_) if skipping.is_some() => continue,
+            Err(e) => return Err(e.to_string()),
+        };
+        if let Some((name, at)) = &skipping {
+            let ends = |c: &str| l.name == "END" && l.value.trim().eq_ignore_ascii_case(c);
+            if ends(name) {
+                summary.components_skipped += 1;
+                skipping = None;
+                continue;
+            }
+            if !ends("VCALENDAR") {
+                continue;
+            }
+            summary.components_skipped += 1;
+            summary.notes.push(format!("{file}: BEGIN:{name} at line {at} has no END:{name}; passed over up to END:VCALENDAR"));
+            skipping = None;
+        }
         match l.name.as_str() {
             "BEGIN" => {
                 let comp = l.value.trim().to_ascii_uppercase();
-                match comp.as_str() {
-                    "VCALENDAR" => saw_calendar = true,
-                    "VEVENT" if stack.last().is_some_and(|s| s.0 == "VCALENDAR") => {
-                        cur_event = Some(Component { line: l.line, props: Vec::new() })
+                let parent = stack.last().map(|s| s.0.as_str());
+                match (comp.as_str(), parent) {
+                    ("VCALENDAR", None) => saw_calendar = true,
+                    ("VEVENT", Some("VCALENDAR")) => cur_event = Some(Component { line: l.line, props: Vec::new() }),
+                    ("VTIMEZONE", Some("VCALENDAR")) => {}
+                    ("STANDARD" | "DAYLIGHT", Some("VTIMEZONE")) => cur_obs = Some(Observance::default()),
+                    _ => {
+                        skipping = Some((comp, l.line));
+                        continue;
                     }
-                    "STANDARD" | "DAYLIGHT" if stack.last().is_some_and(|s| s.0 == "VTIMEZONE") => {
-                        cur_obs = Some(Observance::default())
-                    }
-                    _ => {}
                 }
                 stack.push((comp, l.line));
             }
@@ -165,6 +248,8 @@ pub fn read_bytes(
                     }
                 } else if l.name == "TZID" && stack.last().is_some_and(|s| s.0 == "VTIMEZONE") {
                     cur_tzid = Some(l.value.trim().to_string());
+                } else if l.name == "X-WR-TIMEZONE" && stack.last().is_some_and(|s| s.0 == "VCALENDAR") {
+                    wr_timezone = Some(unescape_text(&l.value).trim().to_string());
                 }
             }
         }
@@ -180,13 +265,42 @@ pub fn read_bytes(
         .span
         .map(|s| ms_to_naive(s.1 + 2 * DAY_MS))
         .unwrap_or_else(|| NaiveDate::from_ymd_opt(2100, 1, 1).unwrap().and_time(NaiveTime::MIN));
+    // Floating times: --calendar-tz when given, else the file's
+    // X-WR-TIMEZONE (a widespread calendar-level property), else UTC.
+    let mut local_opts;
+    let opts = match &wr_timezone {
+        Some(name) if !opts.zone_given => match name.parse::<chrono_tz::Tz>() {
+            Ok(tz) => {
+                summary.notes.push(format!("{file}: floating times read in {name} (the file's X-WR-TIMEZONE; --calendar-tz overrides it)"));
+                local_opts = opts.clone();
+                local_opts.zone = Zone::Iana(tz);
+                &local_opts
+            }
+            Err(_) => {
+                summary.notes.push(format!("{file}: X-WR-TIMEZONE '{name}' is not an IANA zone name; floating times read in {}", opts.zone));
+                opts
+            }
+        },
+        Some(name) => {
+            summary.notes.push(format!("{file}: floating times read in {} (--calendar-tz), not in the file's X-WR-TIMEZONE {name}", opts.zone));
+            opts
+        }
+        None => opts,
+    };
     let mut custom: HashMap<String, Result<CustomZone, String>> = HashMap::new();
-    for ev in events {
+    // Instances with RECURRENCE-ID (RFC 5545 §3.8.4.4) change one
+    // occurrence of their series (same UID), or with RANGE=THISANDFUTURE
+    // that one and every later one; they are applied after the series.
+    let (overrides, masters): (Vec<Component>, Vec<Component>) = events.into_iter().partition(|e| e.props.iter().any(|p| p.name == "RECURRENCE-ID"));
+    let uid_of = |e: &Component| e.props.iter().find(|p| p.name == "UID").map(|p| p.value.trim().to_string());
+    let mut series: Vec<(Option<String>, Release)> = Vec::new();
+    let mut notes = Vec::new();
+    for ev in &masters {
         summary.rows_read += 1;
-        match event_releases(&ev, file, opts, &zones_raw, &mut custom, until) {
+        match event_releases(ev, file, opts, &zones_raw, &mut custom, until, &mut notes) {
             Ok(EventOutcome::Releases(rs)) => {
                 summary.recurrences_expanded += rs.len().saturating_sub(1);
-                out.extend(rs);
+                series.extend(rs.into_iter().map(|r| (uid_of(ev), r)));
             }
             Ok(EventOutcome::Cancelled) => summary.reject(CalendarRejection {
                 file: file.into(),
@@ -195,23 +309,109 @@ pub fn read_bytes(
                 reason: "cancelled",
                 message: "STATUS:CANCELLED; not a release".into(),
             }),
-            Err((field, reason, message)) => summary.reject(CalendarRejection {
-                file: file.into(),
-                row: ev.line,
-                field,
-                reason,
-                message,
-            }),
+            Err((field, reason, message)) => summary.reject(CalendarRejection { file: file.into(), row: ev.line, field, reason, message }),
         }
     }
+    let mut ordered: Vec<&Component> = overrides.iter().collect();
+    ordered.sort_by_key(|e| e.props.iter().find(|p| p.name == "RECURRENCE-ID").map(|p| p.value.trim().to_string()));
+    for ov in ordered {
+        summary.rows_read += 1;
+        let uid = uid_of(ov);
+        let master = masters.iter().find(|m| uid.is_some() && uid_of(m) == uid);
+        match apply_override(ov, master, file, opts, &zones_raw, &mut custom, until, &mut notes, &uid, &mut series) {
+            Ok(moved) => {
+                if moved {
+                    summary.occurrences_moved += 1;
+                } else {
+                    summary.occurrences_cancelled += 1;
+                }
+            }
+            Err((field, reason, message)) => summary.reject(CalendarRejection { file: file.into(), row: ov.line, field, reason, message }),
+        }
+    }
+    summary.notes.extend(notes.into_iter().map(|n| format!("{file}: {n}")));
+    out.extend(series.into_iter().map(|(_, r)| r));
     Ok(())
 }
 
-fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), String> {
-    let off = |v: &str| {
-        crate::zones::parse_offset(v.trim())
-            .ok_or_else(|| format!("line {}: {} '{}' is not a UTC offset like -0500", l.line, l.name, v))
+/// Applies one RECURRENCE-ID instance to its series: the occurrence whose
+/// original start equals the RECURRENCE-ID is replaced by the instance (or
+/// removed when the instance is cancelled); with RANGE=THISANDFUTURE every
+/// later occurrence moves by the same shift. Properties the instance does
+/// not repeat (title, currency, tier…) come from the series. Returns
+/// whether the occurrence was moved (else cancelled).
+#[allow(clippy::too_many_arguments)]
+fn apply_override(
+    ov: &Component,
+    master: Option<&Component>,
+    file: &str,
+    opts: &CalendarOptions,
+    zones_raw: &HashMap<String, Vec<Observance>>,
+    custom: &mut HashMap<String, Result<CustomZone, String>>,
+    until: NaiveDateTime,
+    notes: &mut Vec<String>,
+    uid: &Option<String>,
+    series: &mut Vec<(Option<String>, Release)>,
+) -> Result<bool, Reject> {
+    const SERIES_ONLY: [&str; 8] = ["RRULE", "RDATE", "EXDATE", "EXRULE", "RECURRENCE-ID", "DTSTART", "DTEND", "DURATION"];
+    let rid = ov.props.iter().find(|p| p.name == "RECURRENCE-ID").expect("partitioned on it");
+    let mut props = ov.props.clone();
+    if let Some(m) = master {
+        for p in &m.props {
+            if !SERIES_ONLY.contains(&p.name.as_str()) && !props.iter().any(|q| q.name == p.name) {
+                props.push(p.clone());
+            }
+        }
+    }
+    props.retain(|p| p.name != "RECURRENCE-ID");
+    // The original start: RECURRENCE-ID in its own zone, else the series'.
+    let rid_time = parse_ics_time(&rid.value, rid.param("VALUE")).map_err(|m| reject("RECURRENCE-ID", "bad_time", m))?;
+    let tzid = rid.param("TZID").or_else(|| master.and_then(|m| m.props.iter().find(|p| p.name == "DTSTART")).and_then(|p| p.param("TZID")));
+    let rid_at = match rid_time {
+        IcsTime::Date(d) => opts.zone.to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545).expect("RFC policy"),
+        IcsTime::Utc(t) => naive_to_ms(&t),
+        IcsTime::Local(t) => match tzid {
+            Some(z) => resolve_tzid(z, zones_raw, custom, until).map_err(|m| reject("RECURRENCE-ID", "unknown_zone", m))?.to_utc(&t),
+            None => EventZone::Named(opts.zone).to_utc(&t),
+        },
     };
+    let this_and_future = rid.param("RANGE").is_some_and(|r| r.eq_ignore_ascii_case("THISANDFUTURE"));
+    let instance = Component { line: ov.line, props };
+    let outcome = event_releases(&instance, file, opts, zones_raw, custom, until, notes)?;
+    let same_series = |u: &Option<String>| u.is_some() && u == uid;
+    series.retain(|(u, r)| !(same_series(u) && r.at == rid_at));
+    let moved = match outcome {
+        EventOutcome::Cancelled => {
+            if this_and_future {
+                series.retain(|(u, r)| !(same_series(u) && r.at > rid_at));
+            }
+            false
+        }
+        EventOutcome::Releases(rs) => {
+            let Some(mut r) = rs.into_iter().next() else { return Ok(true) };
+            let shift = r.at - rid_at;
+            if this_and_future {
+                for (u, later) in series.iter_mut() {
+                    if same_series(u) && later.at > rid_at {
+                        later.at += shift;
+                        later.end += shift;
+                        if let Some((base, _)) = later.id.rsplit_once('/') {
+                            later.id = format!("{base}/{}", crate::zones::format_utc(later.at));
+                        }
+                    }
+                }
+            }
+            let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ov.line));
+            r.id = format!("{base}/{}", crate::zones::format_utc(r.at));
+            series.push((uid.clone(), r));
+            true
+        }
+    };
+    Ok(moved)
+}
+
+fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), String> {
+    let off = |v: &str| utc_offset(v.trim()).ok_or_else(|| format!("line {}: {} '{}' is not a UTC offset like -0500 or +005328", l.line, l.name, v));
     let local = |v: &str| match parse_ics_time(v, None) {
         Ok(IcsTime::Local(t)) => Ok(t),
         _ => Err(format!("line {}: {} '{}' must be a local DATE-TIME", l.line, l.name, v)),
@@ -229,6 +429,24 @@ fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), Strin
         _ => {}
     }
     Ok(())
+}
+
+/// An RFC 5545 §3.3.14 UTC-OFFSET, `(+|-)hhmm[ss]`, in seconds (old
+/// local mean times carry seconds: `+005328`). `-0000` is read as 0.
+fn utc_offset(v: &str) -> Option<i32> {
+    let b = v.as_bytes();
+    let sign = match b.first()? {
+        b'+' => 1,
+        b'-' => -1,
+        _ => return None,
+    };
+    let digits = &b[1..];
+    if !(digits.len() == 4 || digits.len() == 6) || !digits.iter().all(u8::is_ascii_digit) {
+        return None;
+    }
+    let two = |i: usize| (digits[i] - b'0') as i32 * 10 + (digits[i + 1] - b'0') as i32;
+    let (h, m, sec) = (two(0), two(2), if digits.len() == 6 { two(4) } else { 0 });
+    (h < 24 && m < 60 && sec < 60).then_some(sign * (h * 3600 + m * 60 + sec))
 }
 
 enum EventOutcome {
@@ -249,6 +467,7 @@ fn event_releases(
     zones_raw: &HashMap<String, Vec<Observance>>,
     custom: &mut HashMap<String, Result<CustomZone, String>>,
     until: NaiveDateTime,
+    notes: &mut Vec<String>,
 ) -> Result<EventOutcome, Reject> {
     let prop = |name: &str| ev.props.iter().find(|p| p.name == name);
     if prop("STATUS").is_some_and(|p| p.value.trim().eq_ignore_ascii_case("CANCELLED")) {
@@ -310,10 +529,12 @@ fn event_releases(
         (IcsTime::Local(_), Some(tzid)) => resolve_tzid(tzid, zones_raw, custom, until).map_err(|m| reject("DTSTART", "unknown_zone", m))?,
         _ => EventZone::Named(opts.zone),
     };
-    // Occurrences as (local or UTC) start values.
-    let rrule = prop("RRULE").map(|p| p.value.trim().to_string());
-    let mut starts: Vec<IcsTime> = vec![start];
-    if let Some(rule) = &rrule {
+    // Occurrences as (local or UTC) start values: the union of every RRULE
+    // (RFC 5545 deprecates more than one, but software still writes them).
+    let rrules: Vec<String> = ev.props.iter().filter(|p| p.name == "RRULE").map(|p| p.value.trim().to_string()).collect();
+    let mut starts: Vec<IcsTime> = if rrules.is_empty() { vec![start] } else { Vec::new() };
+    let mut seen = std::collections::HashSet::new();
+    for rule in &rrules {
         let upper = rule.to_ascii_uppercase();
         let bounded = upper.contains("COUNT=") || upper.contains("UNTIL=");
         let (from_l, to_l) = match opts.span {
@@ -327,19 +548,30 @@ fn event_releases(
             IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
             IcsTime::Utc(t) | IcsTime::Local(t) => t,
         };
-        let occ = expand_local(local0, rule, from_l, to_l, opts.max_occurrences, MAX_RULE_STEPS).map_err(|m| reject("RRULE", "bad_rule", m))?;
-        starts = occ
-            .into_iter()
-            .map(|t| match start {
+        let Some(expandable) = rule_for_expander(rule, start, dt.param("TZID").is_some(), &zone, notes).map_err(|m| reject("RRULE", "bad_rule", m))? else {
+            continue;
+        };
+        let occ = expand_local(local0, &expandable, from_l, to_l, opts.max_occurrences, MAX_RULE_STEPS).map_err(|m| reject("RRULE", "bad_rule", m))?;
+        for t in occ {
+            let time = match start {
                 IcsTime::Date(_) => IcsTime::Date(t.date()),
                 IcsTime::Utc(_) => IcsTime::Utc(t),
                 IcsTime::Local(_) => IcsTime::Local(t),
-            })
-            .collect();
+            };
+            if seen.insert(time) {
+                starts.push(time);
+            }
+        }
     }
     for p in ev.props.iter().filter(|p| p.name == "RDATE") {
+        let period = p.param("VALUE").is_some_and(|v| v.eq_ignore_ascii_case("PERIOD"));
         for v in p.value.split(',') {
-            starts.push(parse_ics_time(v, p.param("VALUE")).map_err(|m| reject("RDATE", "bad_time", m))?);
+            // A PERIOD (start/end or start/duration, §3.3.9) occurs at its start.
+            let (v, kind) = match v.split_once('/') {
+                Some((first, _)) if period => (first, None),
+                _ => (v, p.param("VALUE")),
+            };
+            starts.push(parse_ics_time(v, kind).map_err(|m| reject("RDATE", "bad_time", m))?);
         }
     }
     // A set: a rule's 50 000 occurrences against as many EXDATEs stay linear.
@@ -350,7 +582,7 @@ fn event_releases(
         }
     }
     let uid = prop("UID").map(|p| p.value.trim().to_string()).filter(|s| !s.is_empty());
-    let recurring = starts.len() > 1 || rrule.is_some();
+    let recurring = starts.len() > 1 || !rrules.is_empty();
     let mut out = Vec::with_capacity(starts.len());
     for s in starts {
         if excluded.contains(&s) {

@@ -100,6 +100,15 @@ pub struct CalendarSummary {
     pub rejected_by_reason: BTreeMap<String, usize>,
     /// The first rejections (at most [`KEEP_REJECTIONS`]), in file order.
     pub rejections: Vec<CalendarRejection>,
+    /// ICS components not used (VTODO, VJOURNAL, VALARM, X- components…),
+    /// passed over whatever they hold.
+    pub components_skipped: usize,
+    /// ICS occurrences replaced by a RECURRENCE-ID instance (moved or
+    /// rescheduled) and removed by a cancelled instance.
+    pub occurrences_moved: usize,
+    pub occurrences_cancelled: usize,
+    /// What was read leniently or guessed (a zone, an UNTIL's type), per file.
+    pub notes: Vec<String>,
 }
 
 /// How many rejections a summary keeps verbatim.
@@ -142,6 +151,9 @@ pub enum CalendarError {
 pub struct CalendarOptions {
     /// Zone of times without an offset (CSV) and floating ICS times.
     pub zone: Zone,
+    /// Whether the user named `zone` (`--calendar-tz`): then an ICS file's
+    /// X-WR-TIMEZONE does not apply.
+    pub zone_given: bool,
     /// DST policy for CSV local times (ICS always follows RFC 5545 §3.3.5).
     pub policy: LocalPolicy,
     /// CSV column mapping: field → column name.
@@ -162,6 +174,7 @@ impl Default for CalendarOptions {
     fn default() -> Self {
         CalendarOptions {
             zone: Zone::Utc,
+            zone_given: false,
             policy: LocalPolicy::Error,
             columns: HashMap::new(),
             delimiter: None,

@@ -25,10 +25,12 @@ pub fn expand_local(
     max_steps: usize,
 ) -> Result<Vec<NaiveDateTime>, String> {
     use chrono::TimeZone;
-    let rule: rrule::RRule<rrule::Unvalidated> =
-        rrule_text.parse().map_err(|e: rrule::RRuleError| format!("bad RRULE '{rrule_text}': {e}"))?;
+    // The expander's own messages name its internals (its time zones, its
+    // types): ours name the rule and the RFC section instead.
+    let unreadable = || format!("RRULE '{rrule_text}' is not a recurrence rule eventfence can read (RFC 5545 §3.3.10: FREQ, then INTERVAL, COUNT or UNTIL, BY… parts)");
+    let rule: rrule::RRule<rrule::Unvalidated> = rrule_text.parse().map_err(|_: rrule::RRuleError| unreadable())?;
     let start = rrule::Tz::UTC.from_utc_datetime(&skip_ahead(dtstart, rrule_text, from));
-    let set = rule.build(start).map_err(|e| format!("bad RRULE '{rrule_text}': {e}"))?;
+    let set = rule.build(start).map_err(|_| unreadable())?;
     let mut out = Vec::new();
     for (steps, occ) in set.into_iter().enumerate() {
         let local = occ.naive_utc();

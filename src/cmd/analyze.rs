@@ -57,7 +57,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     // The scenario series (filled only for --out) go to the files below.
     let series = std::mem::take(&mut result.series);
     let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
-    let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz.clone());
+    let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz().to_string());
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     crate::phases::mark("summary");

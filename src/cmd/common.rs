@@ -51,9 +51,10 @@ pub struct CalendarArgs {
     #[arg(long = "calendar", value_name = "FILE", num_args = 1..)]
     pub calendar: Vec<PathBuf>,
     /// Zone of calendar times without an offset (CSV times, floating ICS
-    /// times, and the day of all-day releases).
-    #[arg(long, value_name = "ZONE", default_value = "UTC")]
-    pub calendar_tz: String,
+    /// times, and the day of all-day releases); default UTC, or an ICS
+    /// file's own X-WR-TIMEZONE.
+    #[arg(long, value_name = "ZONE")]
+    pub calendar_tz: Option<String>,
     /// Calendar CSV column names: field=Column pairs (fields: released_at,
     /// date, time, title, currency, tier, category, region, all_day, id).
     #[arg(long = "calendar-map", value_name = "FIELD=COLUMN,...")]
@@ -82,6 +83,13 @@ pub struct CalendarArgs {
     /// End of that span (YYYY-MM-DD, UTC, inclusive).
     #[arg(long, value_name = "DATE")]
     pub to: Option<String>,
+}
+
+impl CalendarArgs {
+    /// The zone named by `--calendar-tz`, or UTC.
+    pub fn calendar_tz(&self) -> &str {
+        self.calendar_tz.as_deref().unwrap_or("UTC")
+    }
 }
 
 /// How instruments map to currencies.
@@ -166,7 +174,8 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
         bail!("--calendar-time-format '{p}' is not a strftime pattern (e.g. '%d/%m/%Y %I:%M %p')");
     }
     Ok(CalendarOptions {
-        zone: zone_flag("calendar-tz", &c.calendar_tz)?,
+        zone: zone_flag("calendar-tz", c.calendar_tz())?,
+        zone_given: c.calendar_tz.is_some(),
         policy: rows.local_policy,
         columns,
         delimiter: delimiter_byte(delimiter)?,

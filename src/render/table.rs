@@ -70,6 +70,15 @@ pub fn check(r: &CheckReport) -> String {
         if let Some(s) = &c.span_utc {
             let _ = writeln!(out, "  span (UTC)  {} → {}", s[0], s[1]);
         }
+        if i.occurrences_moved + i.occurrences_cancelled > 0 {
+            let _ = writeln!(out, "  instances: {} occurrence(s) moved, {} cancelled (RECURRENCE-ID)", i.occurrences_moved, i.occurrences_cancelled);
+        }
+        if i.components_skipped > 0 {
+            let _ = writeln!(out, "  {} component(s) not used (to-dos, journals, alarms…) passed over", i.components_skipped);
+        }
+        for n in &i.notes {
+            let _ = writeln!(out, "  note: {n}");
+        }
         let mut tab = new_table(&["currency", "high", "medium", "low", "total"]);
         for (cur, tiers) in &c.releases_by_currency {
             let g = |t| tiers.get(&t).copied().unwrap_or(0);
