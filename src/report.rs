@@ -34,6 +34,10 @@ pub struct TradeInputs {
     pub rows_rejected: usize,
     pub rejected_by_reason: BTreeMap<String, usize>,
     pub input_tz: String,
+    /// How each trade's P/L was formed from the input columns.
+    pub pnl_formed_as: String,
+    /// How each time column was read (zone rule per file and column).
+    pub time_columns: Vec<crate::trades::TimeColumn>,
 }
 
 /// `inputs.calendar` (SPEC §8).
@@ -47,6 +51,11 @@ pub struct CalendarInputs {
     pub rows_rejected: usize,
     pub rejected_by_reason: BTreeMap<String, usize>,
     pub calendar_tz: String,
+    pub components_skipped: usize,
+    pub occurrences_moved: usize,
+    pub occurrences_cancelled: usize,
+    /// What was read leniently or guessed, per file.
+    pub notes: Vec<String>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -65,6 +74,8 @@ impl Inputs {
                 rows_rejected: t.rows_rejected,
                 rejected_by_reason: t.rejected_by_reason.clone(),
                 input_tz: trades_tz,
+                pnl_formed_as: t.pnl_formed_as.clone(),
+                time_columns: t.time_columns.clone(),
             },
             calendar: CalendarInputs {
                 files: c.files.clone(),
@@ -75,6 +86,10 @@ impl Inputs {
                 rows_rejected: c.rows_rejected,
                 rejected_by_reason: c.rejected_by_reason.clone(),
                 calendar_tz,
+                components_skipped: c.components_skipped,
+                occurrences_moved: c.occurrences_moved,
+                occurrences_cancelled: c.occurrences_cancelled,
+                notes: c.notes.clone(),
             },
         }
     }

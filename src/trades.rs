@@ -61,6 +61,9 @@ pub struct Trades {
     /// Source file index (into `summary.files`) and data row (from 1).
     pub file: Vec<u16>,
     pub row: Vec<u32>,
+    /// Columns named by `--keep`, as written, one vector per column.
+    pub kept_names: Vec<String>,
+    pub kept: Vec<Vec<String>>,
 }
 
 impl Trades {
@@ -129,6 +132,9 @@ pub struct TradeSummary {
     pub rejections: Vec<Rejection>,
     /// How each file's time columns were read (which zone rule applied).
     pub time_columns: Vec<TimeColumn>,
+    /// How each trade's P/L was formed from the columns, in words
+    /// (`Profit + Commission + Swap − |Fee|`).
+    pub pnl_formed_as: String,
 }
 
 /// How one file's time column was read.
@@ -147,10 +153,8 @@ pub struct TimeColumn {
 pub enum TradeError {
     #[error("trades {path}: {message}")]
     Read { path: PathBuf, message: String },
-    #[error(
-        "trades {path}: no column '{column}' for {field} (columns: {available}); map it with --map {field}=<column>"
-    )]
-    MissingColumn { path: PathBuf, field: String, column: String, available: String },
+    #[error("trades {path}: no column {missing} (columns: {available}){hint}")]
+    MissingColumns { path: PathBuf, missing: String, available: String, hint: String },
     #[error("{count} trade row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them; reports then state what was skipped)")]
     Rejected { count: usize, examples: String },
     #[error("no trade files match '{0}'")]
@@ -169,6 +173,9 @@ pub struct TradeOptions {
     pub columns: HashMap<String, String>,
     pub delimiter: Option<u8>,
     pub skip_bad_rows: bool,
+    /// The user's own columns carried unchanged into the per-trade outputs
+    /// (`--keep`).
+    pub keep: Vec<String>,
 }
 
 impl Default for TradeOptions {
@@ -180,6 +187,7 @@ impl Default for TradeOptions {
             columns: HashMap::new(),
             delimiter: None,
             skip_bad_rows: false,
+            keep: Vec::new(),
         }
     }
 }
@@ -252,8 +260,13 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             read_csv(path, opts, &mut sink)?;
         }
     }
-    let Sink { mut trades, summary, instruments, runs, .. } = sink;
+    let Sink { mut trades, mut summary, instruments, runs, .. } = sink;
     trades.shrink_to_fit();
+    trades.kept_names = opts.keep.clone();
+    if !opts.keep.is_empty() && trades.kept.is_empty() {
+        trades.kept = vec![Vec::new(); opts.keep.len()];
+    }
+    summary.pnl_formed_as = pnl_formation(opts, trades.fees.is_some());
     if summary.rows_rejected > 0 && !opts.skip_bad_rows {
         let examples = summary
             .rejections
@@ -343,26 +356,73 @@ const INSTRUMENT: usize = 2;
 const PNL: usize = 3;
 const RUN: usize = 4;
 const SIDE: usize = 5;
+const FEES: usize = 9;
 /// size, entry_price, exit_price, fees, equity_before, pnl_pct.
 const EXTRAS: std::ops::Range<usize> = 6..12;
 
 /// Finds every field's column by (mapped) name; required fields and
-/// explicitly mapped ones must exist.
-fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl FnMut(&str) -> Option<C>) -> Result<Slots<C>, TradeError> {
+/// explicitly mapped ones must exist. `pnl` may name several columns joined
+/// by `+` (summed, each sign as written). Returns the slots and the extra
+/// columns: the P/L parts after the first, then the `--keep` columns.
+/// Every missing column is named in one error.
+fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl FnMut(&str) -> Option<C>) -> Result<(Slots<C>, Vec<C>), TradeError> {
     let mut out: Slots<C> = Default::default();
+    let mut extra = Vec::new();
+    let mut missing: Vec<(String, String)> = Vec::new();
     for (k, field) in FIELDS.iter().enumerate() {
         let name = opts.columns.get(*field).map(String::as_str).unwrap_or(field);
-        out[k] = find(name);
+        let parts = pnl_parts(name);
+        out[k] = find(if k == PNL { parts[0] } else { name });
+        if k == PNL && out[k].is_some() {
+            for part in &parts[1..] {
+                match find(part) {
+                    Some(c) => extra.push(c),
+                    None => missing.push((field.to_string(), part.to_string())),
+                }
+            }
+        }
         if out[k].is_none() && (REQUIRED.contains(field) || opts.columns.contains_key(*field)) {
-            return Err(TradeError::MissingColumn {
-                path: path.to_path_buf(),
-                field: field.to_string(),
-                column: name.to_string(),
-                available: names.join(", "),
-            });
+            missing.push((field.to_string(), if k == PNL { parts[0].to_string() } else { name.to_string() }));
         }
     }
-    Ok(out)
+    for name in &opts.keep {
+        match find(name) {
+            Some(c) => extra.push(c),
+            None => missing.push(("--keep".into(), name.clone())),
+        }
+    }
+    if !missing.is_empty() {
+        return Err(TradeError::MissingColumns {
+            path: path.to_path_buf(),
+            missing: missing.iter().map(|(f, c)| format!("'{c}' for {f}")).collect::<Vec<_>>().join(", "),
+            available: names.join(", "),
+            hint: {
+                let maps: Vec<String> = missing.iter().filter(|(f, _)| f != "--keep").map(|(f, _)| format!("--map {f}=<column>")).collect();
+                match maps.len() {
+                    0 => String::new(),
+                    1 => format!("; map it with {}", maps[0]),
+                    _ => format!("; map them with {}", maps.join(", ")),
+                }
+            },
+        });
+    }
+    Ok((out, extra))
+}
+
+/// The columns a `pnl` mapping sums: `Profit+Commission+Swap` → three.
+fn pnl_parts(name: &str) -> Vec<&str> {
+    let parts: Vec<&str> = name.split('+').map(str::trim).filter(|p| !p.is_empty()).collect();
+    if parts.len() > 1 { parts } else { vec![name] }
+}
+
+/// The P/L formation in words, for `check` and the reports.
+fn pnl_formation(opts: &TradeOptions, fees_present: bool) -> String {
+    let name = opts.columns.get("pnl").map(String::as_str).unwrap_or("pnl");
+    let mut s = pnl_parts(name).join(" + ");
+    if fees_present {
+        s.push_str(&format!(" − |{}|", opts.columns.get("fees").map(String::as_str).unwrap_or("fees")));
+    }
+    s
 }
 
 struct RowError {
@@ -384,6 +444,8 @@ struct Row<'a> {
     run: Option<RunName<'a>>,
     side: i8,
     extras: [f64; 6],
+    /// `--keep` values, as written.
+    kept: Vec<String>,
 }
 
 /// A run as a row gives it: text, or a number (a typed Parquet column),
@@ -399,6 +461,8 @@ enum RunName<'a> {
 fn parse_row<'a>(
     present: &[bool; 12],
     cell: impl Fn(usize) -> Result<Cell<'a>, RowError>,
+    extra: impl Fn(usize) -> Result<Cell<'a>, RowError>,
+    n_pnl_parts: usize,
     opts: &TradeOptions,
     decimal_comma: bool,
     cache: &mut DayOffsetCache,
@@ -469,7 +533,19 @@ fn parse_row<'a>(
         Cell::Num(v) => v.to_string().into(),
         _ => return Err(row_err("instrument", "missing_value", "empty")),
     };
-    let pnl = number(PNL, true)?;
+    let mut pnl = number(PNL, true)?;
+    // Further P/L columns (`pnl=Profit+Commission+Swap`): summed as
+    // written; an empty one counts 0.
+    for j in 0..n_pnl_parts {
+        pnl += match extra(j)? {
+            Cell::Null => 0.0,
+            Cell::Num(v) if v.is_finite() => v,
+            Cell::Str(s) => crate::number::parse_number(s, decimal_comma)
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| row_err("pnl", "bad_number", format!("'{}' (an added P/L column) is not a number", truncate(s))))?,
+            _ => return Err(row_err("pnl", "bad_number", "an added P/L column is not a finite number")),
+        };
+    }
     let run = if present[RUN] {
         Some(match cell(RUN)? {
             Cell::Str(s) => RunName::Text(trim_fast(s)),
@@ -498,7 +574,21 @@ fn parse_row<'a>(
             extras[k - EXTRAS.start] = number(k, false)?;
         }
     }
-    Ok(Row { opened, closed, instrument, pnl, run, side, extras })
+    // Fees are a cost: positive amounts are subtracted, negative ones are
+    // already signed (pnl − |fees| either way).
+    let fees = extras[FEES - EXTRAS.start];
+    if fees.is_finite() {
+        pnl -= fees.abs();
+    }
+    let kept = (n_pnl_parts..n_pnl_parts + opts.keep.len())
+        .map(|j| match extra(j) {
+            Ok(Cell::Str(s)) => s.to_string(),
+            Ok(Cell::Num(v)) => v.to_string(),
+            Ok(Cell::Instant(ms)) => crate::zones::format_utc(ms),
+            _ => String::new(),
+        })
+        .collect();
+    Ok(Row { opened, closed, instrument, pnl, run, side, extras, kept })
 }
 
 /// Rows of one block (or one whole table), with names interned locally so
@@ -521,6 +611,8 @@ struct Part {
     run_names: Interner,
     side: Vec<i8>,
     extras: [Vec<f64>; 6],
+    /// `--keep` values, one vector per kept column.
+    kept: Vec<Vec<String>>,
     /// Record index within the part, from 0.
     row: Vec<u32>,
     rows_read: usize,
@@ -548,6 +640,7 @@ impl Part {
         for e in &mut self.extras {
             e.clear();
         }
+        self.kept.clear();
         self.row.clear();
         self.rows_read = 0;
         self.rejected = 0;
@@ -601,6 +694,12 @@ impl Part {
                 for k in EXTRAS {
                     if present[k] {
                         self.extras[k - EXTRAS.start].push(r.extras[k - EXTRAS.start]);
+                    }
+                }
+                if !r.kept.is_empty() {
+                    self.kept.resize_with(r.kept.len(), Vec::new);
+                    for (column, value) in self.kept.iter_mut().zip(r.kept) {
+                        column.push(value);
                     }
                 }
                 self.row.push(index as u32);
@@ -688,6 +787,16 @@ impl Sink {
                 if present[k] { v.extend_from_slice(values) } else { v.extend(std::iter::repeat_n(f64::NAN, n)) }
             }
         }
+        if !part.kept.is_empty() || !t.kept.is_empty() {
+            let width = part.kept.len().max(t.kept.len());
+            t.kept.resize_with(width, || vec![String::new(); n_before]);
+            for (k, column) in t.kept.iter_mut().enumerate() {
+                match part.kept.get_mut(k) {
+                    Some(values) if values.len() == n => column.append(values),
+                    _ => column.extend(std::iter::repeat_n(String::new(), n)),
+                }
+            }
+        }
         t.file.extend(std::iter::repeat_n(self.file_index, n));
         let base = self.file_rows;
         t.row.extend(part.row.iter().map(|&r| (base + r as usize + 1) as u32));
@@ -742,7 +851,8 @@ fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(),
 fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
     const PIECE: usize = 1 << 16;
     let names = table.names();
-    let sources = slots(&names, path, opts, |name| table.column(name))?;
+    let (sources, extra) = slots(&names, path, opts, |name| table.column(name))?;
+    let n_pnl_parts = extra.len() - opts.keep.len();
     let present: [bool; 12] = std::array::from_fn(|k| sources[k].is_some());
     if sink.file_rows == 0 {
         let epoch = match opts.time_format {
@@ -772,7 +882,7 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
             part.reserve(hi - lo, &present);
             let mut cache = DayOffsetCache::default();
             for i in lo..hi {
-                let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), opts, false, &mut cache);
+                let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), |j| Ok(extra[j].get(i)), n_pnl_parts, opts, false, &mut cache);
                 part.take(i - lo, row, &present);
             }
             part
@@ -814,7 +924,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
             truncate(only), (sep as char).escape_default(), (d as char).escape_default(), (d as char).escape_default()
         )));
     }
-    let columns = slots(names, path, opts, |name| names.iter().position(|n| n == name))?;
+    let (columns, extra) = slots(names, path, opts, |name| names.iter().position(|n| n == name))?;
     let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
     for k in [OPENED, CLOSED] {
         let read_as = match &opts.time_format {
@@ -851,7 +961,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
             .par_iter()
             .zip(fresh)
             .enumerate()
-            .map(|(b, (block, part))| parse_block(block, part, sep, width, &columns, &present, opts, last_batch && b + 1 == n_blocks))
+            .map(|(b, (block, part))| parse_block(block, part, sep, width, &columns, &extra, &present, opts, last_batch && b + 1 == n_blocks))
             .collect();
         spare_blocks.append(&mut pending);
         for p in parts {
@@ -883,10 +993,12 @@ fn parse_block(
     sep: u8,
     width: usize,
     columns: &Slots<usize>,
+    extra: &[usize],
     present: &[bool; 12],
     opts: &TradeOptions,
     last_in_file: bool,
 ) -> Result<Part, (usize, usize)> {
+    let n_pnl_parts = extra.len() - opts.keep.len();
     part.reserve(memchr::memchr_iter(b'\n', block).count() + 1, present);
     let mut cache = DayOffsetCache::default();
     let mut rec = Record::default();
@@ -914,12 +1026,15 @@ fn parse_block(
                 } else if !rec.has_escapes() {
                     // The common case: every field's text is its bytes.
                     let cell = |k: usize| columns[k].map_or(Ok(Cell::Null), |c| text_cell(rec.raw(block, c), FIELDS[k]));
-                    let row = parse_row(present, cell, opts, sep != b',', &mut cache);
+                    let more = |j: usize| text_cell(rec.raw(block, extra[j]), if j < n_pnl_parts { "pnl" } else { "kept" });
+                    let row = parse_row(present, cell, more, n_pnl_parts, opts, sep != b',', &mut cache);
                     part.take(index, row, present);
                 } else {
                     let cells: [std::borrow::Cow<[u8]>; 12] =
                         std::array::from_fn(|k| columns[k].map_or(std::borrow::Cow::Borrowed(&b""[..]), |c| rec.field(block, c)));
-                    let row = parse_row(present, |k| text_cell(&cells[k], FIELDS[k]), opts, sep != b',', &mut cache);
+                    let more_cells: Vec<std::borrow::Cow<[u8]>> = extra.iter().map(|&c| rec.field(block, c)).collect();
+                    let more = |j: usize| text_cell(&more_cells[j], if j < n_pnl_parts { "pnl" } else { "kept" });
+                    let row = parse_row(present, |k| text_cell(&cells[k], FIELDS[k]), more, n_pnl_parts, opts, sep != b',', &mut cache);
                     part.take(index, row, present);
                 }
                 index += 1;

@@ -42,6 +42,10 @@ pub struct TradeArgs {
     /// 8G; default: the memory available when the run starts).
     #[arg(long, value_name = "SIZE")]
     pub max_memory: Option<String>,
+    /// Your own columns to carry unchanged into the per-trade outputs
+    /// (trades.csv / trades.parquet), e.g. --keep Ticket,Comment.
+    #[arg(long, value_name = "COLUMN,...", value_delimiter = ',')]
+    pub keep: Vec<String>,
 }
 
 /// Where the release calendar comes from and how to read it.
@@ -148,6 +152,7 @@ pub fn trade_options(t: &TradeArgs, rows: &RowArgs) -> Result<TradeOptions> {
         columns,
         delimiter: delimiter_byte(t.delimiter)?,
         skip_bad_rows: rows.skip_bad_rows,
+        keep: t.keep.iter().map(|k| k.trim().to_string()).filter(|k| !k.is_empty()).collect(),
     })
 }
 

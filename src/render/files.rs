@@ -59,6 +59,10 @@ impl AnnotatedTrades<'_> {
         let t = self.trades;
         let mut s = String::with_capacity(t.len() * 120);
         s.push_str(&TRADE_COLUMNS.join(","));
+        for name in &t.kept_names {
+            s.push(',');
+            s.push_str(&csv_field(name));
+        }
         s.push('\n');
         for i in 0..t.len() {
             let near = self.nearest(i);
@@ -79,6 +83,14 @@ impl AnnotatedTrades<'_> {
                 near.map(|r| r.tier.as_str()).unwrap_or(""),
                 opt_num(self.exposure.minutes_from_nearest[i]),
             );
+            if !t.kept.is_empty() {
+                s.pop();
+                for column in &t.kept {
+                    s.push(',');
+                    s.push_str(&csv_field(&column[i]));
+                }
+                s.push('\n');
+            }
         }
         s.into_bytes()
     }
@@ -109,6 +121,9 @@ impl AnnotatedTrades<'_> {
                 ),
             ],
         )?;
+        for (name, values) in t.kept_names.iter().zip(&t.kept) {
+            df.with_column(Column::new(name.as_str().into(), values.clone()))?;
+        }
         let mut buf = Vec::new();
         ParquetWriter::new(&mut buf).finish(&mut df)?;
         Ok(buf)

@@ -40,6 +40,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         ("trade files", t.files.join(", ")),
         ("trade rows read / imported / rejected", format!("{} / {} / {}", t.rows_read, t.rows_imported, t.rows_rejected)),
         ("trade time zone", t.input_tz.clone()),
+        ("P/L per trade", t.pnl_formed_as.clone()),
         ("calendar files", c.files.join(", ")),
         ("releases / used / touched", format!("{} / {} / {}", c.releases, s.exposure.releases_used, s.exposure.releases_touched)),
         ("calendar time zone", c.calendar_tz.clone()),

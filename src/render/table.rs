@@ -33,6 +33,7 @@ pub fn check(r: &CheckReport) -> String {
         let i = &t.import;
         let _ = writeln!(out, "Trades: {} file(s)", i.files.len());
         let _ = writeln!(out, "  rows read {}, imported {}, rejected {}", i.rows_read, i.rows_imported, i.rows_rejected);
+        let _ = writeln!(out, "  P/L per trade = {}", i.pnl_formed_as);
         if let (Some(u), Some(z)) = (&t.span_utc, &t.span_input_zone) {
             let _ = writeln!(out, "  span (UTC)        {} → {}", u[0], u[1]);
             if t.input_zone.to_string() != "UTC" {
@@ -199,6 +200,7 @@ pub fn analyze(s: &Summary) -> String {
         super::label(&s.settings.scenario.sizing),
         s.settings.report_tz
     );
+    let _ = writeln!(out, "P/L per trade = {}", s.inputs.trades.pnl_formed_as);
     for warning in &s.warnings {
         let _ = writeln!(out, "WARNING {warning}");
     }
