@@ -25,6 +25,11 @@ pub struct AnalysisSettings {
     pub tcr_p: f64,
     /// TCR above which a result "leans on a handful of trades".
     pub tcr_threshold: f64,
+    /// The calendar's real coverage as the user states it
+    /// (`--calendar-span`, ms, end exclusive); else each currency's first
+    /// to last release. Shown in the coverage lines.
+    #[serde(skip)]
+    pub calendar_span: Option<(i64, i64)>,
 }
 
 /// Where the default TCR threshold comes from (SPEC §6).
@@ -229,14 +234,15 @@ pub fn analyze(
     // Exposure beside the close-order sort and the coverage (independent
     // passes).
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
-    let ((engine, exp), (order, coverage)) = rayon::join(
+    let ((engine, exp), order) = rayon::join(
         || exposure_of(trades, releases, &cur, &settings.windows, settings.exposure_rule, files),
         || {
             let mut order: Vec<u32> = (0..trades.len() as u32).collect();
             scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-            (order, exposure::coverage(releases, &trades.opened, &trades.closed, &trades.pnl, &trades.instrument, &cur))
+            order
         },
     );
+    let coverage = exposure::coverage(releases, trades, &cur, &exp.k, settings.calendar_span);
     crate::phases::mark("exposure, close order");
     let exposed = |i: usize| exp.k[i] > 0;
     let base_ctx = Context { span, report_zone: settings.report_tz, initial_equity: None, tcr_p: settings.tcr_p };

@@ -292,29 +292,38 @@ pub fn partition_point_near<T>(slice: &[T], hint: usize, pred: impl Fn(&T) -> bo
 }
 
 /// How far the calendar reaches for one currency, and which trades it
-/// cannot judge.
+/// cannot judge on that currency.
 #[derive(Debug, Clone, Serialize)]
 pub struct CoverageLine {
     pub currency: String,
-    /// First and last UTC day holding a release of this currency (whole
-    /// days, inclusive); `None` when the calendar has none.
+    /// First and last UTC day covered (whole days, inclusive): the stated
+    /// `--calendar-span`, else the days of this currency's first and last
+    /// release; `None` when the calendar has no release of it.
     pub calendar_from: Option<String>,
     pub calendar_to: Option<String>,
+    /// `releases` (first to last release) or `--calendar-span`.
+    pub coverage_from: &'static str,
     /// Trades of an instrument with this currency that open before the
     /// first day or close after the last day.
     pub trades_outside: usize,
     pub pnl_outside: f64,
+    /// Of those, the trades exposed all the same (on the instrument's other
+    /// currency), and their P/L; the rest count as unexposed unjudged.
+    pub exposed_outside: usize,
+    pub exposed_pnl_outside: f64,
+    /// Trades outside, per instrument (instrument, trades).
+    pub by_instrument: Vec<(String, usize)>,
 }
 
 /// Coverage per trade currency (SPEC §2). Trades outside stay in every
-/// scenario as unexposed; reports warn about them.
+/// scenario (exposed only if another currency of theirs matched); reports
+/// say exactly which.
 pub fn coverage(
     releases: &[Release],
-    opened: &[i64],
-    closed: &[i64],
-    pnl: &[f64],
-    instrument: &[u32],
+    trades: &crate::trades::Trades,
     instrument_currencies: &[Vec<String>],
+    k: &[u32],
+    stated: Option<(i64, i64)>,
 ) -> Vec<CoverageLine> {
     let mut span: HashMap<&str, (i64, i64)> = HashMap::new();
     for r in releases {
@@ -330,34 +339,56 @@ pub fn coverage(
     // each sum adds in the same order whatever the currency count).
     let days: Vec<Option<(i64, i64)>> = all
         .iter()
-        .map(|cur| span.get(cur.as_str()).map(|&(a, b)| (a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS)))
+        .map(|cur| {
+            let released = span.get(cur.as_str())?;
+            Some(stated.unwrap_or((released.0.div_euclid(DAY_MS) * DAY_MS, (released.1.div_euclid(DAY_MS) + 1) * DAY_MS)))
+        })
         .collect();
     let of_instrument: Vec<Vec<usize>> = instrument_currencies
         .iter()
         .map(|cs| cs.iter().filter_map(|c| all.binary_search(&c).ok()).collect())
         .collect();
-    let mut outside = vec![(0usize, 0.0f64); all.len()];
+    #[derive(Default, Clone)]
+    struct Outside {
+        trades: usize,
+        pnl: f64,
+        exposed: usize,
+        exposed_pnl: f64,
+        by_instrument: std::collections::BTreeMap<u32, usize>,
+    }
+    let mut outside = vec![Outside::default(); all.len()];
+    let (opened, closed, pnl) = (&trades.opened, &trades.closed, &trades.pnl);
     for i in 0..opened.len() {
-        for &c in &of_instrument[instrument[i] as usize] {
+        for &c in &of_instrument[trades.instrument[i] as usize] {
             let out = match days[c] {
                 None => true,
                 Some((a, b)) => opened[i] < a || closed[i] >= b,
             };
             if out {
-                outside[c].0 += 1;
-                outside[c].1 += pnl[i];
+                let o = &mut outside[c];
+                o.trades += 1;
+                o.pnl += pnl[i];
+                if k[i] > 0 {
+                    o.exposed += 1;
+                    o.exposed_pnl += pnl[i];
+                }
+                *o.by_instrument.entry(trades.instrument[i]).or_default() += 1;
             }
         }
     }
     all.iter()
         .zip(days)
         .zip(outside)
-        .map(|((cur, d), (trades_outside, pnl_outside))| CoverageLine {
+        .map(|((cur, d), o)| CoverageLine {
             currency: (*cur).clone(),
             calendar_from: d.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
             calendar_to: d.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
-            trades_outside,
-            pnl_outside,
+            coverage_from: if stated.is_some() { "--calendar-span" } else { "releases" },
+            trades_outside: o.trades,
+            pnl_outside: o.pnl,
+            exposed_outside: o.exposed,
+            exposed_pnl_outside: o.exposed_pnl,
+            by_instrument: o.by_instrument.into_iter().map(|(i, n)| (trades.instruments[i as usize].clone(), n)).collect(),
         })
         .collect()
 }

@@ -165,18 +165,7 @@ impl Summary {
 /// and skipped rows.
 fn warnings(inputs: &Inputs, a: &Analysis) -> Vec<String> {
     let mut w = Vec::new();
-    for c in &a.coverage {
-        if c.trades_outside > 0 {
-            let span = match (&c.calendar_from, &c.calendar_to) {
-                (Some(f), Some(t)) => format!("covers {f} to {t}"),
-                _ => "has no releases".to_string(),
-            };
-            w.push(format!(
-                "COVERAGE: the calendar {span} for {}; {} trade(s) with P/L {:.2} fall outside it and are counted as unexposed without being judged",
-                c.currency, c.trades_outside, c.pnl_outside
-            ));
-        }
-    }
+    w.extend(coverage_warnings(&a.coverage));
     if inputs.trades.rows_rejected > 0 {
         w.push(format!(
             "SKIPPED: {} trade row(s) rejected and left out ({})",
@@ -192,6 +181,43 @@ fn warnings(inputs: &Inputs, a: &Analysis) -> Vec<String> {
         ));
     }
     w
+}
+
+/// One warning per currency the calendar does not cover for every trade:
+/// how many trades (of which instruments) fall outside, how many of them
+/// were exposed on another currency all the same, and how many count as
+/// unexposed without being judged.
+pub fn coverage_warnings(lines: &[crate::exposure::CoverageLine]) -> Vec<String> {
+    lines
+        .iter()
+        .filter(|c| c.trades_outside > 0)
+        .map(|c| {
+            let span = match (&c.calendar_from, &c.calendar_to) {
+                (Some(f), Some(t)) if c.coverage_from == "releases" => {
+                    format!("covers {f} to {t} (first to last release; state its real span with --calendar-span)")
+                }
+                (Some(f), Some(t)) => format!("covers {f} to {t} (--calendar-span)"),
+                _ => "has no releases".to_string(),
+            };
+            let instruments = c.by_instrument.iter().map(|(i, n)| format!("{i} {n}")).collect::<Vec<_>>().join(", ");
+            let unjudged = c.trades_outside - c.exposed_outside;
+            let mut text = format!(
+                "COVERAGE: the calendar {span} for {}; {} trade(s) with P/L {:.2} fall outside it ({instruments}) and could not be judged on {}",
+                c.currency, c.trades_outside, c.pnl_outside, c.currency
+            );
+            if c.exposed_outside > 0 {
+                text.push_str(&format!(
+                    "; {} of them (P/L {:.2}) were exposed on the instrument's other currency, the other {unjudged} (P/L {:.2}) count as unexposed",
+                    c.exposed_outside,
+                    c.exposed_pnl_outside,
+                    c.pnl_outside - c.exposed_pnl_outside
+                ));
+            } else {
+                text.push_str(&format!("; all {unjudged} count as unexposed"));
+            }
+            text
+        })
+        .collect()
 }
 
 fn reasons(m: &BTreeMap<String, usize>) -> String {

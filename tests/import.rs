@@ -58,8 +58,27 @@ fn several_files_become_runs_and_epoch_times_read() {
     // The calendar has only 2024-03-08 for USD and nothing for EUR: both
     // trades fall outside some coverage, and the warning says so.
     let warnings: Vec<&str> = j["warnings"].as_array().unwrap().iter().map(|w| w.as_str().unwrap()).collect();
-    assert!(warnings.iter().any(|w| w.contains("no releases for EUR") && w.contains("2 trade(s)")), "{warnings:?}");
-    assert!(warnings.iter().any(|w| w.contains("covers 2024-03-08 to 2024-03-08 for USD") && w.contains("1 trade(s)")), "{warnings:?}");
+    // The EUR line says exactly what happened: the set-a trade was judged
+    // (and exposed) on USD, only the set-b trade counts as unexposed
+    // unjudged (it once said both were "counted as unexposed").
+    assert!(
+        warnings.contains(&"COVERAGE: the calendar has no releases for EUR; 2 trade(s) with P/L 12.00 fall outside it (EURUSD 2) and could not be judged on EUR; 1 of them (P/L 5.00) were exposed on the instrument's other currency, the other 1 (P/L 7.00) count as unexposed"),
+        "{warnings:?}"
+    );
+    assert!(warnings.iter().any(|w| w.contains("covers 2024-03-08 to 2024-03-08 (first to last release; state its real span with --calendar-span) for USD") && w.contains("1 trade(s)")), "{warnings:?}");
+    // Stating the calendar's real span covers the set-b trade for USD.
+    let o = bin()
+        .current_dir(dir.path())
+        .args(["analyze", "--trades", "set-*.csv", "--calendar", "c.csv", "--time-format", "epoch-s", "--json", "--placebo", "0", "--bootstrap", "0", "--calendar-span", "2024-03-01..2024-03-31"])
+        .output()
+        .unwrap();
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let warnings: Vec<&str> = j["warnings"].as_array().unwrap().iter().map(|w| w.as_str().unwrap()).collect();
+    assert_eq!(warnings.len(), 1, "{warnings:?}");
+    assert!(warnings[0].starts_with("COVERAGE: the calendar has no releases for EUR"));
+    let usd = j["coverage"].as_array().unwrap().iter().find(|c| c["currency"] == "USD").unwrap();
+    assert_eq!((usd["calendar_from"].as_str(), usd["calendar_to"].as_str(), usd["coverage_from"].as_str()), (Some("2024-03-01"), Some("2024-03-31"), Some("--calendar-span")));
+    assert_eq!(usd["trades_outside"], 0);
 }
 
 #[test]

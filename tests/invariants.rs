@@ -178,6 +178,7 @@ fn settings() -> AnalysisSettings {
         report_tz: "Europe/London".parse().unwrap(),
         tcr_p: 1.0,
         tcr_threshold: 12.0,
+        calendar_span: None,
     }
 }
 

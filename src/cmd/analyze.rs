@@ -50,7 +50,8 @@ pub enum TradesFormat {
 
 pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     // Resolve every flag before reading data.
-    let settings = args.scenario.settings(&args.windows)?;
+    let mut settings = args.scenario.settings(&args.windows)?;
+    settings.calendar_span = args.input.calendar.stated_span()?;
     let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
     let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings, args.out.is_some())?;

@@ -77,6 +77,12 @@ pub struct CalendarArgs {
     /// such rows become all-day releases.
     #[arg(long, value_name = "WORD,...", value_delimiter = ',')]
     pub untimed: Vec<String>,
+    /// The calendar's real coverage, FROM..TO (YYYY-MM-DD, UTC, inclusive):
+    /// trades inside it count as judged even where a currency's first or
+    /// last release lies further in (default: each currency's first to last
+    /// release).
+    #[arg(long, value_name = "FROM..TO")]
+    pub calendar_span: Option<String>,
     /// JSON rules mapping title patterns to currency, tier and category.
     #[arg(long, value_name = "JSON")]
     pub rules: Option<PathBuf>,
@@ -90,6 +96,17 @@ pub struct CalendarArgs {
 }
 
 impl CalendarArgs {
+    /// `--calendar-span FROM..TO` as [from, to + 1 day) in ms.
+    pub fn stated_span(&self) -> Result<Option<(i64, i64)>> {
+        let Some(spec) = &self.calendar_span else { return Ok(None) };
+        let (a, b) = spec.split_once("..").with_context(|| format!("--calendar-span '{spec}' is not FROM..TO, e.g. 2022-01-01..2024-09-30"))?;
+        let (from, to) = (parse_day("calendar-span", a)?, parse_day("calendar-span", b)? + DAY_MS);
+        if to <= from {
+            bail!("--calendar-span '{spec}': the end comes before the start");
+        }
+        Ok(Some((from, to)))
+    }
+
     /// The zone named by `--calendar-tz`, or UTC.
     pub fn calendar_tz(&self) -> &str {
         self.calendar_tz.as_deref().unwrap_or("UTC")
@@ -297,6 +314,7 @@ impl ScenarioArgs {
             bail!("--initial-equity {e} must be a positive amount");
         }
         Ok(crate::analysis::AnalysisSettings {
+            calendar_span: None,
             exposure_rule: windows.rule,
             windows: windows.settings()?,
             scenario: crate::scenarios::ScenarioSettings {

@@ -79,7 +79,8 @@ pub struct RankReport {
 }
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
-    let settings = args.scenario.settings(&args.windows)?;
+    let mut settings = args.scenario.settings(&args.windows)?;
+    settings.calendar_span = args.input.calendar.stated_span()?;
     let loaded = args.input.load("rank", &args.terminal)?;
     let trades = &loaded.trades;
     if !trades.has_runs() {

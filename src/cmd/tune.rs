@@ -65,7 +65,8 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         None => None,
         Some(t) => Some(Tier::parse(t).ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?),
     };
-    let settings = args.scenario.settings(&args.windows)?;
+    let mut settings = args.scenario.settings(&args.windows)?;
+    settings.calendar_span = args.input.calendar.stated_span()?;
     let loaded = args.input.load("tune", &args.terminal)?;
     let trades = &loaded.trades;
     let cal = &loaded.calendar;
