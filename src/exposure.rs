@@ -388,7 +388,12 @@ pub fn coverage(
             pnl_outside: o.pnl,
             exposed_outside: o.exposed,
             exposed_pnl_outside: o.exposed_pnl,
-            by_instrument: o.by_instrument.into_iter().map(|(i, n)| (trades.instruments[i as usize].clone(), n)).collect(),
+            by_instrument: {
+                // By name, whatever the order instruments first appear in.
+                let mut v: Vec<(String, usize)> = o.by_instrument.into_iter().map(|(i, n)| (trades.instruments[i as usize].clone(), n)).collect();
+                v.sort();
+                v
+            },
         })
         .collect()
 }

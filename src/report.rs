@@ -164,8 +164,14 @@ impl Summary {
 /// Loud warnings every output repeats: trades the calendar cannot judge,
 /// and skipped rows.
 fn warnings(inputs: &Inputs, a: &Analysis) -> Vec<String> {
+    input_warnings(inputs, &a.coverage)
+}
+
+/// The warnings every command shows (terminal, JSON, HTML) and that make
+/// it exit with status 3: trades the calendar cannot judge, skipped rows.
+pub fn input_warnings(inputs: &Inputs, coverage: &[crate::exposure::CoverageLine]) -> Vec<String> {
     let mut w = Vec::new();
-    w.extend(coverage_warnings(&a.coverage));
+    w.extend(coverage_warnings(coverage));
     if inputs.trades.rows_rejected > 0 {
         w.push(format!(
             "SKIPPED: {} trade row(s) rejected and left out ({})",

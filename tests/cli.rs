@@ -83,7 +83,8 @@ yesterday,2024-03-08 14:00,EURUSD,5\n\
     assert!(e.contains("t.csv row 4: pnl: empty"), "{e}");
     assert!(e.contains("t.csv row 5: pnl: 'abc' is not a number"), "{e}");
     let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--skip-bad-rows", "--json"], dir.path());
-    assert!(o.status.success(), "{}", stderr(&o));
+    // Completed, with rows skipped: status 3 (README), in every command.
+    assert_eq!(o.status.code(), Some(3), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let t = &j["inputs"]["trades"];
     assert_eq!((t["rows_read"].as_u64(), t["rows_imported"].as_u64(), t["rows_rejected"].as_u64()), (Some(6), Some(2), Some(4)));

@@ -107,7 +107,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             crate::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
         }
     }
-    Ok(std::process::ExitCode::SUCCESS)
+    Ok(common::exit_status(&summary.warnings))
 }
 
 /// Placebo test and bootstrap intervals, with progress bars.

@@ -408,6 +408,24 @@ impl Loaded {
     pub fn currency_lists(&self) -> Vec<Vec<String>> {
         self.currencies.iter().map(|c| c.currencies.clone()).collect()
     }
+
+    /// The warnings of these inputs under these settings (coverage needs the
+    /// exposure at the settings' windows: one pass of the engine).
+    pub fn warnings(&self, input: &InputArgs, settings: &crate::analysis::AnalysisSettings) -> Vec<String> {
+        let cur = self.currency_lists();
+        let engine = crate::exposure::Engine::new(&self.calendar.releases, &settings.windows, settings.exposure_rule);
+        let t = &self.trades;
+        let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, &cur);
+        let coverage = crate::exposure::coverage(&self.calendar.releases, t, &cur, &exp.k, settings.calendar_span);
+        let inputs = crate::report::Inputs::new(&self.trade_summary, input.trades.trades_tz.clone(), &self.calendar.summary, input.calendar.calendar_tz().to_string());
+        crate::report::input_warnings(&inputs, &coverage)
+    }
+}
+
+/// Exit status 3 when the run completed but needs attention (warnings:
+/// rows rejected, trades the calendar cannot judge), else 0 (README).
+pub fn exit_status(warnings: &[String]) -> std::process::ExitCode {
+    if warnings.is_empty() { std::process::ExitCode::SUCCESS } else { std::process::ExitCode::from(3) }
 }
 
 impl InputArgs {

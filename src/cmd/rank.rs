@@ -72,6 +72,8 @@ pub struct RankReport {
     pub by: RankBy,
     pub settings: crate::analysis::AnalysisSettings,
     pub runs_total: usize,
+    /// What needs attention (coverage, skipped rows); also exit status 3.
+    pub warnings: Vec<String>,
     /// `amount` or `return`: what tcr_baseline / tcr_removed are measured on.
     pub tcr_basis: crate::scenarios::TailBasis,
     pub runs: Vec<RunRow>,
@@ -94,6 +96,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let mut rows = rank::rank(trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
     pb.finish_and_clear();
     let total = rows.len();
+    let warnings = loaded.warnings(&args.input, &settings);
     let tcr_basis = rows.first().map(|r| r.tcr_basis).unwrap_or_default();
     rows.retain(|r| r.trades >= args.min_trades);
     match args.sort {
@@ -112,17 +115,17 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades").map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
-        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs", rows.len()), &[fig], CAUTION);
+        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs", rows.len()), &warnings, &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;
     }
     if let Some(n) = args.top {
         rows.truncate(n);
     }
-    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, tcr_basis, runs: rows, caution: CAUTION };
+    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, warnings, tcr_basis, runs: rows, caution: CAUTION };
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
         crate::output::stdout(crate::render::table::rank(&report).as_bytes())?;
     }
-    Ok(std::process::ExitCode::SUCCESS)
+    Ok(common::exit_status(&report.warnings))
 }

@@ -102,8 +102,13 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
         }
         pairs.push((c.clone(), vec![c]));
     }
+    let warnings = schedule_warnings(&cal, &pairs, range, args.calendar.stated_span()?, windows.include_all_day);
     let settings = ScheduleSettings { windows, merge_gap_min: args.merge_gap.max(0), flat_min: args.flat, range };
     let list = schedule::build(&cal.releases, &pairs, &settings);
+    // On standard error, so that a piped schedule stays clean data.
+    for w in &warnings {
+        eprintln!("WARNING {w}");
+    }
     let bytes = match args.format {
         Format::Table => crate::render::schedule::table(&list, &zone).into_bytes(),
         Format::Csv => crate::render::schedule::csv(&list, &zone),
@@ -121,5 +126,61 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
             crate::output::stdout(&bytes)?;
         }
     }
-    Ok(std::process::ExitCode::SUCCESS)
+    Ok(common::exit_status(&warnings))
+}
+
+/// What a schedule cannot promise: days of the requested range the calendar
+/// does not cover (per currency: its first to last release, or the stated
+/// `--calendar-span`), high-tier all-day releases left out, skipped rows.
+fn schedule_warnings(
+    cal: &crate::calendar::Calendar,
+    pairs: &[(String, Vec<String>)],
+    range: (i64, i64),
+    stated: Option<(i64, i64)>,
+    all_day_used: bool,
+) -> Vec<String> {
+    let mut w = Vec::new();
+    let mut currencies: Vec<&String> = pairs.iter().flat_map(|p| &p.1).collect();
+    currencies.sort();
+    currencies.dedup();
+    let day = |ms: i64| crate::zones::format_utc(ms)[..10].to_string();
+    for c in currencies {
+        let of: Vec<i64> = cal.releases.iter().filter(|r| &r.currency == c).map(|r| r.at).collect();
+        let covered = match (stated, of.iter().min(), of.iter().max()) {
+            (Some(s), Some(_), _) => Some(s),
+            (None, Some(&a), Some(&b)) => Some((a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS)),
+            _ => None,
+        };
+        match covered {
+            None => w.push(format!("the calendar has no releases for {c}: the schedule holds no windows for it")),
+            Some((a, b)) if range.0 < a || range.1 > b => {
+                let whole = range.1 <= a || range.0 >= b;
+                w.push(format!(
+                    "the calendar covers {} to {} for {c}{}; the requested {} to {} lies {} outside it, so windows there may be missing",
+                    day(a),
+                    day(b - DAY_MS),
+                    if stated.is_some() { " (--calendar-span)" } else { " (first to last release)" },
+                    day(range.0),
+                    day(range.1 - 1),
+                    if whole { "wholly" } else { "partly" }
+                ));
+            }
+            Some(_) => {}
+        }
+    }
+    if !all_day_used {
+        let wanted: Vec<&String> = pairs.iter().flat_map(|p| &p.1).collect();
+        let left = cal
+            .releases
+            .iter()
+            .filter(|r| r.all_day && r.tier == crate::calendar::Tier::High && r.end > range.0 && r.at < range.1 && wanted.contains(&&r.currency))
+            .count();
+        if left > 0 {
+            w.push(format!("{left} high-tier all-day release(s) in the range are left out (no fixed time); --all-day blocks their whole local day"));
+        }
+    }
+    if cal.summary.rows_rejected > 0 {
+        w.push(format!("SKIPPED: {} calendar row(s) rejected and left out", cal.summary.rows_rejected));
+    }
+    w
 }

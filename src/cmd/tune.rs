@@ -53,6 +53,8 @@ pub struct TuneArgs {
 pub struct TuneReport {
     pub tool: ToolInfo,
     pub settings: crate::analysis::AnalysisSettings,
+    /// What needs attention (coverage, skipped rows); also exit status 3.
+    pub warnings: Vec<String>,
     #[serde(flatten)]
     pub result: crate::tune::TuneResult,
     pub caution: &'static str,
@@ -74,7 +76,8 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
     let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1))?;
     pb.finish_and_clear();
-    let report = TuneReport { tool: ToolInfo::current(), settings, result, caution: CAUTION };
+    let warnings = loaded.warnings(&args.input, &settings);
+    let report = TuneReport { tool: ToolInfo::current(), settings, warnings, result, caution: CAUTION };
     let json = serde_json::to_string_pretty(&report)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
@@ -86,7 +89,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
             .map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "tune", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
-        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells", res.pre.len(), res.post.len()), &[fig], CAUTION);
+        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells", res.pre.len(), res.post.len()), &report.warnings, &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;
     }
     if args.json {
@@ -94,5 +97,5 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     } else {
         crate::output::stdout(crate::render::table::tune(&report, args.frontier_only).as_bytes())?;
     }
-    Ok(std::process::ExitCode::SUCCESS)
+    Ok(common::exit_status(&report.warnings))
 }

@@ -100,8 +100,11 @@ fn strip_xml_decl(svg: &str) -> &str {
 }
 
 /// A page holding charts only (rank and tune reports).
-pub fn charts_page(title: &str, intro: &str, figures: &[Figure], caution: &str) -> String {
+pub fn charts_page(title: &str, intro: &str, warnings: &[String], figures: &[Figure], caution: &str) -> String {
     let mut h = format!("<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body><h1>{}</h1><p>{}</p>", esc(title), esc(title), esc(intro));
+    for w in warnings {
+        let _ = write!(h, "<p class=\"warn\">{}</p>", esc(w));
+    }
     for f in figures {
         let _ = write!(h, "<figure id=\"{}\">{}<figcaption>{}</figcaption></figure>", f.id, strip_xml_decl(&f.svg), esc(&f.caption));
     }

@@ -164,7 +164,11 @@ pub fn table(windows: &[Blackout], z: &Zone) -> String {
         t.add_row(vec![
             comfy_table::Cell::new(&b.instrument),
             comfy_table::Cell::new(z.to_local(b.start).format("%a %Y-%m-%d %H:%M").to_string()),
-            comfy_table::Cell::new(z.to_local(b.end).format("%H:%M").to_string()),
+            // A window that ends on a later local day shows that day.
+            comfy_table::Cell::new({
+                let (start, end) = (z.to_local(b.start), z.to_local(b.end));
+                if end.date() == start.date() { end.format("%H:%M").to_string() } else { end.format("%a %Y-%m-%d %H:%M").to_string() }
+            }),
             comfy_table::Cell::new(format_offset(z.offset_at(b.start))),
             comfy_table::Cell::new(titles(b)),
         ]);

@@ -286,6 +286,9 @@ pub fn analyze(s: &Summary) -> String {
 pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     let mut out = String::new();
     let by = super::label(&r.by);
+    for warning in &r.warnings {
+        let _ = writeln!(out, "WARNING {warning}");
+    }
     let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
     let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
     let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.");
@@ -349,6 +352,9 @@ fn basis_words(b: crate::scenarios::TailBasis) -> &'static str {
 /// The tune grid as a table (one row per cell), frontier cells marked.
 pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
     let mut out = String::new();
+    for warning in &r.warnings {
+        let _ = writeln!(out, "WARNING {warning}");
+    }
     let res = &r.result;
     let _ = writeln!(
         out,
