@@ -78,7 +78,7 @@ fn server_clock_and_zoned_calendars_across_dst() {
         .output()
         .unwrap();
     // Status 3 exactly when the run has warnings (README).
-    let summary: serde_json::Value = serde_json::from_slice(&out.stdout).expect(&String::from_utf8_lossy(&out.stderr));
+    let summary: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|_| panic!("{}", String::from_utf8_lossy(&out.stderr)));
     let warned = !summary["warnings"].as_array().unwrap().is_empty();
     assert_eq!(out.status.code(), Some(if warned { 3 } else { 0 }), "{}", String::from_utf8_lossy(&out.stderr));
     let csv = std::fs::read_to_string(p("out/trades.csv")).unwrap();
