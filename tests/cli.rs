@@ -151,6 +151,13 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
     assert!(text.lines().all(|l| l.chars().count() <= 80), "table wider than 80 columns:\n{text}");
     let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
     assert_eq!(csv.lines().count(), 51);
+    // A narrow terminal never splits a cell: each run's row stays one line
+    // of ten cells (it once wrapped at 80 columns, splitting numbers).
+    let o = common::demo("rank").env("COLUMNS", "40").args(["--placebo", "5"]).output().unwrap();
+    let text = String::from_utf8_lossy(&o.stdout);
+    let rows: Vec<&str> = text.lines().filter(|l| l.trim_start().starts_with('p') && l.trim_start()[1..].starts_with(|c: char| c.is_ascii_digit())).collect();
+    assert_eq!(rows.len(), 50, "{text}");
+    assert!(rows.iter().all(|l| l.split_whitespace().count() == 11), "{text}");
 }
 
 #[test]
@@ -171,4 +178,18 @@ fn input_larger_than_the_memory_budget_is_refused_up_front() {
     assert!(e.contains("trades.csv") && e.contains("rows need about") && e.contains("--max-memory"), "{e}");
     let o = common::demo("check").args(["--max-memory", "4G"]).output().unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
+}
+
+/// The answer sentence names the releases it speaks of when the user
+/// narrowed them (it once read the same whatever --tiers said).
+#[test]
+fn answer_sentence_reflects_the_release_selection() {
+    let first_answer = |extra: &[&str]| {
+        let o = common::demo("analyze").args(["--placebo", "0", "--bootstrap", "0"]).args(extra).env("NO_COLOR", "1").output().unwrap();
+        let text = String::from_utf8_lossy(&o.stdout).into_owned();
+        text.lines().find(|l| l.contains("were exposed to")).unwrap().to_string()
+    };
+    assert!(first_answer(&[]).contains(" used releases and made "));
+    let narrowed = first_answer(&["--tiers", "high", "--window-title", "(?i)payroll=30/90", "--window-category", "rates=off"]);
+    assert!(narrowed.contains("used releases (tiers high; category rates off; titles matching '(?i)payroll' 30/90) and made"), "{narrowed}");
 }

@@ -165,17 +165,39 @@ const METRIC_ROWS: &[Row] = &[
 ];
 
 /// The one-sentence answer.
+/// Which releases the answer speaks of, when the user narrowed or
+/// reshaped them (`--tiers`, `--window-category`, `--window-title`,
+/// `--all-day`); empty for the defaults.
+fn release_scope(w: &crate::windows::WindowSettings) -> String {
+    let mut parts = Vec::new();
+    if w.tiers.len() < 3 {
+        parts.push(format!("tiers {}", w.tiers.iter().map(|t| t.as_str()).collect::<Vec<_>>().join(", ")));
+    }
+    let shown = |win: &Option<crate::windows::Window>| win.map_or("off".to_string(), |x| format!("{}/{}", x.pre_min, x.post_min));
+    for (cat, win) in &w.by_category {
+        parts.push(format!("category {cat} {}", shown(win)));
+    }
+    for (re, win) in &w.by_title {
+        parts.push(format!("titles matching '{}' {}", re.as_str(), shown(win)));
+    }
+    if w.include_all_day {
+        parts.push("all-day releases included".into());
+    }
+    if parts.is_empty() { String::new() } else { format!(" ({})", parts.join("; ")) }
+}
+
 pub fn headline_sentence(s: &Summary) -> String {
     let h = &s.headline;
     let b = &s.scenarios.baseline;
     let r = &s.scenarios.removed;
     format!(
-        "{} of {} trades ({}) were exposed to {} of {} used releases and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}{}.",
+        "{} of {} trades ({}) were exposed to {} of {} used releases{} and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}{}.",
         s.exposure.exposed_trades,
         s.exposure.trades,
         pct(h.share_of_count),
         s.exposure.releases_touched,
         s.exposure.releases_used,
+        release_scope(&s.settings.windows),
         h.exposed_pnl,
         pct(h.share_of_net),
         h.net,
@@ -298,8 +320,11 @@ pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     if with_p {
         header.push("p");
     }
+    // Cells are never wrapped (a number split over two lines misreads):
+    // the table takes its natural width; past the terminal's width (or
+    // COLUMNS) the terminal folds whole lines instead.
     let mut t = new_table(&header);
-    t.set_width(80);
+    t.set_content_arrangement(ContentArrangement::Disabled);
     for x in &r.runs {
         let mut row = vec![
             Cell::new(&x.run),
