@@ -76,6 +76,132 @@ pub const FORMER: &[&str] = &[
     "ATS", "BEF", "CYP", "DEM", "EEK", "ESP", "FIM", "FRF", "GRD", "HRK", "IEP", "ITL", "LTL", "LUF", "LVL", "MTL", "NLG", "PTE", "SIT", "SKK",
 ];
 
+/// Country names (lower case) to codes: the ISO 3166-1 English short names
+/// of the table's countries, with the common and official names the
+/// iso-codes project records (checked against pycountry in
+/// tests/reference/make_country_fixture.py), and `EU` under "euro area",
+/// "euro zone" and "european union" (our own choice).
+const NAMES: &[(&str, &str)] = &[
+    ("argentina", "AR"),
+    ("argentine republic", "AR"),
+    ("australia", "AU"),
+    ("austria", "AT"),
+    ("belgium", "BE"),
+    ("brazil", "BR"),
+    ("bulgaria", "BG"),
+    ("canada", "CA"),
+    ("chile", "CL"),
+    ("china", "CN"),
+    ("colombia", "CO"),
+    ("croatia", "HR"),
+    ("cyprus", "CY"),
+    ("czech republic", "CZ"),
+    ("czechia", "CZ"),
+    ("denmark", "DK"),
+    ("estonia", "EE"),
+    ("euro area", "EU"),
+    ("euro zone", "EU"),
+    ("european union", "EU"),
+    ("federal republic of germany", "DE"),
+    ("federative republic of brazil", "BR"),
+    ("finland", "FI"),
+    ("france", "FR"),
+    ("french republic", "FR"),
+    ("germany", "DE"),
+    ("grand duchy of luxembourg", "LU"),
+    ("greece", "GR"),
+    ("hellenic republic", "GR"),
+    ("hong kong", "HK"),
+    ("hong kong special administrative region of china", "HK"),
+    ("hungary", "HU"),
+    ("iceland", "IS"),
+    ("india", "IN"),
+    ("indonesia", "ID"),
+    ("ireland", "IE"),
+    ("israel", "IL"),
+    ("italian republic", "IT"),
+    ("italy", "IT"),
+    ("japan", "JP"),
+    ("kingdom of belgium", "BE"),
+    ("kingdom of denmark", "DK"),
+    ("kingdom of norway", "NO"),
+    ("kingdom of saudi arabia", "SA"),
+    ("kingdom of spain", "ES"),
+    ("kingdom of sweden", "SE"),
+    ("kingdom of thailand", "TH"),
+    ("kingdom of the netherlands", "NL"),
+    ("korea, republic of", "KR"),
+    ("latvia", "LV"),
+    ("lithuania", "LT"),
+    ("luxembourg", "LU"),
+    ("malaysia", "MY"),
+    ("malta", "MT"),
+    ("mexico", "MX"),
+    ("netherlands", "NL"),
+    ("new zealand", "NZ"),
+    ("norway", "NO"),
+    ("people's republic of china", "CN"),
+    ("philippines", "PH"),
+    ("poland", "PL"),
+    ("portugal", "PT"),
+    ("portuguese republic", "PT"),
+    ("republic of austria", "AT"),
+    ("republic of bulgaria", "BG"),
+    ("republic of chile", "CL"),
+    ("republic of colombia", "CO"),
+    ("republic of croatia", "HR"),
+    ("republic of cyprus", "CY"),
+    ("republic of estonia", "EE"),
+    ("republic of finland", "FI"),
+    ("republic of iceland", "IS"),
+    ("republic of india", "IN"),
+    ("republic of indonesia", "ID"),
+    ("republic of latvia", "LV"),
+    ("republic of lithuania", "LT"),
+    ("republic of malta", "MT"),
+    ("republic of poland", "PL"),
+    ("republic of singapore", "SG"),
+    ("republic of slovenia", "SI"),
+    ("republic of south africa", "ZA"),
+    ("republic of the philippines", "PH"),
+    ("republic of türkiye", "TR"),
+    ("romania", "RO"),
+    ("saudi arabia", "SA"),
+    ("singapore", "SG"),
+    ("slovak republic", "SK"),
+    ("slovakia", "SK"),
+    ("slovenia", "SI"),
+    ("south africa", "ZA"),
+    ("south korea", "KR"),
+    ("spain", "ES"),
+    ("state of israel", "IL"),
+    ("sweden", "SE"),
+    ("swiss confederation", "CH"),
+    ("switzerland", "CH"),
+    ("taiwan", "TW"),
+    ("taiwan, province of china", "TW"),
+    ("thailand", "TH"),
+    ("türkiye", "TR"),
+    ("united arab emirates", "AE"),
+    ("united kingdom", "GB"),
+    ("united kingdom of great britain and northern ireland", "GB"),
+    ("united mexican states", "MX"),
+    ("united states", "US"),
+    ("united states of america", "US"),
+];
+
+/// The code of a country name (case-insensitive, spaces trimmed), or of a
+/// code given as is.
+pub fn code_of(text: &str) -> Option<&'static str> {
+    let t = text.trim();
+    if t.len() == 2 {
+        let upper = t.to_ascii_uppercase();
+        return COUNTRIES.iter().find(|(c, _)| *c == upper).map(|(c, _)| *c);
+    }
+    let lower = t.to_lowercase();
+    NAMES.binary_search_by(|(n, _)| (*n).cmp(lower.as_str())).ok().map(|i| NAMES[i].1)
+}
+
 /// Whether `code` is one of the table's country codes (case-insensitive).
 pub fn is_country(code: &str) -> bool {
     code.len() == 2 && COUNTRIES.binary_search_by(|(c, _)| (*c).cmp(code.to_ascii_uppercase().as_str())).is_ok()
@@ -110,6 +236,20 @@ mod tests {
         for (country, _) in COUNTRIES {
             assert!(cases.iter().any(|c| c.0 == *country), "{country} has no CLDR check");
         }
+    }
+
+    #[test]
+    fn names_match_iso_3166_as_pycountry_has_them() {
+        assert!(NAMES.windows(2).all(|w| w[0].0 < w[1].0));
+        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/country_names.json");
+        let names: Vec<(String, String)> = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+        for (name, code) in &names {
+            assert_eq!(code_of(name), Some(code.as_str()), "{name}");
+        }
+        assert_eq!(code_of("united states of america"), Some("US"));
+        assert_eq!(code_of(" Euro Area "), Some("EU"));
+        assert_eq!(code_of("de"), Some("DE"));
+        assert_eq!(code_of("Atlantis"), None);
     }
 
     #[test]

@@ -127,18 +127,20 @@ pub fn read(
             let mut cur = text(currency.as_ref(), i).filter(|s| !s.is_empty());
             // A country code: the currency in force there on the release's
             // local date.
-            if let Some(code) = cur.as_deref().filter(|c| countries::is_country(c)) {
+            let country = cur.as_deref().and_then(countries::code_of);
+            if let Some(code) = country {
                 let day = opts.zone.local_date(at);
                 let found = countries::currency_on(code, day)
                     .ok_or(("currency", "bad_currency", format!("country '{code}' had no currency in the table on {day}")))?;
                 cur = Some(found.to_string());
             }
+            let region = text(region.as_ref(), i).filter(|s| !s.is_empty());
             let mut tr = match text(tier.as_ref(), i).filter(|s| !s.is_empty()) {
                 None => None,
                 Some(s) => Some(opts.layout.tier(&s)?),
             };
             let mut cat = text(category.as_ref(), i).filter(|s| !s.is_empty()).map(|s| s.to_lowercase());
-            opts.rules.fill(Draft { title: &t, currency: &mut cur, tier: &mut tr, category: &mut cat });
+            opts.rules.fill(Draft { title: &t, country, region: region.as_deref(), currency: &mut cur, tier: &mut tr, category: &mut cat });
             let cur = cur.ok_or(("currency", "missing_currency", "empty; add a currency or a title rule".to_string()))?;
             if !is_currency(&cur) && !countries::FORMER.contains(&cur.to_ascii_uppercase().as_str()) {
                 return Err(("currency", "bad_currency", format!("'{cur}' is not an ISO 4217 code or a known ISO 3166 country code")));
@@ -153,7 +155,7 @@ pub fn read(
                 currency: cur.to_ascii_uppercase(),
                 tier: tr,
                 category: cat,
-                region: text(region.as_ref(), i).filter(|s| !s.is_empty()),
+                region,
             })
         })();
         match row {

@@ -514,7 +514,7 @@ fn event_releases(
         category = Some(c.to_lowercase());
     }
     let region = text_of(X_REGION);
-    opts.rules.fill(Draft { title: &title, currency: &mut currency, tier: &mut tier, category: &mut category });
+    opts.rules.fill(Draft { title: &title, country: None, region: region.as_deref(), currency: &mut currency, tier: &mut tier, category: &mut category });
     let currency = currency.ok_or_else(|| {
         reject("currency", "missing_currency", format!("'{title}' has no currency: add CATEGORIES:USD, {X_CURRENCY}, or a title rule"))
     })?;

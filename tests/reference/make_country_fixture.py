@@ -49,3 +49,19 @@ with open(out, "w") as f:
     json.dump(cases, f, indent=0)
     f.write("\n")
 print(len(cases), "cases")
+
+# ISO 3166-1 English short names (and the common and official names
+# pycountry carries from the iso-codes project) of the table's countries.
+import pycountry  # pip install pycountry==26.2.16
+
+names = []
+for c in sorted(PLAIN + list(EURO)):
+    entry = pycountry.countries.get(alpha_2=c)
+    for attr in ("name", "common_name", "official_name"):
+        value = getattr(entry, attr, None)
+        if value and [value, c] not in names:
+            names.append([value, c])
+with open(os.path.join(os.path.dirname(out), "country_names.json"), "w") as f:
+    json.dump(names, f, indent=0, ensure_ascii=False)
+    f.write("\n")
+print(len(names), "names")
