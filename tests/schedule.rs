@@ -124,3 +124,28 @@ fn local_times_across_us_and_eu_changes() {
     assert_eq!((eur[1].as_str(), eur[3].as_str()), ("2024-10-27 02:35:00", "+02:00"));
     assert_eq!((eur[2].as_str(), eur[4].as_str()), ("2024-10-27 02:20:00", "+01:00"));
 }
+
+/// A window crossing local midnight shows the date it ends on, and high-tier
+/// all-day releases left out of the schedule are counted in a warning.
+#[test]
+fn midnight_crossing_windows_and_all_day_releases_are_shown() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("c.csv"),
+        "date,time,title,currency,tier\n2024-03-05,23:50,Late release,USD,high\n2024-03-06,,Holiday,USD,high\n2024-03-07,08:30,Morning,USD,high\n",
+    )
+    .unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .current_dir(dir.path())
+        .args(["schedule", "--calendar", "c.csv", "--currencies", "USD", "--from", "2024-03-05", "--to", "2024-03-07", "--tz", "UTC"])
+        .output()
+        .unwrap();
+    let (out, err) = (String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+    // 23:50 − 15 min to + 30 min: 23:35 on Tuesday to 00:20 on Wednesday.
+    let late = out.lines().find(|l| l.contains("Late release")).unwrap();
+    assert!(late.contains("Tue 2024-03-05 23:35") && late.contains("Wed 2024-03-06 00:20"), "{late}");
+    let morning = out.lines().find(|l| l.contains("Morning")).unwrap();
+    assert!(morning.contains("Thu 2024-03-07 08:15") && morning.contains(" 09:00 "), "{morning}");
+    assert!(err.contains("1 high-tier all-day release(s) in the range are left out"), "{err}");
+    assert_eq!(o.status.code(), Some(3));
+}
