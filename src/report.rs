@@ -38,6 +38,8 @@ pub struct TradeInputs {
     pub pnl_formed_as: String,
     /// How each time column was read (zone rule per file and column).
     pub time_columns: Vec<crate::trades::TimeColumn>,
+    /// Runs kept by `--run` (empty: all).
+    pub runs_selected: Vec<String>,
 }
 
 /// `inputs.calendar` (SPEC §8).
@@ -76,6 +78,7 @@ impl Inputs {
                 input_tz: trades_tz,
                 pnl_formed_as: t.pnl_formed_as.clone(),
                 time_columns: t.time_columns.clone(),
+                runs_selected: t.runs_selected.clone(),
             },
             calendar: CalendarInputs {
                 files: c.files.clone(),

@@ -103,6 +103,66 @@ impl Trades {
         }
     }
 
+    /// Only the trades of the named runs (`--run`), every column kept and
+    /// run ids renumbered in the remaining runs' order; a name that is not
+    /// a run of the input is an error naming the runs there are.
+    pub fn only_runs(self, names: &[String]) -> Result<Trades, String> {
+        let wanted: Vec<u32> = names
+            .iter()
+            .map(|n| {
+                self.runs.iter().position(|r| r == n.trim()).map(|i| i as u32).ok_or_else(|| {
+                    let mut all = self.runs.clone();
+                    all.sort_by(|a, b| run_order(a, b));
+                    if all.is_empty() {
+                        format!("--run {n}: the trades have no runs (map a run column, or give one file per run)")
+                    } else {
+                        format!("--run {n}: no such run; runs are {}", all.join(", "))
+                    }
+                })
+            })
+            .collect::<Result<_, _>>()?;
+        let keep: Vec<usize> = (0..self.len()).filter(|&i| wanted.contains(&self.run[i])).collect();
+        let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+        let mut runs_kept: Vec<u32> = wanted.clone();
+        runs_kept.sort();
+        runs_kept.dedup();
+        let new_id = |r: u32| runs_kept.iter().position(|&x| x == r).expect("kept") as u32;
+        // Instruments those runs trade, numbered by first appearance, as a
+        // file holding only these runs would number them.
+        let mut inst_map: Vec<Option<u32>> = vec![None; self.instruments.len()];
+        let mut instruments = Vec::new();
+        let instrument: Vec<u32> = keep
+            .iter()
+            .map(|&i| {
+                let old = self.instrument[i] as usize;
+                *inst_map[old].get_or_insert_with(|| {
+                    instruments.push(self.instruments[old].clone());
+                    (instruments.len() - 1) as u32
+                })
+            })
+            .collect();
+        Ok(Trades {
+            opened: keep.iter().map(|&i| self.opened[i]).collect(),
+            closed: keep.iter().map(|&i| self.closed[i]).collect(),
+            instrument,
+            pnl: pick(&self.pnl),
+            run: keep.iter().map(|&i| new_id(self.run[i])).collect(),
+            runs: runs_kept.iter().map(|&r| self.runs[r as usize].clone()).collect(),
+            side: self.side.as_ref().map(|v| keep.iter().map(|&i| v[i]).collect()),
+            size: self.size.as_deref().map(pick),
+            entry_price: self.entry_price.as_deref().map(pick),
+            exit_price: self.exit_price.as_deref().map(pick),
+            fees: self.fees.as_deref().map(pick),
+            equity_before: self.equity_before.as_deref().map(pick),
+            pnl_pct: self.pnl_pct.as_deref().map(pick),
+            file: keep.iter().map(|&i| self.file[i]).collect(),
+            row: keep.iter().map(|&i| self.row[i]).collect(),
+            kept: self.kept.iter().map(|c| keep.iter().map(|&i| c[i].clone()).collect()).collect(),
+            kept_names: self.kept_names,
+            instruments,
+        })
+    }
+
     /// Earliest open and latest close, if any trade.
     pub fn span(&self) -> Option<(i64, i64)> {
         Some((*self.opened.iter().min()?, *self.closed.iter().max()?))
@@ -135,6 +195,9 @@ pub struct TradeSummary {
     /// How each trade's P/L was formed from the columns, in words
     /// (`Profit + Commission + Swap − |Fee|`).
     pub pnl_formed_as: String,
+    /// The runs `--run` kept (empty: all); rows of other runs are imported
+    /// and then left out of every figure.
+    pub runs_selected: Vec<String>,
 }
 
 /// How one file's time column was read.

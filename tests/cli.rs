@@ -193,3 +193,42 @@ fn answer_sentence_reflects_the_release_selection() {
     let narrowed = first_answer(&["--tiers", "high", "--window-title", "(?i)payroll=30/90", "--window-category", "rates=off"]);
     assert!(narrowed.contains("used releases (tiers high; category rates off; titles matching '(?i)payroll' 30/90) and made"), "{narrowed}");
 }
+
+/// `--run p07` gives the figures of a file holding only run p07.
+#[test]
+fn run_flag_equals_a_file_of_that_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = std::fs::read_to_string(common::root().join("demo/trades.csv")).unwrap();
+    let mut lines = demo.lines();
+    let mut only = format!("{}\n", lines.next().unwrap());
+    for l in lines.filter(|l| l.starts_with("p07,")) {
+        only.push_str(l);
+        only.push('\n');
+    }
+    let p07 = dir.path().join("p07.csv");
+    std::fs::write(&p07, only).unwrap();
+    let figures = |j: &Value| {
+        let mut v = j.clone();
+        let m = v.as_object_mut().unwrap();
+        m.remove("inputs");
+        v
+    };
+    let a = common::demo("analyze").args(["--json", "--placebo", "19", "--bootstrap", "20", "--run", "p07"]).output().unwrap();
+    assert!(a.status.success(), "{}", stderr(&a));
+    let a: Value = serde_json::from_slice(&a.stdout).unwrap();
+    assert_eq!(a["inputs"]["trades"]["runs_selected"], serde_json::json!(["p07"]));
+    let cmd = common::demo("analyze");
+    let args: Vec<std::ffi::OsString> = cmd.get_args().map(|s| s.to_owned()).collect();
+    let mut b = Command::new(env!("CARGO_BIN_EXE_eventfence"));
+    for (k, arg) in args.iter().enumerate() {
+        if k > 0 && args[k - 1] == "--trades" { b.arg(&p07); } else { b.arg(arg); }
+    }
+    let b = b.args(["--json", "--placebo", "19", "--bootstrap", "20"]).output().unwrap();
+    assert!(b.status.success(), "{}", stderr(&b));
+    let b: Value = serde_json::from_slice(&b.stdout).unwrap();
+    assert_eq!(figures(&a), figures(&b));
+    assert_eq!(a["runs"].as_array().unwrap().len(), 1);
+    let e = common::demo("analyze").args(["--run", "p99"]).output().unwrap();
+    assert_eq!(e.status.code(), Some(1));
+    assert!(stderr(&e).contains("--run p99: no such run; runs are p01, p02"), "{}", stderr(&e));
+}

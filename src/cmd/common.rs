@@ -42,6 +42,10 @@ pub struct TradeArgs {
     /// 8G; default: the memory available when the run starts).
     #[arg(long, value_name = "SIZE")]
     pub max_memory: Option<String>,
+    /// Only these runs (parameter sets), comma-separated: the same figures
+    /// as a file holding only them.
+    #[arg(long = "run", value_name = "NAME,...", value_delimiter = ',')]
+    pub run: Vec<String>,
     /// Your own columns to carry unchanged into the per-trade outputs
     /// (trades.csv / trades.parquet), e.g. --keep Ticket,Comment.
     #[arg(long, value_name = "COLUMN,...", value_delimiter = ',')]
@@ -218,7 +222,13 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
     let paths = trades::expand_paths(&t.trades)?;
     let limit = t.max_memory.as_deref().map(crate::budget::parse_size).transpose()?;
     crate::budget::check(&paths, limit)?;
-    Ok(trades::load(&paths, opts)?)
+    let (trades, mut summary) = trades::load(&paths, opts)?;
+    if t.run.is_empty() {
+        return Ok((trades, summary));
+    }
+    let trades = trades.only_runs(&t.run).map_err(anyhow::Error::msg)?;
+    summary.runs_selected = trades.runs.clone();
+    Ok((trades, summary))
 }
 
 /// Loads and merges the calendar files.

@@ -314,7 +314,10 @@ pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
     let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
     let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.");
-    let _ = writeln!(out, "TCR b/r: tail concentration {}.\n", basis_words(r.tcr_basis));
+    let _ = writeln!(out, "TCR b/r: tail concentration {}.", basis_words(r.tcr_basis));
+    if let Some(first) = r.runs.first() {
+        let _ = writeln!(out, "Open one run in full: the same inputs to analyze, with --run {}.\n", first.run);
+    }
     let with_p = r.runs.iter().any(|x| x.placebo_p.is_some());
     let mut header = vec!["run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift"];
     if with_p {
