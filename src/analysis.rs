@@ -114,6 +114,86 @@ pub struct RunResult {
     pub scenarios: ScenarioMetrics,
 }
 
+/// One figure across runs: each run is an alternative account, so the
+/// account-path figures of a multi-run input are read as their spread over
+/// runs rather than from the pooled trades.
+#[derive(Debug, Clone, Serialize)]
+pub struct AcrossRuns {
+    pub metric: &'static str,
+    /// Runs where the figure is defined in both scenarios.
+    pub runs: usize,
+    pub baseline: Spread,
+    pub removed: Spread,
+    /// Share of those runs whose figure is better without the exposed
+    /// trades (higher; for drawdowns lower).
+    pub share_improved: Option<f64>,
+}
+
+/// Median, quartiles (type 7) and extremes; "best" and "worst" follow the
+/// figure's direction.
+#[derive(Debug, Clone, Serialize)]
+pub struct Spread {
+    pub median: Option<f64>,
+    pub q1: Option<f64>,
+    pub q3: Option<f64>,
+    pub best: Option<f64>,
+    pub worst: Option<f64>,
+}
+
+/// The account-path figures across runs, and the share of runs above the
+/// tail threshold with all trades and without the exposed ones.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunDistribution {
+    pub figures: Vec<AcrossRuns>,
+    pub share_above_tcr_threshold_baseline: Option<f64>,
+    pub share_above_tcr_threshold_removed: Option<f64>,
+}
+
+/// Spreads of each account-path figure over `runs` (empty without runs).
+pub fn across_runs(runs: &[RunResult], tcr_threshold: f64) -> Option<RunDistribution> {
+    if runs.len() < 2 {
+        return None;
+    }
+    type Get = fn(&Metrics) -> Option<f64>;
+    let figures: [(&'static str, Get, bool); 7] = [
+        ("sharpe", |m| m.sharpe, true),
+        ("sortino", |m| m.sortino, true),
+        ("max_drawdown", |m| Some(m.max_drawdown), false),
+        ("longest_drawdown_days", |m| Some(m.longest_drawdown_days), false),
+        ("return_to_drawdown", |m| m.return_to_drawdown, true),
+        ("t_stat", |m| m.t_stat, true),
+        ("time_in_market", |m| m.time_in_market, true),
+    ];
+    let spread = |mut v: Vec<f64>, higher: bool| {
+        let q = |v: &mut Vec<f64>, p: f64| metrics::quantile_type7_unsorted(v, p);
+        let (lo, hi) = (v.iter().copied().reduce(f64::min), v.iter().copied().reduce(f64::max));
+        Spread { median: q(&mut v, 0.5), q1: q(&mut v, 0.25), q3: q(&mut v, 0.75), best: if higher { hi } else { lo }, worst: if higher { lo } else { hi } }
+    };
+    let figures = figures
+        .iter()
+        .map(|&(metric, get, higher)| {
+            let pairs: Vec<(f64, f64)> = runs.iter().filter_map(|r| get(&r.scenarios.baseline).zip(get(&r.scenarios.removed))).collect();
+            let improved = pairs.iter().filter(|(b, r)| if higher { r > b } else { r < b }).count();
+            AcrossRuns {
+                metric,
+                runs: pairs.len(),
+                baseline: spread(pairs.iter().map(|p| p.0).collect(), higher),
+                removed: spread(pairs.iter().map(|p| p.1).collect(), higher),
+                share_improved: (!pairs.is_empty() && metric != "time_in_market").then(|| improved as f64 / pairs.len() as f64),
+            }
+        })
+        .collect();
+    let above = |get: fn(&RunResult) -> Option<f64>| {
+        let v: Vec<f64> = runs.iter().filter_map(get).collect();
+        (!v.is_empty()).then(|| v.iter().filter(|&&t| t > tcr_threshold).count() as f64 / v.len() as f64)
+    };
+    Some(RunDistribution {
+        figures,
+        share_above_tcr_threshold_baseline: above(|r| r.scenarios.baseline.tcr),
+        share_above_tcr_threshold_removed: above(|r| r.scenarios.removed.tcr),
+    })
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct Analysis {
     pub exposure: ExposureSummary,

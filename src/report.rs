@@ -120,6 +120,9 @@ pub struct Summary {
     pub headline: crate::attribution::Headline,
     pub attribution: AttributionOut,
     pub runs: Vec<RunResult>,
+    /// With several runs (alternative parameter sets, never one account):
+    /// the account-path figures as their spread across runs; null otherwise.
+    pub across_runs: Option<crate::analysis::RunDistribution>,
     pub warnings: Vec<String>,
     pub caution: &'static str,
 }
@@ -142,6 +145,7 @@ impl Summary {
         bootstrap: Option<crate::stats::BootstrapResult>,
     ) -> Summary {
         let warnings = warnings(&inputs, &a);
+        let settings_threshold = settings.tcr_threshold;
         let Attribution { by_release, by_category, by_currency, by_tier, headline } = a.attribution;
         Summary {
             tool: ToolInfo::current(),
@@ -157,6 +161,7 @@ impl Summary {
             bootstrap,
             headline,
             attribution: AttributionOut { by_release, by_category, by_currency, by_tier },
+            across_runs: crate::analysis::across_runs(&a.runs, settings_threshold),
             runs: a.runs,
             warnings,
             caution: CAUTION,

@@ -232,3 +232,40 @@ fn run_flag_equals_a_file_of_that_run() {
     assert_eq!(e.status.code(), Some(1));
     assert!(stderr(&e).contains("--run p99: no such run; runs are p01, p02"), "{}", stderr(&e));
 }
+
+/// The across-runs figures of the demo (50 runs), recomputed here from the
+/// per-run figures in the same summary: median and quartiles by linear
+/// interpolation between order statistics (numpy's default), best and
+/// worst, and the share of runs improved without the exposed trades.
+#[test]
+fn across_runs_spread_matches_the_runs() {
+    let o = common::demo("analyze").args(["--json", "--placebo", "0", "--bootstrap", "0"]).output().unwrap();
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let runs = j["runs"].as_array().unwrap();
+    let quantile = |v: &[f64], p: f64| {
+        let h = (v.len() - 1) as f64 * p;
+        let (lo, hi) = (h.floor() as usize, h.ceil() as usize);
+        v[lo] + (h - lo as f64) * (v[hi] - v[lo])
+    };
+    for (metric, higher) in [("sharpe", true), ("max_drawdown", false), ("t_stat", true)] {
+        let pairs: Vec<(f64, f64)> = runs
+            .iter()
+            .filter_map(|r| Some((r["scenarios"]["baseline"][metric].as_f64()?, r["scenarios"]["removed"][metric].as_f64()?)))
+            .collect();
+        let mut base: Vec<f64> = pairs.iter().map(|p| p.0).collect();
+        base.sort_by(f64::total_cmp);
+        let f = j["across_runs"]["figures"].as_array().unwrap().iter().find(|f| f["metric"] == metric).unwrap();
+        let close = |a: &Value, b: f64| (a.as_f64().unwrap() - b).abs() < 1e-9 * b.abs().max(1.0);
+        assert_eq!(f["runs"].as_u64().unwrap() as usize, pairs.len());
+        assert!(close(&f["baseline"]["median"], quantile(&base, 0.5)), "{metric} median");
+        assert!(close(&f["baseline"]["q1"], quantile(&base, 0.25)), "{metric} q1");
+        assert!(close(&f["baseline"]["q3"], quantile(&base, 0.75)), "{metric} q3");
+        let (lo, hi) = (base[0], base[base.len() - 1]);
+        assert!(close(&f["baseline"]["best"], if higher { hi } else { lo }), "{metric} best");
+        let improved = pairs.iter().filter(|(b, r)| if higher { r > b } else { r < b }).count() as f64 / pairs.len() as f64;
+        assert!(close(&f["share_improved"], improved), "{metric} improved");
+    }
+    let above = runs.iter().filter(|r| r["scenarios"]["baseline"]["tcr"].as_f64().is_some_and(|t| t > 12.0)).count() as f64;
+    let with_tcr = runs.iter().filter(|r| r["scenarios"]["baseline"]["tcr"].is_f64()).count() as f64;
+    assert!((j["across_runs"]["share_above_tcr_threshold_baseline"].as_f64().unwrap() - above / with_tcr).abs() < 1e-12);
+}

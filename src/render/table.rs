@@ -300,6 +300,38 @@ pub fn analyze(s: &Summary) -> String {
         }
         let _ = writeln!(out, "{t}");
     }
+    if let Some(d) = &s.across_runs {
+        let _ = writeln!(
+            out,
+            "Across runs: each run is an alternative account, while the scenario table above pools\nevery run's trades; read the account-path figures (Sharpe, Sortino, drawdowns,\nreturn/drawdown, t) here, per run:"
+        );
+        let mut t = new_table(&["figure", "runs", "median", "q1", "q3", "best", "worst", "median rem", "q1 rem", "q3 rem", "improved"]);
+        // Whole cells only: a number split over two lines misreads.
+        t.set_content_arrangement(ContentArrangement::Disabled);
+        for f in &d.figures {
+            let v = |x: Option<f64>| num(fmt_opt(x, 2));
+            t.add_row(vec![
+                Cell::new(f.metric.replace('_', " ")),
+                num(f.runs),
+                v(f.baseline.median),
+                v(f.baseline.q1),
+                v(f.baseline.q3),
+                v(f.baseline.best),
+                v(f.baseline.worst),
+                v(f.removed.median),
+                v(f.removed.q1),
+                v(f.removed.q3),
+                num(pct(f.share_improved)),
+            ]);
+        }
+        let _ = writeln!(out, "{t}");
+        let _ = writeln!(
+            out,
+            "Runs above the tail threshold: {} with all trades, {} without the exposed ones.\n",
+            pct(d.share_above_tcr_threshold_baseline),
+            pct(d.share_above_tcr_threshold_removed)
+        );
+    }
     let _ = writeln!(out, "{}", s.caution);
     out
 }
