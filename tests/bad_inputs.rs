@@ -79,12 +79,15 @@ fn every_bad_input_behaves_as_documented() {
                     fail(format!("message lacks the file name or '{}'", c.text));
                 }
             }
-            ["imported", n] | ["rejected", _, "of", n] => {
+            ["imported", n] | ["rejected", _, "of", n] | ["attention", n] => {
                 let rejected: usize = if words[0] == "rejected" { words[1].parse().unwrap() } else { 0 };
                 let read: usize = n.parse().unwrap();
-                let expect_code = if rejected > 0 { 3 } else { 0 };
+                let expect_code = if rejected > 0 || words[0] == "attention" { 3 } else { 0 };
                 if plain.status.code() != Some(expect_code) {
                     fail(format!("exit {:?}, expected {expect_code}", plain.status.code()));
+                }
+                if words[0] == "attention" && !all.contains(&c.text) {
+                    fail(format!("the output lacks '{}'", c.text));
                 }
                 if rejected > 0 && !(all.contains(&c.file) && all.contains(" row ") && all.contains(&c.text)) {
                     fail(format!("the listing lacks file, row or '{}'", c.text));

@@ -92,6 +92,16 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
             missing.sort();
             problems.push(RelevanceError::Unmapped(missing.join(", ")).to_string());
         }
+        // Coverage, as analyze reports it (its "exposed on the other
+        // currency" counts use the default windows and rule: check takes no
+        // window flags).
+        if let Some(c) = &cal {
+            let lists: Vec<Vec<String>> = resolved.iter().map(|r| r.currencies.clone()).collect();
+            let engine = crate::exposure::Engine::new(&c.releases, &crate::windows::WindowSettings::default(), crate::exposure::ExposureRule::Overlap);
+            let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, &lists);
+            let coverage = crate::exposure::coverage(&c.releases, &t, &lists, &exp.k, args.input.calendar.stated_span()?);
+            problems.extend(crate::report::coverage_warnings(&coverage));
+        }
         let zone = trade_opts.zone;
         trades = Some(TradesOverview {
             import,
