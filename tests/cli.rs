@@ -151,13 +151,28 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
     assert!(text.lines().all(|l| l.chars().count() <= 80), "table wider than 80 columns:\n{text}");
     let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
     assert_eq!(csv.lines().count(), 51);
-    // A narrow terminal never splits a cell: each run's row stays one line
-    // of ten cells (it once wrapped at 80 columns, splitting numbers).
-    let o = common::demo("rank").env("COLUMNS", "40").args(["--placebo", "5"]).output().unwrap();
-    let text = String::from_utf8_lossy(&o.stdout);
-    let rows: Vec<&str> = text.lines().filter(|l| l.trim_start().starts_with('p') && l.trim_start()[1..].starts_with(|c: char| c.is_ascii_digit())).collect();
-    assert_eq!(rows.len(), 50, "{text}");
-    assert!(rows.iter().all(|l| l.split_whitespace().count() == 11), "{text}");
+    // The terminal's width (COLUMNS here) is used, and a cell is never
+    // split (the table once wrapped at 80 columns, splitting numbers): a
+    // wide terminal gets every column, a narrow one whole columns fewer.
+    let rows_of = |columns: &str| {
+        let o = common::demo("rank").env("COLUMNS", columns).args(["--placebo", "5"]).output().unwrap();
+        let text = String::from_utf8_lossy(&o.stdout).into_owned();
+        let rows: Vec<usize> = text
+            .lines()
+            .filter(|l| l.trim_start().starts_with('p') && l.trim_start()[1..].starts_with(|c: char| c.is_ascii_digit()))
+            .map(|l| l.split_whitespace().count())
+            .collect();
+        (rows, text)
+    };
+    let (wide, text) = rows_of("200");
+    assert_eq!(wide.len(), 50, "{text}");
+    assert!(wide.iter().all(|&n| n == 11) && !text.contains("Left out to fit"), "{text}");
+    let (narrow, text) = rows_of("60");
+    assert_eq!(narrow.len(), 50, "{text}");
+    assert!(narrow.iter().all(|&n| n == 7), "{text}");
+    assert!(text.contains("Left out to fit 60 columns: p, TCR r, TCR b, trades (all in --json and runs.csv)."), "{text}");
+    let table_width = text.lines().filter(|l| l.contains("rk b") || l.starts_with("  p")).map(|l| l.chars().count()).max().unwrap();
+    assert!(table_width <= 60, "{table_width}");
 }
 
 #[test]

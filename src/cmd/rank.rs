@@ -125,7 +125,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
-        crate::output::stdout(crate::render::table::rank(&report).as_bytes())?;
+        crate::output::stdout(crate::render::table::rank(&report, crate::render::term::width()).as_bytes())?;
     }
     Ok(common::exit_status(&report.warnings))
 }

@@ -336,8 +336,12 @@ pub fn analyze(s: &Summary) -> String {
     out
 }
 
-/// The rank table, narrow enough for 80 columns.
-pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
+/// The rank table. `width`: the terminal's columns, when known. Cells are
+/// never wrapped (a number split over two lines misreads): when the table
+/// is wider than the terminal, whole columns are left out (placebo p, then
+/// the tail columns, then trades), said in a line, and the rest stays
+/// whole; all columns are in --json and runs.csv.
+pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     let mut out = String::new();
     let by = super::label(&r.by);
     for warning in &r.warnings {
@@ -355,30 +359,55 @@ pub fn rank(r: &crate::cmd::rank::RankReport) -> String {
     if with_p {
         header.push("p");
     }
-    // Cells are never wrapped (a number split over two lines misreads):
-    // the table takes its natural width; past the terminal's width (or
-    // COLUMNS) the terminal folds whole lines instead.
-    let mut t = new_table(&header);
-    t.set_content_arrangement(ContentArrangement::Disabled);
-    for x in &r.runs {
-        let mut row = vec![
-            Cell::new(&x.run),
-            num(x.trades),
-            num(format!("{:.1}", 100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64)),
-            num(fmt_opt(x.by_baseline, 2)),
-            num(fmt_opt(x.by_removed, 2)),
-            num(fmt_opt(x.tcr_baseline, 1)),
-            num(fmt_opt(x.tcr_removed, 1)),
-            num(x.rank_baseline),
-            num(x.rank_removed),
-            num(format!("{:+}", x.rank_shift)),
-        ];
-        if with_p {
-            row.push(num(fmt_opt(x.placebo_p, 3)));
+    let rows: Vec<Vec<String>> = r
+        .runs
+        .iter()
+        .map(|x| {
+            let mut row = vec![
+                x.run.clone(),
+                x.trades.to_string(),
+                format!("{:.1}", 100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64),
+                fmt_opt(x.by_baseline, 2),
+                fmt_opt(x.by_removed, 2),
+                fmt_opt(x.tcr_baseline, 1),
+                fmt_opt(x.tcr_removed, 1),
+                x.rank_baseline.to_string(),
+                x.rank_removed.to_string(),
+                format!("{:+}", x.rank_shift),
+            ];
+            if with_p {
+                row.push(fmt_opt(x.placebo_p, 3));
+            }
+            row
+        })
+        .collect();
+    let render = |keep: &[usize]| {
+        let mut t = new_table(&keep.iter().map(|&k| header[k]).collect::<Vec<_>>());
+        t.set_content_arrangement(ContentArrangement::Disabled);
+        for row in &rows {
+            t.add_row(keep.iter().map(|&k| if k == 0 { Cell::new(&row[k]) } else { num(&row[k]) }).collect::<Vec<_>>());
         }
-        t.add_row(row);
+        t.to_string()
+    };
+    let widest = |text: &str| text.lines().map(|l| l.chars().count()).max().unwrap_or(0);
+    let mut keep: Vec<usize> = (0..header.len()).collect();
+    let mut table = render(&keep);
+    let mut dropped = Vec::new();
+    // Least needed first: p, TCR r, TCR b, trades.
+    for k in [10, 6, 5, 1] {
+        match width {
+            Some(w) if widest(&table) > w && keep.contains(&k) => {
+                keep.retain(|&c| c != k);
+                dropped.push(header[k]);
+                table = render(&keep);
+            }
+            _ => {}
+        }
     }
-    let _ = writeln!(out, "{t}");
+    let _ = writeln!(out, "{table}");
+    if !dropped.is_empty() {
+        let _ = writeln!(out, "Left out to fit {} columns: {} (all in --json and runs.csv).", width.unwrap_or(0), dropped.join(", "));
+    }
     let _ = writeln!(out, "{}", wrap(r.caution, 78));
     out
 }
