@@ -37,6 +37,13 @@ fn pnl_is_formed_from_the_columns_and_costs_are_deducted() {
     assert!(html.contains("Result + Commission + Swap − |Fee|"));
     let o = run(dir.path(), &["check", "--trades", "t.csv", "--map", MAP]);
     assert!(String::from_utf8_lossy(&o.stdout).contains("P/L per trade = Result + Commission + Swap − |Fee|"));
+    // rank and tune state it too.
+    let o = run(dir.path(), &["tune", "--trades", "t.csv", "--calendar", "c.csv", "--map", MAP, "--pre", "0..15/15", "--post", "0..30/30", "--json"]);
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(j["pnl_formed_as"], "Result + Commission + Swap − |Fee|");
+    let with_runs = format!("{MAP},run=Ticket");
+    let o = run(dir.path(), &["rank", "--trades", "t.csv", "--calendar", "c.csv", "--map", &with_runs]);
+    assert!(String::from_utf8_lossy(&o.stdout).contains("P/L per trade = Result + Commission + Swap − |Fee|."), "{}", String::from_utf8_lossy(&o.stderr));
 }
 
 #[test]

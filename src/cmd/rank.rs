@@ -74,6 +74,8 @@ pub struct RankReport {
     pub runs_total: usize,
     /// What needs attention (coverage, skipped rows); also exit status 3.
     pub warnings: Vec<String>,
+    /// How each trade's P/L was formed from the input columns.
+    pub pnl_formed_as: String,
     /// `amount` or `return`: what tcr_baseline / tcr_removed are measured on.
     pub tcr_basis: crate::scenarios::TailBasis,
     pub runs: Vec<RunRow>,
@@ -115,13 +117,13 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades").map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
-        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs", rows.len()), &warnings, &[fig], CAUTION);
+        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs; P/L per trade = {}", rows.len(), loaded.trade_summary.pnl_formed_as), &warnings, &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;
     }
     if let Some(n) = args.top {
         rows.truncate(n);
     }
-    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, warnings, tcr_basis, runs: rows, caution: CAUTION };
+    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, warnings, pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(), tcr_basis, runs: rows, caution: CAUTION };
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {

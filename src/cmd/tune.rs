@@ -55,6 +55,8 @@ pub struct TuneReport {
     pub settings: crate::analysis::AnalysisSettings,
     /// What needs attention (coverage, skipped rows); also exit status 3.
     pub warnings: Vec<String>,
+    /// How each trade's P/L was formed from the input columns.
+    pub pnl_formed_as: String,
     #[serde(flatten)]
     pub result: crate::tune::TuneResult,
     pub caution: &'static str,
@@ -77,7 +79,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1))?;
     pb.finish_and_clear();
     let warnings = loaded.warnings(&args.input, &settings);
-    let report = TuneReport { tool: ToolInfo::current(), settings, warnings, result, caution: CAUTION };
+    let report = TuneReport { tool: ToolInfo::current(), settings, warnings, pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(), result, caution: CAUTION };
     let json = serde_json::to_string_pretty(&report)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
@@ -89,7 +91,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
             .map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "tune", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
-        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells", res.pre.len(), res.post.len()), &report.warnings, &[fig], CAUTION);
+        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells; P/L per trade = {}", res.pre.len(), res.post.len(), report.pnl_formed_as), &report.warnings, &[fig], CAUTION);
         out.write("report.html", page.as_bytes())?;
     }
     if args.json {

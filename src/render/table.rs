@@ -350,7 +350,7 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
     let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
     let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.");
-    let _ = writeln!(out, "TCR b/r: tail concentration {}.", basis_words(r.tcr_basis));
+    let _ = writeln!(out, "TCR b/r: tail concentration {}. P/L per trade = {}.", basis_words(r.tcr_basis), r.pnl_formed_as);
     if let Some(first) = r.runs.first() {
         let _ = writeln!(out, "Open one run in full: the same inputs to analyze, with --run {}.\n", first.run);
     }
@@ -447,9 +447,10 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
     let res = &r.result;
     let _ = writeln!(
         out,
-        "{} × {} cells; baseline TCR {} ({}); * = on the frontier (most tail reduction for least time blocked).\n",
+        "{} × {} cells; P/L per trade = {}; baseline TCR {} ({}); * = on the frontier (most tail reduction for least time blocked).\n",
         res.pre.len(),
         res.post.len(),
+        r.pnl_formed_as,
         fmt_opt(res.tcr_baseline, 2),
         basis_words(res.tcr_basis)
     );
