@@ -193,7 +193,7 @@ pub struct TradeSummary {
     /// How each file's time columns were read (which zone rule applied).
     pub time_columns: Vec<TimeColumn>,
     /// How each trade's P/L was formed from the columns, in words
-    /// (`Profit + Commission + Swap − |Fee|`).
+    /// (`Gross + Costs + Financing − |Fee|`).
     pub pnl_formed_as: String,
     /// The runs `--run` kept (empty: all); rows of other runs are imported
     /// and then left out of every figure.
@@ -472,7 +472,7 @@ fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl F
     Ok((out, extra))
 }
 
-/// The columns a `pnl` mapping sums: `Profit+Commission+Swap` → three.
+/// The columns a `pnl` mapping sums: `Gross+Costs+Financing` → three.
 fn pnl_parts(name: &str) -> Vec<&str> {
     let parts: Vec<&str> = name.split('+').map(str::trim).filter(|p| !p.is_empty()).collect();
     if parts.len() > 1 { parts } else { vec![name] }
@@ -597,7 +597,7 @@ fn parse_row<'a>(
         _ => return Err(row_err("instrument", "missing_value", "empty")),
     };
     let mut pnl = number(PNL, true)?;
-    // Further P/L columns (`pnl=Profit+Commission+Swap`): summed as
+    // Further P/L columns (`pnl=Gross+Costs+Financing`): summed as
     // written; an empty one counts 0.
     for j in 0..n_pnl_parts {
         pnl += match extra(j)? {

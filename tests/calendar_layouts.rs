@@ -19,7 +19,7 @@ fn utc(s: &str) -> i64 {
 }
 
 fn options() -> CalendarOptions {
-    let columns = [("date", "Date"), ("time", "Time"), ("currency", "Country"), ("title", "Event"), ("tier", "Impact")];
+    let columns = [("date", "Date"), ("time", "Time"), ("currency", "Country"), ("title", "Event"), ("tier", "Importance")];
     CalendarOptions {
         zone: "Europe/London".parse().unwrap(),
         columns: columns.iter().map(|(f, c)| (f.to_string(), c.to_string())).collect(),
@@ -64,7 +64,7 @@ fn flags_reach_the_reader_and_bad_patterns_fail_fast() {
         std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
             .args(["check", "--json", "--calendar"])
             .arg(&path)
-            .args(["--calendar-map", "date=Date,time=Time,currency=Country,title=Event,tier=Impact", "--calendar-tz", "Europe/London"])
+            .args(["--calendar-map", "date=Date,time=Time,currency=Country,title=Event,tier=Importance", "--calendar-tz", "Europe/London"])
             .args(extra)
             .output()
             .unwrap()

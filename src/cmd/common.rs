@@ -47,7 +47,7 @@ pub struct TradeArgs {
     #[arg(long = "run", value_name = "NAME,...", value_delimiter = ',')]
     pub run: Vec<String>,
     /// Your own columns to carry unchanged into the per-trade outputs
-    /// (trades.csv / trades.parquet), e.g. --keep Ticket,Comment.
+    /// (trades.csv / trades.parquet), e.g. --keep TradeRef,Note.
     #[arg(long, value_name = "COLUMN,...", value_delimiter = ',')]
     pub keep: Vec<String>,
 }
