@@ -315,6 +315,20 @@ pub struct CoverageLine {
     pub by_instrument: Vec<(String, usize)>,
 }
 
+/// [`coverage`] at the given windows and rule, running the engine for the
+/// exposure counts (for commands that do not run the analysis).
+pub fn coverage_at(
+    releases: &[Release],
+    trades: &crate::trades::Trades,
+    instrument_currencies: &[Vec<String>],
+    windows: &crate::windows::WindowSettings,
+    rule: ExposureRule,
+    stated: Option<(i64, i64)>,
+) -> Vec<CoverageLine> {
+    let exp = Engine::new(releases, windows, rule).run_matches(&trades.opened, &trades.closed, &trades.instrument, instrument_currencies);
+    coverage(releases, trades, instrument_currencies, &exp.k, stated)
+}
+
 /// Coverage per trade currency (SPEC §2). Trades outside stay in every
 /// scenario (exposed only if another currency of theirs matched); reports
 /// say exactly which.

@@ -202,11 +202,6 @@ pub fn code_of(text: &str) -> Option<&'static str> {
     NAMES.binary_search_by(|(n, _)| (*n).cmp(lower.as_str())).ok().map(|i| NAMES[i].1)
 }
 
-/// Whether `code` is one of the table's country codes (case-insensitive).
-pub fn is_country(code: &str) -> bool {
-    code.len() == 2 && COUNTRIES.binary_search_by(|(c, _)| (*c).cmp(code.to_ascii_uppercase().as_str())).is_ok()
-}
-
 /// The currency of `country` on `date`; `None` for an unknown code or a
 /// date before the table's first entry (EU before 1999).
 pub fn currency_on(country: &str, date: chrono::NaiveDate) -> Option<&'static str> {
@@ -259,6 +254,6 @@ mod tests {
         assert_eq!(currency_on("LT", d("2015-01-01")), Some("EUR"));
         assert_eq!(currency_on("EU", d("1998-06-01")), None);
         assert_eq!(currency_on("XX", d("2020-01-01")), None);
-        assert!(is_country("us") && !is_country("USD") && !is_country("XX"));
+        assert!(code_of("us") == Some("US") && code_of("USD").is_none() && code_of("XX").is_none());
     }
 }

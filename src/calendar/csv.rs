@@ -182,22 +182,8 @@ fn resolve_time(
     all_day: bool,
     opts: &CalendarOptions,
 ) -> Result<(i64, i64, bool), RowErr> {
-    let zone_err = |field: &'static str| {
-        move |e: crate::zones::ZoneError| {
-            let reason = match e {
-                crate::zones::ZoneError::Gap { .. } => "local_time_gap",
-                crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
-                _ => "bad_time",
-            };
-            (field, reason, e.to_string())
-        }
-    };
-    let day_bounds = |d: chrono::NaiveDate| -> Result<(i64, i64, bool), RowErr> {
-        let p = LocalPolicy::Rfc5545;
-        let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p).map_err(zone_err("date"))?;
-        let b = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), p).map_err(zone_err("date"))?;
-        Ok((a, b, true))
-    };
+    let zone_err = |field: &'static str| move |e: crate::zones::ZoneError| (field, zone_reason(&e), e.to_string());
+    let day_bounds = |d: chrono::NaiveDate| local_day(d, opts).map_err(zone_err("date"));
     if let Some(rc) = released {
         match rc.get(i) {
             Cell::Instant(ms) if crate::zones::in_accepted_years(ms) => return Ok((ms, ms, false)),
@@ -308,12 +294,7 @@ fn resolve_time(
 /// instant, else local to `--calendar-tz`; a date alone (read by the
 /// pattern's part before its first space) or `all_day` gives the local day.
 fn by_pattern(text: &str, pattern: &str, all_day: bool, opts: &CalendarOptions) -> Result<(i64, i64, bool), (&'static str, String)> {
-    let day_bounds = |d: chrono::NaiveDate| -> Result<(i64, i64, bool), (&'static str, String)> {
-        let p = LocalPolicy::Rfc5545;
-        let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p).map_err(|e| ("bad_time", e.to_string()))?;
-        let b = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), p).map_err(|e| ("bad_time", e.to_string()))?;
-        Ok((a, b, true))
-    };
+    let day_bounds = |d: chrono::NaiveDate| local_day(d, opts).map_err(|e| (zone_reason(&e), e.to_string()));
     let date_part = pattern.split_once(' ').map_or(pattern, |(d, _)| d);
     let stamp = if let Ok(dt) = chrono::DateTime::parse_from_str(text, pattern) {
         Stamp::Instant(dt.timestamp_millis())
@@ -331,15 +312,26 @@ fn by_pattern(text: &str, pattern: &str, all_day: bool, opts: &CalendarOptions) 
         };
         return day_bounds(d);
     }
-    let ms = stamp.resolve(&opts.zone, opts.policy).map_err(|e| {
-        let reason = match e {
-            crate::zones::ZoneError::Gap { .. } => "local_time_gap",
-            crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
-            _ => "bad_time",
-        };
-        (reason, e.to_string())
-    })?;
+    let ms = stamp.resolve(&opts.zone, opts.policy).map_err(|e| (zone_reason(&e), e.to_string()))?;
     Ok((ms, ms, false))
+}
+
+/// An all-day release's local day in the calendar zone: (start, end, true),
+/// DST edges by RFC 5545 §3.3.5.
+fn local_day(d: chrono::NaiveDate, opts: &CalendarOptions) -> Result<(i64, i64, bool), crate::zones::ZoneError> {
+    let p = LocalPolicy::Rfc5545;
+    let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p)?;
+    let b = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), p)?;
+    Ok((a, b, true))
+}
+
+/// The rejection reason of a zone error.
+fn zone_reason(e: &crate::zones::ZoneError) -> &'static str {
+    match e {
+        crate::zones::ZoneError::Gap { .. } => "local_time_gap",
+        crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
+        _ => "bad_time",
+    }
 }
 
 #[cfg(test)]

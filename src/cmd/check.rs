@@ -97,9 +97,8 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
         // window flags).
         if let Some(c) = &cal {
             let lists: Vec<Vec<String>> = resolved.iter().map(|r| r.currencies.clone()).collect();
-            let engine = crate::exposure::Engine::new(&c.releases, &crate::windows::WindowSettings::default(), crate::exposure::ExposureRule::Overlap);
-            let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, &lists);
-            let coverage = crate::exposure::coverage(&c.releases, &t, &lists, &exp.k, args.input.calendar.stated_span()?);
+            let defaults = crate::windows::WindowSettings::default();
+            let coverage = crate::exposure::coverage_at(&c.releases, &t, &lists, &defaults, crate::exposure::ExposureRule::Overlap, args.input.calendar.stated_span()?);
             problems.extend(crate::report::coverage_warnings(&coverage));
         }
         let zone = trade_opts.zone;

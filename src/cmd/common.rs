@@ -423,10 +423,7 @@ impl Loaded {
     /// exposure at the settings' windows: one pass of the engine).
     pub fn warnings(&self, input: &InputArgs, settings: &crate::analysis::AnalysisSettings) -> Vec<String> {
         let cur = self.currency_lists();
-        let engine = crate::exposure::Engine::new(&self.calendar.releases, &settings.windows, settings.exposure_rule);
-        let t = &self.trades;
-        let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, &cur);
-        let coverage = crate::exposure::coverage(&self.calendar.releases, t, &cur, &exp.k, settings.calendar_span);
+        let coverage = crate::exposure::coverage_at(&self.calendar.releases, &self.trades, &cur, &settings.windows, settings.exposure_rule, settings.calendar_span);
         let inputs = crate::report::Inputs::new(&self.trade_summary, input.trades.trades_tz.clone(), &self.calendar.summary, input.calendar.calendar_tz().to_string());
         crate::report::input_warnings(&inputs, &coverage)
     }
