@@ -80,7 +80,12 @@ fn weekday_on_or_after(d: NaiveDate) -> NaiveDate {
 }
 
 fn last_weekday_of_month(y: i32, m: u32) -> NaiveDate {
-    let next = if m == 12 { NaiveDate::from_ymd_opt(y + 1, 1, 1) } else { NaiveDate::from_ymd_opt(y, m + 1, 1) }.unwrap();
+    let next = if m == 12 {
+        NaiveDate::from_ymd_opt(y + 1, 1, 1)
+    } else {
+        NaiveDate::from_ymd_opt(y, m + 1, 1)
+    }
+    .unwrap();
     let mut d = next - Duration::days(1);
     while matches!(d.weekday(), Weekday::Sat | Weekday::Sun) {
         d -= Duration::days(1);
@@ -88,10 +93,30 @@ fn last_weekday_of_month(y: i32, m: u32) -> NaiveDate {
     d
 }
 
-fn rel(date: NaiveDate, hm: (u32, u32), zone: Tz, title: &'static str, currency: &'static str, tier: &'static str, category: &'static str) -> Rel {
+fn rel(
+    date: NaiveDate,
+    hm: (u32, u32),
+    zone: Tz,
+    title: &'static str,
+    currency: &'static str,
+    tier: &'static str,
+    category: &'static str,
+) -> Rel {
     let local = date.and_time(NaiveTime::from_hms_opt(hm.0, hm.1, 0).unwrap());
-    let utc = zone.from_local_datetime(&local).earliest().expect("demo times avoid DST gaps").naive_utc();
-    Rel { utc, local, zone, title, currency, tier, category }
+    let utc = zone
+        .from_local_datetime(&local)
+        .earliest()
+        .expect("demo times avoid DST gaps")
+        .naive_utc();
+    Rel {
+        utc,
+        local,
+        zone,
+        title,
+        currency,
+        tier,
+        category,
+    }
 }
 
 fn calendar() -> Vec<Rel> {
@@ -99,36 +124,148 @@ fn calendar() -> Vec<Rel> {
     let mut v = Vec::new();
     for (y, m) in months() {
         let d = |day| NaiveDate::from_ymd_opt(y, m, day).unwrap();
-        v.push(rel(nth_weekday(y, m, Weekday::Fri, 1), (8, 30), NY, "US payrolls report", "USD", "high", "employment"));
-        v.push(rel(weekday_on_or_after(d(12)), (8, 30), NY, "US consumer prices", "USD", "high", "inflation"));
+        v.push(rel(
+            nth_weekday(y, m, Weekday::Fri, 1),
+            (8, 30),
+            NY,
+            "US payrolls report",
+            "USD",
+            "high",
+            "employment",
+        ));
+        v.push(rel(
+            weekday_on_or_after(d(12)),
+            (8, 30),
+            NY,
+            "US consumer prices",
+            "USD",
+            "high",
+            "inflation",
+        ));
         if [1, 3, 5, 6, 7, 9, 11, 12].contains(&m) {
-            v.push(rel(nth_weekday(y, m, Weekday::Wed, 3), (14, 0), NY, "US rate decision", "USD", "high", "rates"));
+            v.push(rel(
+                nth_weekday(y, m, Weekday::Wed, 3),
+                (14, 0),
+                NY,
+                "US rate decision",
+                "USD",
+                "high",
+                "rates",
+            ));
         }
-        v.push(rel(weekday_on_or_after(d(15)), (8, 30), NY, "US retail sales", "USD", "medium", "consumer"));
-        v.push(rel(weekday_on_or_after(d(1)), (10, 0), NY, "US business survey", "USD", "medium", "business"));
+        v.push(rel(
+            weekday_on_or_after(d(15)),
+            (8, 30),
+            NY,
+            "US retail sales",
+            "USD",
+            "medium",
+            "consumer",
+        ));
+        v.push(rel(
+            weekday_on_or_after(d(1)),
+            (10, 0),
+            NY,
+            "US business survey",
+            "USD",
+            "medium",
+            "business",
+        ));
         if [1, 3, 4, 6, 7, 9, 10, 12].contains(&m) {
-            v.push(rel(nth_weekday(y, m, Weekday::Thu, 2), (14, 15), Berlin, "Euro area rate decision", "EUR", "high", "rates"));
+            v.push(rel(
+                nth_weekday(y, m, Weekday::Thu, 2),
+                (14, 15),
+                Berlin,
+                "Euro area rate decision",
+                "EUR",
+                "high",
+                "rates",
+            ));
         }
-        v.push(rel(last_weekday_of_month(y, m), (11, 0), Berlin, "Euro area flash inflation", "EUR", "high", "inflation"));
-        v.push(rel(weekday_on_or_after(d(24)), (10, 0), Berlin, "Euro area business climate", "EUR", "medium", "business"));
+        v.push(rel(
+            last_weekday_of_month(y, m),
+            (11, 0),
+            Berlin,
+            "Euro area flash inflation",
+            "EUR",
+            "high",
+            "inflation",
+        ));
+        v.push(rel(
+            weekday_on_or_after(d(24)),
+            (10, 0),
+            Berlin,
+            "Euro area business climate",
+            "EUR",
+            "medium",
+            "business",
+        ));
         let mut uk_cpi = d(15);
         while uk_cpi.weekday() != Weekday::Wed {
             uk_cpi += Duration::days(1);
         }
-        v.push(rel(uk_cpi, (7, 0), London, "UK consumer prices", "GBP", "high", "inflation"));
+        v.push(rel(
+            uk_cpi,
+            (7, 0),
+            London,
+            "UK consumer prices",
+            "GBP",
+            "high",
+            "inflation",
+        ));
         if [2, 3, 5, 6, 8, 9, 11, 12].contains(&m) {
-            v.push(rel(nth_weekday(y, m, Weekday::Thu, 1), (12, 0), London, "UK rate decision", "GBP", "high", "rates"));
+            v.push(rel(
+                nth_weekday(y, m, Weekday::Thu, 1),
+                (12, 0),
+                London,
+                "UK rate decision",
+                "GBP",
+                "high",
+                "rates",
+            ));
         }
-        v.push(rel(nth_weekday(y, m, Weekday::Tue, 2), (7, 0), London, "UK labour figures", "GBP", "medium", "employment"));
+        v.push(rel(
+            nth_weekday(y, m, Weekday::Tue, 2),
+            (7, 0),
+            London,
+            "UK labour figures",
+            "GBP",
+            "medium",
+            "employment",
+        ));
         if [1, 3, 4, 6, 7, 9, 10, 12].contains(&m) {
-            v.push(rel(last_weekday_of(y, m, Weekday::Fri), (12, 0), Tokyo, "Japan rate decision", "JPY", "high", "rates"));
+            v.push(rel(
+                last_weekday_of(y, m, Weekday::Fri),
+                (12, 0),
+                Tokyo,
+                "Japan rate decision",
+                "JPY",
+                "high",
+                "rates",
+            ));
         }
-        v.push(rel(nth_weekday(y, m, Weekday::Mon, 3), (8, 50), Tokyo, "Japan trade balance", "JPY", "low", "trade"));
+        v.push(rel(
+            nth_weekday(y, m, Weekday::Mon, 3),
+            (8, 50),
+            Tokyo,
+            "Japan trade balance",
+            "JPY",
+            "low",
+            "trade",
+        ));
     }
     // Weekly claims: every Thursday 08:30 New York.
     let mut d = nth_weekday(FIRST_YEAR - 1, 12, Weekday::Thu, 1);
     while d < NaiveDate::from_ymd_opt(LAST_YEAR + 1, 2, 1).unwrap() {
-        v.push(rel(d, (8, 30), NY, "US weekly claims", "USD", "low", "employment"));
+        v.push(rel(
+            d,
+            (8, 30),
+            NY,
+            "US weekly claims",
+            "USD",
+            "low",
+            "employment",
+        ));
         d += Duration::days(7);
     }
     v.sort_by_key(|r| r.utc);
@@ -136,7 +273,9 @@ fn calendar() -> Vec<Rel> {
 }
 
 fn ics_escape(s: &str) -> String {
-    s.replace('\\', "\\\\").replace(',', "\\,").replace(';', "\\;")
+    s.replace('\\', "\\\\")
+        .replace(',', "\\,")
+        .replace(';', "\\;")
 }
 
 fn write_ics(path: &Path, rels: &[&Rel], payroll_rrule: bool) {
@@ -145,7 +284,10 @@ fn write_ics(path: &Path, rels: &[&Rel], payroll_rrule: bool) {
     let stamp = "20261202T000000Z";
     if payroll_rrule {
         // The payrolls series as one recurring event, to exercise RRULE.
-        let first = rels.iter().find(|r| r.title == "US payrolls report").expect("payrolls");
+        let first = rels
+            .iter()
+            .find(|r| r.title == "US payrolls report")
+            .expect("payrolls");
         let _ = write!(
             s,
             "BEGIN:VEVENT\r\nUID:us-payrolls@demo.eventfence\r\nDTSTAMP:{stamp}\r\nDTSTART;TZID=America/New_York:{}\r\nRRULE:FREQ=MONTHLY;BYDAY=1FR;UNTIL={}0131T235959Z\r\nSUMMARY:US payrolls report\r\nPRIORITY:1\r\nCATEGORIES:USD,employment\r\nX-EVENTFENCE-REGION:US\r\nEND:VEVENT\r\n",
@@ -162,7 +304,11 @@ fn write_ics(path: &Path, rels: &[&Rel], payroll_rrule: bool) {
             "medium" => 5,
             _ => 8,
         };
-        let uid = format!("{}-{}@demo.eventfence", r.title.to_lowercase().replace(' ', "-"), r.local.format("%Y%m%d"));
+        let uid = format!(
+            "{}-{}@demo.eventfence",
+            r.title.to_lowercase().replace(' ', "-"),
+            r.local.format("%Y%m%d")
+        );
         let _ = write!(
             s,
             "BEGIN:VEVENT\r\nUID:{uid}\r\nDTSTAMP:{stamp}\r\nDTSTART;TZID={}:{}\r\nSUMMARY:{}\r\nPRIORITY:{priority}\r\nCATEGORIES:{},{}\r\nEND:VEVENT\r\n",
@@ -212,13 +358,20 @@ fn main() {
     let cal = calendar();
     let usd: Vec<&Rel> = cal.iter().filter(|r| r.currency == "USD").collect();
     let eur: Vec<&Rel> = cal.iter().filter(|r| r.currency == "EUR").collect();
-    let gbp_jpy: Vec<&Rel> = cal.iter().filter(|r| r.currency == "GBP" || r.currency == "JPY").collect();
+    let gbp_jpy: Vec<&Rel> = cal
+        .iter()
+        .filter(|r| r.currency == "GBP" || r.currency == "JPY")
+        .collect();
     write_ics(&root.join("calendars/demo-usd.ics"), &usd, true);
     write_csv(&root.join("calendars/demo-eur.csv"), &eur);
     write_ics(&root.join("calendars/demo-gbp-jpy.ics"), &gbp_jpy, false);
 
     // High-tier windows per currency, UTC seconds, for the P/L rule.
-    let high: Vec<(i64, &str)> = cal.iter().filter(|r| r.tier == "high").map(|r| (r.utc.and_utc().timestamp(), r.currency)).collect();
+    let high: Vec<(i64, &str)> = cal
+        .iter()
+        .filter(|r| r.tier == "high")
+        .map(|r| (r.utc.and_utc().timestamp(), r.currency))
+        .collect();
     let instruments: [(&str, &[&str], f64); 5] = [
         ("EURUSD", &["EUR", "USD"], 0.35),
         ("GBPUSD", &["GBP", "USD"], 0.2),
@@ -230,7 +383,9 @@ fn main() {
     let shift = Duration::hours(7);
     let fmt = |secs: i64| {
         let utc = chrono::DateTime::from_timestamp(secs, 0).unwrap();
-        (utc.with_timezone(&server).naive_local() + shift).format("%Y.%m.%d %H:%M:%S").to_string()
+        (utc.with_timezone(&server).naive_local() + shift)
+            .format("%Y.%m.%d %H:%M:%S")
+            .to_string()
     };
     let mut rng = ChaCha8Rng::seed_from_u64(SEED);
     let start = NaiveDate::from_ymd_opt(FIRST_YEAR, 1, 4).unwrap();
@@ -247,28 +402,50 @@ fn main() {
             while matches!(day.weekday(), Weekday::Sat | Weekday::Sun) {
                 day += Duration::days(1);
             }
-            let open = day.and_hms_opt(0, 0, 0).unwrap().and_utc().timestamp() + rng.random_range(6 * 3600..20 * 3600) / 60 * 60;
-            let hold = (hold_median_min * (0.9 * normal(&mut rng)).exp() * 60.0).round().min(3.0 * 86400.0) as i64;
+            let open = day.and_hms_opt(0, 0, 0).unwrap().and_utc().timestamp()
+                + rng.random_range(6 * 3600..20 * 3600) / 60 * 60;
+            let hold = (hold_median_min * (0.9 * normal(&mut rng)).exp() * 60.0)
+                .round()
+                .min(3.0 * 86400.0) as i64;
             let mut close = open + hold.max(60);
             // Markets are shut at weekends: a close that would fall there
             // moves to Monday 00:05 UTC.
-            let close_day = chrono::DateTime::from_timestamp(close, 0).unwrap().date_naive();
+            let close_day = chrono::DateTime::from_timestamp(close, 0)
+                .unwrap()
+                .date_naive();
             if matches!(close_day.weekday(), Weekday::Sat | Weekday::Sun) {
                 let monday = weekday_on_or_after(close_day);
                 close = monday.and_hms_opt(0, 5, 0).unwrap().and_utc().timestamp();
             }
             let u: f64 = rng.random();
             let mut acc = 0.0;
-            let inst = instruments.iter().find(|(_, _, w)| { acc += w; u < acc }).unwrap_or(&instruments[0]);
-            let exposed = high.iter().any(|&(t, c)| inst.1.contains(&c) && open <= t + 30 * 60 && close >= t - 15 * 60);
+            let inst = instruments
+                .iter()
+                .find(|(_, _, w)| {
+                    acc += w;
+                    u < acc
+                })
+                .unwrap_or(&instruments[0]);
+            let exposed = high
+                .iter()
+                .any(|&(t, c)| inst.1.contains(&c) && open <= t + 30 * 60 && close >= t - 15 * 60);
             let scale = 18.0 * (hold as f64 / 3600.0).sqrt().max(0.3);
             let mut pnl = edge + scale * student_t3(&mut rng);
             if exposed {
-                pnl = edge + 5.0 * scale * student_t3(&mut rng) + luck * 120.0 * normal(&mut rng).abs();
+                pnl = edge
+                    + 5.0 * scale * student_t3(&mut rng)
+                    + luck * 120.0 * normal(&mut rng).abs();
             }
             let side = if rng.random::<bool>() { "buy" } else { "sell" };
             let size = [0.5, 1.0, 2.0][rng.random_range(0..3)];
-            trades.push((open, close, inst.0, side, size, (pnl * 100.0).round() / 100.0));
+            trades.push((
+                open,
+                close,
+                inst.0,
+                side,
+                size,
+                (pnl * 100.0).round() / 100.0,
+            ));
         }
         trades.sort_by_key(|t| t.0);
         for (o, c, i, s, z, p) in trades {

@@ -33,7 +33,8 @@ pub struct AnalysisSettings {
 }
 
 /// Where the default TCR threshold comes from (SPEC §6).
-pub const TCR_THRESHOLD_SOURCE: &str = "common practice (rule of thumb, no published source); set with --tcr-threshold";
+pub const TCR_THRESHOLD_SOURCE: &str =
+    "common practice (rule of thumb, no published source); set with --tcr-threshold";
 
 /// Tail figures of one scenario (SPEC §6).
 #[derive(Debug, Clone, Serialize)]
@@ -62,7 +63,11 @@ pub struct TailSummary {
 
 /// `tcr` is the scenario's metric (computed once, in [`metrics::compute`]).
 fn tail_line(pnl: &[f64], tcr: Option<f64>, p: f64, threshold: f64) -> TailLine {
-    let k = if pnl.is_empty() { 0 } else { metrics::tcr_k(pnl.len(), p) };
+    let k = if pnl.is_empty() {
+        0
+    } else {
+        metrics::tcr_k(pnl.len(), p)
+    };
     TailLine {
         tcr,
         top_bucket: k,
@@ -159,33 +164,54 @@ pub fn across_runs(runs: &[RunResult], tcr_threshold: f64) -> Option<RunDistribu
         ("sharpe", |m| m.sharpe, true),
         ("sortino", |m| m.sortino, true),
         ("max_drawdown", |m| Some(m.max_drawdown), false),
-        ("longest_drawdown_days", |m| Some(m.longest_drawdown_days), false),
+        (
+            "longest_drawdown_days",
+            |m| Some(m.longest_drawdown_days),
+            false,
+        ),
         ("return_to_drawdown", |m| m.return_to_drawdown, true),
         ("t_stat", |m| m.t_stat, true),
         ("time_in_market", |m| m.time_in_market, true),
     ];
     let spread = |mut v: Vec<f64>, higher: bool| {
         let q = |v: &mut Vec<f64>, p: f64| metrics::quantile_type7_unsorted(v, p);
-        let (lo, hi) = (v.iter().copied().reduce(f64::min), v.iter().copied().reduce(f64::max));
-        Spread { median: q(&mut v, 0.5), q1: q(&mut v, 0.25), q3: q(&mut v, 0.75), best: if higher { hi } else { lo }, worst: if higher { lo } else { hi } }
+        let (lo, hi) = (
+            v.iter().copied().reduce(f64::min),
+            v.iter().copied().reduce(f64::max),
+        );
+        Spread {
+            median: q(&mut v, 0.5),
+            q1: q(&mut v, 0.25),
+            q3: q(&mut v, 0.75),
+            best: if higher { hi } else { lo },
+            worst: if higher { lo } else { hi },
+        }
     };
     let figures = figures
         .iter()
         .map(|&(metric, get, higher)| {
-            let pairs: Vec<(f64, f64)> = runs.iter().filter_map(|r| get(&r.scenarios.baseline).zip(get(&r.scenarios.removed))).collect();
-            let improved = pairs.iter().filter(|(b, r)| if higher { r > b } else { r < b }).count();
+            let pairs: Vec<(f64, f64)> = runs
+                .iter()
+                .filter_map(|r| get(&r.scenarios.baseline).zip(get(&r.scenarios.removed)))
+                .collect();
+            let improved = pairs
+                .iter()
+                .filter(|(b, r)| if higher { r > b } else { r < b })
+                .count();
             AcrossRuns {
                 metric,
                 runs: pairs.len(),
                 baseline: spread(pairs.iter().map(|p| p.0).collect(), higher),
                 removed: spread(pairs.iter().map(|p| p.1).collect(), higher),
-                share_improved: (!pairs.is_empty() && metric != "time_in_market").then(|| improved as f64 / pairs.len() as f64),
+                share_improved: (!pairs.is_empty() && metric != "time_in_market")
+                    .then(|| improved as f64 / pairs.len() as f64),
             }
         })
         .collect();
     let above = |get: fn(&RunResult) -> Option<f64>| {
         let v: Vec<f64> = runs.iter().filter_map(get).collect();
-        (!v.is_empty()).then(|| v.iter().filter(|&&t| t > tcr_threshold).count() as f64 / v.len() as f64)
+        (!v.is_empty())
+            .then(|| v.iter().filter(|&&t| t > tcr_threshold).count() as f64 / v.len() as f64)
     };
     Some(RunDistribution {
         figures,
@@ -210,7 +236,6 @@ pub struct Analysis {
     pub series: Scenarios,
 }
 
-
 /// `opened`/`closed`: the input's columns (series hold trade indices).
 fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> ScenarioMetrics {
     let [b, r, c] = sc.views().map(|s| s.curve(opened, closed));
@@ -219,28 +244,65 @@ fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> 
     let ((baseline, capped), removed) = rayon::join(
         || {
             let held = metrics::time_held(&b);
-            rayon::join(|| metrics::compute_with_union(&b, ctx, Some(held)), || metrics::compute_with_union(&c, ctx, Some(held)))
+            rayon::join(
+                || metrics::compute_with_union(&b, ctx, Some(held)),
+                || metrics::compute_with_union(&c, ctx, Some(held)),
+            )
         },
         || metrics::compute(&r, ctx),
     );
-    ScenarioMetrics { baseline, removed, capped }
+    ScenarioMetrics {
+        baseline,
+        removed,
+        capped,
+    }
 }
 
 /// Runs the exposure engine: the matches, and with `nearest` also each
 /// trade's nearest release. `cur[i]`: the currencies of instrument i.
-fn exposure_of(trades: &Trades, releases: &[Release], cur: &[Vec<String>], windows: &WindowSettings, rule: ExposureRule, nearest: bool) -> (Engine, Exposure) {
+fn exposure_of(
+    trades: &Trades,
+    releases: &[Release],
+    cur: &[Vec<String>],
+    windows: &WindowSettings,
+    rule: ExposureRule,
+    nearest: bool,
+) -> (Engine, Exposure) {
     let engine = Engine::new(releases, windows, rule);
     let (o, c, i) = (&trades.opened, &trades.closed, &trades.instrument);
-    let exp = if nearest { engine.run(o, c, i, cur) } else { engine.run_matches(o, c, i, cur) };
+    let exp = if nearest {
+        engine.run(o, c, i, cur)
+    } else {
+        engine.run_matches(o, c, i, cur)
+    };
     (engine, exp)
 }
 
 /// Metrics and tail figures of the three scenarios of all trades.
-fn overall_of(all: &Scenarios, trades: &Trades, ctx: &Context, settings: &AnalysisSettings) -> (ScenarioMetrics, TailSummary) {
+fn overall_of(
+    all: &Scenarios,
+    trades: &Trades,
+    ctx: &Context,
+    settings: &AnalysisSettings,
+) -> (ScenarioMetrics, TailSummary) {
     let o = metrics_of(all, &trades.opened, &trades.closed, ctx);
-    let tl = |sr: scenarios::SeriesView, m: &Metrics| tail_line(sr.tail_values(), m.tcr, settings.tcr_p, settings.tcr_threshold);
-    let (baseline, (removed, capped)) =
-        rayon::join(|| tl(all.baseline.view(), &o.baseline), || rayon::join(|| tl(all.removed.view(), &o.removed), || tl(all.capped_view(), &o.capped)));
+    let tl = |sr: scenarios::SeriesView, m: &Metrics| {
+        tail_line(
+            sr.tail_values(),
+            m.tcr,
+            settings.tcr_p,
+            settings.tcr_threshold,
+        )
+    };
+    let (baseline, (removed, capped)) = rayon::join(
+        || tl(all.baseline.view(), &o.baseline),
+        || {
+            rayon::join(
+                || tl(all.removed.view(), &o.removed),
+                || tl(all.capped_view(), &o.capped),
+            )
+        },
+    );
     let tail = TailSummary {
         tcr_basis: all.tail_basis,
         p: settings.tcr_p,
@@ -283,15 +345,29 @@ fn runs_of(
             let sc = scenarios::build_in_order(idx, trades, exposed, &settings.scenario)?;
             let idx = &sc.baseline.trade;
             let run_span = (
-                idx.iter().map(|&i| trades.opened[i as usize]).min().unwrap_or(ctx.span.0),
-                idx.iter().map(|&i| trades.closed[i as usize]).max().unwrap_or(ctx.span.1),
+                idx.iter()
+                    .map(|&i| trades.opened[i as usize])
+                    .min()
+                    .unwrap_or(ctx.span.0),
+                idx.iter()
+                    .map(|&i| trades.closed[i as usize])
+                    .max()
+                    .unwrap_or(ctx.span.1),
             );
-            let ctx = Context { span: run_span, initial_equity: sc.initial_equity, ..*ctx };
+            let ctx = Context {
+                span: run_span,
+                initial_equity: sc.initial_equity,
+                ..*ctx
+            };
             Ok(RunResult {
                 run: trades.runs[r].clone(),
                 trades: idx.len(),
                 exposed_trades: idx.iter().filter(|&&i| exposed(i as usize)).count(),
-                exposed_pnl: idx.iter().filter(|&&i| exposed(i as usize)).map(|&i| trades.pnl[i as usize]).sum(),
+                exposed_pnl: idx
+                    .iter()
+                    .filter(|&&i| exposed(i as usize))
+                    .map(|&i| trades.pnl[i as usize])
+                    .sum(),
                 cap_value: sc.cap_value,
                 scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
             })
@@ -315,7 +391,16 @@ pub fn analyze(
     // passes).
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
     let ((engine, exp), order) = rayon::join(
-        || exposure_of(trades, releases, &cur, &settings.windows, settings.exposure_rule, files),
+        || {
+            exposure_of(
+                trades,
+                releases,
+                &cur,
+                &settings.windows,
+                settings.exposure_rule,
+                files,
+            )
+        },
         || {
             let mut order: Vec<u32> = (0..trades.len() as u32).collect();
             scenarios::close_order(&mut order, &trades.opened, &trades.closed);
@@ -325,7 +410,12 @@ pub fn analyze(
     let coverage = exposure::coverage(releases, trades, &cur, &exp.k, settings.calendar_span);
     crate::phases::mark("exposure, close order");
     let exposed = |i: usize| exp.k[i] > 0;
-    let base_ctx = Context { span, report_zone: settings.report_tz, initial_equity: None, tcr_p: settings.tcr_p };
+    let base_ctx = Context {
+        span,
+        report_zone: settings.report_tz,
+        initial_equity: None,
+        tcr_p: settings.tcr_p,
+    };
     let by_run = trades.has_runs().then(|| split_by_run(&order, trades));
     // Attribution, the overall scenarios and their figures, and the runs',
     // side by side.
@@ -334,8 +424,12 @@ pub fn analyze(
             rayon::join(
                 || attribution::attribute(&exp, &trades.pnl, releases, &engine.used),
                 || -> Result<_, AnalysisError> {
-                    let all = scenarios::build_in_order(order, trades, &exposed, &settings.scenario)?;
-                    let ctx = Context { initial_equity: all.initial_equity, ..base_ctx };
+                    let all =
+                        scenarios::build_in_order(order, trades, &exposed, &settings.scenario)?;
+                    let ctx = Context {
+                        initial_equity: all.initial_equity,
+                        ..base_ctx
+                    };
                     let (metrics, tail) = overall_of(&all, trades, &ctx, settings);
                     crate::phases::mark("(overall)");
                     Ok((all, metrics, tail))
@@ -361,7 +455,11 @@ pub fn analyze(
         exposed_pnl: attribution.headline.exposed_pnl,
         matches: exp.match_release.len(),
         releases_used: engine.used.iter().filter(|&&u| u).count(),
-        releases_touched: attribution.by_release.iter().filter(|r| r.trades_touched > 0).count(),
+        releases_touched: attribution
+            .by_release
+            .iter()
+            .filter(|r| r.trades_touched > 0)
+            .count(),
     };
     Ok((
         Analysis {

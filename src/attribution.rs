@@ -62,7 +62,9 @@ pub struct Attribution {
 }
 
 #[derive(Debug, thiserror::Error)]
-#[error("internal error: P/L not conserved ({what}: {left} vs {right}); please report this with your inputs")]
+#[error(
+    "internal error: P/L not conserved ({what}: {left} vs {right}); please report this with your inputs"
+)]
 pub struct ConservationError {
     pub what: &'static str,
     pub left: f64,
@@ -114,10 +116,21 @@ fn headline_sums(exp: &Exposure, pnl: &[f64]) -> (Headline, f64, f64, f64, f64, 
 }
 
 /// Builds the attribution tables and checks conservation.
-pub fn attribute(exp: &Exposure, pnl: &[f64], releases: &[Release], used: &[bool]) -> Result<Attribution, ConservationError> {
+pub fn attribute(
+    exp: &Exposure,
+    pnl: &[f64],
+    releases: &[Release],
+    used: &[bool],
+) -> Result<Attribution, ConservationError> {
     // The per-release split beside the headline sums (independent passes).
-    let ((touched, amount), (headline, gp, gl, egp, egl, scale)) = rayon::join(|| per_release(exp, pnl, releases.len()), || headline_sums(exp, pnl));
-    let mut a = Attribution { headline, ..Default::default() };
+    let ((touched, amount), (headline, gp, gl, egp, egl, scale)) = rayon::join(
+        || per_release(exp, pnl, releases.len()),
+        || headline_sums(exp, pnl),
+    );
+    let mut a = Attribution {
+        headline,
+        ..Default::default()
+    };
     let h = &mut a.headline;
     let ratio = |x: f64, y: f64| (y != 0.0).then(|| x / y);
     h.share_of_net = ratio(h.exposed_pnl, h.net);
@@ -126,11 +139,19 @@ pub fn attribute(exp: &Exposure, pnl: &[f64], releases: &[Release], used: &[bool
     h.share_of_count = ratio(exp.exposed_count() as f64, pnl.len() as f64);
     let tol = cent_tolerance(scale);
     if (h.net - (h.exposed_pnl + h.unexposed_pnl)).abs() > tol {
-        return Err(ConservationError { what: "baseline net vs exposed + unexposed", left: h.net, right: h.exposed_pnl + h.unexposed_pnl });
+        return Err(ConservationError {
+            what: "baseline net vs exposed + unexposed",
+            left: h.net,
+            right: h.exposed_pnl + h.unexposed_pnl,
+        });
     }
     let attributed: f64 = amount.iter().sum();
     if (attributed - h.exposed_pnl).abs() > tol {
-        return Err(ConservationError { what: "sum over releases vs exposed P/L", left: attributed, right: h.exposed_pnl });
+        return Err(ConservationError {
+            what: "sum over releases vs exposed P/L",
+            left: attributed,
+            right: h.exposed_pnl,
+        });
     }
     for (i, r) in releases.iter().enumerate() {
         if !used[i] {

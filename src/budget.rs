@@ -22,7 +22,13 @@ pub enum BudgetError {
     #[error(
         "trades {path}: about {rows} rows need about {need} of memory, more than the {limit} {basis}; split the file (by run or by date), or raise --max-memory if the machine has the room"
     )]
-    TooLarge { path: String, rows: u64, need: String, limit: String, basis: &'static str },
+    TooLarge {
+        path: String,
+        rows: u64,
+        need: String,
+        limit: String,
+        basis: &'static str,
+    },
     #[error("--max-memory '{0}': expected a size such as 512M, 8G or 8GiB")]
     BadSize(String),
     #[error("trades {path}: {message}")]
@@ -34,7 +40,10 @@ pub fn parse_size(s: &str) -> Result<u64, BudgetError> {
     let t = s.trim();
     let split = t.find(|c: char| c.is_ascii_alphabetic()).unwrap_or(t.len());
     let (num, unit) = t.split_at(split);
-    let v: f64 = num.trim().parse().map_err(|_| BudgetError::BadSize(s.into()))?;
+    let v: f64 = num
+        .trim()
+        .parse()
+        .map_err(|_| BudgetError::BadSize(s.into()))?;
     let mult = match unit.trim().to_ascii_lowercase().as_str() {
         "" | "b" => 1u64,
         "k" | "kb" | "kib" => 1 << 10,
@@ -53,14 +62,20 @@ pub fn parse_size(s: &str) -> Result<u64, BudgetError> {
 /// `MemAvailable`, or less when a control group (a container's limit) caps
 /// it, and what that says.
 pub fn available() -> Option<(u64, &'static str)> {
-    let host = std::fs::read_to_string("/proc/meminfo").ok().and_then(|text| {
-        let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
-        let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-        Some(kb * 1024)
-    });
-    let group = std::fs::read_to_string("/proc/self/cgroup").ok().and_then(|t| cgroup_room(&t, Path::new("/sys/fs/cgroup")));
+    let host = std::fs::read_to_string("/proc/meminfo")
+        .ok()
+        .and_then(|text| {
+            let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+            let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+            Some(kb * 1024)
+        });
+    let group = std::fs::read_to_string("/proc/self/cgroup")
+        .ok()
+        .and_then(|t| cgroup_room(&t, Path::new("/sys/fs/cgroup")));
     match (host, group) {
-        (Some(h), Some(g)) if g < h => Some((g, "left under this container's memory limit (cgroup)")),
+        (Some(h), Some(g)) if g < h => {
+            Some((g, "left under this container's memory limit (cgroup)"))
+        }
         (Some(h), _) => Some((h, "available on this machine now")),
         (None, Some(g)) => Some((g, "left under this container's memory limit (cgroup)")),
         (None, None) => None,
@@ -86,7 +101,11 @@ pub fn cgroup_room(proc_cgroup: &str, root: &Path) -> Option<u64> {
         let (base, limit_file, usage_file) = if controllers.is_empty() {
             (root.to_path_buf(), "memory.max", "memory.current")
         } else if controllers.split(',').any(|c| c == "memory") {
-            (root.join("memory"), "memory.limit_in_bytes", "memory.usage_in_bytes")
+            (
+                root.join("memory"),
+                "memory.limit_in_bytes",
+                "memory.usage_in_bytes",
+            )
         } else {
             continue;
         };
@@ -110,23 +129,37 @@ pub fn cgroup_room(proc_cgroup: &str, root: &Path) -> Option<u64> {
 
 /// Estimated data rows of one trade file.
 pub fn estimate_rows(path: &Path) -> Result<u64, BudgetError> {
-    let err = |e: String| BudgetError::Read { path: path.to_path_buf(), message: e };
-    let size = std::fs::metadata(path).map_err(|e| err(e.to_string()))?.len();
+    let err = |e: String| BudgetError::Read {
+        path: path.to_path_buf(),
+        message: e,
+    };
+    let size = std::fs::metadata(path)
+        .map_err(|e| err(e.to_string()))?
+        .len();
     if crate::table::is_parquet(path) {
         // Parquet compresses; its footer holds the row count.
         use polars::prelude::*;
         let file = std::fs::File::open(path).map_err(|e| err(e.to_string()))?;
-        return ParquetReader::new(file).num_rows().map(|n| n as u64).map_err(|e| err(format!("not a readable Parquet file: {e}")));
+        return ParquetReader::new(file)
+            .num_rows()
+            .map(|n| n as u64)
+            .map_err(|e| err(format!("not a readable Parquet file: {e}")));
     }
     let mut head = Vec::with_capacity(256 * 1024);
-    std::fs::File::open(path).and_then(|f| f.take(256 * 1024).read_to_end(&mut head)).map_err(|e| err(e.to_string()))?;
+    std::fs::File::open(path)
+        .and_then(|f| f.take(256 * 1024).read_to_end(&mut head))
+        .map_err(|e| err(e.to_string()))?;
     let lines = memchr::memchr_iter(b'\n', &head).count().max(1) as u64;
     Ok(size * lines / head.len().max(1) as u64)
 }
 
 fn human(bytes: u64) -> String {
     let b = bytes as f64;
-    if b >= (1u64 << 30) as f64 { format!("{:.1} GiB", b / (1u64 << 30) as f64) } else { format!("{:.0} MiB", b / (1u64 << 20) as f64) }
+    if b >= (1u64 << 30) as f64 {
+        format!("{:.1} GiB", b / (1u64 << 30) as f64)
+    } else {
+        format!("{:.0} MiB", b / (1u64 << 20) as f64)
+    }
 }
 
 /// Refuses when the trade files would need more than `limit` bytes (or,
@@ -145,8 +178,18 @@ pub fn check(paths: &[PathBuf], limit: Option<u64>) -> Result<(), BudgetError> {
     }
     let need = FIXED_BYTES + rows * BYTES_PER_TRADE;
     if need > limit {
-        let path = paths.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(", ");
-        return Err(BudgetError::TooLarge { path, rows, need: human(need), limit: human(limit), basis });
+        let path = paths
+            .iter()
+            .map(|p| p.display().to_string())
+            .collect::<Vec<_>>()
+            .join(", ");
+        return Err(BudgetError::TooLarge {
+            path,
+            rows,
+            need: human(need),
+            limit: human(limit),
+            basis,
+        });
     }
     Ok(())
 }
@@ -189,8 +232,14 @@ mod tests {
         put("memory/a/memory.limit_in_bytes", "8589934592\n");
         put("memory/a/b/memory.limit_in_bytes", "2147483648\n");
         put("memory/a/b/memory.usage_in_bytes", "536870912\n");
-        assert_eq!(cgroup_room("4:memory:/a/b\n3:cpu:/\n", root), Some(1536 << 20));
-        assert_eq!(cgroup_room("4:cpuacct,memory:/a/b\n", root), Some(1536 << 20));
+        assert_eq!(
+            cgroup_room("4:memory:/a/b\n3:cpu:/\n", root),
+            Some(1536 << 20)
+        );
+        assert_eq!(
+            cgroup_room("4:cpuacct,memory:/a/b\n", root),
+            Some(1536 << 20)
+        );
         // No limit anywhere.
         assert_eq!(cgroup_room("4:memory:/\n", root), None);
         assert_eq!(cgroup_room("0::/\n", root), None);
@@ -206,8 +255,16 @@ mod tests {
         std::fs::write(&p, line.repeat(100_000)).unwrap();
         let rows = estimate_rows(&p).unwrap();
         assert!((99_000..=101_000).contains(&rows), "{rows}");
-        let need_more = check(std::slice::from_ref(&p), Some(FIXED_BYTES + 1000 * BYTES_PER_TRADE)).unwrap_err().to_string();
-        assert!(need_more.contains(&format!("about {rows} rows")) && need_more.contains("--max-memory"), "{need_more}");
+        let need_more = check(
+            std::slice::from_ref(&p),
+            Some(FIXED_BYTES + 1000 * BYTES_PER_TRADE),
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            need_more.contains(&format!("about {rows} rows")) && need_more.contains("--max-memory"),
+            "{need_more}"
+        );
         assert!(check(&[p], Some(1 << 30)).is_ok());
     }
 }

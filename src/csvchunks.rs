@@ -30,11 +30,21 @@ pub enum ScanError {
     Empty,
     #[error("the header row is not UTF-8 text; save the file as UTF-8")]
     HeaderEncoding,
-    #[error("column '{name}' appears twice in the header (columns {first} and {second}); rename one")]
-    DuplicateColumn { name: String, first: usize, second: usize },
-    #[error("row {row}: a quote opened in column {column} is never closed, so the rest of the file would be one field; fix the quoting")]
+    #[error(
+        "column '{name}' appears twice in the header (columns {first} and {second}); rename one"
+    )]
+    DuplicateColumn {
+        name: String,
+        first: usize,
+        second: usize,
+    },
+    #[error(
+        "row {row}: a quote opened in column {column} is never closed, so the rest of the file would be one field; fix the quoting"
+    )]
     UnclosedQuote { row: usize, column: String },
-    #[error("after row {row}: a record runs over {mib} MiB without ending; a quote is probably never closed")]
+    #[error(
+        "after row {row}: a record runs over {mib} MiB without ending; a quote is probably never closed"
+    )]
     RecordTooLong { row: usize, mib: usize },
 }
 
@@ -125,7 +135,11 @@ pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Pa
             let mut j = start;
             let end = loop {
                 match memchr(b'"', &block[j..]) {
-                    None => return Parsed::Unclosed { column: rec.spans.len() + 1 },
+                    None => {
+                        return Parsed::Unclosed {
+                            column: rec.spans.len() + 1,
+                        };
+                    }
                     Some(q) if block.get(j + q + 1) == Some(&b'"') => {
                         rec.escaped = true;
                         j += q + 2
@@ -137,13 +151,20 @@ pub fn parse_record(block: &[u8], pos: usize, delim: u8, rec: &mut Record) -> Pa
             // Anything between the closing quote and the delimiter other
             // than spaces (and the CR of a CRLF) makes the record malformed.
             i = memchr2(delim, b'\n', &block[end + 1..]).map_or(n, |k| end + 1 + k);
-            if rec.after_quote.is_none() && block[end + 1..i].iter().any(|&b| !matches!(b, b' ' | b'\t' | b'\r')) {
+            if rec.after_quote.is_none()
+                && block[end + 1..i]
+                    .iter()
+                    .any(|&b| !matches!(b, b' ' | b'\t' | b'\r'))
+            {
                 rec.after_quote = Some((rec.spans.len() - 1, end + 1, i));
             }
         } else {
             // Fields are short: a plain scan beats a vectorised search's
             // set-up cost per call.
-            let k = block[i..].iter().position(|&b| b == delim || b == b'\n').map_or(n, |k| i + k);
+            let k = block[i..]
+                .iter()
+                .position(|&b| b == delim || b == b'\n')
+                .map_or(n, |k| i + k);
             let mut e = k;
             if (k == n || block[k] == b'\n') && e > i && block[e - 1] == b'\r' {
                 e -= 1;
@@ -181,7 +202,12 @@ pub struct Records<'a> {
 impl<'a> Records<'a> {
     pub fn new(block: &'a [u8], delim: u8) -> Records<'a> {
         let plain = delim != b'\r' && memchr(b'"', block).is_none();
-        Records { block, delim, pos: 0, ends: plain.then(|| memchr::memchr2_iter(delim, b'\n', block)) }
+        Records {
+            block,
+            delim,
+            pos: 0,
+            ends: plain.then(|| memchr::memchr2_iter(delim, b'\n', block)),
+        }
     }
 
     /// The next record into `rec`, or `None` at the end of the block.
@@ -213,7 +239,13 @@ impl<'a> Records<'a> {
             return Some(Parsed::Blank { next });
         }
         let mut start = pos;
-        let trim_cr = |start: usize, e: usize| if e > start && block[e - 1] == b'\r' { e - 1 } else { e };
+        let trim_cr = |start: usize, e: usize| {
+            if e > start && block[e - 1] == b'\r' {
+                e - 1
+            } else {
+                e
+            }
+        };
         loop {
             match ends.next() {
                 None => {
@@ -252,7 +284,13 @@ pub struct BlockReader {
 
 impl BlockReader {
     pub fn open(path: &Path, delim: u8) -> std::io::Result<BlockReader> {
-        Ok(BlockReader { file: File::open(path)?, delim, carry: Vec::new(), eof: false, block_bytes: BLOCK_BYTES })
+        Ok(BlockReader {
+            file: File::open(path)?,
+            delim,
+            carry: Vec::new(),
+            eof: false,
+            block_bytes: BLOCK_BYTES,
+        })
     }
 
     /// Smaller blocks, for tests of the boundary logic.
@@ -290,7 +328,10 @@ impl BlockReader {
             }
             // One record longer than the block: read on, within bounds.
             if buf.len() > MAX_RECORD_BYTES {
-                return Err(ScanError::RecordTooLong { row: 0, mib: MAX_RECORD_BYTES >> 20 });
+                return Err(ScanError::RecordTooLong {
+                    row: 0,
+                    mib: MAX_RECORD_BYTES >> 20,
+                });
             }
         }
     }
@@ -331,7 +372,11 @@ pub struct Header {
 /// Reads the header from the first block and removes it (and a BOM) from
 /// the block. Duplicate names are refused: a mapping could not tell them apart.
 pub fn take_header(block: &mut Vec<u8>, delim: u8) -> Result<Header, ScanError> {
-    let bom = if block.starts_with(b"\xEF\xBB\xBF") { 3 } else { 0 };
+    let bom = if block.starts_with(b"\xEF\xBB\xBF") {
+        3
+    } else {
+        0
+    };
     let mut pos = bom;
     let mut rec = Record::default();
     loop {
@@ -340,7 +385,12 @@ pub fn take_header(block: &mut Vec<u8>, delim: u8) -> Result<Header, ScanError> 
         }
         match parse_record(block, pos, delim, &mut rec) {
             Parsed::Blank { next } => pos = next,
-            Parsed::Unclosed { column } => return Err(ScanError::UnclosedQuote { row: 0, column: column.to_string() }),
+            Parsed::Unclosed { column } => {
+                return Err(ScanError::UnclosedQuote {
+                    row: 0,
+                    column: column.to_string(),
+                });
+            }
             Parsed::Record { next } => {
                 let mut names: Vec<String> = Vec::with_capacity(rec.len());
                 for k in 0..rec.len() {
@@ -348,7 +398,11 @@ pub fn take_header(block: &mut Vec<u8>, delim: u8) -> Result<Header, ScanError> 
                     let s = std::str::from_utf8(&f).map_err(|_| ScanError::HeaderEncoding)?;
                     let name = s.trim().to_string();
                     if let Some(first) = names.iter().position(|n| !n.is_empty() && *n == name) {
-                        return Err(ScanError::DuplicateColumn { name, first: first + 1, second: k + 1 });
+                        return Err(ScanError::DuplicateColumn {
+                            name,
+                            first: first + 1,
+                            second: k + 1,
+                        });
                     }
                     names.push(name);
                 }
@@ -392,7 +446,11 @@ mod tests {
         while pos < text.len() {
             match parse_record(text, pos, delim, &mut rec) {
                 Parsed::Record { next } => {
-                    out.push((0..rec.len()).map(|k| String::from_utf8(rec.field(text, k).into_owned()).unwrap()).collect());
+                    out.push(
+                        (0..rec.len())
+                            .map(|k| String::from_utf8(rec.field(text, k).into_owned()).unwrap())
+                            .collect(),
+                    );
                     pos = next;
                 }
                 Parsed::Blank { next } => pos = next,
@@ -436,7 +494,9 @@ mod tests {
         let alphabet = b",;\r\n\na1 ";
         for case in 0..5000 {
             let len = rng.random_range(1..40);
-            let text: Vec<u8> = (0..len).map(|_| alphabet[rng.random_range(0..alphabet.len())]).collect();
+            let text: Vec<u8> = (0..len)
+                .map(|_| alphabet[rng.random_range(0..alphabet.len())])
+                .collect();
             for delim in [b',', b';'] {
                 let mut r = Records::new(&text, delim);
                 assert!(r.ends.is_some());
@@ -448,7 +508,12 @@ mod tests {
                         Parsed::Unclosed { .. } => unreachable!("no quotes"),
                     }
                 }
-                assert_eq!(got, by_parse_record(&text, delim), "case {case}: {:?}", String::from_utf8_lossy(&text));
+                assert_eq!(
+                    got,
+                    by_parse_record(&text, delim),
+                    "case {case}: {:?}",
+                    String::from_utf8_lossy(&text)
+                );
             }
         }
     }
@@ -459,9 +524,16 @@ mod tests {
         let t = b"a,b,c\r\n\"x,y\",\"two\r\nlines\",\"say \"\"hi\"\"\"\r\n\r\n1,,\n";
         assert_eq!(
             fields(t, b','),
-            vec![vec!["a", "b", "c"], vec!["x,y", "two\r\nlines", "say \"hi\""], vec!["1", "", ""]]
+            vec![
+                vec!["a", "b", "c"],
+                vec!["x,y", "two\r\nlines", "say \"hi\""],
+                vec!["1", "", ""]
+            ]
         );
-        assert_eq!(fields(b"a;b\n\"open;x\n", b';'), vec![vec!["a", "b"], vec!["unclosed in 1"]]);
+        assert_eq!(
+            fields(b"a;b\n\"open;x\n", b';'),
+            vec![vec!["a", "b"], vec!["unclosed in 1"]]
+        );
         assert_eq!(fields(b"last,row", b','), vec![vec!["last", "row"]]);
         assert_eq!(fields(b"\"q\"\r\n", b','), vec![vec!["q"]]);
     }
@@ -492,7 +564,14 @@ mod tests {
         assert_eq!(h.names, vec!["name", "pnl"]);
         assert_eq!(b, b"1,2\n");
         let mut d = b"pnl,x,pnl\n".to_vec();
-        assert!(matches!(take_header(&mut d, b','), Err(ScanError::DuplicateColumn { first: 1, second: 3, .. })));
+        assert!(matches!(
+            take_header(&mut d, b','),
+            Err(ScanError::DuplicateColumn {
+                first: 1,
+                second: 3,
+                ..
+            })
+        ));
     }
 
     #[test]

@@ -70,7 +70,14 @@ pub fn used_windows(releases: &[Release], windows: &WindowSettings) -> Vec<UsedW
         .enumerate()
         .filter_map(|(i, r)| {
             let (start, end, at) = windows.span_for(r)?;
-            Some(UsedWindow { release: i as u32, currency: r.currency.clone(), start, end, at, all_day: r.all_day })
+            Some(UsedWindow {
+                release: i as u32,
+                currency: r.currency.clone(),
+                start,
+                end,
+                at,
+                all_day: r.all_day,
+            })
         })
         .collect()
 }
@@ -139,7 +146,11 @@ impl Engine {
                 _ => (w.start, w.end),
             };
             let ix = &mut index[ci];
-            ix.slots.push(Slot { start, end, release: w.release });
+            ix.slots.push(Slot {
+                start,
+                end,
+                release: w.release,
+            });
             ix.max_len = ix.max_len.max(end - start);
             ix.instants.push((w.at, w.release));
         }
@@ -147,29 +158,59 @@ impl Engine {
             ix.slots.sort_by_key(|s| (s.start, s.release));
             ix.instants.sort_unstable();
         }
-        Engine { rule, currencies, index, used }
+        Engine {
+            rule,
+            currencies,
+            index,
+            used,
+        }
     }
 
     /// Index of a currency in the engine, if any used release has it.
     fn currency_ids(&self, codes: &[String]) -> Vec<usize> {
-        codes.iter().filter_map(|c| self.currencies.get(c).copied()).collect()
+        codes
+            .iter()
+            .filter_map(|c| self.currencies.get(c).copied())
+            .collect()
     }
 
     /// Runs every trade. `instrument_currencies[i]` lists the currencies of
     /// instrument i.
-    pub fn run(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>]) -> Exposure {
+    pub fn run(
+        &self,
+        opened: &[i64],
+        closed: &[i64],
+        instrument: &[u32],
+        instrument_currencies: &[Vec<String>],
+    ) -> Exposure {
         self.run_with(opened, closed, instrument, instrument_currencies, true)
     }
 
     /// [`Engine::run`] without the nearest release of each trade (`nearest`
     /// and `minutes_from_nearest` stay empty): for placebo calendars, window
     /// grids and per-run ranking, which use only the matches.
-    pub fn run_matches(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>]) -> Exposure {
+    pub fn run_matches(
+        &self,
+        opened: &[i64],
+        closed: &[i64],
+        instrument: &[u32],
+        instrument_currencies: &[Vec<String>],
+    ) -> Exposure {
         self.run_with(opened, closed, instrument, instrument_currencies, false)
     }
 
-    fn run_with(&self, opened: &[i64], closed: &[i64], instrument: &[u32], instrument_currencies: &[Vec<String>], want_nearest: bool) -> Exposure {
-        let ids: Vec<Vec<usize>> = instrument_currencies.iter().map(|c| self.currency_ids(c)).collect();
+    fn run_with(
+        &self,
+        opened: &[i64],
+        closed: &[i64],
+        instrument: &[u32],
+        instrument_currencies: &[Vec<String>],
+        want_nearest: bool,
+    ) -> Exposure {
+        let ids: Vec<Vec<usize>> = instrument_currencies
+            .iter()
+            .map(|c| self.currency_ids(c))
+            .collect();
         let n = opened.len();
         // Work in parallel chunks, each writing its trades' k (and nearest
         // release) in place and returning its own matched releases.
@@ -181,9 +222,14 @@ impl Engine {
             minutes_from_nearest: vec![f64::NAN; if want_nearest { n } else { 0 }],
         };
         let nearest_chunks: Vec<(&mut [u32], &mut [f64])> = if want_nearest {
-            out.nearest.chunks_mut(CHUNK).zip(out.minutes_from_nearest.chunks_mut(CHUNK)).collect()
+            out.nearest
+                .chunks_mut(CHUNK)
+                .zip(out.minutes_from_nearest.chunks_mut(CHUNK))
+                .collect()
         } else {
-            (0..n.div_ceil(CHUNK)).map(|_| (&mut [][..], &mut [][..])).collect()
+            (0..n.div_ceil(CHUNK))
+                .map(|_| (&mut [][..], &mut [][..]))
+                .collect()
         };
         let parts: Vec<Vec<u32>> = out
             .k
@@ -209,7 +255,9 @@ impl Engine {
                     for &ci in &ids[instrument[i] as usize] {
                         let ix = &self.index[ci];
                         let h = &mut hints[ci];
-                        let from = partition_point_near(&ix.slots, h[0], |s| s.start < qa.saturating_sub(ix.max_len));
+                        let from = partition_point_near(&ix.slots, h[0], |s| {
+                            s.start < qa.saturating_sub(ix.max_len)
+                        });
                         // The candidates are few: walk them rather than
                         // search for their end.
                         let mut to = from;
@@ -325,7 +373,12 @@ pub fn coverage_at(
     rule: ExposureRule,
     stated: Option<(i64, i64)>,
 ) -> Vec<CoverageLine> {
-    let exp = Engine::new(releases, windows, rule).run_matches(&trades.opened, &trades.closed, &trades.instrument, instrument_currencies);
+    let exp = Engine::new(releases, windows, rule).run_matches(
+        &trades.opened,
+        &trades.closed,
+        &trades.instrument,
+        instrument_currencies,
+    );
     coverage(releases, trades, instrument_currencies, &exp.k, stated)
 }
 
@@ -355,12 +408,19 @@ pub fn coverage(
         .iter()
         .map(|cur| {
             let released = span.get(cur.as_str())?;
-            Some(stated.unwrap_or((released.0.div_euclid(DAY_MS) * DAY_MS, (released.1.div_euclid(DAY_MS) + 1) * DAY_MS)))
+            Some(stated.unwrap_or((
+                released.0.div_euclid(DAY_MS) * DAY_MS,
+                (released.1.div_euclid(DAY_MS) + 1) * DAY_MS,
+            )))
         })
         .collect();
     let of_instrument: Vec<Vec<usize>> = instrument_currencies
         .iter()
-        .map(|cs| cs.iter().filter_map(|c| all.binary_search(&c).ok()).collect())
+        .map(|cs| {
+            cs.iter()
+                .filter_map(|c| all.binary_search(&c).ok())
+                .collect()
+        })
         .collect();
     #[derive(Default, Clone)]
     struct Outside {
@@ -397,14 +457,22 @@ pub fn coverage(
             currency: (*cur).clone(),
             calendar_from: d.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
             calendar_to: d.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
-            coverage_from: if stated.is_some() { "--calendar-span" } else { "releases" },
+            coverage_from: if stated.is_some() {
+                "--calendar-span"
+            } else {
+                "releases"
+            },
             trades_outside: o.trades,
             pnl_outside: o.pnl,
             exposed_outside: o.exposed,
             exposed_pnl_outside: o.exposed_pnl,
             by_instrument: {
                 // By name, whatever the order instruments first appear in.
-                let mut v: Vec<(String, usize)> = o.by_instrument.into_iter().map(|(i, n)| (trades.instruments[i as usize].clone(), n)).collect();
+                let mut v: Vec<(String, usize)> = o
+                    .by_instrument
+                    .into_iter()
+                    .map(|(i, n)| (trades.instruments[i as usize].clone(), n))
+                    .collect();
                 v.sort();
                 v
             },
@@ -422,7 +490,11 @@ mod tests {
         for q in -3..205 {
             let want = v.partition_point(|&x| x < q);
             for hint in [0, 1, 7, 150, 299, 300, 5000] {
-                assert_eq!(partition_point_near(&v, hint, |&x| x < q), want, "q {q} hint {hint}");
+                assert_eq!(
+                    partition_point_near(&v, hint, |&x| x < q),
+                    want,
+                    "q {q} hint {hint}"
+                );
             }
         }
         assert_eq!(partition_point_near(&[] as &[i64], 3, |&x| x < 1), 0);
@@ -450,7 +522,15 @@ mod tests {
         let w = WindowSettings::default();
         let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
         let m = |x: i64| x * MINUTE_MS;
-        let trades: Vec<(i64, i64)> = vec![(900, 985), (900, 984), (1030, 1100), (1031, 1100), (990, 995), (1000, 1000), (1001, 1005)];
+        let trades: Vec<(i64, i64)> = vec![
+            (900, 985),
+            (900, 984),
+            (1030, 1100),
+            (1031, 1100),
+            (990, 995),
+            (1000, 1000),
+            (1001, 1005),
+        ];
         let (o, c): (Vec<i64>, Vec<i64>) = trades.iter().map(|&(a, b)| (m(a), m(b))).unzip();
         let inst = vec![0; o.len()];
         let k = |rule| Engine::new(&rs, &w, rule).run(&o, &c, &inst, &cur).k;
@@ -461,7 +541,11 @@ mod tests {
 
     #[test]
     fn nearest_release_and_minutes() {
-        let rs = vec![rel(1000, "USD", Tier::High), rel(2000, "EUR", Tier::Medium), rel(1400, "JPY", Tier::High)];
+        let rs = vec![
+            rel(1000, "USD", Tier::High),
+            rel(2000, "EUR", Tier::Medium),
+            rel(1400, "JPY", Tier::High),
+        ];
         let w = WindowSettings::default();
         let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
         let o = vec![1600 * MINUTE_MS];

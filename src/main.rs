@@ -39,13 +39,18 @@ fn main() -> ExitCode {
             use clap::CommandFactory;
             let mut buf = Vec::new();
             clap_complete::generate(shell, &mut Cli::command(), "eventfence", &mut buf);
-            eventfence::output::stdout(&buf).map(|_| ExitCode::SUCCESS).map_err(anyhow::Error::from)
+            eventfence::output::stdout(&buf)
+                .map(|_| ExitCode::SUCCESS)
+                .map_err(anyhow::Error::from)
         }
     };
     match result {
         Ok(code) => code,
         Err(e) => {
-            if e.chain().any(|c| c.downcast_ref::<std::io::Error>().is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)) {
+            if e.chain().any(|c| {
+                c.downcast_ref::<std::io::Error>()
+                    .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+            }) {
                 return ExitCode::SUCCESS;
             }
             eprintln!("eventfence: {e:#}");

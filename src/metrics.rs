@@ -100,7 +100,9 @@ impl Curve<'_> {
 
     /// (open, close) of the kept trades, in order.
     fn intervals(&self) -> impl DoubleEndedIterator<Item = (i64, i64)> + '_ {
-        self.trade.iter().map(|&i| (self.opened[i as usize], self.closed[i as usize]))
+        self.trade
+            .iter()
+            .map(|&i| (self.opened[i as usize], self.closed[i as usize]))
     }
 }
 
@@ -190,7 +192,12 @@ pub fn top_abs_of(values: &[f64], k: usize) -> Vec<f64> {
     // roughly twice the top k; when at least k values pass it, the top k are
     // among them (the k-th largest is then ≥ the threshold).
     if n >= 1 << 16 && k.saturating_mul(8) <= n {
-        let mut sample: Vec<f64> = values.iter().step_by(n / 4096).map(|v| v.abs()).filter(|v| !v.is_nan()).collect();
+        let mut sample: Vec<f64> = values
+            .iter()
+            .step_by(n / 4096)
+            .map(|v| v.abs())
+            .filter(|v| !v.is_nan())
+            .collect();
         sample.sort_unstable_by(|a, b| b.total_cmp(a));
         let want = (2.0 * k as f64 / n as f64 * sample.len() as f64).ceil() as usize + 8;
         if let Some(&t) = sample.get(want) {
@@ -226,7 +233,8 @@ pub fn top_abs(values: impl Iterator<Item = f64>, k: usize) -> Vec<f64> {
     if k == 0 {
         return Vec::new();
     }
-    let mut heap: std::collections::BinaryHeap<Reverse<Total>> = std::collections::BinaryHeap::with_capacity(k + 1);
+    let mut heap: std::collections::BinaryHeap<Reverse<Total>> =
+        std::collections::BinaryHeap::with_capacity(k + 1);
     for v in values.filter(|v| !v.is_nan()) {
         if heap.len() < k {
             heap.push(Reverse(Total(v)));
@@ -245,7 +253,11 @@ pub fn top_abs(values: impl Iterator<Item = f64>, k: usize) -> Vec<f64> {
 pub fn tcr_k(n: usize, p: f64) -> usize {
     let raw = n as f64 * p / 100.0;
     let rounded = raw.round();
-    let k = if (raw - rounded).abs() < 1e-9 { rounded } else { raw.ceil() };
+    let k = if (raw - rounded).abs() < 1e-9 {
+        rounded
+    } else {
+        raw.ceil()
+    };
     (k as usize).clamp(1, n)
 }
 
@@ -283,7 +295,7 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
 /// One pass over the closes in order: the daily series (see
 /// [`daily_series`]) and the longest peak-to-recovery time in days.
 fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
-    use crate::zones::{local_day, weekday_index, LocalDayCursor};
+    use crate::zones::{LocalDayCursor, local_day, weekday_index};
     let z = &ctx.report_zone;
     let first = weekday_index(local_day(z, ctx.span.0));
     let last = weekday_index(local_day(z, ctx.span.1));
@@ -359,7 +371,11 @@ fn union_length(intervals: impl DoubleEndedIterator<Item = (i64, i64)>) -> i64 {
 /// Union length of intervals, each first clipped to `clip` when given.
 pub fn union_within(mut iv: Vec<(i64, i64)>, clip: Option<(i64, i64)>) -> i64 {
     if let Some((lo, hi)) = clip {
-        iv = iv.into_iter().map(|(a, b)| (a.max(lo), b.min(hi))).filter(|(a, b)| b > a).collect();
+        iv = iv
+            .into_iter()
+            .map(|(a, b)| (a.max(lo), b.min(hi)))
+            .filter(|(a, b)| b > a)
+            .collect();
     }
     iv.sort_unstable();
     let (mut total, mut cur): (i64, Option<(i64, i64)>) = (0, None);
@@ -391,7 +407,10 @@ pub fn time_held(c: &Curve) -> i64 {
 /// already known (the capped scenario holds the baseline's trades).
 pub fn compute_with_union(c: &Curve, ctx: &Context, union: Option<i64>) -> Metrics {
     let n = c.pnl.len();
-    let mut m = Metrics { trades: n, ..Default::default() };
+    let mut m = Metrics {
+        trades: n,
+        ..Default::default()
+    };
     let (mut big_win, mut big_loss) = (f64::NEG_INFINITY, f64::INFINITY);
     // Without branches: a win or loss is a coin flip to the predictor.
     // Adding 0.0 for the other side leaves each sum as it was.
@@ -427,7 +446,8 @@ pub fn compute_with_union(c: &Curve, ctx: &Context, union: Option<i64>) -> Metri
     m.sortino = sortino(&daily, DAYS_PER_YEAR);
     m.t_stat = t_stat(c.pnl);
     let span = ctx.span.1 - ctx.span.0;
-    m.time_in_market = (span > 0).then(|| union.unwrap_or_else(|| time_held(c)) as f64 / span as f64);
+    m.time_in_market =
+        (span > 0).then(|| union.unwrap_or_else(|| time_held(c)) as f64 / span as f64);
     m.tcr = tcr(if c.tail.is_empty() { c.pnl } else { c.tail }, ctx.tcr_p);
     m
 }
@@ -441,11 +461,17 @@ mod tests {
         use rand::{RngExt, SeedableRng};
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(9);
         for n in [0usize, 1, 5, 100, 1000] {
-            let v: Vec<f64> = (0..n).map(|_| (rng.random_range(-40..40) as f64) / 4.0).collect();
+            let v: Vec<f64> = (0..n)
+                .map(|_| (rng.random_range(-40..40) as f64) / 4.0)
+                .collect();
             let mut sorted: Vec<f64> = v.iter().map(|x| x.abs()).collect();
             sorted.sort_by(|a, b| b.total_cmp(a));
             for k in [0usize, 1, 3, 10, 2000] {
-                assert_eq!(top_abs(v.iter().map(|x| x.abs()), k), sorted[..k.min(n)].to_vec(), "n {n} k {k}");
+                assert_eq!(
+                    top_abs(v.iter().map(|x| x.abs()), k),
+                    sorted[..k.min(n)].to_vec(),
+                    "n {n} k {k}"
+                );
             }
         }
     }
@@ -456,9 +482,15 @@ mod tests {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(12);
         for (n, spread) in [(70_000usize, 40i64), (200_000, 4), (300_000, 1_000_000)] {
             // Few distinct values (many ties at the cut) and many.
-            let v: Vec<f64> = (0..n).map(|_| (rng.random_range(-spread..spread) as f64) / 4.0).collect();
+            let v: Vec<f64> = (0..n)
+                .map(|_| (rng.random_range(-spread..spread) as f64) / 4.0)
+                .collect();
             for k in [1usize, 5, 100, n / 100, n / 9] {
-                assert_eq!(top_abs_of(&v, k), top_abs(v.iter().map(|x| x.abs()), k), "n {n} spread {spread} k {k}");
+                assert_eq!(
+                    top_abs_of(&v, k),
+                    top_abs(v.iter().map(|x| x.abs()), k),
+                    "n {n} spread {spread} k {k}"
+                );
             }
         }
     }
@@ -468,11 +500,17 @@ mod tests {
         use rand::{RngExt, SeedableRng};
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
         for n in [1usize, 2, 3, 10, 101, 1000] {
-            let v: Vec<f64> = (0..n).map(|_| (rng.random_range(0..50) as f64) / 4.0).collect();
+            let v: Vec<f64> = (0..n)
+                .map(|_| (rng.random_range(0..50) as f64) / 4.0)
+                .collect();
             let mut sorted = v.clone();
             sorted.sort_by(f64::total_cmp);
             for q in [0.0, 0.01, 0.25, 0.5, 0.9, 0.99, 1.0] {
-                assert_eq!(quantile_type7_unsorted(&mut v.clone(), q), quantile_type7(&sorted, q), "n {n} q {q}");
+                assert_eq!(
+                    quantile_type7_unsorted(&mut v.clone(), q),
+                    quantile_type7(&sorted, q),
+                    "n {n} q {q}"
+                );
             }
         }
     }
@@ -490,12 +528,18 @@ mod tests {
                 })
                 .collect();
             iv.sort_by_key(|&(a, b)| (b, a));
-            assert_eq!(union_length(iv.iter().copied()), union_within(iv.clone(), None), "{iv:?}");
+            assert_eq!(
+                union_length(iv.iter().copied()),
+                union_within(iv.clone(), None),
+                "{iv:?}"
+            );
         }
     }
 
     /// REFERENCES.md §4.5 reference trade list (scipy/numpy computed).
-    const REF: [f64; 10] = [250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0];
+    const REF: [f64; 10] = [
+        250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0,
+    ];
 
     fn close(a: f64, b: f64) -> bool {
         (a - b).abs() <= 1e-9 * b.abs().max(1.0)
@@ -504,10 +548,26 @@ mod tests {
     #[test]
     fn reference_trade_list() {
         let t: Vec<i64> = (0..10).map(|i| i * DAY_MS).collect();
-        let ctx = Context { span: (0, 9 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 10.0 };
-        let m = compute(&Curve { pnl: &REF, trade: &[0, 1, 2, 3, 4, 5, 6, 7, 8, 9], opened: &t, closed: &t, tail: &[] }, &ctx);
+        let ctx = Context {
+            span: (0, 9 * DAY_MS),
+            report_zone: Zone::Utc,
+            initial_equity: None,
+            tcr_p: 10.0,
+        };
+        let m = compute(
+            &Curve {
+                pnl: &REF,
+                trade: &[0, 1, 2, 3, 4, 5, 6, 7, 8, 9],
+                opened: &t,
+                closed: &t,
+                tail: &[],
+            },
+            &ctx,
+        );
         assert_eq!((m.trades, m.wins, m.losses), (10, 6, 4));
-        assert!(close(m.net, 600.0) && close(m.gross_profit, 1030.0) && close(m.gross_loss, -430.0));
+        assert!(
+            close(m.net, 600.0) && close(m.gross_profit, 1030.0) && close(m.gross_loss, -430.0)
+        );
         assert!(close(m.profit_factor.unwrap(), 2.395348837209302));
         assert!(close(m.win_rate.unwrap(), 0.6));
         assert!(close(m.t_stat.unwrap(), 1.056905286528691));
@@ -570,10 +630,31 @@ mod tests {
         assert!(close(pct.unwrap(), 20.0 / 110.0));
         let t: Vec<i64> = vec![DAY_MS, 3 * DAY_MS, 4 * DAY_MS, 10 * DAY_MS];
         let pnl = [5.0, -3.0, 1.0, 4.0];
-        let ctx = Context { span: (0, 12 * DAY_MS), report_zone: Zone::Utc, initial_equity: None, tcr_p: 1.0 };
+        let ctx = Context {
+            span: (0, 12 * DAY_MS),
+            report_zone: Zone::Utc,
+            initial_equity: None,
+            tcr_p: 1.0,
+        };
         // Peak at day 1 (5), recovered at day 10 (7) → 9 days.
-        assert_eq!(walk_closes(&Curve { pnl: &pnl, trade: &[0, 1, 2, 3], opened: &t, closed: &t, tail: &[] }, &ctx).1, 9.0);
+        assert_eq!(
+            walk_closes(
+                &Curve {
+                    pnl: &pnl,
+                    trade: &[0, 1, 2, 3],
+                    opened: &t,
+                    closed: &t,
+                    tail: &[]
+                },
+                &ctx
+            )
+            .1,
+            9.0
+        );
         assert_eq!(union_length([(0, 10), (5, 12), (20, 25)].into_iter()), 17);
-        assert_eq!(union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))), 25);
+        assert_eq!(
+            union_within(vec![(0, 10), (5, 20), (30, 40)], Some((0, 35))),
+            25
+        );
     }
 }

@@ -70,14 +70,22 @@ fn parse_written(t: &str, comma_decimal_allowed: bool) -> Option<f64> {
         }
         rest = rest[..rest.len() - c.len_utf8()].trim_end_matches(SPACES);
     }
-    if rest.is_empty() || !rest.starts_with(|c: char| c.is_ascii_digit()) && !rest.starts_with('.') && !rest.starts_with(',') {
+    if rest.is_empty()
+        || !rest.starts_with(|c: char| c.is_ascii_digit())
+            && !rest.starts_with('.')
+            && !rest.starts_with(',')
+    {
         return None;
     }
     let (points, commas) = (rest.matches('.').count(), rest.matches(',').count());
     let decimal = if !comma_decimal_allowed {
         '.'
     } else if points > 0 && commas > 0 {
-        if rest.rfind(',') > rest.rfind('.') { ',' } else { '.' }
+        if rest.rfind(',') > rest.rfind('.') {
+            ','
+        } else {
+            '.'
+        }
     } else if commas == 1 {
         ','
     } else {
@@ -104,7 +112,11 @@ fn parse_written(t: &str, comma_decimal_allowed: bool) -> Option<f64> {
 /// a space, `'`, `_` or `other_mark`) checked and removed.
 fn group_digits(int: &str, other_mark: char) -> Option<String> {
     if int.bytes().all(|b| b.is_ascii_digit()) {
-        return Some(if int.is_empty() { "0".into() } else { int.to_string() });
+        return Some(if int.is_empty() {
+            "0".into()
+        } else {
+            int.to_string()
+        });
     }
     let sep = int.chars().find(|c| !c.is_ascii_digit())?;
     if !(SPACES.contains(&sep) || sep == '\'' || sep == '_' || sep == other_mark) {
@@ -127,7 +139,8 @@ fn group_digits(int: &str, other_mark: char) -> Option<String> {
 /// Anything else is left to `str::parse`.
 pub(crate) fn parse_simple_decimal(b: &[u8]) -> Option<f64> {
     const POW10: [f64; 23] = [
-        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+        1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
     ];
     let (neg, digits) = match b.first()? {
         b'-' => (true, &b[1..]),
@@ -204,7 +217,11 @@ mod tests {
             ("1 000'000", false, None),
         ];
         for &(text, comma, want) in cases {
-            assert_eq!(parse_number(text, comma), want, "{text:?} (comma decimal allowed: {comma})");
+            assert_eq!(
+                parse_number(text, comma),
+                want,
+                "{text:?} (comma decimal allowed: {comma})"
+            );
         }
         assert!(parse_number("NaN", false).unwrap().is_nan());
     }

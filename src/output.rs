@@ -7,7 +7,10 @@ use std::path::{Path, PathBuf};
 #[derive(Debug, thiserror::Error)]
 pub enum OutputError {
     #[error("cannot write {path}: {source}")]
-    Io { path: PathBuf, source: std::io::Error },
+    Io {
+        path: PathBuf,
+        source: std::io::Error,
+    },
     #[error("refusing to write {0}: it is one of the input files")]
     WouldOverwriteInput(PathBuf),
 }
@@ -21,7 +24,10 @@ pub struct OutDir {
 impl OutDir {
     /// Creates the folder if needed.
     pub fn new(dir: &Path, inputs: &[PathBuf]) -> Result<OutDir, OutputError> {
-        std::fs::create_dir_all(dir).map_err(|source| OutputError::Io { path: dir.into(), source })?;
+        std::fs::create_dir_all(dir).map_err(|source| OutputError::Io {
+            path: dir.into(),
+            source,
+        })?;
         // Temp files left by a run that was killed mid-write: only ever ours.
         if let Ok(entries) = std::fs::read_dir(dir) {
             for e in entries.flatten() {
@@ -31,8 +37,14 @@ impl OutDir {
                 }
             }
         }
-        let inputs = inputs.iter().filter_map(|p| std::fs::canonicalize(p).ok()).collect();
-        Ok(OutDir { dir: dir.into(), inputs })
+        let inputs = inputs
+            .iter()
+            .filter_map(|p| std::fs::canonicalize(p).ok())
+            .collect();
+        Ok(OutDir {
+            dir: dir.into(),
+            inputs,
+        })
     }
 
     /// Writes `name` in the folder atomically: readers see the old complete
@@ -45,7 +57,10 @@ impl OutDir {
             return Err(OutputError::WouldOverwriteInput(path));
         }
         let tmp = self.dir.join(format!(".{name}.tmp-{}", std::process::id()));
-        let io = |source| OutputError::Io { path: path.clone(), source };
+        let io = |source| OutputError::Io {
+            path: path.clone(),
+            source,
+        };
         {
             let mut f = std::fs::File::create(&tmp).map_err(io)?;
             f.write_all(bytes).map_err(io)?;
@@ -53,7 +68,10 @@ impl OutDir {
         }
         std::fs::rename(&tmp, &path).map_err(|source| {
             let _ = std::fs::remove_file(&tmp);
-            OutputError::Io { path: path.clone(), source }
+            OutputError::Io {
+                path: path.clone(),
+                source,
+            }
         })?;
         Ok(path)
     }
@@ -62,7 +80,9 @@ impl OutDir {
 /// `.NAME.tmp-PID`, the shape of [`OutDir::write`]'s temp files.
 fn is_temp_name(name: &str) -> bool {
     name.starts_with('.')
-        && name.rsplit_once(".tmp-").is_some_and(|(_, pid)| !pid.is_empty() && pid.bytes().all(|b| b.is_ascii_digit()))
+        && name
+            .rsplit_once(".tmp-")
+            .is_some_and(|(_, pid)| !pid.is_empty() && pid.bytes().all(|b| b.is_ascii_digit()))
 }
 
 /// Writes to stdout, returning an error (not panicking) when the reader has
@@ -83,17 +103,31 @@ mod tests {
         let input = dir.path().join("trades.csv");
         std::fs::write(&input, "x").unwrap();
         let out = OutDir::new(dir.path(), std::slice::from_ref(&input)).unwrap();
-        assert!(matches!(out.write("trades.csv", b"y"), Err(OutputError::WouldOverwriteInput(_))));
+        assert!(matches!(
+            out.write("trades.csv", b"y"),
+            Err(OutputError::WouldOverwriteInput(_))
+        ));
         assert_eq!(std::fs::read_to_string(&input).unwrap(), "x");
         out.write("summary.json", b"{}").unwrap();
         out.write("summary.json", b"{\"a\":1}").unwrap();
-        assert_eq!(std::fs::read_to_string(dir.path().join("summary.json")).unwrap(), "{\"a\":1}");
-        let leftovers: Vec<_> = std::fs::read_dir(dir.path()).unwrap().filter_map(Result::ok).filter(|e| e.file_name().to_string_lossy().contains(".tmp-")).collect();
+        assert_eq!(
+            std::fs::read_to_string(dir.path().join("summary.json")).unwrap(),
+            "{\"a\":1}"
+        );
+        let leftovers: Vec<_> = std::fs::read_dir(dir.path())
+            .unwrap()
+            .filter_map(Result::ok)
+            .filter(|e| e.file_name().to_string_lossy().contains(".tmp-"))
+            .collect();
         assert!(leftovers.is_empty());
         // A killed run's temp file is swept by the next run.
         std::fs::write(dir.path().join(".summary.json.tmp-999999"), "{\"half").unwrap();
         OutDir::new(dir.path(), &[]).unwrap();
         assert!(!dir.path().join(".summary.json.tmp-999999").exists());
-        assert!(is_temp_name(".trades.csv.tmp-42") && !is_temp_name("trades.csv") && !is_temp_name(".x.tmp-abc"));
+        assert!(
+            is_temp_name(".trades.csv.tmp-42")
+                && !is_temp_name("trades.csv")
+                && !is_temp_name(".x.tmp-abc")
+        );
     }
 }

@@ -23,8 +23,20 @@ pub fn mark(name: &str) {
     let mut last = LAST.lock().unwrap_or_else(|e| e.into_inner());
     if let Some(t) = *last {
         let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
-        let field = |key: &str| status.lines().find_map(|l| l.strip_prefix(key)).map_or(0, |v| v.trim().trim_end_matches(" kB").parse::<u64>().unwrap_or(0) / 1024);
-        eprintln!("phase {name:<24} {:>8.3} s  rss {:>6} MiB  peak {:>6} MiB", (now - t).as_secs_f64(), field("VmRSS:"), field("VmHWM:"));
+        let field = |key: &str| {
+            status
+                .lines()
+                .find_map(|l| l.strip_prefix(key))
+                .map_or(0, |v| {
+                    v.trim().trim_end_matches(" kB").parse::<u64>().unwrap_or(0) / 1024
+                })
+        };
+        eprintln!(
+            "phase {name:<24} {:>8.3} s  rss {:>6} MiB  peak {:>6} MiB",
+            (now - t).as_secs_f64(),
+            field("VmRSS:"),
+            field("VmHWM:")
+        );
     }
     *last = Some(Instant::now());
 }

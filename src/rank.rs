@@ -108,7 +108,9 @@ pub fn rank(
         .par_iter()
         .enumerate()
         .map(|(r, idx)| {
-            let row = run_row(trades, idx, r, &engine, releases, windows, currencies, settings, by, placebo);
+            let row = run_row(
+                trades, idx, r, &engine, releases, windows, currencies, settings, by, placebo,
+            );
             progress();
             row
         })
@@ -160,14 +162,29 @@ fn run_row(
     let view = TradeView::of(&order, &t, &is_exposed);
     let sc = scenarios::build(&view, &settings.scenario)?;
     let span = t.span().unwrap_or((0, 0));
-    let ctx = Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
+    let ctx = Context {
+        span,
+        report_zone: settings.report_tz,
+        initial_equity: sc.initial_equity,
+        tcr_p: settings.tcr_p,
+    };
     let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&t.opened, &t.closed), &ctx);
     let (b, rm) = (m(&sc.baseline), m(&sc.removed));
     let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
     let name = all.runs.get(r).cloned().unwrap_or_else(|| "all".into());
     let placebo_p = (placebo.n > 0).then(|| {
         let seed = crate::trades::run_seed(placebo.seed, &name);
-        stats::placebo(&t, releases, windows, currencies, settings.exposure_rule, &flags, PlaceboSettings { seed, ..placebo }, &|| {}).p_share
+        stats::placebo(
+            &t,
+            releases,
+            windows,
+            currencies,
+            settings.exposure_rule,
+            &flags,
+            PlaceboSettings { seed, ..placebo },
+            &|| {},
+        )
+        .p_share
     });
     Ok(RunRow {
         run: name,
@@ -202,7 +219,11 @@ fn ranks(values: &[Option<f64>], names: &[&str], higher_is_better: bool) -> Vec<
     let by_name = |a: usize, b: usize| crate::trades::run_order(names[a], names[b]);
     idx.sort_by(|&a, &b| match (values[a], values[b]) {
         (Some(x), Some(y)) => {
-            let o = if higher_is_better { y.total_cmp(&x) } else { x.total_cmp(&y) };
+            let o = if higher_is_better {
+                y.total_cmp(&x)
+            } else {
+                x.total_cmp(&y)
+            };
             o.then_with(|| by_name(a, b))
         }
         (Some(_), None) => std::cmp::Ordering::Less,
@@ -220,7 +241,10 @@ fn assign_ranks(rows: &mut [RunRow], by: RankBy) {
     let b: Vec<Option<f64>> = rows.iter().map(|r| r.by_baseline).collect();
     let r: Vec<Option<f64>> = rows.iter().map(|r| r.by_removed).collect();
     let names: Vec<&str> = rows.iter().map(|r| r.run.as_str()).collect();
-    let (rb, rr) = (ranks(&b, &names, by.higher_is_better()), ranks(&r, &names, by.higher_is_better()));
+    let (rb, rr) = (
+        ranks(&b, &names, by.higher_is_better()),
+        ranks(&r, &names, by.higher_is_better()),
+    );
     for (i, row) in rows.iter_mut().enumerate() {
         row.rank_baseline = rb[i];
         row.rank_removed = rr[i];
@@ -235,10 +259,26 @@ mod tests {
     #[test]
     fn ranking_orders_and_puts_undefined_last() {
         let names = ["a", "b", "c", "d"];
-        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, true), vec![3, 4, 1, 2]);
-        assert_eq!(ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, false), vec![1, 4, 3, 2]);
+        assert_eq!(
+            ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, true),
+            vec![3, 4, 1, 2]
+        );
+        assert_eq!(
+            ranks(&[Some(1.0), None, Some(3.0), Some(2.0)], &names, false),
+            vec![1, 4, 3, 2]
+        );
         // Ties by the runs' natural name order, not by their input position.
-        assert_eq!(ranks(&[Some(1.0), Some(1.0)], &["p10", "p2"], true), vec![2, 1]);
-        assert_eq!(ranks(&[Some(1.0), Some(1.0), None, None], &["10", "9", "b", "a"], true), vec![2, 1, 4, 3]);
+        assert_eq!(
+            ranks(&[Some(1.0), Some(1.0)], &["p10", "p2"], true),
+            vec![2, 1]
+        );
+        assert_eq!(
+            ranks(
+                &[Some(1.0), Some(1.0), None, None],
+                &["10", "9", "b", "a"],
+                true
+            ),
+            vec![2, 1, 4, 3]
+        );
     }
 }

@@ -59,7 +59,11 @@ pub fn pair_currencies(code: &str) -> Option<[String; 2]> {
         s = &s[..dot];
     }
     let all_lower = !s.chars().any(|c| c.is_ascii_uppercase());
-    let trimmed = if all_lower { s } else { s.trim_end_matches(|c: char| c.is_ascii_lowercase()) };
+    let trimmed = if all_lower {
+        s
+    } else {
+        s.trim_end_matches(|c: char| c.is_ascii_lowercase())
+    };
     let letters: String = trimmed
         .chars()
         .filter(|c| !matches!(c, '/' | '_' | '-' | ' '))
@@ -73,14 +77,20 @@ pub fn pair_currencies(code: &str) -> Option<[String; 2]> {
 }
 
 /// Parses `CODE=USD` or `CODE=USD/EUR` pairs, comma-separated.
-pub fn parse_instrument_map(specs: &[String]) -> Result<HashMap<String, Vec<String>>, RelevanceError> {
+pub fn parse_instrument_map(
+    specs: &[String],
+) -> Result<HashMap<String, Vec<String>>, RelevanceError> {
     let mut out = HashMap::new();
     for spec in specs {
         for pair in spec.split(',').filter(|p| !p.trim().is_empty()) {
             let (code, curs) = pair
                 .split_once('=')
                 .ok_or_else(|| RelevanceError::Mapping(format!("'{pair}' is not CODE=CURRENCY")))?;
-            let list = curs.split(['/', '+', ' ']).filter(|c| !c.is_empty()).map(|c| c.trim().to_ascii_uppercase()).collect::<Vec<_>>();
+            let list = curs
+                .split(['/', '+', ' '])
+                .filter(|c| !c.is_empty())
+                .map(|c| c.trim().to_ascii_uppercase())
+                .collect::<Vec<_>>();
             check_codes(code, &list)?;
             out.insert(code.trim().to_string(), list);
         }
@@ -96,9 +106,14 @@ pub fn load_instrument_map(path: &Path) -> Result<HashMap<String, Vec<String>>, 
         One(String),
         Many(Vec<String>),
     }
-    let text = std::fs::read_to_string(path).map_err(|e| RelevanceError::Mapping(format!("{}: {e}", path.display())))?;
-    let raw: HashMap<String, OneOrMany> = serde_json::from_str(&text)
-        .map_err(|e| RelevanceError::Mapping(format!("{}: {e} (expected {{\"CODE\": \"USD\"}})", path.display())))?;
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| RelevanceError::Mapping(format!("{}: {e}", path.display())))?;
+    let raw: HashMap<String, OneOrMany> = serde_json::from_str(&text).map_err(|e| {
+        RelevanceError::Mapping(format!(
+            "{}: {e} (expected {{\"CODE\": \"USD\"}})",
+            path.display()
+        ))
+    })?;
     let mut out = HashMap::new();
     for (code, v) in raw {
         let list: Vec<String> = match v {
@@ -113,7 +128,9 @@ pub fn load_instrument_map(path: &Path) -> Result<HashMap<String, Vec<String>>, 
 
 fn check_codes(code: &str, list: &[String]) -> Result<(), RelevanceError> {
     if let Some(bad) = list.iter().find(|c| !is_currency(c)) {
-        return Err(RelevanceError::Mapping(format!("{code}: '{bad}' is not an ISO 4217 currency code")));
+        return Err(RelevanceError::Mapping(format!(
+            "{code}: '{bad}' is not an ISO 4217 currency code"
+        )));
     }
     Ok(())
 }
@@ -144,7 +161,11 @@ pub fn resolve(
         };
         currencies.sort();
         currencies.dedup();
-        out.push(InstrumentCurrencies { instrument: inst.clone(), currencies, source });
+        out.push(InstrumentCurrencies {
+            instrument: inst.clone(),
+            currencies,
+            source,
+        });
     }
     if !missing.is_empty() {
         missing.sort();
@@ -189,11 +210,20 @@ mod tests {
         let map = parse_instrument_map(&["US500=USD".into()]).unwrap();
         let r = resolve(&inst, &map, Unmapped::Error, &[]).unwrap();
         assert_eq!(r[1].currencies, vec!["USD"]);
-        let r = resolve(&inst, &HashMap::new(), Unmapped::All, &["JPY".into(), "USD".into()]).unwrap();
+        let r = resolve(
+            &inst,
+            &HashMap::new(),
+            Unmapped::All,
+            &["JPY".into(), "USD".into()],
+        )
+        .unwrap();
         assert_eq!(r[1].currencies, vec!["JPY", "USD"]);
         let r = resolve(&inst, &HashMap::new(), Unmapped::None, &[]).unwrap();
         assert!(r[1].currencies.is_empty());
         assert!(parse_instrument_map(&["X=ABC".into()]).is_err());
-        assert_eq!(parse_instrument_map(&["DAX=EUR/USD".into()]).unwrap()["DAX"], vec!["EUR", "USD"]);
+        assert_eq!(
+            parse_instrument_map(&["DAX=EUR/USD".into()]).unwrap()["DAX"],
+            vec!["EUR", "USD"]
+        );
     }
 }

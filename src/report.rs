@@ -14,7 +14,10 @@ pub struct ToolInfo {
 
 impl ToolInfo {
     pub fn current() -> Self {
-        ToolInfo { name: env!("CARGO_PKG_NAME"), version: env!("CARGO_PKG_VERSION") }
+        ToolInfo {
+            name: env!("CARGO_PKG_NAME"),
+            version: env!("CARGO_PKG_VERSION"),
+        }
     }
 }
 
@@ -67,7 +70,12 @@ pub struct Inputs {
 }
 
 impl Inputs {
-    pub fn new(t: &TradeSummary, trades_tz: String, c: &CalendarSummary, calendar_tz: String) -> Inputs {
+    pub fn new(
+        t: &TradeSummary,
+        trades_tz: String,
+        c: &CalendarSummary,
+        calendar_tz: String,
+    ) -> Inputs {
         Inputs {
             trades: TradeInputs {
                 files: t.files.clone(),
@@ -146,7 +154,13 @@ impl Summary {
     ) -> Summary {
         let warnings = warnings(&inputs, &a);
         let settings_threshold = settings.tcr_threshold;
-        let Attribution { by_release, by_category, by_currency, by_tier, headline } = a.attribution;
+        let Attribution {
+            by_release,
+            by_category,
+            by_currency,
+            by_tier,
+            headline,
+        } = a.attribution;
         Summary {
             tool: ToolInfo::current(),
             inputs,
@@ -160,7 +174,12 @@ impl Summary {
             placebo,
             bootstrap,
             headline,
-            attribution: AttributionOut { by_release, by_category, by_currency, by_tier },
+            attribution: AttributionOut {
+                by_release,
+                by_category,
+                by_currency,
+                by_tier,
+            },
             across_runs: crate::analysis::across_runs(&a.runs, settings_threshold),
             runs: a.runs,
             warnings,
@@ -235,5 +254,8 @@ pub fn coverage_warnings(lines: &[crate::exposure::CoverageLine]) -> Vec<String>
 }
 
 fn reasons(m: &BTreeMap<String, usize>) -> String {
-    m.iter().map(|(k, v)| format!("{k}: {v}")).collect::<Vec<_>>().join(", ")
+    m.iter()
+        .map(|(k, v)| format!("{k}: {v}"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }

@@ -43,8 +43,18 @@ pub enum CapRule {
 impl CapRule {
     /// `q0.99`, `median*3`, `amount:500`, `equity:1.5` (percent).
     pub fn parse(s: &str) -> Result<CapRule, String> {
-        let bad = || format!("--cap '{s}': use q0.99 (quantile), median*3, amount:500 or equity:1.5 (% of equity)");
-        let num = |x: &str| x.trim().parse::<f64>().ok().filter(|v| v.is_finite() && *v >= 0.0).ok_or_else(bad);
+        let bad = || {
+            format!(
+                "--cap '{s}': use q0.99 (quantile), median*3, amount:500 or equity:1.5 (% of equity)"
+            )
+        };
+        let num = |x: &str| {
+            x.trim()
+                .parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite() && *v >= 0.0)
+                .ok_or_else(bad)
+        };
         let s = s.trim();
         if let Some(q) = s.strip_prefix('q') {
             let v = num(q)?;
@@ -73,7 +83,9 @@ pub struct ScenarioSettings {
 
 #[derive(Debug, thiserror::Error)]
 pub enum ScenarioError {
-    #[error("compounding needs each trade's equity: map an equity_before or pnl_pct column, or give --initial-equity")]
+    #[error(
+        "compounding needs each trade's equity: map an equity_before or pnl_pct column, or give --initial-equity"
+    )]
     NoEquity,
     #[error("--cap equity:… needs equity: map an equity_before column or give --initial-equity")]
     NoEquityForCap,
@@ -117,31 +129,55 @@ pub struct SeriesView<'a> {
 impl<'a> SeriesView<'a> {
     /// The metrics' view, times from the input columns.
     pub fn curve(self, opened: &'a [i64], closed: &'a [i64]) -> crate::metrics::Curve<'a> {
-        crate::metrics::Curve { pnl: self.pnl, trade: self.trade, opened, closed, tail: self.ret }
+        crate::metrics::Curve {
+            pnl: self.pnl,
+            trade: self.trade,
+            opened,
+            closed,
+            tail: self.ret,
+        }
     }
 
     /// The values the tail figures are measured on.
     pub fn tail_values(&self) -> &'a [f64] {
-        if self.ret.is_empty() { self.pnl } else { self.ret }
+        if self.ret.is_empty() {
+            self.pnl
+        } else {
+            self.ret
+        }
     }
 }
 
 impl Scenarios {
     /// The capped scenario with the baseline's times and trades.
     pub fn capped_view(&self) -> SeriesView<'_> {
-        SeriesView { pnl: &self.capped.pnl, ret: &self.capped.ret, ..self.baseline.view() }
+        SeriesView {
+            pnl: &self.capped.pnl,
+            ret: &self.capped.ret,
+            ..self.baseline.view()
+        }
     }
 
     /// baseline, removed, capped.
     pub fn views(&self) -> [SeriesView<'_>; 3] {
-        [self.baseline.view(), self.removed.view(), self.capped_view()]
+        [
+            self.baseline.view(),
+            self.removed.view(),
+            self.capped_view(),
+        ]
     }
 
     /// Baseline |P/L| (or |return|, see [`TailBasis`]) sorted descending
     /// with the exposed flag.
     pub fn sorted_abs(&self, exp: &crate::exposure::Exposure) -> Vec<(f64, bool)> {
         let b = &self.baseline;
-        let mut v: Vec<(f64, bool)> = b.view().tail_values().iter().zip(&b.trade).map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0)).collect();
+        let mut v: Vec<(f64, bool)> = b
+            .view()
+            .tail_values()
+            .iter()
+            .zip(&b.trade)
+            .map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0))
+            .collect();
         v.sort_by(|a, b| b.0.total_cmp(&a.0));
         v
     }
@@ -149,7 +185,13 @@ impl Scenarios {
     /// Each scenario's (close instant, P/L) in close order; `closed` is the
     /// input's close column.
     pub fn curves(&self, closed: &[i64]) -> [Vec<(i64, f64)>; 3] {
-        self.views().map(|sr| sr.trade.iter().map(|&i| closed[i as usize]).zip(sr.pnl.iter().copied()).collect())
+        self.views().map(|sr| {
+            sr.trade
+                .iter()
+                .map(|&i| closed[i as usize])
+                .zip(sr.pnl.iter().copied())
+                .collect()
+        })
     }
 
     /// Room for `n` trades in each series (removed may use less).
@@ -167,7 +209,11 @@ impl Scenarios {
 
 impl Series {
     pub fn view(&self) -> SeriesView<'_> {
-        SeriesView { pnl: &self.pnl, trade: &self.trade, ret: &self.ret }
+        SeriesView {
+            pnl: &self.pnl,
+            trade: &self.trade,
+            ret: &self.ret,
+        }
     }
 
     fn push(&mut self, i: usize, pnl: f64) {
@@ -209,7 +255,11 @@ pub struct TradeView<'a> {
 
 impl<'a> TradeView<'a> {
     /// A view of imported trades in the given order.
-    pub fn of(order: &'a [u32], t: &'a crate::trades::Trades, exposed: &'a (dyn Fn(usize) -> bool + Sync)) -> TradeView<'a> {
+    pub fn of(
+        order: &'a [u32],
+        t: &'a crate::trades::Trades,
+        exposed: &'a (dyn Fn(usize) -> bool + Sync),
+    ) -> TradeView<'a> {
         TradeView {
             order,
             pnl: &t.pnl,
@@ -232,8 +282,10 @@ pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
     // (close, index) pair. Runs of equal closes are then put in open order
     // (they are short).
     use rayon::prelude::*;
-    let Some((lo, hi, top)) =
-        idx.par_iter().map(|&i| (closed[i as usize], closed[i as usize], i)).reduce_with(|a, b| (a.0.min(b.0), a.1.max(b.1), a.2.max(b.2)))
+    let Some((lo, hi, top)) = idx
+        .par_iter()
+        .map(|&i| (closed[i as usize], closed[i as usize], i))
+        .reduce_with(|a, b| (a.0.min(b.0), a.1.max(b.1), a.2.max(b.2)))
     else {
         return;
     };
@@ -241,25 +293,43 @@ pub fn close_order(idx: &mut [u32], opened: &[i64], closed: &[i64]) {
     let range_bits = 64 - ((hi as i128 - lo as i128) as u64).leading_zeros();
     if range_bits + index_bits <= 64 {
         let mask = (1u64 << index_bits) - 1;
-        let mut keys: Vec<u64> = idx.par_iter().map(|&i| ((closed[i as usize] - lo) as u64) << index_bits | i as u64).collect();
+        let mut keys: Vec<u64> = idx
+            .par_iter()
+            .map(|&i| ((closed[i as usize] - lo) as u64) << index_bits | i as u64)
+            .collect();
         keys.par_sort_unstable();
-        open_order_within_ties(&mut keys, |k| (k >> index_bits) as i64, |k| opened[(k & mask) as usize]);
-        idx.par_iter_mut().zip(keys.par_iter()).for_each(|(slot, k)| *slot = (k & mask) as u32);
+        open_order_within_ties(
+            &mut keys,
+            |k| (k >> index_bits) as i64,
+            |k| opened[(k & mask) as usize],
+        );
+        idx.par_iter_mut()
+            .zip(keys.par_iter())
+            .for_each(|(slot, k)| *slot = (k & mask) as u32);
     } else {
         let mut keys: Vec<(i64, u32)> = idx.par_iter().map(|&i| (closed[i as usize], i)).collect();
         keys.par_sort_unstable();
         open_order_within_ties(&mut keys, |k| k.0, |k| opened[k.1 as usize]);
-        idx.par_iter_mut().zip(keys.par_iter()).for_each(|(slot, k)| *slot = k.1);
+        idx.par_iter_mut()
+            .zip(keys.par_iter())
+            .for_each(|(slot, k)| *slot = k.1);
     }
 }
 
 /// Sorted (close, index) keys: each run of equal closes put in open order,
 /// then index order (the keys already hold the index order).
-fn open_order_within_ties<K: Copy + Ord>(keys: &mut [K], close: impl Fn(K) -> i64 + Copy, open: impl Fn(K) -> i64) {
+fn open_order_within_ties<K: Copy + Ord>(
+    keys: &mut [K],
+    close: impl Fn(K) -> i64 + Copy,
+    open: impl Fn(K) -> i64,
+) {
     let mut a = 0;
     while a < keys.len() {
         let c = close(keys[a]);
-        let b = a + keys[a..].iter().position(|&k| close(k) != c).unwrap_or(keys.len() - a);
+        let b = a + keys[a..]
+            .iter()
+            .position(|&k| close(k) != c)
+            .unwrap_or(keys.len() - a);
         if b - a > 1 {
             keys[a..b].sort_by_key(|&k| (open(k), k));
         }
@@ -284,14 +354,23 @@ pub fn build(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioE
 /// [`build`] over imported trades in `order`, which becomes the baseline's
 /// trade list as it is (the baseline keeps every trade in that order), so
 /// the indices are held once.
-pub fn build_in_order(order: Vec<u32>, t: &crate::trades::Trades, exposed: &(dyn Fn(usize) -> bool + Sync), s: &ScenarioSettings) -> Result<Scenarios, ScenarioError> {
+pub fn build_in_order(
+    order: Vec<u32>,
+    t: &crate::trades::Trades,
+    exposed: &(dyn Fn(usize) -> bool + Sync),
+    s: &ScenarioSettings,
+) -> Result<Scenarios, ScenarioError> {
     let mut sc = build_with(&TradeView::of(&order, t, exposed), s, false)?;
     sc.baseline.trade = order;
     Ok(sc)
 }
 
 /// `baseline_trades`: fill the baseline's trade list (else the caller sets it).
-fn build_with(v: &TradeView, s: &ScenarioSettings, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
+fn build_with(
+    v: &TradeView,
+    s: &ScenarioSettings,
+    baseline_trades: bool,
+) -> Result<Scenarios, ScenarioError> {
     let mut out = Scenarios::default();
     match s.sizing {
         Sizing::Fixed => build_fixed(v, s, out, baseline_trades),
@@ -319,7 +398,12 @@ fn equity_before(v: &TradeView, e0: Option<f64>) -> Option<Vec<f64>> {
     Some(out)
 }
 
-fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
+fn build_fixed(
+    v: &TradeView,
+    s: &ScenarioSettings,
+    mut out: Scenarios,
+    baseline_trades: bool,
+) -> Result<Scenarios, ScenarioError> {
     use rayon::prelude::*;
     // Each series is a gather or filter of the input in close order, built
     // in parallel (in one piece for small trade sets).
@@ -335,15 +419,38 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline
     let order = v.order;
     let exposed = v.exposed;
     let (baseline_pnl, (baseline_trade, removed_trade)) = rayon::join(
-        || order.par_iter().with_min_len(PIECE).map(|&i| v.pnl[i as usize]).collect::<Vec<f64>>(),
+        || {
+            order
+                .par_iter()
+                .with_min_len(PIECE)
+                .map(|&i| v.pnl[i as usize])
+                .collect::<Vec<f64>>()
+        },
         || {
             rayon::join(
-                || if baseline_trades { order.to_vec() } else { Vec::new() },
-                || order.par_iter().with_min_len(PIECE).copied().filter(|&i| !exposed(i as usize)).collect::<Vec<u32>>(),
+                || {
+                    if baseline_trades {
+                        order.to_vec()
+                    } else {
+                        Vec::new()
+                    }
+                },
+                || {
+                    order
+                        .par_iter()
+                        .with_min_len(PIECE)
+                        .copied()
+                        .filter(|&i| !exposed(i as usize))
+                        .collect::<Vec<u32>>()
+                },
             )
         },
     );
-    let removed_pnl: Vec<f64> = removed_trade.par_iter().with_min_len(PIECE).map(|&i| v.pnl[i as usize]).collect();
+    let removed_pnl: Vec<f64> = removed_trade
+        .par_iter()
+        .with_min_len(PIECE)
+        .map(|&i| v.pnl[i as usize])
+        .collect();
     // The removed series holds exactly the unexposed trades.
     out.cap_value = match s.cap {
         CapRule::Amount(a) => Some(a),
@@ -359,7 +466,9 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline
             if !exposed(i as usize) {
                 return p;
             }
-            let c = per_trade_cap.as_ref().map_or(cap, |caps| caps[i as usize].abs());
+            let c = per_trade_cap
+                .as_ref()
+                .map_or(cap, |caps| caps[i as usize].abs());
             p.clamp(-c, c)
         })
         .collect();
@@ -367,15 +476,33 @@ fn build_fixed(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline
     // when every trade has one: sizes may follow the account even when the
     // P/L is summed as given.
     if let Some(eq) = recorded_equity(v) {
-        let ret_of = |trade: &[u32], pnl: &[f64]| -> Vec<f64> { trade.iter().zip(pnl).map(|(&i, p)| p / eq[i as usize]).collect() };
-        let base_trade: &[u32] = if baseline_trades { &baseline_trade } else { order };
+        let ret_of = |trade: &[u32], pnl: &[f64]| -> Vec<f64> {
+            trade
+                .iter()
+                .zip(pnl)
+                .map(|(&i, p)| p / eq[i as usize])
+                .collect()
+        };
+        let base_trade: &[u32] = if baseline_trades {
+            &baseline_trade
+        } else {
+            order
+        };
         out.baseline.ret = ret_of(base_trade, &baseline_pnl);
         out.removed.ret = ret_of(&removed_trade, &removed_pnl);
         out.capped.ret = ret_of(base_trade, &out.capped.pnl);
         out.tail_basis = TailBasis::Return;
     }
-    out.baseline = Series { pnl: baseline_pnl, trade: baseline_trade, ret: std::mem::take(&mut out.baseline.ret) };
-    out.removed = Series { pnl: removed_pnl, trade: removed_trade, ret: std::mem::take(&mut out.removed.ret) };
+    out.baseline = Series {
+        pnl: baseline_pnl,
+        trade: baseline_trade,
+        ret: std::mem::take(&mut out.baseline.ret),
+    };
+    out.removed = Series {
+        pnl: removed_pnl,
+        trade: removed_trade,
+        ret: std::mem::take(&mut out.removed.ret),
+    };
     Ok(out)
 }
 
@@ -389,24 +516,45 @@ fn recorded_equity(v: &TradeView) -> Option<Vec<f64>> {
         eb.to_vec()
     } else {
         let pct = v.pnl_pct?;
-        (0..n).map(|i| if pct[i] != 0.0 { v.pnl[i] / pct[i] * 100.0 } else if v.pnl[i] == 0.0 { f64::INFINITY } else { f64::NAN }).collect()
+        (0..n)
+            .map(|i| {
+                if pct[i] != 0.0 {
+                    v.pnl[i] / pct[i] * 100.0
+                } else if v.pnl[i] == 0.0 {
+                    f64::INFINITY
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect()
     };
     // A zero P/L at 0 % says nothing of equity but has return 0 (∞ → 0/∞).
-    v.order.iter().all(|&i| {
-        let e = eq[i as usize];
-        (e.is_finite() && e != 0.0) || e == f64::INFINITY
-    })
-    .then_some(eq)
+    v.order
+        .iter()
+        .all(|&i| {
+            let e = eq[i as usize];
+            (e.is_finite() && e != 0.0) || e == f64::INFINITY
+        })
+        .then_some(eq)
 }
 
-fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, baseline_trades: bool) -> Result<Scenarios, ScenarioError> {
+fn build_compounding(
+    v: &TradeView,
+    s: &ScenarioSettings,
+    mut out: Scenarios,
+    baseline_trades: bool,
+) -> Result<Scenarios, ScenarioError> {
     let n = v.pnl.len();
     let ret: Vec<f64> = if let Some(eb) = v.equity_before {
-        (0..n).map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 }).collect()
+        (0..n)
+            .map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 })
+            .collect()
     } else if let Some(pct) = v.pnl_pct {
         pct.iter().map(|p| p / 100.0).collect()
     } else if let Some(eb) = equity_before(v, s.initial_equity) {
-        (0..n).map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 }).collect()
+        (0..n)
+            .map(|i| if eb[i] != 0.0 { v.pnl[i] / eb[i] } else { 0.0 })
+            .collect()
     } else {
         return Err(ScenarioError::NoEquity);
     };
@@ -414,12 +562,21 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, ba
     // trade; else (returns only) an index starting at 100.
     let e0 = s
         .initial_equity
-        .or_else(|| v.order.first().and_then(|&i| v.equity_before.map(|eb| eb[i as usize])))
+        .or_else(|| {
+            v.order
+                .first()
+                .and_then(|&i| v.equity_before.map(|eb| eb[i as usize]))
+        })
         .unwrap_or(INDEX_START);
     let cap_r = match s.cap {
-        CapRule::Quantile(_) | CapRule::MedianMultiple(_) => {
-            cap_from(v.order.iter().map(|&i| i as usize).filter(|&i| !(v.exposed)(i)).map(|i| ret[i]), s.cap)
-        }
+        CapRule::Quantile(_) | CapRule::MedianMultiple(_) => cap_from(
+            v.order
+                .iter()
+                .map(|&i| i as usize)
+                .filter(|&i| !(v.exposed)(i))
+                .map(|i| ret[i]),
+            s.cap,
+        ),
         CapRule::EquityPct(p) => Some(p / 100.0),
         CapRule::Amount(_) => None,
     };
@@ -472,8 +629,22 @@ fn build_compounding(v: &TradeView, s: &ScenarioSettings, mut out: Scenarios, ba
 mod tests {
     use super::*;
 
-    fn view<'a>(order: &'a [u32], pnl: &'a [f64], t: &'a [i64], exposed: &'a (dyn Fn(usize) -> bool + Sync), eb: Option<&'a [f64]>) -> TradeView<'a> {
-        TradeView { order, pnl, opened: t, closed: t, exposed, equity_before: eb, pnl_pct: None }
+    fn view<'a>(
+        order: &'a [u32],
+        pnl: &'a [f64],
+        t: &'a [i64],
+        exposed: &'a (dyn Fn(usize) -> bool + Sync),
+        eb: Option<&'a [f64]>,
+    ) -> TradeView<'a> {
+        TradeView {
+            order,
+            pnl,
+            opened: t,
+            closed: t,
+            exposed,
+            equity_before: eb,
+            pnl_pct: None,
+        }
     }
 
     /// Hand-computed three-trade example. Equity 1000; trades in close order
@@ -488,29 +659,54 @@ mod tests {
         let t = [1, 2, 3];
         let order = [0u32, 1, 2];
         let exposed = |i: usize| i == 0;
-        let s = ScenarioSettings { sizing: Sizing::Compounding, cap: CapRule::Amount(50.0), initial_equity: None };
+        let s = ScenarioSettings {
+            sizing: Sizing::Compounding,
+            cap: CapRule::Amount(50.0),
+            initial_equity: None,
+        };
         let sc = build(&view(&order, &pnl, &t, &exposed, Some(&eb)), &s).unwrap();
         let close = |a: &[f64], b: &[f64]| a.iter().zip(b).all(|(x, y)| (x - y).abs() < 1e-9);
-        assert!(close(&sc.baseline.pnl, &[100.0, -110.0, 99.0]), "{:?}", sc.baseline.pnl);
-        assert!(close(&sc.removed.pnl, &[-100.0, 90.0]), "{:?}", sc.removed.pnl);
+        assert!(
+            close(&sc.baseline.pnl, &[100.0, -110.0, 99.0]),
+            "{:?}",
+            sc.baseline.pnl
+        );
+        assert!(
+            close(&sc.removed.pnl, &[-100.0, 90.0]),
+            "{:?}",
+            sc.removed.pnl
+        );
         // Capped at 50: 1000 → +50 → 1050 → −105 → 945 → +94.5.
-        assert!(close(&sc.capped.pnl, &[50.0, -105.0, 94.5]), "{:?}", sc.capped.pnl);
+        assert!(
+            close(&sc.capped.pnl, &[50.0, -105.0, 94.5]),
+            "{:?}",
+            sc.capped.pnl
+        );
     }
 
     #[test]
     fn fixed_cap_by_quantile_of_unexposed() {
         // REFERENCES.md §4.5: capping at ±150 gives net 300.
-        let pnl = [250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0];
+        let pnl = [
+            250.0, -100.0, 75.0, -50.0, 400.0, -200.0, 125.0, 30.0, -80.0, 150.0,
+        ];
         let t: Vec<i64> = (0..10).collect();
         let order: Vec<u32> = (0..10).collect();
         let all = |_: usize| true;
-        let s = ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::Amount(150.0), initial_equity: None };
+        let s = ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::Amount(150.0),
+            initial_equity: None,
+        };
         let sc = build(&view(&order, &pnl, &t, &all, None), &s).unwrap();
         assert!((sc.capped.pnl.iter().sum::<f64>() - 300.0).abs() < 1e-9);
         assert!(sc.removed.pnl.is_empty());
         // Quantile cap from unexposed |pnl| = {100, 75, 50}: q0.5 → 75.
         let some = |i: usize| i == 0 || i == 4;
-        let s = ScenarioSettings { cap: CapRule::Quantile(0.5), ..s };
+        let s = ScenarioSettings {
+            cap: CapRule::Quantile(0.5),
+            ..s
+        };
         let sc = build(&view(&order[..4], &pnl, &t, &some, None), &s).unwrap();
         assert_eq!(sc.cap_value, Some(75.0));
         assert_eq!(sc.capped.pnl, vec![75.0, -100.0, 75.0, -50.0]);
@@ -530,14 +726,21 @@ mod tests {
             want.sort_by_key(|&i| (closed[i as usize], opened[i as usize], i));
             assert_eq!(got, want, "n {n}");
             // A range too wide to pack with the index: the pair path.
-            let wide: Vec<i64> = closed.iter().map(|c| c * (i64::MAX / 8) - i64::MAX / 2).collect();
+            let wide: Vec<i64> = closed
+                .iter()
+                .map(|c| c * (i64::MAX / 8) - i64::MAX / 2)
+                .collect();
             let mut got: Vec<u32> = (0..n as u32).collect();
             close_order(&mut got, &opened, &wide);
             assert_eq!(got, want, "wide, n {n}");
             // A subset of indices (as for one run).
             let mut got: Vec<u32> = (0..n as u32).rev().step_by(3).collect();
             close_order(&mut got, &opened, &closed);
-            let sub: Vec<u32> = want.iter().copied().filter(|i| (n as u32 - 1 - i).is_multiple_of(3)).collect();
+            let sub: Vec<u32> = want
+                .iter()
+                .copied()
+                .filter(|i| (n as u32 - 1 - i).is_multiple_of(3))
+                .collect();
             assert_eq!(got, sub, "subset, n {n}");
         }
     }
@@ -545,9 +748,18 @@ mod tests {
     #[test]
     fn cap_rule_parsing() {
         assert_eq!(CapRule::parse("q0.99").unwrap(), CapRule::Quantile(0.99));
-        assert_eq!(CapRule::parse("median*3").unwrap(), CapRule::MedianMultiple(3.0));
-        assert_eq!(CapRule::parse("amount:500").unwrap(), CapRule::Amount(500.0));
-        assert_eq!(CapRule::parse("equity:1.5").unwrap(), CapRule::EquityPct(1.5));
+        assert_eq!(
+            CapRule::parse("median*3").unwrap(),
+            CapRule::MedianMultiple(3.0)
+        );
+        assert_eq!(
+            CapRule::parse("amount:500").unwrap(),
+            CapRule::Amount(500.0)
+        );
+        assert_eq!(
+            CapRule::parse("equity:1.5").unwrap(),
+            CapRule::EquityPct(1.5)
+        );
         assert!(CapRule::parse("q1.5").is_err());
         assert!(CapRule::parse("lots").is_err());
     }

@@ -36,8 +36,16 @@ impl Blackout {
     /// re-exports of the same schedule update rather than duplicate entries.
     pub fn uid(&self) -> String {
         let first = self.releases.first().map(|r| r.at).unwrap_or(self.start);
-        let inst: String = self.instrument.chars().map(|c| if c.is_ascii_alphanumeric() { c } else { '-' }).collect();
-        format!("{}-{}@eventfence", inst, crate::zones::format_utc(first).replace([':', '-'], ""))
+        let inst: String = self
+            .instrument
+            .chars()
+            .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
+            .collect();
+        format!(
+            "{}-{}@eventfence",
+            inst,
+            crate::zones::format_utc(first).replace([':', '-'], "")
+        )
     }
 }
 
@@ -55,7 +63,11 @@ pub struct ScheduleSettings {
 }
 
 /// Builds the merged windows for each (instrument, currencies) pair.
-pub fn build(releases: &[Release], instruments: &[(String, Vec<String>)], s: &ScheduleSettings) -> Vec<Blackout> {
+pub fn build(
+    releases: &[Release],
+    instruments: &[(String, Vec<String>)],
+    s: &ScheduleSettings,
+) -> Vec<Blackout> {
     let mut out = Vec::new();
     for (inst, currencies) in instruments {
         let mut spans: Vec<(i64, i64, &Release)> = releases
@@ -73,7 +85,13 @@ pub fn build(releases: &[Release], instruments: &[(String, Vec<String>)], s: &Sc
         let gap = s.merge_gap_min * MINUTE_MS;
         let mut cur: Option<Blackout> = None;
         for (a, b, r) in spans {
-            let wr = WindowRelease { id: r.id.clone(), title: r.title.clone(), currency: r.currency.clone(), tier: r.tier.as_str(), at: r.at };
+            let wr = WindowRelease {
+                id: r.id.clone(),
+                title: r.title.clone(),
+                currency: r.currency.clone(),
+                tier: r.tier.as_str(),
+                at: r.at,
+            };
             match cur.as_mut() {
                 Some(w) if a <= w.end + gap => {
                     w.end = w.end.max(b);
@@ -81,7 +99,12 @@ pub fn build(releases: &[Release], instruments: &[(String, Vec<String>)], s: &Sc
                 }
                 _ => {
                     out.extend(cur.take());
-                    cur = Some(Blackout { instrument: inst.clone(), start: a, end: b, releases: vec![wr] });
+                    cur = Some(Blackout {
+                        instrument: inst.clone(),
+                        start: a,
+                        end: b,
+                        releases: vec![wr],
+                    });
                 }
             }
         }
@@ -121,17 +144,39 @@ mod tests {
             rel("r4", 2000, "USD", Tier::Medium),
             rel("r5", 1500, "JPY", Tier::High),
         ];
-        let inst = vec![("EURUSD".to_string(), vec!["EUR".to_string(), "USD".to_string()])];
-        let mut s = ScheduleSettings { windows: WindowSettings::default(), merge_gap_min: 0, flat_min: None, range: (0, i64::MAX) };
+        let inst = vec![(
+            "EURUSD".to_string(),
+            vec!["EUR".to_string(), "USD".to_string()],
+        )];
+        let mut s = ScheduleSettings {
+            windows: WindowSettings::default(),
+            merge_gap_min: 0,
+            flat_min: None,
+            range: (0, i64::MAX),
+        };
         let w = build(&rs, &inst, &s);
-        let spans: Vec<(i64, i64, usize)> = w.iter().map(|b| (b.start / MINUTE_MS, b.end / MINUTE_MS, b.releases.len())).collect();
-        assert_eq!(spans, vec![(985, 1070, 2), (1080, 1125, 1), (1995, 2010, 1)]);
+        let spans: Vec<(i64, i64, usize)> = w
+            .iter()
+            .map(|b| (b.start / MINUTE_MS, b.end / MINUTE_MS, b.releases.len()))
+            .collect();
+        assert_eq!(
+            spans,
+            vec![(985, 1070, 2), (1080, 1125, 1), (1995, 2010, 1)]
+        );
         s.merge_gap_min = 10;
         let w = build(&rs, &inst, &s);
-        assert_eq!(w.iter().map(|b| (b.start / MINUTE_MS, b.end / MINUTE_MS)).collect::<Vec<_>>(), vec![(985, 1125), (1995, 2010)]);
+        assert_eq!(
+            w.iter()
+                .map(|b| (b.start / MINUTE_MS, b.end / MINUTE_MS))
+                .collect::<Vec<_>>(),
+            vec![(985, 1125), (1995, 2010)]
+        );
         // Touching windows merge even with no gap: [985, 1030] and a
         // release at 1045 whose window starts exactly at 1030.
-        let rs2 = vec![rel("a", 1000, "USD", Tier::High), rel("b", 1045, "USD", Tier::High)];
+        let rs2 = vec![
+            rel("a", 1000, "USD", Tier::High),
+            rel("b", 1045, "USD", Tier::High),
+        ];
         s.merge_gap_min = 0;
         assert_eq!(build(&rs2, &inst, &s).len(), 1);
         s.flat_min = Some(5);

@@ -34,13 +34,24 @@ pub struct HillEstimate {
 /// packages use X(k)). Values ≤ 0 are left out; `None` when fewer than
 /// k + 1 positive values remain or H_k is 0.
 pub fn hill(values: &[f64], k: usize) -> Option<HillEstimate> {
-    hill_owned(values.iter().copied().filter(|v| *v > 0.0 && v.is_finite()).collect(), k)
+    hill_owned(
+        values
+            .iter()
+            .copied()
+            .filter(|v| *v > 0.0 && v.is_finite())
+            .collect(),
+        k,
+    )
 }
 
 /// [`hill`] of |pnl| without copying the data: only the k + 1 largest are
 /// kept, and the count of positive values decides whether there are enough.
 pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
-    let usable = || pnl.iter().map(|v| v.abs()).filter(|v| *v > 0.0 && v.is_finite());
+    let usable = || {
+        pnl.iter()
+            .map(|v| v.abs())
+            .filter(|v| *v > 0.0 && v.is_finite())
+    };
     let n = usable().count();
     if k == 0 || n <= k {
         return None;
@@ -53,7 +64,11 @@ pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
 /// in that order, whatever the input order); `n` values in all.
 fn hill_of_top(x: &[f64], k: usize, n: usize) -> Option<HillEstimate> {
     let h = x[..k].iter().map(|v| v.ln()).sum::<f64>() / k as f64 - x[k].ln();
-    (h > 0.0).then(|| HillEstimate { alpha: 1.0 / h, k, n })
+    (h > 0.0).then(|| HillEstimate {
+        alpha: 1.0 / h,
+        k,
+        n,
+    })
 }
 
 fn hill_owned(mut x: Vec<f64>, k: usize) -> Option<HillEstimate> {
@@ -124,7 +139,10 @@ pub fn effect_statistics(pnl: &[f64], exposed: &[bool]) -> (Option<f64>, Option<
 /// statistic is undefined counts as not ≥.
 pub fn placebo_p(observed: Option<f64>, placebo: &[Option<f64>]) -> Option<f64> {
     let obs = observed?;
-    let ge = placebo.iter().filter(|v| v.is_some_and(|v| v >= obs - 1e-12 * obs.abs())).count();
+    let ge = placebo
+        .iter()
+        .filter(|v| v.is_some_and(|v| v >= obs - 1e-12 * obs.abs()))
+        .count();
     Some((1 + ge) as f64 / (placebo.len() + 1) as f64)
 }
 
@@ -172,12 +190,21 @@ pub fn placebo(
             (crate::zones::weekday_index(day), w.at - day * DAY_MS)
         })
         .collect();
-    let real_of: Vec<&[i64]> = windows.iter().map(|w| series[&series_of(&releases[w.release as usize])].as_slice()).collect();
+    let real_of: Vec<&[i64]> = windows
+        .iter()
+        .map(|w| series[&series_of(&releases[w.release as usize])].as_slice())
+        .collect();
     let w0 = wd.iter().map(|x| x.0).min().expect("non-empty");
     let span = wd.iter().map(|x| x.0).max().expect("non-empty") - w0 + 1;
     let mut rng = ChaCha8Rng::seed_from_u64(s.seed);
     let shifts: Vec<i64> = (0..s.n)
-        .map(|_| if span > 1 { rng.random_range(1..span) } else { 0 })
+        .map(|_| {
+            if span > 1 {
+                rng.random_range(1..span)
+            } else {
+                0
+            }
+        })
         .collect();
     let runs: Vec<(Option<f64>, Option<f64>, usize)> = shifts
         .par_iter()
@@ -193,10 +220,20 @@ pub fn placebo(
                     continue;
                 }
                 let delta = new_at - w.at;
-                moved.push(UsedWindow { start: w.start + delta, end: w.end + delta, at: new_at, ..w.clone() });
+                moved.push(UsedWindow {
+                    start: w.start + delta,
+                    end: w.end + delta,
+                    at: new_at,
+                    ..w.clone()
+                });
             }
             let engine = Engine::from_windows(&moved, rule, releases.len());
-            let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
+            let exp = engine.run_matches(
+                &trades.opened,
+                &trades.closed,
+                &trades.instrument,
+                currencies,
+            );
             let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
             let (a, b) = effect_statistics(&trades.pnl, &flags);
             progress();
@@ -269,9 +306,16 @@ pub fn changes(
     scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let is_exposed = |i: usize| exposed[i];
     let view = TradeView::of(&order, trades, &is_exposed);
-    let Ok(sc) = scenarios::build(&view, settings) else { return [None; 5] };
-    let ctx = Context { initial_equity: sc.initial_equity, ..*ctx };
-    let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&trades.opened, &trades.closed), &ctx);
+    let Ok(sc) = scenarios::build(&view, settings) else {
+        return [None; 5];
+    };
+    let ctx = Context {
+        initial_equity: sc.initial_equity,
+        ..*ctx
+    };
+    let m = |s: &scenarios::Series| {
+        metrics::compute(&s.view().curve(&trades.opened, &trades.closed), &ctx)
+    };
     let (b, r) = (m(&sc.baseline), m(&sc.removed));
     BOOTSTRAP_FIGURES.map(|f| match (figure(&b, f), figure(&r, f)) {
         (Some(x), Some(y)) => Some(y - x),
@@ -280,8 +324,16 @@ pub fn changes(
 }
 
 /// Percentile interval (numpy's linear method) of the defined replicates.
-pub fn percentile_interval(replicates: &[Option<f64>], confidence: f64) -> (Option<f64>, Option<f64>, usize) {
-    let mut v: Vec<f64> = replicates.iter().flatten().copied().filter(|x| x.is_finite()).collect();
+pub fn percentile_interval(
+    replicates: &[Option<f64>],
+    confidence: f64,
+) -> (Option<f64>, Option<f64>, usize) {
+    let mut v: Vec<f64> = replicates
+        .iter()
+        .flatten()
+        .copied()
+        .filter(|x| x.is_finite())
+        .collect();
     v.sort_by(f64::total_cmp);
     let a = (1.0 - confidence) / 2.0;
     (quantile_type7(&v, a), quantile_type7(&v, 1.0 - a), v.len())
@@ -327,7 +379,15 @@ pub fn bootstrap_drawn(
         .map(|(f, &name)| {
             let col: Vec<Option<f64>> = reps.iter().map(|r| r[f]).collect();
             let (low, high, replicates) = percentile_interval(&col, confidence);
-            (name, Interval { observed: observed[f], low, high, replicates })
+            (
+                name,
+                Interval {
+                    observed: observed[f],
+                    low,
+                    high,
+                    replicates,
+                },
+            )
         })
         .collect()
 }
@@ -363,11 +423,17 @@ mod tests {
     fn hill_recovers_pareto_alpha() {
         for (alpha, seed) in [(1.5, 11u64), (3.0, 12u64)] {
             let mut rng = ChaCha8Rng::seed_from_u64(seed);
-            let x: Vec<f64> = (0..100_000).map(|_| (1.0 - rng.random::<f64>()).powf(-1.0 / alpha)).collect();
+            let x: Vec<f64> = (0..100_000)
+                .map(|_| (1.0 - rng.random::<f64>()).powf(-1.0 / alpha))
+                .collect();
             let k = 1000;
             let est = hill(&x, k).unwrap();
             let se = alpha / (k as f64).sqrt();
-            assert!((est.alpha - alpha).abs() < 4.0 * se, "alpha {alpha}: estimated {}", est.alpha);
+            assert!(
+                (est.alpha - alpha).abs() < 4.0 * se,
+                "alpha {alpha}: estimated {}",
+                est.alpha
+            );
         }
     }
 
@@ -378,7 +444,10 @@ mod tests {
         let fri = days(NaiveDate::from_ymd_opt(2024, 3, 8).unwrap());
         let w = weekday_index(fri);
         assert_eq!(day_of_weekday_index(w), fri);
-        assert_eq!(day_of_weekday_index(w + 1), days(NaiveDate::from_ymd_opt(2024, 3, 11).unwrap()));
+        assert_eq!(
+            day_of_weekday_index(w + 1),
+            days(NaiveDate::from_ymd_opt(2024, 3, 11).unwrap())
+        );
         assert_eq!(weekday_index(fri + 1), w + 1, "Saturday counts as Monday");
         for d in 0..3000 {
             let date = NaiveDate::from_ymd_opt(2018, 1, 1).unwrap() + Days::new(d);
@@ -390,7 +459,10 @@ mod tests {
 
     #[test]
     fn placebo_p_value_counts_ties_and_never_zero() {
-        assert_eq!(placebo_p(Some(0.5), &[Some(0.1), Some(0.5), Some(0.7), None]), Some(3.0 / 5.0));
+        assert_eq!(
+            placebo_p(Some(0.5), &[Some(0.1), Some(0.5), Some(0.7), None]),
+            Some(3.0 / 5.0)
+        );
         assert_eq!(placebo_p(Some(9.0), &[Some(0.1); 99]), Some(0.01));
         assert_eq!(placebo_p(None, &[Some(0.1)]), None);
     }

@@ -67,8 +67,12 @@ impl ColumnSource {
                 _ => Cell::Null,
             },
             ColumnSource::Num(c) => c.get(i).map_or(Cell::Null, Cell::Num),
-            ColumnSource::Time(c, div, TimeKind::Zoned(_)) => c.get(i).map_or(Cell::Null, |v| Cell::Instant(v.div_euclid(*div))),
-            ColumnSource::Time(c, div, TimeKind::Naive) => c.get(i).map_or(Cell::Null, |v| Cell::Local(v.div_euclid(*div))),
+            ColumnSource::Time(c, div, TimeKind::Zoned(_)) => c
+                .get(i)
+                .map_or(Cell::Null, |v| Cell::Instant(v.div_euclid(*div))),
+            ColumnSource::Time(c, div, TimeKind::Naive) => c
+                .get(i)
+                .map_or(Cell::Null, |v| Cell::Local(v.div_euclid(*div))),
             ColumnSource::Date(c) => c.get(i).map_or(Cell::Null, Cell::Date),
         }
     }
@@ -77,13 +81,19 @@ impl ColumnSource {
     /// zone, which applies to text and naive timestamps).
     pub fn describe(&self, zone: &str, epoch: Option<&str>) -> String {
         match self {
-            ColumnSource::Str(_) => format!("text; local to {zone} unless a value carries an offset or Z"),
+            ColumnSource::Str(_) => {
+                format!("text; local to {zone} unless a value carries an offset or Z")
+            }
             ColumnSource::Num(_) => match epoch {
                 Some(e) => format!("numbers read as {e}"),
                 None => "numbers (refused as times without --time-format epoch-s|epoch-ms)".into(),
             },
-            ColumnSource::Time(_, _, TimeKind::Zoned(tz)) => format!("timestamps with zone {tz}: instants, used as stored"),
-            ColumnSource::Time(_, _, TimeKind::Naive) => format!("timestamps without a zone: local to {zone}"),
+            ColumnSource::Time(_, _, TimeKind::Zoned(tz)) => {
+                format!("timestamps with zone {tz}: instants, used as stored")
+            }
+            ColumnSource::Time(_, _, TimeKind::Naive) => {
+                format!("timestamps without a zone: local to {zone}")
+            }
             ColumnSource::Date(_) => "dates without a time of day".into(),
         }
     }
@@ -92,7 +102,10 @@ impl ColumnSource {
 /// Parquet by extension (`.parquet`, `.pq`); anything else is read as CSV.
 pub fn is_parquet(path: &Path) -> bool {
     matches!(
-        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
+        path.extension()
+            .and_then(|e| e.to_str())
+            .map(|e| e.to_ascii_lowercase())
+            .as_deref(),
         Some("parquet" | "pq")
     )
 }
@@ -102,7 +115,9 @@ pub fn is_parquet(path: &Path) -> bool {
 pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, String> {
     let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
     let mut reader = ParquetReader::new(file);
-    let meta = reader.get_metadata().map_err(|e| format!("not a readable Parquet file: {e}"))?;
+    let meta = reader
+        .get_metadata()
+        .map_err(|e| format!("not a readable Parquet file: {e}"))?;
     let mut first = 0;
     Ok(meta
         .row_groups
@@ -123,7 +138,10 @@ impl Table {
             .with_slice(Some((first, rows)))
             .finish()
             .map_err(|e| format!("not a readable Parquet file: {e}"))?;
-        Ok(Table { df, problems: Vec::new() })
+        Ok(Table {
+            df,
+            problems: Vec::new(),
+        })
     }
 
     /// Reads a CSV (all columns as text) or Parquet file. CSV records are
@@ -135,15 +153,21 @@ impl Table {
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
         if is_parquet(path) {
             let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
-            let df = ParquetReader::new(file).finish().map_err(|e| format!("not a readable Parquet file: {e}"))?;
-            return Ok(Table { df, problems: Vec::new() });
+            let df = ParquetReader::new(file)
+                .finish()
+                .map_err(|e| format!("not a readable Parquet file: {e}"))?;
+            return Ok(Table {
+                df,
+                problems: Vec::new(),
+            });
         }
         use crate::csvchunks::{self, Parsed, Record, Records, ScanError};
         let mut bytes = std::fs::read(path).map_err(|e| e.to_string())?;
         if bytes.is_empty() {
             return Err(ScanError::Empty.to_string());
         }
-        let sep = delimiter.unwrap_or_else(|| csvchunks::sniff_delimiter(&bytes[..bytes.len().min(64 * 1024)]));
+        let sep = delimiter
+            .unwrap_or_else(|| csvchunks::sniff_delimiter(&bytes[..bytes.len().min(64 * 1024)]));
         let header = csvchunks::take_header(&mut bytes, sep).map_err(|e| e.to_string())?;
         let width = header.names.len();
         let mut columns: Vec<Vec<Option<String>>> = vec![Vec::new(); width];
@@ -155,14 +179,27 @@ impl Table {
             let problem = match parsed {
                 Parsed::Blank { .. } => continue,
                 Parsed::Unclosed { column } => {
-                    let name = header.names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
-                    return Err(ScanError::UnclosedQuote { row: row + 1, column: format!("{column}{name}") }.to_string());
+                    let name = header
+                        .names
+                        .get(column - 1)
+                        .map_or(String::new(), |n| format!(" ({n})"));
+                    return Err(ScanError::UnclosedQuote {
+                        row: row + 1,
+                        column: format!("{column}{name}"),
+                    }
+                    .to_string());
                 }
                 Parsed::Record { .. } => {
                     let n = rec.len();
-                    let extra_empty = n > width && (width..n).all(|k| rec.field(&bytes, k).iter().all(u8::is_ascii_whitespace));
+                    let extra_empty = n > width
+                        && (width..n)
+                            .all(|k| rec.field(&bytes, k).iter().all(u8::is_ascii_whitespace));
                     if n < width || (n > width && !extra_empty) {
-                        Some(RowProblem { column: None, reason: "field_count", message: format!("{n} field(s) where the header has {width}") })
+                        Some(RowProblem {
+                            column: None,
+                            reason: "field_count",
+                            message: format!("{n} field(s) where the header has {width}"),
+                        })
                     } else if let Some((k, a, b)) = rec.text_after_quote() {
                         let message = format!(
                             "column {}: text '{}' follows the closing quote of \"{}\"; a quoted field must end at its quote",
@@ -170,14 +207,23 @@ impl Table {
                             String::from_utf8_lossy(&bytes[a..b]),
                             String::from_utf8_lossy(rec.raw(&bytes, k))
                         );
-                        Some(RowProblem { column: Some(header.names[k].clone()), reason: "bad_quote", message })
+                        Some(RowProblem {
+                            column: Some(header.names[k].clone()),
+                            reason: "bad_quote",
+                            message,
+                        })
                     } else {
                         (0..width).find_map(|k| {
-                            std::str::from_utf8(&rec.field(&bytes, k)).err().map(|e| RowProblem {
-                                column: Some(header.names[k].clone()),
-                                reason: "not_utf8",
-                                message: format!("byte {} is not UTF-8 text; save the file as UTF-8", e.valid_up_to() + 1),
-                            })
+                            std::str::from_utf8(&rec.field(&bytes, k))
+                                .err()
+                                .map(|e| RowProblem {
+                                    column: Some(header.names[k].clone()),
+                                    reason: "not_utf8",
+                                    message: format!(
+                                        "byte {} is not UTF-8 text; save the file as UTF-8",
+                                        e.valid_up_to() + 1
+                                    ),
+                                })
                         })
                     }
                 }
@@ -193,14 +239,22 @@ impl Table {
             }
             row += 1;
         }
-        let cols: Vec<Column> = header.names.iter().zip(columns).map(|(name, values)| Column::new(name.as_str().into(), values)).collect();
+        let cols: Vec<Column> = header
+            .names
+            .iter()
+            .zip(columns)
+            .map(|(name, values)| Column::new(name.as_str().into(), values))
+            .collect();
         let df = DataFrame::new(row, cols).map_err(|e| e.to_string())?;
         Ok(Table { df, problems })
     }
 
     /// Why row `i` (from 0) could not be cut into fields, if it could not.
     pub fn row_problem(&self, i: usize) -> Option<&RowProblem> {
-        self.problems.binary_search_by_key(&i, |p| p.0).ok().map(|k| &self.problems[k].1)
+        self.problems
+            .binary_search_by_key(&i, |p| p.0)
+            .ok()
+            .map(|k| &self.problems[k].1)
     }
 
     pub fn height(&self) -> usize {
@@ -209,13 +263,21 @@ impl Table {
 
     /// Column names, byte-order mark and surrounding spaces removed.
     pub fn names(&self) -> Vec<String> {
-        self.df.get_column_names().iter().map(|n| clean_name(n)).collect()
+        self.df
+            .get_column_names()
+            .iter()
+            .map(|n| clean_name(n))
+            .collect()
     }
 
     /// A column by name (after cleaning), ready for row access.
     pub fn column(&self, name: &str) -> Option<ColumnSource> {
         let want = clean_name(name);
-        let col = self.df.columns().iter().find(|c| clean_name(c.name()) == want)?;
+        let col = self
+            .df
+            .columns()
+            .iter()
+            .find(|c| clean_name(c.name()) == want)?;
         let s = col.as_materialized_series();
         match s.dtype() {
             DataType::String => Some(ColumnSource::Str(s.str().ok()?.clone())),

@@ -67,7 +67,10 @@ pub struct TimeError {
 const EXPECT_AUTO: &str = "expected YYYY-MM-DD HH:MM[:SS][.fff], YYYY.MM.DD HH:MM[:SS] or ISO 8601 with T/Z/offset (for slash dates give --time-format)";
 
 fn err(text: &str, expected: &'static str) -> TimeError {
-    TimeError { text: text.chars().take(60).collect(), expected }
+    TimeError {
+        text: text.chars().take(60).collect(),
+        expected,
+    }
 }
 
 /// `s.trim()`, without the Unicode scan when both ends are plain ASCII
@@ -82,7 +85,10 @@ pub fn trim_fast(s: &str) -> &str {
 /// Epoch seconds as ms, when finite and within the accepted years.
 pub fn epoch_seconds_to_ms(v: f64) -> Option<i64> {
     let ms = (v * 1000.0).round();
-    (ms.is_finite() && ms >= crate::zones::EARLIEST_MS as f64 && ms <= crate::zones::LATEST_MS as f64).then_some(ms as i64)
+    (ms.is_finite()
+        && ms >= crate::zones::EARLIEST_MS as f64
+        && ms <= crate::zones::LATEST_MS as f64)
+        .then_some(ms as i64)
 }
 
 /// Reads one stamp.
@@ -92,10 +98,14 @@ pub fn parse_stamp(text: &str, fmt: &TimeFormat) -> Result<Stamp, TimeError> {
         TimeFormat::Auto => scan_auto(t).ok_or_else(|| err(t, EXPECT_AUTO)),
         TimeFormat::EpochSeconds => {
             let v: f64 = t.parse().map_err(|_| err(t, "expected epoch seconds"))?;
-            epoch_seconds_to_ms(v).map(Stamp::Instant).ok_or_else(|| err(t, crate::zones::YEARS_MESSAGE))
+            epoch_seconds_to_ms(v)
+                .map(Stamp::Instant)
+                .ok_or_else(|| err(t, crate::zones::YEARS_MESSAGE))
         }
         TimeFormat::EpochMillis => {
-            let v: i64 = t.parse().map_err(|_| err(t, "expected integer epoch milliseconds"))?;
+            let v: i64 = t
+                .parse()
+                .map_err(|_| err(t, "expected integer epoch milliseconds"))?;
             if !crate::zones::in_accepted_years(v) {
                 return Err(err(t, crate::zones::YEARS_MESSAGE));
             }
@@ -146,7 +156,11 @@ pub fn scan_date(b: &[u8]) -> Option<(NaiveDate, usize)> {
 pub fn scan_time(b: &[u8]) -> Option<(NaiveTime, usize)> {
     let h = digits(b, 0, 2)?;
     let colon = b.get(2) == Some(&b':');
-    let (m, mut i) = if colon { (digits(b, 3, 2)?, 5) } else { (digits(b, 2, 2)?, 4) };
+    let (m, mut i) = if colon {
+        (digits(b, 3, 2)?, 5)
+    } else {
+        (digits(b, 2, 2)?, 4)
+    };
     let mut s = 0;
     if colon && b.get(i) == Some(&b':') {
         s = digits(b, i + 1, 2)?;
@@ -156,7 +170,9 @@ pub fn scan_time(b: &[u8]) -> Option<(NaiveTime, usize)> {
         i += 2;
     }
     let mut ms = 0u32;
-    if matches!(b.get(i), Some(b'.') | Some(b',')) && b.get(i + 1).is_some_and(|c| c.is_ascii_digit()) {
+    if matches!(b.get(i), Some(b'.') | Some(b','))
+        && b.get(i + 1).is_some_and(|c| c.is_ascii_digit())
+    {
         i += 1;
         let mut scale = 100;
         while let Some(c) = b.get(i).filter(|c| c.is_ascii_digit()) {
@@ -186,17 +202,38 @@ fn days_from_civil(y: i64, m: u32, d: u32) -> i64 {
 /// general reader does); anything else, or an impossible date
 /// or time, is left to the general reader (which names the fault).
 fn scan_utc_seconds(b: &[u8]) -> Option<i64> {
-    if b.len() != 20 || b[4] != b'-' || b[7] != b'-' || !matches!(b[10], b'T' | b't' | b' ') || b[13] != b':' || b[16] != b':' || !matches!(b[19], b'Z' | b'z') {
+    if b.len() != 20
+        || b[4] != b'-'
+        || b[7] != b'-'
+        || !matches!(b[10], b'T' | b't' | b' ')
+        || b[13] != b':'
+        || b[16] != b':'
+        || !matches!(b[19], b'Z' | b'z')
+    {
         return None;
     }
     let (y, mo, d) = (digits(b, 0, 4)?, digits(b, 5, 2)?, digits(b, 8, 2)?);
     let (h, mi, sec) = (digits(b, 11, 2)?, digits(b, 14, 2)?, digits(b, 17, 2)?);
     let leap = y % 4 == 0 && (y % 100 != 0 || y % 400 == 0);
-    let month_days = [31, if leap { 29 } else { 28 }, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
+    let month_days = [
+        31,
+        if leap { 29 } else { 28 },
+        31,
+        30,
+        31,
+        30,
+        31,
+        31,
+        30,
+        31,
+        30,
+        31,
+    ];
     if !(1..=12).contains(&mo) || d == 0 || d > month_days[mo as usize - 1] || h > 23 || mi > 59 {
         return None;
     }
-    let secs = days_from_civil(y as i64, mo, d) * 86_400 + (h * 3600 + mi * 60 + sec.min(59)) as i64;
+    let secs =
+        days_from_civil(y as i64, mo, d) * 86_400 + (h * 3600 + mi * 60 + sec.min(59)) as i64;
     Some(secs * 1000)
 }
 
@@ -250,7 +287,9 @@ mod tests {
                 }
             }
         }
-        for hms in ["00:00:00", "24:00:00", "12:60:00", "12:00:60", "12:00:61", "1a:00:00"] {
+        for hms in [
+            "00:00:00", "24:00:00", "12:60:00", "12:00:60", "12:00:61", "1a:00:00",
+        ] {
             texts.push(format!("2024-02-29t{hms}z"));
             texts.push(format!("2024-02-29 {hms}Z"));
         }
@@ -259,13 +298,18 @@ mod tests {
             let b = t.as_bytes();
             let general = {
                 let (date, i) = scan_date(b).map(|(d, i)| (Some(d), i)).unwrap_or((None, 0));
-                date.and_then(|date| scan_time(&b[i + 1..]).map(|(tm, _)| naive_to_ms(&date.and_time(tm))))
+                date.and_then(|date| {
+                    scan_time(&b[i + 1..]).map(|(tm, _)| naive_to_ms(&date.and_time(tm)))
+                })
             };
             let short = scan_utc_seconds(b);
             if short.is_some() {
                 fast += 1;
             }
-            assert!(short.is_none() || short == general, "{t}: {short:?} vs {general:?}");
+            assert!(
+                short.is_none() || short == general,
+                "{t}: {short:?} vs {general:?}"
+            );
             assert_eq!(short.is_some(), general.is_some(), "{t}");
         }
         assert!(fast > 3000, "{fast}");
@@ -281,23 +325,53 @@ mod tests {
     #[test]
     fn reads_the_spec_forms() {
         let a = TimeFormat::Auto;
-        assert_eq!(parse_stamp("2024-03-08 13:30", &a).unwrap(), local("2024-03-08 13:30:00.0"));
-        assert_eq!(parse_stamp("2024.03.08 13:30:15", &a).unwrap(), local("2024-03-08 13:30:15.0"));
-        assert_eq!(parse_stamp("2024-03-08 13:30:15.250", &a).unwrap(), local("2024-03-08 13:30:15.25"));
-        assert_eq!(parse_stamp("2024-03-08T13:30:00Z", &a).unwrap(), Stamp::Instant(at("2024-03-08 13:30:00.0")));
+        assert_eq!(
+            parse_stamp("2024-03-08 13:30", &a).unwrap(),
+            local("2024-03-08 13:30:00.0")
+        );
+        assert_eq!(
+            parse_stamp("2024.03.08 13:30:15", &a).unwrap(),
+            local("2024-03-08 13:30:15.0")
+        );
+        assert_eq!(
+            parse_stamp("2024-03-08 13:30:15.250", &a).unwrap(),
+            local("2024-03-08 13:30:15.25")
+        );
+        assert_eq!(
+            parse_stamp("2024-03-08T13:30:00Z", &a).unwrap(),
+            Stamp::Instant(at("2024-03-08 13:30:00.0"))
+        );
         assert_eq!(
             parse_stamp("2024-03-08T08:30:00-05:00", &a).unwrap(),
             Stamp::Instant(at("2024-03-08 13:30:00.0"))
         );
-        assert_eq!(parse_stamp("2024-03-08T14:30+0100", &a).unwrap(), Stamp::Instant(at("2024-03-08 13:30:00.0")));
-        assert_eq!(parse_stamp("20240308T133000Z", &a).unwrap(), Stamp::Instant(at("2024-03-08 13:30:00.0")));
-        assert_eq!(parse_stamp("2024-03-08", &a).unwrap(), local("2024-03-08 00:00:00.0"));
+        assert_eq!(
+            parse_stamp("2024-03-08T14:30+0100", &a).unwrap(),
+            Stamp::Instant(at("2024-03-08 13:30:00.0"))
+        );
+        assert_eq!(
+            parse_stamp("20240308T133000Z", &a).unwrap(),
+            Stamp::Instant(at("2024-03-08 13:30:00.0"))
+        );
+        assert_eq!(
+            parse_stamp("2024-03-08", &a).unwrap(),
+            local("2024-03-08 00:00:00.0")
+        );
     }
 
     #[test]
     fn rejects_what_is_not_a_time() {
         let a = TimeFormat::Auto;
-        for bad in ["", "08/03/2024 13:30", "2024-13-01 00:00", "2024-02-30 10:00", "2024-03-08 25:00", "yesterday", "2024-03-08X13:30", "2024-03-08 13:30 +25:00"] {
+        for bad in [
+            "",
+            "08/03/2024 13:30",
+            "2024-13-01 00:00",
+            "2024-02-30 10:00",
+            "2024-03-08 25:00",
+            "yesterday",
+            "2024-03-08X13:30",
+            "2024-03-08 13:30 +25:00",
+        ] {
             assert!(parse_stamp(bad, &a).is_err(), "{bad} should fail");
         }
         let e = parse_stamp("08/03/2024 13:30", &a).unwrap_err();
@@ -306,11 +380,20 @@ mod tests {
 
     #[test]
     fn epochs_and_patterns() {
-        assert_eq!(parse_stamp("1709904600", &TimeFormat::EpochSeconds).unwrap(), Stamp::Instant(at("2024-03-08 13:30:00.0")));
-        assert_eq!(parse_stamp("1709904600500", &TimeFormat::EpochMillis).unwrap(), Stamp::Instant(at("2024-03-08 13:30:00.5")));
+        assert_eq!(
+            parse_stamp("1709904600", &TimeFormat::EpochSeconds).unwrap(),
+            Stamp::Instant(at("2024-03-08 13:30:00.0"))
+        );
+        assert_eq!(
+            parse_stamp("1709904600500", &TimeFormat::EpochMillis).unwrap(),
+            Stamp::Instant(at("2024-03-08 13:30:00.5"))
+        );
         assert!(parse_stamp("nan", &TimeFormat::EpochSeconds).is_err());
         let p = TimeFormat::parse("%d/%m/%Y %H:%M").unwrap();
-        assert_eq!(parse_stamp("08/03/2024 13:30", &p).unwrap(), local("2024-03-08 13:30:00.0"));
+        assert_eq!(
+            parse_stamp("08/03/2024 13:30", &p).unwrap(),
+            local("2024-03-08 13:30:00.0")
+        );
     }
 
     /// RFC 5545 §3.3.5: "Implementations that do not support leap seconds

@@ -11,9 +11,9 @@ use crate::table::{Cell, ColumnSource, Table};
 use crate::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
 use crate::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
 use rayon::prelude::*;
-use std::io::Read;
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
+use std::io::Read;
 use std::path::{Path, PathBuf};
 
 /// Field names of SPEC §1, in the order the mapping lists them.
@@ -95,7 +95,17 @@ impl Trades {
         self.run.shrink_to_fit();
         self.file.shrink_to_fit();
         self.row.shrink_to_fit();
-        for v in [&mut self.size, &mut self.entry_price, &mut self.exit_price, &mut self.fees, &mut self.equity_before, &mut self.pnl_pct].into_iter().flatten() {
+        for v in [
+            &mut self.size,
+            &mut self.entry_price,
+            &mut self.exit_price,
+            &mut self.fees,
+            &mut self.equity_before,
+            &mut self.pnl_pct,
+        ]
+        .into_iter()
+        .flatten()
+        {
             v.shrink_to_fit();
         }
         if let Some(v) = self.side.as_mut() {
@@ -121,7 +131,9 @@ impl Trades {
                 })
             })
             .collect::<Result<_, _>>()?;
-        let keep: Vec<usize> = (0..self.len()).filter(|&i| wanted.contains(&self.run[i])).collect();
+        let keep: Vec<usize> = (0..self.len())
+            .filter(|&i| wanted.contains(&self.run[i]))
+            .collect();
         let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
         let mut runs_kept: Vec<u32> = wanted.clone();
         runs_kept.sort();
@@ -147,8 +159,14 @@ impl Trades {
             instrument,
             pnl: pick(&self.pnl),
             run: keep.iter().map(|&i| new_id(self.run[i])).collect(),
-            runs: runs_kept.iter().map(|&r| self.runs[r as usize].clone()).collect(),
-            side: self.side.as_ref().map(|v| keep.iter().map(|&i| v[i]).collect()),
+            runs: runs_kept
+                .iter()
+                .map(|&r| self.runs[r as usize].clone())
+                .collect(),
+            side: self
+                .side
+                .as_ref()
+                .map(|v| keep.iter().map(|&i| v[i]).collect()),
             size: self.size.as_deref().map(pick),
             entry_price: self.entry_price.as_deref().map(pick),
             exit_price: self.exit_price.as_deref().map(pick),
@@ -157,7 +175,11 @@ impl Trades {
             pnl_pct: self.pnl_pct.as_deref().map(pick),
             file: keep.iter().map(|&i| self.file[i]).collect(),
             row: keep.iter().map(|&i| self.row[i]).collect(),
-            kept: self.kept.iter().map(|c| keep.iter().map(|&i| c[i].clone()).collect()).collect(),
+            kept: self
+                .kept
+                .iter()
+                .map(|c| keep.iter().map(|&i| c[i].clone()).collect())
+                .collect(),
             kept_names: self.kept_names,
             instruments,
         })
@@ -217,8 +239,15 @@ pub enum TradeError {
     #[error("trades {path}: {message}")]
     Read { path: PathBuf, message: String },
     #[error("trades {path}: no column {missing} (columns: {available}){hint}")]
-    MissingColumns { path: PathBuf, missing: String, available: String, hint: String },
-    #[error("{count} trade row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them; reports then state what was skipped)")]
+    MissingColumns {
+        path: PathBuf,
+        missing: String,
+        available: String,
+        hint: String,
+    },
+    #[error(
+        "{count} trade row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them; reports then state what was skipped)"
+    )]
     Rejected { count: usize, examples: String },
     #[error("no trade files match '{0}'")]
     NoFiles(String),
@@ -265,7 +294,10 @@ pub fn parse_mapping(pairs: &[String], fields: &[&str]) -> Result<HashMap<String
                 .ok_or_else(|| format!("'{pair}' is not field=column"))?;
             let f = f.trim();
             if !fields.contains(&f) {
-                return Err(format!("unknown field '{f}' in '{pair}'; fields are {}", fields.join(", ")));
+                return Err(format!(
+                    "unknown field '{f}' in '{pair}'; fields are {}",
+                    fields.join(", ")
+                ));
             }
             out.insert(f.to_string(), c.trim().to_string());
         }
@@ -276,10 +308,18 @@ pub fn parse_mapping(pairs: &[String], fields: &[&str]) -> Result<HashMap<String
 /// Reads a JSON mapping file `{"field": "column", ...}`.
 pub fn load_mapping_file(path: &Path, fields: &[&str]) -> Result<HashMap<String, String>, String> {
     let text = std::fs::read_to_string(path).map_err(|e| format!("{}: {e}", path.display()))?;
-    let map: HashMap<String, String> =
-        serde_json::from_str(&text).map_err(|e| format!("{}: {e} (expected {{\"field\": \"column\"}})", path.display()))?;
+    let map: HashMap<String, String> = serde_json::from_str(&text).map_err(|e| {
+        format!(
+            "{}: {e} (expected {{\"field\": \"column\"}})",
+            path.display()
+        )
+    })?;
     if let Some(bad) = map.keys().find(|k| !fields.contains(&k.as_str())) {
-        return Err(format!("{}: unknown field '{bad}'; fields are {}", path.display(), fields.join(", ")));
+        return Err(format!(
+            "{}: unknown field '{bad}'; fields are {}",
+            path.display(),
+            fields.join(", ")
+        ));
     }
     Ok(map)
 }
@@ -314,7 +354,9 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
     for (fi, path) in paths.iter().enumerate() {
         sink.summary.files.push(path.display().to_string());
         let file_run = run_per_file.then(|| {
-            path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default()
+            path.file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_default()
         });
         sink.start_file(fi as u16, path, file_run);
         if crate::table::is_parquet(path) {
@@ -323,7 +365,13 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             read_csv(path, opts, &mut sink)?;
         }
     }
-    let Sink { mut trades, mut summary, instruments, runs, .. } = sink;
+    let Sink {
+        mut trades,
+        mut summary,
+        instruments,
+        runs,
+        ..
+    } = sink;
     trades.shrink_to_fit();
     trades.kept_names = opts.keep.clone();
     if !opts.keep.is_empty() && trades.kept.is_empty() {
@@ -338,7 +386,10 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             .map(|r| format!("  {} row {}: {}: {}", r.file, r.row, r.field, r.message))
             .collect::<Vec<_>>()
             .join("\n");
-        return Err(TradeError::Rejected { count: summary.rows_rejected, examples });
+        return Err(TradeError::Rejected {
+            count: summary.rows_rejected,
+            examples,
+        });
     }
     trades.instruments = names_in_order(instruments);
     if !runs.is_empty() {
@@ -428,12 +479,21 @@ const EXTRAS: std::ops::Range<usize> = 6..12;
 /// by `+` (summed, each sign as written). Returns the slots and the extra
 /// columns: the P/L parts after the first, then the `--keep` columns.
 /// Every missing column is named in one error.
-fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl FnMut(&str) -> Option<C>) -> Result<(Slots<C>, Vec<C>), TradeError> {
+fn slots<C>(
+    names: &[String],
+    path: &Path,
+    opts: &TradeOptions,
+    mut find: impl FnMut(&str) -> Option<C>,
+) -> Result<(Slots<C>, Vec<C>), TradeError> {
     let mut out: Slots<C> = Default::default();
     let mut extra = Vec::new();
     let mut missing: Vec<(String, String)> = Vec::new();
     for (k, field) in FIELDS.iter().enumerate() {
-        let name = opts.columns.get(*field).map(String::as_str).unwrap_or(field);
+        let name = opts
+            .columns
+            .get(*field)
+            .map(String::as_str)
+            .unwrap_or(field);
         let parts = pnl_parts(name);
         out[k] = find(if k == PNL { parts[0] } else { name });
         if k == PNL && out[k].is_some() {
@@ -445,7 +505,14 @@ fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl F
             }
         }
         if out[k].is_none() && (REQUIRED.contains(field) || opts.columns.contains_key(*field)) {
-            missing.push((field.to_string(), if k == PNL { parts[0].to_string() } else { name.to_string() }));
+            missing.push((
+                field.to_string(),
+                if k == PNL {
+                    parts[0].to_string()
+                } else {
+                    name.to_string()
+                },
+            ));
         }
     }
     for name in &opts.keep {
@@ -457,10 +524,18 @@ fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl F
     if !missing.is_empty() {
         return Err(TradeError::MissingColumns {
             path: path.to_path_buf(),
-            missing: missing.iter().map(|(f, c)| format!("'{c}' for {f}")).collect::<Vec<_>>().join(", "),
+            missing: missing
+                .iter()
+                .map(|(f, c)| format!("'{c}' for {f}"))
+                .collect::<Vec<_>>()
+                .join(", "),
             available: names.join(", "),
             hint: {
-                let maps: Vec<String> = missing.iter().filter(|(f, _)| f != "--keep").map(|(f, _)| format!("--map {f}=<column>")).collect();
+                let maps: Vec<String> = missing
+                    .iter()
+                    .filter(|(f, _)| f != "--keep")
+                    .map(|(f, _)| format!("--map {f}=<column>"))
+                    .collect();
                 match maps.len() {
                     0 => String::new(),
                     1 => format!("; map it with {}", maps[0]),
@@ -474,7 +549,11 @@ fn slots<C>(names: &[String], path: &Path, opts: &TradeOptions, mut find: impl F
 
 /// The columns a `pnl` mapping sums: `Gross+Costs+Financing` → three.
 fn pnl_parts(name: &str) -> Vec<&str> {
-    let parts: Vec<&str> = name.split('+').map(str::trim).filter(|p| !p.is_empty()).collect();
+    let parts: Vec<&str> = name
+        .split('+')
+        .map(str::trim)
+        .filter(|p| !p.is_empty())
+        .collect();
     if parts.len() > 1 { parts } else { vec![name] }
 }
 
@@ -483,7 +562,13 @@ fn pnl_formation(opts: &TradeOptions, fees_present: bool) -> String {
     let name = opts.columns.get("pnl").map(String::as_str).unwrap_or("pnl");
     let mut s = pnl_parts(name).join(" + ");
     if fees_present {
-        s.push_str(&format!(" − |{}|", opts.columns.get("fees").map(String::as_str).unwrap_or("fees")));
+        s.push_str(&format!(
+            " − |{}|",
+            opts.columns
+                .get("fees")
+                .map(String::as_str)
+                .unwrap_or("fees")
+        ));
     }
     s
 }
@@ -495,7 +580,11 @@ struct RowError {
 }
 
 fn row_err(field: &'static str, reason: &'static str, message: impl Into<String>) -> RowError {
-    RowError { field, reason, message: message.into() }
+    RowError {
+        field,
+        reason,
+        message: message.into(),
+    }
 }
 
 /// One valid row; names borrow from the source until interned.
@@ -532,13 +621,23 @@ fn parse_row<'a>(
 ) -> Result<Row<'a>, RowError> {
     let mut time = |k: usize| -> Result<i64, RowError> {
         let field = FIELDS[k];
-        let out_of_range = |what: String| row_err(field, "bad_time", format!("{what} is {}", crate::zones::YEARS_MESSAGE));
+        let out_of_range = |what: String| {
+            row_err(
+                field,
+                "bad_time",
+                format!("{what} is {}", crate::zones::YEARS_MESSAGE),
+            )
+        };
         let local = |ndt: chrono::NaiveDateTime, cache: &mut DayOffsetCache| {
-            opts.zone.to_utc_cached(&ndt, opts.policy, cache).map_err(|e| match e {
-                ZoneError::Gap { .. } => row_err(field, "local_time_gap", e.to_string()),
-                ZoneError::Ambiguous { .. } => row_err(field, "local_time_ambiguous", e.to_string()),
-                other => row_err(field, "bad_time", other.to_string()),
-            })
+            opts.zone
+                .to_utc_cached(&ndt, opts.policy, cache)
+                .map_err(|e| match e {
+                    ZoneError::Gap { .. } => row_err(field, "local_time_gap", e.to_string()),
+                    ZoneError::Ambiguous { .. } => {
+                        row_err(field, "local_time_ambiguous", e.to_string())
+                    }
+                    other => row_err(field, "bad_time", other.to_string()),
+                })
         };
         let ms = match cell(k)? {
             Cell::Null => return Err(row_err(field, "missing_value", "empty")),
@@ -549,15 +648,37 @@ fn parse_row<'a>(
                 }
                 local(crate::zones::ms_to_naive(wall), cache)?
             }
-            Cell::Date(_) => return Err(row_err(field, "bad_time", "a date without a time of day; trade times need one")),
+            Cell::Date(_) => {
+                return Err(row_err(
+                    field,
+                    "bad_time",
+                    "a date without a time of day; trade times need one",
+                ));
+            }
             Cell::Num(v) => match opts.time_format {
-                TimeFormat::EpochSeconds => crate::timefmt::epoch_seconds_to_ms(v).ok_or_else(|| out_of_range(format!("epoch seconds {v}")))?,
+                TimeFormat::EpochSeconds => crate::timefmt::epoch_seconds_to_ms(v)
+                    .ok_or_else(|| out_of_range(format!("epoch seconds {v}")))?,
                 TimeFormat::EpochMillis if v.is_finite() && v.fract() == 0.0 => v as i64,
-                TimeFormat::EpochMillis => return Err(row_err(field, "bad_time", format!("{v} is not whole epoch milliseconds"))),
-                _ => return Err(row_err(field, "bad_time", format!("number {v} where a time was expected; for epoch times give --time-format epoch-s or epoch-ms"))),
+                TimeFormat::EpochMillis => {
+                    return Err(row_err(
+                        field,
+                        "bad_time",
+                        format!("{v} is not whole epoch milliseconds"),
+                    ));
+                }
+                _ => {
+                    return Err(row_err(
+                        field,
+                        "bad_time",
+                        format!(
+                            "number {v} where a time was expected; for epoch times give --time-format epoch-s or epoch-ms"
+                        ),
+                    ));
+                }
             },
             Cell::Str(s) => {
-                let stamp = parse_stamp(s, &opts.time_format).map_err(|e| row_err(field, "bad_time", e.to_string()))?;
+                let stamp = parse_stamp(s, &opts.time_format)
+                    .map_err(|e| row_err(field, "bad_time", e.to_string()))?;
                 match stamp {
                     Stamp::Instant(ms) => ms,
                     Stamp::Local(ndt) => local(ndt, cache)?,
@@ -572,9 +693,15 @@ fn parse_row<'a>(
     let opened = time(OPENED)?;
     let closed = time(CLOSED)?;
     if closed < opened {
-        return Err(row_err("closed_at", "closed_before_opened", format!(
-            "closes at {} before it opens at {}", crate::zones::format_utc(closed), crate::zones::format_utc(opened)
-        )));
+        return Err(row_err(
+            "closed_at",
+            "closed_before_opened",
+            format!(
+                "closes at {} before it opens at {}",
+                crate::zones::format_utc(closed),
+                crate::zones::format_utc(opened)
+            ),
+        ));
     }
     let number = |k: usize, required: bool| -> Result<f64, RowError> {
         let field = FIELDS[k];
@@ -582,12 +709,28 @@ fn parse_row<'a>(
             Cell::Null if required => Err(row_err(field, "missing_value", "empty")),
             Cell::Null => Ok(f64::NAN),
             Cell::Num(v) if v.is_finite() => Ok(v),
-            Cell::Num(v) => Err(row_err(field, "non_finite", format!("{v} is not a finite number"))),
-            Cell::Instant(_) | Cell::Local(_) | Cell::Date(_) => Err(row_err(field, "bad_number", "a time where a number was expected")),
+            Cell::Num(v) => Err(row_err(
+                field,
+                "non_finite",
+                format!("{v} is not a finite number"),
+            )),
+            Cell::Instant(_) | Cell::Local(_) | Cell::Date(_) => Err(row_err(
+                field,
+                "bad_number",
+                "a time where a number was expected",
+            )),
             Cell::Str(s) => match crate::number::parse_number(s, decimal_comma) {
                 Some(v) if v.is_finite() => Ok(v),
-                Some(_) => Err(row_err(field, "non_finite", format!("'{}' is not a finite number", truncate(s)))),
-                None => Err(row_err(field, "bad_number", format!("'{}' is not a number", truncate(s)))),
+                Some(_) => Err(row_err(
+                    field,
+                    "non_finite",
+                    format!("'{}' is not a finite number", truncate(s)),
+                )),
+                None => Err(row_err(
+                    field,
+                    "bad_number",
+                    format!("'{}' is not a number", truncate(s)),
+                )),
             },
         }
     };
@@ -605,8 +748,20 @@ fn parse_row<'a>(
             Cell::Num(v) if v.is_finite() => v,
             Cell::Str(s) => crate::number::parse_number(s, decimal_comma)
                 .filter(|v| v.is_finite())
-                .ok_or_else(|| row_err("pnl", "bad_number", format!("'{}' (an added P/L column) is not a number", truncate(s))))?,
-            _ => return Err(row_err("pnl", "bad_number", "an added P/L column is not a finite number")),
+                .ok_or_else(|| {
+                    row_err(
+                        "pnl",
+                        "bad_number",
+                        format!("'{}' (an added P/L column) is not a number", truncate(s)),
+                    )
+                })?,
+            _ => {
+                return Err(row_err(
+                    "pnl",
+                    "bad_number",
+                    "an added P/L column is not a finite number",
+                ));
+            }
         };
     }
     let run = if present[RUN] {
@@ -624,9 +779,19 @@ fn parse_row<'a>(
             Cell::Num(v) if v > 0.0 => 1,
             Cell::Num(v) if v < 0.0 => -1,
             Cell::Str(s) => parse_side(s).ok_or_else(|| {
-                row_err("side", "bad_side", format!("'{}' is not long/short, buy/sell or 1/-1", truncate(s)))
+                row_err(
+                    "side",
+                    "bad_side",
+                    format!("'{}' is not long/short, buy/sell or 1/-1", truncate(s)),
+                )
             })?,
-            _ => return Err(row_err("side", "bad_side", "not long/short, buy/sell or 1/-1")),
+            _ => {
+                return Err(row_err(
+                    "side",
+                    "bad_side",
+                    "not long/short, buy/sell or 1/-1",
+                ));
+            }
         }
     } else {
         0
@@ -651,7 +816,16 @@ fn parse_row<'a>(
             _ => String::new(),
         })
         .collect();
-    Ok(Row { opened, closed, instrument, pnl, run, side, extras, kept })
+    Ok(Row {
+        opened,
+        closed,
+        instrument,
+        pnl,
+        run,
+        side,
+        extras,
+        kept,
+    })
 }
 
 /// Rows of one block (or one whole table), with names interned locally so
@@ -738,9 +912,16 @@ impl Part {
                 self.opened.push(r.opened);
                 self.closed.push(r.closed);
                 self.pnl.push(r.pnl);
-                self.instrument.push(intern_cached(&mut self.instrument_names, &mut self.last_instrument, &r.instrument));
+                self.instrument.push(intern_cached(
+                    &mut self.instrument_names,
+                    &mut self.last_instrument,
+                    &r.instrument,
+                ));
                 match r.run {
-                    Some(RunName::Text(name)) => self.run.push(intern_cached(&mut self.run_names, &mut self.last_run, name)),
+                    Some(RunName::Text(name)) => {
+                        self.run
+                            .push(intern_cached(&mut self.run_names, &mut self.last_run, name))
+                    }
                     Some(RunName::Number(v)) => {
                         let id = match self.last_run_number {
                             Some((bits, id)) if bits == v.to_bits() => id,
@@ -822,7 +1003,8 @@ impl Sink {
             by_id.into_iter().map(|name| intern(global, name)).collect()
         };
         let inst = local(&part.instrument_names, &mut self.instruments);
-        t.instrument.extend(part.instrument.iter().map(|&i| inst[i as usize]));
+        t.instrument
+            .extend(part.instrument.iter().map(|&i| inst[i as usize]));
         if present[RUN] {
             let runs = local(&part.run_names, &mut self.runs);
             t.run.extend(part.run.iter().map(|&i| runs[i as usize]));
@@ -832,7 +1014,8 @@ impl Sink {
             {
                 self.file_run = Some(intern(&mut self.runs, name));
             }
-            t.run.extend(std::iter::repeat_n(self.file_run.unwrap_or(0), n));
+            t.run
+                .extend(std::iter::repeat_n(self.file_run.unwrap_or(0), n));
         }
         t.opened.extend_from_slice(&part.opened);
         t.closed.extend_from_slice(&part.closed);
@@ -841,13 +1024,21 @@ impl Sink {
         // (0 / NaN where a file lacks it).
         if present[SIDE] || t.side.is_some() {
             let v = t.side.get_or_insert_with(|| vec![0; n_before]);
-            if present[SIDE] { v.extend_from_slice(&part.side) } else { v.extend(std::iter::repeat_n(0, n)) }
+            if present[SIDE] {
+                v.extend_from_slice(&part.side)
+            } else {
+                v.extend(std::iter::repeat_n(0, n))
+            }
         }
         for (k, values) in EXTRAS.zip(&part.extras) {
             let slot = extra_slot(t, k);
             if present[k] || slot.is_some() {
                 let v = slot.get_or_insert_with(|| vec![f64::NAN; n_before]);
-                if present[k] { v.extend_from_slice(values) } else { v.extend(std::iter::repeat_n(f64::NAN, n)) }
+                if present[k] {
+                    v.extend_from_slice(values)
+                } else {
+                    v.extend(std::iter::repeat_n(f64::NAN, n))
+                }
             }
         }
         if !part.kept.is_empty() || !t.kept.is_empty() {
@@ -862,7 +1053,8 @@ impl Sink {
         }
         t.file.extend(std::iter::repeat_n(self.file_index, n));
         let base = self.file_rows;
-        t.row.extend(part.row.iter().map(|&r| (base + r as usize + 1) as u32));
+        t.row
+            .extend(part.row.iter().map(|&r| (base + r as usize + 1) as u32));
 
         let s = &mut self.summary;
         s.rows_read += part.rows_read;
@@ -875,7 +1067,13 @@ impl Sink {
             if s.rejections.len() >= KEEP_REJECTIONS {
                 break;
             }
-            s.rejections.push(Rejection { file: self.file_name.clone(), row: base + index + 1, field: e.field.to_string(), reason: e.reason, message: e.message });
+            s.rejections.push(Rejection {
+                file: self.file_name.clone(),
+                row: base + index + 1,
+                field: e.field.to_string(),
+                reason: e.reason,
+                message: e.message,
+            });
         }
         self.file_rows += part.rows_read;
         part.clear();
@@ -897,12 +1095,19 @@ fn extra_slot(t: &mut Trades, k: usize) -> &mut Option<Vec<f64>> {
 /// columns are held beside the imported ones), each group's rows parsed on
 /// every core in pieces merged in order.
 fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
-    let err = |message: String| TradeError::Read { path: path.to_path_buf(), message };
+    let err = |message: String| TradeError::Read {
+        path: path.to_path_buf(),
+        message,
+    };
     let groups = crate::table::parquet_row_groups(path).map_err(err)?;
     sink.trades.reserve(groups.iter().map(|g| g.1).sum());
     // A file without row groups still has a schema: one empty read checks
     // the column mapping.
-    for (first, rows) in if groups.is_empty() { vec![(0, 0)] } else { groups } {
+    for (first, rows) in if groups.is_empty() {
+        vec![(0, 0)]
+    } else {
+        groups
+    } {
         let table = Table::read_parquet_rows(path, first, rows).map_err(err)?;
         read_table(&table, path, opts, sink)?;
     }
@@ -911,7 +1116,12 @@ fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(),
 
 /// A polars-read table: its rows parsed in pieces on every core, merged in
 /// order.
-fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+fn read_table(
+    table: &Table,
+    path: &Path,
+    opts: &TradeOptions,
+    sink: &mut Sink,
+) -> Result<(), TradeError> {
     const PIECE: usize = 1 << 16;
     let names = table.names();
     let (sources, extra) = slots(&names, path, opts, |name| table.column(name))?;
@@ -925,15 +1135,27 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
         };
         for k in [OPENED, CLOSED] {
             let source = sources[k].as_ref().expect("required columns are present");
-            let column = opts.columns.get(FIELDS[k]).cloned().unwrap_or_else(|| FIELDS[k].to_string());
+            let column = opts
+                .columns
+                .get(FIELDS[k])
+                .cloned()
+                .unwrap_or_else(|| FIELDS[k].to_string());
             if matches!(source, ColumnSource::Date(_)) {
                 return Err(TradeError::Read {
                     path: path.to_path_buf(),
-                    message: format!("column '{column}' ({}) holds dates without a time of day; trade times need one", FIELDS[k]),
+                    message: format!(
+                        "column '{column}' ({}) holds dates without a time of day; trade times need one",
+                        FIELDS[k]
+                    ),
                 });
             }
             let read_as = source.describe(&format!("--trades-tz {}", opts.zone), epoch);
-            sink.summary.time_columns.push(TimeColumn { file: sink.file_name.clone(), field: FIELDS[k], column, read_as });
+            sink.summary.time_columns.push(TimeColumn {
+                file: sink.file_name.clone(),
+                field: FIELDS[k],
+                column,
+                read_as,
+            });
         }
     }
     let n = table.height();
@@ -945,7 +1167,15 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
             part.reserve(hi - lo, &present);
             let mut cache = DayOffsetCache::default();
             for i in lo..hi {
-                let row = parse_row(&present, |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))), |j| Ok(extra[j].get(i)), n_pnl_parts, opts, false, &mut cache);
+                let row = parse_row(
+                    &present,
+                    |k| Ok(sources[k].as_ref().map_or(Cell::Null, |c| c.get(i))),
+                    |j| Ok(extra[j].get(i)),
+                    n_pnl_parts,
+                    opts,
+                    false,
+                    &mut cache,
+                );
                 part.take(i - lo, row, &present);
             }
             part
@@ -959,18 +1189,26 @@ fn read_table(table: &Table, path: &Path, opts: &TradeOptions, sink: &mut Sink) 
 
 /// A delimited text file, in blocks parsed on every core.
 fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
-    let err = |message: String| TradeError::Read { path: path.to_path_buf(), message };
+    let err = |message: String| TradeError::Read {
+        path: path.to_path_buf(),
+        message,
+    };
     let io = |e: std::io::Error| err(e.to_string());
     let sep = match opts.delimiter {
         Some(d) => d,
         None => {
             let mut head = Vec::with_capacity(64 * 1024);
-            std::fs::File::open(path).and_then(|f| f.take(64 * 1024).read_to_end(&mut head)).map_err(io)?;
+            std::fs::File::open(path)
+                .and_then(|f| f.take(64 * 1024).read_to_end(&mut head))
+                .map_err(io)?;
             csvchunks::sniff_delimiter(&head)
         }
     };
     let mut reader = csvchunks::BlockReader::open(path, sep).map_err(io)?;
-    let mut first = reader.next_block(None).map_err(|e| err(e.to_string()))?.ok_or_else(|| err(ScanError::Empty.to_string()))?;
+    let mut first = reader
+        .next_block(None)
+        .map_err(|e| err(e.to_string()))?
+        .ok_or_else(|| err(ScanError::Empty.to_string()))?;
     let header = csvchunks::take_header(&mut first, sep).map_err(|e| err(e.to_string()))?;
     // Room for the whole file (the memory budget's row estimate): the
     // columns then grow once instead of doubling (which can leave up to half
@@ -980,23 +1218,41 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
     }
     let names = &header.names;
     if let [only] = names.as_slice()
-        && let Some(d) = [b',', b';', b'\t', b'|'].into_iter().find(|&d| d != sep && only.as_bytes().contains(&d))
+        && let Some(d) = [b',', b';', b'\t', b'|']
+            .into_iter()
+            .find(|&d| d != sep && only.as_bytes().contains(&d))
     {
         return Err(err(format!(
             "the header is one column '{}' when split at '{}'; it looks delimited by '{}': give --delimiter '{}'",
-            truncate(only), (sep as char).escape_default(), (d as char).escape_default(), (d as char).escape_default()
+            truncate(only),
+            (sep as char).escape_default(),
+            (d as char).escape_default(),
+            (d as char).escape_default()
         )));
     }
-    let (columns, extra) = slots(names, path, opts, |name| names.iter().position(|n| n == name))?;
+    let (columns, extra) = slots(names, path, opts, |name| {
+        names.iter().position(|n| n == name)
+    })?;
     let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
     for k in [OPENED, CLOSED] {
         let read_as = match &opts.time_format {
-            TimeFormat::Auto => format!("text; local to --trades-tz {} unless a value carries an offset or Z", opts.zone),
+            TimeFormat::Auto => format!(
+                "text; local to --trades-tz {} unless a value carries an offset or Z",
+                opts.zone
+            ),
             TimeFormat::EpochSeconds => "epoch seconds (--time-format epoch-s)".into(),
             TimeFormat::EpochMillis => "epoch milliseconds (--time-format epoch-ms)".into(),
-            TimeFormat::Pattern(p) => format!("text by --time-format '{p}'; local to --trades-tz {} unless the pattern reads an offset", opts.zone),
+            TimeFormat::Pattern(p) => format!(
+                "text by --time-format '{p}'; local to --trades-tz {} unless the pattern reads an offset",
+                opts.zone
+            ),
         };
-        sink.summary.time_columns.push(TimeColumn { file: sink.file_name.clone(), field: FIELDS[k], column: names[columns[k].expect("required")].clone(), read_as });
+        sink.summary.time_columns.push(TimeColumn {
+            file: sink.file_name.clone(),
+            field: FIELDS[k],
+            column: names[columns[k].expect("required")].clone(),
+            read_as,
+        });
     }
     let width = names.len();
     let batch = rayon::current_num_threads().max(1) * 2;
@@ -1009,7 +1265,11 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                 Ok(Some(b)) => pending.push(b),
                 Ok(None) => break,
                 Err(ScanError::RecordTooLong { mib, .. }) => {
-                    return Err(err(ScanError::RecordTooLong { row: sink.file_rows, mib }.to_string()));
+                    return Err(err(ScanError::RecordTooLong {
+                        row: sink.file_rows,
+                        mib,
+                    }
+                    .to_string()));
                 }
                 Err(e) => return Err(err(e.to_string())),
             }
@@ -1019,12 +1279,26 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         }
         let last_batch = pending.len() < batch;
         let n_blocks = pending.len();
-        let fresh: Vec<Part> = (0..n_blocks).map(|_| spare_parts.pop().unwrap_or_default()).collect();
+        let fresh: Vec<Part> = (0..n_blocks)
+            .map(|_| spare_parts.pop().unwrap_or_default())
+            .collect();
         let parts: Vec<Result<Part, (usize, usize)>> = pending
             .par_iter()
             .zip(fresh)
             .enumerate()
-            .map(|(b, (block, part))| parse_block(block, part, sep, width, &columns, &extra, &present, opts, last_batch && b + 1 == n_blocks))
+            .map(|(b, (block, part))| {
+                parse_block(
+                    block,
+                    part,
+                    sep,
+                    width,
+                    &columns,
+                    &extra,
+                    &present,
+                    opts,
+                    last_batch && b + 1 == n_blocks,
+                )
+            })
             .collect();
         spare_blocks.append(&mut pending);
         for p in parts {
@@ -1035,8 +1309,14 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                 }
                 Err((rows_before, column)) => {
                     let row = sink.file_rows + rows_before + 1;
-                    let name = names.get(column - 1).map_or(String::new(), |n| format!(" ({n})"));
-                    return Err(err(ScanError::UnclosedQuote { row, column: format!("{column}{name}") }.to_string()));
+                    let name = names
+                        .get(column - 1)
+                        .map_or(String::new(), |n| format!(" ({n})"));
+                    return Err(err(ScanError::UnclosedQuote {
+                        row,
+                        column: format!("{column}{name}"),
+                    }
+                    .to_string()));
                 }
             }
         }
@@ -1073,31 +1353,80 @@ fn parse_block(
             Parsed::Unclosed { column } => return Err((part.rows_read, column)),
             Parsed::Record { next: pos } => {
                 let n = rec.len();
-                let extra_empty = n > width && (width..n).all(|k| rec.field(block, k).iter().all(u8::is_ascii_whitespace));
+                let extra_empty = n > width
+                    && (width..n).all(|k| rec.field(block, k).iter().all(u8::is_ascii_whitespace));
                 if n < width || (n > width && !extra_empty) {
-                    let hint = if n < width && last_in_file && pos >= block.len() { "; is the file truncated?" } else { "" };
-                    let e = row_err("row", "field_count", format!("{n} field(s) where the header has {width}{hint}"));
+                    let hint = if n < width && last_in_file && pos >= block.len() {
+                        "; is the file truncated?"
+                    } else {
+                        ""
+                    };
+                    let e = row_err(
+                        "row",
+                        "field_count",
+                        format!("{n} field(s) where the header has {width}{hint}"),
+                    );
                     part.take(index, Err(e), present);
                 } else if let Some((k, a, b)) = rec.text_after_quote() {
-                    let field = columns.iter().position(|c| *c == Some(k)).map_or("row", |f| FIELDS[f]);
+                    let field = columns
+                        .iter()
+                        .position(|c| *c == Some(k))
+                        .map_or("row", |f| FIELDS[f]);
                     let stray = String::from_utf8_lossy(&block[a..b]);
                     let text = String::from_utf8_lossy(rec.raw(block, k));
-                    let e = row_err(field, "bad_quote", format!(
-                        "column {}: text '{}' follows the closing quote of \"{}\"; a quoted field must end at its quote", k + 1, truncate(&stray), truncate(&text)
-                    ));
+                    let e = row_err(
+                        field,
+                        "bad_quote",
+                        format!(
+                            "column {}: text '{}' follows the closing quote of \"{}\"; a quoted field must end at its quote",
+                            k + 1,
+                            truncate(&stray),
+                            truncate(&text)
+                        ),
+                    );
                     part.take(index, Err(e), present);
                 } else if !rec.has_escapes() {
                     // The common case: every field's text is its bytes.
-                    let cell = |k: usize| columns[k].map_or(Ok(Cell::Null), |c| text_cell(rec.raw(block, c), FIELDS[k]));
-                    let more = |j: usize| text_cell(rec.raw(block, extra[j]), if j < n_pnl_parts { "pnl" } else { "kept" });
-                    let row = parse_row(present, cell, more, n_pnl_parts, opts, sep != b',', &mut cache);
+                    let cell = |k: usize| {
+                        columns[k]
+                            .map_or(Ok(Cell::Null), |c| text_cell(rec.raw(block, c), FIELDS[k]))
+                    };
+                    let more = |j: usize| {
+                        text_cell(
+                            rec.raw(block, extra[j]),
+                            if j < n_pnl_parts { "pnl" } else { "kept" },
+                        )
+                    };
+                    let row = parse_row(
+                        present,
+                        cell,
+                        more,
+                        n_pnl_parts,
+                        opts,
+                        sep != b',',
+                        &mut cache,
+                    );
                     part.take(index, row, present);
                 } else {
-                    let cells: [std::borrow::Cow<[u8]>; 12] =
-                        std::array::from_fn(|k| columns[k].map_or(std::borrow::Cow::Borrowed(&b""[..]), |c| rec.field(block, c)));
-                    let more_cells: Vec<std::borrow::Cow<[u8]>> = extra.iter().map(|&c| rec.field(block, c)).collect();
-                    let more = |j: usize| text_cell(&more_cells[j], if j < n_pnl_parts { "pnl" } else { "kept" });
-                    let row = parse_row(present, |k| text_cell(&cells[k], FIELDS[k]), more, n_pnl_parts, opts, sep != b',', &mut cache);
+                    let cells: [std::borrow::Cow<[u8]>; 12] = std::array::from_fn(|k| {
+                        columns[k].map_or(std::borrow::Cow::Borrowed(&b""[..]), |c| {
+                            rec.field(block, c)
+                        })
+                    });
+                    let more_cells: Vec<std::borrow::Cow<[u8]>> =
+                        extra.iter().map(|&c| rec.field(block, c)).collect();
+                    let more = |j: usize| {
+                        text_cell(&more_cells[j], if j < n_pnl_parts { "pnl" } else { "kept" })
+                    };
+                    let row = parse_row(
+                        present,
+                        |k| text_cell(&cells[k], FIELDS[k]),
+                        more,
+                        n_pnl_parts,
+                        opts,
+                        sep != b',',
+                        &mut cache,
+                    );
                     part.take(index, row, present);
                 }
                 index += 1;
@@ -1117,9 +1446,16 @@ fn text_cell<'a>(bytes: &'a [u8], field: &'static str) -> Result<Cell<'a>, RowEr
         // one pass instead of the full decoder's per-call overhead).
         return Ok(Cell::Str(unsafe { std::str::from_utf8_unchecked(bytes) }));
     }
-    std::str::from_utf8(bytes)
-        .map(Cell::Str)
-        .map_err(|e| row_err(field, "not_utf8", format!("byte {} is not UTF-8 text; save the file as UTF-8", e.valid_up_to() + 1)))
+    std::str::from_utf8(bytes).map(Cell::Str).map_err(|e| {
+        row_err(
+            field,
+            "not_utf8",
+            format!(
+                "byte {} is not UTF-8 text; save the file as UTF-8",
+                e.valid_up_to() + 1
+            ),
+        )
+    })
 }
 
 /// FNV-1a: a fast hash for interning short codes (instrument and run
@@ -1132,7 +1468,11 @@ impl std::hash::Hasher for Fnv {
         self.0
     }
     fn write(&mut self, bytes: &[u8]) {
-        let mut h = if self.0 == 0 { 0xcbf2_9ce4_8422_2325 } else { self.0 };
+        let mut h = if self.0 == 0 {
+            0xcbf2_9ce4_8422_2325
+        } else {
+            self.0
+        };
         for &b in bytes {
             h = (h ^ b as u64).wrapping_mul(0x100_0000_01b3);
         }
@@ -1168,7 +1508,11 @@ fn truncate(s: &str) -> String {
 }
 
 fn format_run_number(v: f64) -> String {
-    if v.fract() == 0.0 && v.abs() < 1e15 { format!("{}", v as i64) } else { v.to_string() }
+    if v.fract() == 0.0 && v.abs() < 1e15 {
+        format!("{}", v as i64)
+    } else {
+        v.to_string()
+    }
 }
 
 /// A number by the rule of [`crate::number`], in a comma-delimited file.
@@ -1199,14 +1543,34 @@ mod tests {
     fn simple_decimals_read_as_the_standard_parser_does() {
         use rand::{RngExt, SeedableRng};
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(21);
-        let mut texts: Vec<String> = ["0", "-0", "+0", "5.", ".5", "-.5", "+.25", ".", "-", "", "1..2", "9007199254740993", "0.1", "-4.23", "123456789012345678.9", "00012.3400", "99999999999999999999", "9999999999999999999.9"]
-            .iter()
-            .map(|s| s.to_string())
-            .collect();
+        let mut texts: Vec<String> = [
+            "0",
+            "-0",
+            "+0",
+            "5.",
+            ".5",
+            "-.5",
+            "+.25",
+            ".",
+            "-",
+            "",
+            "1..2",
+            "9007199254740993",
+            "0.1",
+            "-4.23",
+            "123456789012345678.9",
+            "00012.3400",
+            "99999999999999999999",
+            "9999999999999999999.9",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
         for _ in 0..200_000 {
             let int_digits = rng.random_range(0..12);
             let frac_digits = rng.random_range(0..10);
-            let digit = |r: &mut rand_chacha::ChaCha8Rng| char::from(b'0' + r.random_range(0..10u8));
+            let digit =
+                |r: &mut rand_chacha::ChaCha8Rng| char::from(b'0' + r.random_range(0..10u8));
             let mut t = String::new();
             if rng.random_range(0..3) == 0 {
                 t.push('-');
@@ -1247,17 +1611,35 @@ mod tests {
 
     #[test]
     fn natural_run_order() {
-        let mut names = vec!["p10", "b", "p2", "10", "2", "1.5", "1.25", "p02", "a7b", "a10b", "-3"];
+        let mut names = vec![
+            "p10", "b", "p2", "10", "2", "1.5", "1.25", "p02", "a7b", "a10b", "-3",
+        ];
         names.sort_by(|a, b| run_order(a, b));
-        assert_eq!(names, vec!["-3", "1.25", "1.5", "2", "10", "a7b", "a10b", "b", "p02", "p2", "p10"]);
+        assert_eq!(
+            names,
+            vec![
+                "-3", "1.25", "1.5", "2", "10", "a7b", "a10b", "b", "p02", "p2", "p10"
+            ]
+        );
     }
 
     #[test]
     fn mapping_pairs() {
-        let m = parse_mapping(&["opened_at=Open Time, closed_at = Close Time".into(), "pnl=Profit".into()], FIELDS).unwrap();
+        let m = parse_mapping(
+            &[
+                "opened_at=Open Time, closed_at = Close Time".into(),
+                "pnl=Profit".into(),
+            ],
+            FIELDS,
+        )
+        .unwrap();
         assert_eq!(m["opened_at"], "Open Time");
         assert_eq!(m["closed_at"], "Close Time");
         assert_eq!(m["pnl"], "Profit");
-        assert!(parse_mapping(&["profit=P".into()], FIELDS).unwrap_err().contains("unknown field"));
+        assert!(
+            parse_mapping(&["profit=P".into()], FIELDS)
+                .unwrap_err()
+                .contains("unknown field")
+        );
     }
 }

@@ -22,7 +22,11 @@ pub fn parse_range(s: &str) -> Result<Vec<i64>, String> {
     let bad = || format!("'{s}' is not START..END/STEP minutes, e.g. 0..60/5");
     let (range, step) = s.split_once('/').ok_or_else(bad)?;
     let (a, b) = range.split_once("..").ok_or_else(bad)?;
-    let (a, b, step): (i64, i64, i64) = (a.trim().parse().map_err(|_| bad())?, b.trim().parse().map_err(|_| bad())?, step.trim().parse().map_err(|_| bad())?);
+    let (a, b, step): (i64, i64, i64) = (
+        a.trim().parse().map_err(|_| bad())?,
+        b.trim().parse().map_err(|_| bad())?,
+        step.trim().parse().map_err(|_| bad())?,
+    );
     if a < 0 || b < a || step <= 0 || b > 7 * 24 * 60 {
         return Err(bad());
     }
@@ -111,27 +115,67 @@ pub fn tune(
     let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
     // The scenarios come from the one builder analyze uses, so a cell's
     // figures follow the sizing (compounding replays the kept trades).
-    let build = |exposed: &(dyn Fn(usize) -> bool + Sync)| scenarios::build(&TradeView::of(&order, trades, exposed), &settings.scenario);
-    let ctx_of = |sc: &scenarios::Scenarios| Context { span, report_zone: settings.report_tz, initial_equity: sc.initial_equity, tcr_p: settings.tcr_p };
+    let build = |exposed: &(dyn Fn(usize) -> bool + Sync)| {
+        scenarios::build(&TradeView::of(&order, trades, exposed), &settings.scenario)
+    };
+    let ctx_of = |sc: &scenarios::Scenarios| Context {
+        span,
+        report_zone: settings.report_tz,
+        initial_equity: sc.initial_equity,
+        tcr_p: settings.tcr_p,
+    };
     let base = build(&|_| false)?;
-    let tcr_baseline = metrics::compute(&base.baseline.view().curve(&trades.opened, &trades.closed), &ctx_of(&base)).tcr;
+    let tcr_baseline = metrics::compute(
+        &base.baseline.view().curve(&trades.opened, &trades.closed),
+        &ctx_of(&base),
+    )
+    .tcr;
     let tcr_basis = base.tail_basis;
     drop(base);
     let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
-    let grid: Vec<(i64, i64)> = pre.iter().flat_map(|&a| post.iter().map(move |&b| (a, b))).collect();
+    let grid: Vec<(i64, i64)> = pre
+        .iter()
+        .flat_map(|&a| post.iter().map(move |&b| (a, b)))
+        .collect();
     let mut cells: Vec<Cell> = grid
         .par_iter()
         .map(|&(a, b)| -> Result<Cell, scenarios::ScenarioError> {
-            let ws = cell_windows(&settings.windows, tier, Window { pre_min: a, post_min: b });
+            let ws = cell_windows(
+                &settings.windows,
+                tier,
+                Window {
+                    pre_min: a,
+                    post_min: b,
+                },
+            );
             let used = used_windows(releases, &ws);
             let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
-            let exp = engine.run_matches(&trades.opened, &trades.closed, &trades.instrument, currencies);
-            let exposed_pnl: f64 = order.iter().map(|&i| i as usize).filter(|&i| exp.k[i] > 0).map(|i| trades.pnl[i]).sum();
+            let exp = engine.run_matches(
+                &trades.opened,
+                &trades.closed,
+                &trades.instrument,
+                currencies,
+            );
+            let exposed_pnl: f64 = order
+                .iter()
+                .map(|&i| i as usize)
+                .filter(|&i| exp.k[i] > 0)
+                .map(|i| trades.pnl[i])
+                .sum();
             let is_exposed = |i: usize| exp.k[i] > 0;
             let sc = build(&is_exposed)?;
-            let m = metrics::compute(&sc.removed.view().curve(&trades.opened, &trades.closed), &ctx_of(&sc));
-            let blocked = metrics::union_within(used.iter().filter(|w| traded.contains(&&w.currency)).map(|w| (w.start, w.end)).collect(), Some(span));
+            let m = metrics::compute(
+                &sc.removed.view().curve(&trades.opened, &trades.closed),
+                &ctx_of(&sc),
+            );
+            let blocked = metrics::union_within(
+                used.iter()
+                    .filter(|w| traded.contains(&&w.currency))
+                    .map(|w| (w.start, w.end))
+                    .collect(),
+                Some(span),
+            );
             progress();
             Ok(Cell {
                 pre_min: a,
@@ -142,21 +186,43 @@ pub fn tune(
                 tcr_reduction: tcr_baseline.zip(m.tcr).map(|(x, y)| x - y),
                 sharpe_after: m.sharpe,
                 max_drawdown_after: m.max_drawdown,
-                blocked_share: if week > 0.0 { blocked as f64 / week } else { 0.0 },
+                blocked_share: if week > 0.0 {
+                    blocked as f64 / week
+                } else {
+                    0.0
+                },
                 frontier: false,
             })
         })
         .collect::<Result<_, _>>()?;
     mark_frontier(&mut cells);
-    Ok(TuneResult { tier, pre: pre.to_vec(), post: post.to_vec(), tcr_baseline, tcr_basis, cells })
+    Ok(TuneResult {
+        tier,
+        pre: pre.to_vec(),
+        post: post.to_vec(),
+        tcr_baseline,
+        tcr_basis,
+        cells,
+    })
 }
 
 /// Pareto frontier: maximise tail reduction, minimise time blocked.
 pub fn mark_frontier(cells: &mut [Cell]) {
-    let pts: Vec<(f64, f64)> = cells.iter().map(|c| (c.blocked_share, c.tcr_reduction.unwrap_or(f64::NEG_INFINITY))).collect();
+    let pts: Vec<(f64, f64)> = cells
+        .iter()
+        .map(|c| {
+            (
+                c.blocked_share,
+                c.tcr_reduction.unwrap_or(f64::NEG_INFINITY),
+            )
+        })
+        .collect();
     for (i, c) in cells.iter_mut().enumerate() {
         let (b, r) = pts[i];
-        c.frontier = r.is_finite() && !pts.iter().any(|&(b2, r2)| b2 <= b && r2 >= r && (b2 < b || r2 > r));
+        c.frontier = r.is_finite()
+            && !pts
+                .iter()
+                .any(|&(b2, r2)| b2 <= b && r2 >= r && (b2 < b || r2 > r));
     }
 }
 
@@ -181,9 +247,18 @@ mod tests {
 
     #[test]
     fn frontier_and_ranges() {
-        let mut c = vec![cell(0.1, 1.0), cell(0.2, 0.5), cell(0.2, 2.0), cell(0.3, 2.0), cell(0.05, 0.2)];
+        let mut c = vec![
+            cell(0.1, 1.0),
+            cell(0.2, 0.5),
+            cell(0.2, 2.0),
+            cell(0.3, 2.0),
+            cell(0.05, 0.2),
+        ];
         mark_frontier(&mut c);
-        assert_eq!(c.iter().map(|x| x.frontier).collect::<Vec<_>>(), vec![true, false, true, false, true]);
+        assert_eq!(
+            c.iter().map(|x| x.frontier).collect::<Vec<_>>(),
+            vec![true, false, true, false, true]
+        );
         assert_eq!(parse_range("0..60/15").unwrap(), vec![0, 15, 30, 45, 60]);
         assert!(parse_range("10..5/1").is_err());
         assert!(parse_range("0..60").is_err());
@@ -193,6 +268,9 @@ mod tests {
     fn weekday_time() {
         // 2024-03-08 (Fri) 00:00Z to 2024-03-11 (Mon) 12:00Z: Friday + half Monday.
         let fri = 1_709_856_000_000;
-        assert_eq!(weekday_ms((fri, fri + 3 * DAY_MS + DAY_MS / 2)), DAY_MS + DAY_MS / 2);
+        assert_eq!(
+            weekday_ms((fri, fri + 3 * DAY_MS + DAY_MS / 2)),
+            DAY_MS + DAY_MS / 2
+        );
     }
 }

@@ -33,7 +33,10 @@ pub struct WindowSettings {
     pub include_all_day: bool,
 }
 
-fn ser_patterns<S: serde::Serializer>(v: &[(Regex, Option<Window>)], s: S) -> Result<S::Ok, S::Error> {
+fn ser_patterns<S: serde::Serializer>(
+    v: &[(Regex, Option<Window>)],
+    s: S,
+) -> Result<S::Ok, S::Error> {
     use serde::ser::SerializeSeq;
     let mut seq = s.serialize_seq(Some(v.len()))?;
     for (r, w) in v {
@@ -45,8 +48,14 @@ fn ser_patterns<S: serde::Serializer>(v: &[(Regex, Option<Window>)], s: S) -> Re
 impl Default for WindowSettings {
     fn default() -> Self {
         WindowSettings {
-            high: Some(Window { pre_min: 15, post_min: 30 }),
-            medium: Some(Window { pre_min: 5, post_min: 10 }),
+            high: Some(Window {
+                pre_min: 15,
+                post_min: 30,
+            }),
+            medium: Some(Window {
+                pre_min: 5,
+                post_min: 10,
+            }),
             low: None,
             by_category: Vec::new(),
             by_title: Vec::new(),
@@ -62,25 +71,49 @@ pub fn parse_window(s: &str) -> Result<Option<Window>, String> {
     if s.eq_ignore_ascii_case("off") {
         return Ok(None);
     }
-    let (a, b) = s.split_once('/').ok_or_else(|| format!("'{s}' is not PRE/POST minutes (e.g. 15/30) or off"))?;
+    let (a, b) = s
+        .split_once('/')
+        .ok_or_else(|| format!("'{s}' is not PRE/POST minutes (e.g. 15/30) or off"))?;
     let parse = |x: &str| -> Result<i64, String> {
-        let v: i64 = x.trim().parse().map_err(|_| format!("'{x}' is not a whole number of minutes"))?;
+        let v: i64 = x
+            .trim()
+            .parse()
+            .map_err(|_| format!("'{x}' is not a whole number of minutes"))?;
         if !(0..=7 * 24 * 60).contains(&v) {
             return Err(format!("{v} minutes is outside 0–10080 (one week)"));
         }
         Ok(v)
     };
-    Ok(Some(Window { pre_min: parse(a)?, post_min: parse(b)? }))
+    Ok(Some(Window {
+        pre_min: parse(a)?,
+        post_min: parse(b)?,
+    }))
 }
 
 impl WindowSettings {
     /// Applies `--window tier=PRE/POST`, `--window-category`, `--window-title`
     /// and `--tiers` flag values.
-    pub fn from_flags(tier: &[String], category: &[String], title: &[String], tiers: Option<&str>, all_day: bool) -> Result<Self, String> {
-        let mut w = WindowSettings { include_all_day: all_day, ..Default::default() };
-        for spec in tier.iter().flat_map(|s| s.split(',')).filter(|s| !s.trim().is_empty()) {
-            let (t, v) = spec.split_once('=').ok_or_else(|| format!("--window '{spec}': expected TIER=PRE/POST"))?;
-            let tier = Tier::parse(t).ok_or_else(|| format!("--window '{spec}': '{t}' is not high, medium or low"))?;
+    pub fn from_flags(
+        tier: &[String],
+        category: &[String],
+        title: &[String],
+        tiers: Option<&str>,
+        all_day: bool,
+    ) -> Result<Self, String> {
+        let mut w = WindowSettings {
+            include_all_day: all_day,
+            ..Default::default()
+        };
+        for spec in tier
+            .iter()
+            .flat_map(|s| s.split(','))
+            .filter(|s| !s.trim().is_empty())
+        {
+            let (t, v) = spec
+                .split_once('=')
+                .ok_or_else(|| format!("--window '{spec}': expected TIER=PRE/POST"))?;
+            let tier = Tier::parse(t)
+                .ok_or_else(|| format!("--window '{spec}': '{t}' is not high, medium or low"))?;
             let win = parse_window(v).map_err(|e| format!("--window '{spec}': {e}"))?;
             match tier {
                 Tier::High => w.high = win,
@@ -88,19 +121,36 @@ impl WindowSettings {
                 Tier::Low => w.low = win,
             }
         }
-        for spec in category.iter().flat_map(|s| s.split(',')).filter(|s| !s.trim().is_empty()) {
-            let (c, v) = spec.split_once('=').ok_or_else(|| format!("--window-category '{spec}': expected CATEGORY=PRE/POST"))?;
-            w.by_category.push((c.trim().to_lowercase(), parse_window(v).map_err(|e| format!("--window-category '{spec}': {e}"))?));
+        for spec in category
+            .iter()
+            .flat_map(|s| s.split(','))
+            .filter(|s| !s.trim().is_empty())
+        {
+            let (c, v) = spec
+                .split_once('=')
+                .ok_or_else(|| format!("--window-category '{spec}': expected CATEGORY=PRE/POST"))?;
+            w.by_category.push((
+                c.trim().to_lowercase(),
+                parse_window(v).map_err(|e| format!("--window-category '{spec}': {e}"))?,
+            ));
         }
         for spec in title {
-            let (p, v) = spec.rsplit_once('=').ok_or_else(|| format!("--window-title '{spec}': expected PATTERN=PRE/POST"))?;
+            let (p, v) = spec
+                .rsplit_once('=')
+                .ok_or_else(|| format!("--window-title '{spec}': expected PATTERN=PRE/POST"))?;
             let re = Regex::new(p).map_err(|e| format!("--window-title '{spec}': {e}"))?;
-            w.by_title.push((re, parse_window(v).map_err(|e| format!("--window-title '{spec}': {e}"))?));
+            w.by_title.push((
+                re,
+                parse_window(v).map_err(|e| format!("--window-title '{spec}': {e}"))?,
+            ));
         }
         if let Some(list) = tiers {
             w.tiers = list
                 .split(',')
-                .map(|t| Tier::parse(t).ok_or_else(|| format!("--tiers: '{t}' is not high, medium or low")))
+                .map(|t| {
+                    Tier::parse(t)
+                        .ok_or_else(|| format!("--tiers: '{t}' is not high, medium or low"))
+                })
                 .collect::<Result<_, _>>()?;
         }
         Ok(w)
@@ -133,7 +183,11 @@ impl WindowSettings {
         if r.all_day {
             return Some((r.at, r.end - 1, r.at));
         }
-        Some((r.at - w.pre_min * MINUTE_MS, r.at + w.post_min * MINUTE_MS, r.at))
+        Some((
+            r.at - w.pre_min * MINUTE_MS,
+            r.at + w.post_min * MINUTE_MS,
+            r.at,
+        ))
     }
 }
 
@@ -158,8 +212,20 @@ mod tests {
     #[test]
     fn defaults_and_precedence() {
         let d = WindowSettings::default();
-        assert_eq!(d.window_for(&rel(Tier::High, None, "a")), Some(Window { pre_min: 15, post_min: 30 }));
-        assert_eq!(d.window_for(&rel(Tier::Medium, None, "a")), Some(Window { pre_min: 5, post_min: 10 }));
+        assert_eq!(
+            d.window_for(&rel(Tier::High, None, "a")),
+            Some(Window {
+                pre_min: 15,
+                post_min: 30
+            })
+        );
+        assert_eq!(
+            d.window_for(&rel(Tier::Medium, None, "a")),
+            Some(Window {
+                pre_min: 5,
+                post_min: 10
+            })
+        );
         assert_eq!(d.window_for(&rel(Tier::Low, None, "a")), None);
         let w = WindowSettings::from_flags(
             &["low=2/3".into()],
@@ -169,10 +235,32 @@ mod tests {
             false,
         )
         .unwrap();
-        assert_eq!(w.window_for(&rel(Tier::Low, None, "a")), Some(Window { pre_min: 2, post_min: 3 }));
-        assert_eq!(w.window_for(&rel(Tier::High, Some("rates"), "Decision")), Some(Window { pre_min: 60, post_min: 120 }));
-        assert_eq!(w.window_for(&rel(Tier::High, Some("rates"), "Payrolls")), Some(Window { pre_min: 30, post_min: 90 }));
-        assert_eq!(w.window_for(&rel(Tier::Medium, None, "a")), None, "medium filtered out by --tiers");
+        assert_eq!(
+            w.window_for(&rel(Tier::Low, None, "a")),
+            Some(Window {
+                pre_min: 2,
+                post_min: 3
+            })
+        );
+        assert_eq!(
+            w.window_for(&rel(Tier::High, Some("rates"), "Decision")),
+            Some(Window {
+                pre_min: 60,
+                post_min: 120
+            })
+        );
+        assert_eq!(
+            w.window_for(&rel(Tier::High, Some("rates"), "Payrolls")),
+            Some(Window {
+                pre_min: 30,
+                post_min: 90
+            })
+        );
+        assert_eq!(
+            w.window_for(&rel(Tier::Medium, None, "a")),
+            None,
+            "medium filtered out by --tiers"
+        );
         assert!(WindowSettings::from_flags(&["huge=1/1".into()], &[], &[], None, false).is_err());
         assert!(parse_window("5/99999").is_err());
     }

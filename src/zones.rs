@@ -130,7 +130,9 @@ impl FromStr for Zone {
             if secs.abs() > 18 * 3600 {
                 return Err(ZoneError::OffsetRange(spec.to_string()));
             }
-            Ok(Zone::Fixed(FixedOffset::east_opt(secs).expect("checked range")))
+            Ok(Zone::Fixed(
+                FixedOffset::east_opt(secs).expect("checked range"),
+            ))
         };
         if s.starts_with('+') || s.starts_with('-') {
             return fixed(s);
@@ -197,7 +199,10 @@ pub struct DayOffsetCache {
 
 impl Default for DayOffsetCache {
     fn default() -> Self {
-        DayOffsetCache { day: i64::MIN, offset_ms: None }
+        DayOffsetCache {
+            day: i64::MIN,
+            offset_ms: None,
+        }
     }
 }
 
@@ -208,7 +213,10 @@ impl Default for DayOffsetCache {
 /// path with the exact one over many zones and two centuries.
 fn steady_offset(tz: &Tz, day: i64) -> Option<i64> {
     let (a, b) = (day * DAY_MS, day * DAY_MS + DAY_MS - 1);
-    match (iana_candidates(tz, &ms_to_naive(a)), iana_candidates(tz, &ms_to_naive(b))) {
+    match (
+        iana_candidates(tz, &ms_to_naive(a)),
+        iana_candidates(tz, &ms_to_naive(b)),
+    ) {
         (Candidates::One(ua), Candidates::One(ub)) if a - ua == b - ub => Some(a - ua),
         _ => None,
     }
@@ -236,7 +244,10 @@ fn iana_candidates(tz: &Tz, local: &NaiveDateTime) -> Candidates {
             // a day, so these are the offsets before and after it.
             let base = naive_to_ms(local);
             let off_at = |ms: i64| {
-                tz.offset_from_utc_datetime(&ms_to_naive(ms)).fix().local_minus_utc() as i64 * 1000
+                tz.offset_from_utc_datetime(&ms_to_naive(ms))
+                    .fix()
+                    .local_minus_utc() as i64
+                    * 1000
             };
             let before = base - off_at(base - DAY_MS);
             let after = base - off_at(base + DAY_MS);
@@ -284,7 +295,12 @@ impl Zone {
     /// [`Zone::to_utc`] for many stamps: a day on which the zone keeps one
     /// offset (every day but transition days) resolves by subtraction, the
     /// offset remembered in `cache`; transition days take the exact path.
-    pub fn to_utc_cached(&self, local: &NaiveDateTime, policy: LocalPolicy, cache: &mut DayOffsetCache) -> Result<i64, ZoneError> {
+    pub fn to_utc_cached(
+        &self,
+        local: &NaiveDateTime,
+        policy: LocalPolicy,
+        cache: &mut DayOffsetCache,
+    ) -> Result<i64, ZoneError> {
         let (tz, shift) = match self {
             Zone::Utc | Zone::Fixed(_) => return self.to_utc(local, policy),
             Zone::Iana(tz) => (tz, 0i64),
@@ -293,7 +309,10 @@ impl Zone {
         let wall = naive_to_ms(local) - shift;
         let day = wall.div_euclid(DAY_MS);
         if cache.day != day {
-            *cache = DayOffsetCache { day, offset_ms: steady_offset(tz, day) };
+            *cache = DayOffsetCache {
+                day,
+                offset_ms: steady_offset(tz, day),
+            };
         }
         match cache.offset_ms {
             Some(off) => Ok(wall - off),
@@ -306,9 +325,15 @@ impl Zone {
         match self {
             Zone::Utc => 0,
             Zone::Fixed(o) => o.local_minus_utc(),
-            Zone::Iana(tz) => tz.offset_from_utc_datetime(&ms_to_naive(ms)).fix().local_minus_utc(),
+            Zone::Iana(tz) => tz
+                .offset_from_utc_datetime(&ms_to_naive(ms))
+                .fix()
+                .local_minus_utc(),
             Zone::Shifted(tz, s) => {
-                tz.offset_from_utc_datetime(&ms_to_naive(ms)).fix().local_minus_utc() + s
+                tz.offset_from_utc_datetime(&ms_to_naive(ms))
+                    .fix()
+                    .local_minus_utc()
+                    + s
             }
         }
     }
@@ -353,7 +378,12 @@ pub struct LocalDayCursor<'a> {
 
 impl<'a> LocalDayCursor<'a> {
     pub fn new(zone: &'a Zone) -> Self {
-        LocalDayCursor { zone, lo: 0, hi: 0, day: 0 }
+        LocalDayCursor {
+            zone,
+            lo: 0,
+            hi: 0,
+            day: 0,
+        }
     }
 
     pub fn day(&mut self, ms: i64) -> i64 {
@@ -369,7 +399,11 @@ impl<'a> LocalDayCursor<'a> {
             Zone::Utc | Zone::Fixed(_) => true,
             z => z.offset_at(lo) as i64 * 1000 == off && z.offset_at(hi - 1) as i64 * 1000 == off,
         };
-        (self.lo, self.hi, self.day) = if steady { (lo, hi, day) } else { (ms, ms + 1, day) };
+        (self.lo, self.hi, self.day) = if steady {
+            (lo, hi, day)
+        } else {
+            (ms, ms + 1, day)
+        };
         day
     }
 }
@@ -379,7 +413,11 @@ impl<'a> LocalDayCursor<'a> {
 pub fn weekday_index(day: i64) -> i64 {
     let d = day - 4;
     let (week, dow) = (d.div_euclid(7), d.rem_euclid(7));
-    if dow >= 5 { (week + 1) * 5 } else { week * 5 + dow }
+    if dow >= 5 {
+        (week + 1) * 5
+    } else {
+        week * 5 + dow
+    }
 }
 
 /// Day number of a weekday number (inverse of [`weekday_index`] on weekdays).
@@ -412,14 +450,28 @@ mod tests {
         // Quarter-hour steps (1 ms before each) through 2024, past every DST
         // change of these zones, then a shuffled pass; Lord Howe moves by
         // 30 minutes.
-        use rand::{seq::SliceRandom, SeedableRng};
+        use rand::{SeedableRng, seq::SliceRandom};
         let start = naive_to_ms(&ndt("2024-01-01 00:00"));
-        let mut t: Vec<i64> = (0..366 * 24 * 4).map(|q| start + q * 15 * MINUTE_MS - 1).collect();
-        for spec in ["UTC", "+05:30", "Europe/Berlin", "America/New_York", "Australia/Lord_Howe", "America/New_York+07:00"] {
+        let mut t: Vec<i64> = (0..366 * 24 * 4)
+            .map(|q| start + q * 15 * MINUTE_MS - 1)
+            .collect();
+        for spec in [
+            "UTC",
+            "+05:30",
+            "Europe/Berlin",
+            "America/New_York",
+            "Australia/Lord_Howe",
+            "America/New_York+07:00",
+        ] {
             let z: Zone = spec.parse().unwrap();
             let mut cur = LocalDayCursor::new(&z);
             for &ms in &t {
-                assert_eq!(cur.day(ms), local_day(&z, ms), "{spec} at {}", format_utc(ms));
+                assert_eq!(
+                    cur.day(ms),
+                    local_day(&z, ms),
+                    "{spec} at {}",
+                    format_utc(ms)
+                );
             }
         }
         t.shuffle(&mut rand_chacha::ChaCha8Rng::seed_from_u64(1));
@@ -458,9 +510,21 @@ mod tests {
             "Etc/GMT-3".parse::<Zone>().unwrap(),
             Zone::Iana(chrono_tz::Etc::GMTMinus3)
         );
-        assert!(matches!("Mars/Olympus".parse::<Zone>(), Err(ZoneError::Unknown(_))));
-        assert!(matches!("+19:00".parse::<Zone>(), Err(ZoneError::OffsetRange(_))));
-        assert_eq!("America/New_York+07:00".parse::<Zone>().unwrap().to_string(), "America/New_York+07:00");
+        assert!(matches!(
+            "Mars/Olympus".parse::<Zone>(),
+            Err(ZoneError::Unknown(_))
+        ));
+        assert!(matches!(
+            "+19:00".parse::<Zone>(),
+            Err(ZoneError::OffsetRange(_))
+        ));
+        assert_eq!(
+            "America/New_York+07:00"
+                .parse::<Zone>()
+                .unwrap()
+                .to_string(),
+            "America/New_York+07:00"
+        );
     }
 
     /// Source: ../shared/REFERENCES.md §2.2, tzdata `Rule US 2007 max` — the
@@ -470,15 +534,32 @@ mod tests {
         let z: Zone = "America/New_York+07:00".parse().unwrap();
         // 17:00 New York is 00:00 on the server, in winter and in summer.
         // 2024-01-10 17:00 EST = 22:00Z; server reads 2024-01-11 00:00.
-        assert_eq!(z.to_utc(&ndt("2024-01-11 00:00"), LocalPolicy::Error).unwrap(), utc("2024-01-10 22:00"));
+        assert_eq!(
+            z.to_utc(&ndt("2024-01-11 00:00"), LocalPolicy::Error)
+                .unwrap(),
+            utc("2024-01-10 22:00")
+        );
         // 2024-07-10 17:00 EDT = 21:00Z.
-        assert_eq!(z.to_utc(&ndt("2024-07-11 00:00"), LocalPolicy::Error).unwrap(), utc("2024-07-10 21:00"));
+        assert_eq!(
+            z.to_utc(&ndt("2024-07-11 00:00"), LocalPolicy::Error)
+                .unwrap(),
+            utc("2024-07-10 21:00")
+        );
         // The server's gap sits at 09:00 (02:00 NY + 7h) on 2024-03-10.
-        assert!(matches!(z.to_utc(&ndt("2024-03-10 09:30"), LocalPolicy::Error), Err(ZoneError::Gap { .. })));
+        assert!(matches!(
+            z.to_utc(&ndt("2024-03-10 09:30"), LocalPolicy::Error),
+            Err(ZoneError::Gap { .. })
+        ));
         assert_eq!(z.offset_at(utc("2024-03-10 06:59")), 2 * 3600);
         assert_eq!(z.offset_at(utc("2024-03-10 07:00")), 3 * 3600);
-        assert_eq!(z.format(utc("2024-11-03 05:59")), "2024-11-03T08:59:00+03:00");
-        assert_eq!(z.format(utc("2024-11-03 06:00")), "2024-11-03T08:00:00+02:00");
+        assert_eq!(
+            z.format(utc("2024-11-03 05:59")),
+            "2024-11-03T08:59:00+03:00"
+        );
+        assert_eq!(
+            z.format(utc("2024-11-03 06:00")),
+            "2024-11-03T08:00:00+02:00"
+        );
     }
 
     /// Source: RFC 5545 §3.3.5 text, check values in ../shared/REFERENCES.md §1.4.
@@ -486,35 +567,76 @@ mod tests {
     fn rfc5545_rule_for_gap_and_overlap() {
         let ny = Zone::Iana(chrono_tz::America::New_York);
         let p = LocalPolicy::Rfc5545;
-        assert_eq!(ny.to_utc(&ndt("2007-11-04 01:30"), p).unwrap(), utc("2007-11-04 05:30"));
-        assert_eq!(ny.to_utc(&ndt("2007-03-11 02:30"), p).unwrap(), utc("2007-03-11 07:30"));
-        assert_eq!(ny.to_utc(&ndt("2024-11-03 01:30"), p).unwrap(), utc("2024-11-03 05:30"));
-        assert_eq!(ny.to_utc(&ndt("2024-03-10 02:30"), p).unwrap(), utc("2024-03-10 07:30"));
+        assert_eq!(
+            ny.to_utc(&ndt("2007-11-04 01:30"), p).unwrap(),
+            utc("2007-11-04 05:30")
+        );
+        assert_eq!(
+            ny.to_utc(&ndt("2007-03-11 02:30"), p).unwrap(),
+            utc("2007-03-11 07:30")
+        );
+        assert_eq!(
+            ny.to_utc(&ndt("2024-11-03 01:30"), p).unwrap(),
+            utc("2024-11-03 05:30")
+        );
+        assert_eq!(
+            ny.to_utc(&ndt("2024-03-10 02:30"), p).unwrap(),
+            utc("2024-03-10 07:30")
+        );
         let berlin = Zone::Iana(chrono_tz::Europe::Berlin);
-        assert_eq!(berlin.to_utc(&ndt("2024-10-27 02:30"), p).unwrap(), utc("2024-10-27 00:30"));
-        assert_eq!(berlin.to_utc(&ndt("2024-03-31 02:30"), p).unwrap(), utc("2024-03-31 01:30"));
+        assert_eq!(
+            berlin.to_utc(&ndt("2024-10-27 02:30"), p).unwrap(),
+            utc("2024-10-27 00:30")
+        );
+        assert_eq!(
+            berlin.to_utc(&ndt("2024-03-31 02:30"), p).unwrap(),
+            utc("2024-03-31 01:30")
+        );
         let london = Zone::Iana(chrono_tz::Europe::London);
-        assert_eq!(london.to_utc(&ndt("2024-10-27 01:30"), p).unwrap(), utc("2024-10-27 00:30"));
-        assert_eq!(london.to_utc(&ndt("2024-03-31 01:30"), p).unwrap(), utc("2024-03-31 01:30"));
+        assert_eq!(
+            london.to_utc(&ndt("2024-10-27 01:30"), p).unwrap(),
+            utc("2024-10-27 00:30")
+        );
+        assert_eq!(
+            london.to_utc(&ndt("2024-03-31 01:30"), p).unwrap(),
+            utc("2024-03-31 01:30")
+        );
     }
 
     #[test]
     fn policies_pick_earlier_or_later_instant() {
         let ny = Zone::Iana(chrono_tz::America::New_York);
         let fold = ndt("2024-11-03 01:30");
-        assert_eq!(ny.to_utc(&fold, LocalPolicy::Earlier).unwrap(), utc("2024-11-03 05:30"));
-        assert_eq!(ny.to_utc(&fold, LocalPolicy::Later).unwrap(), utc("2024-11-03 06:30"));
-        assert!(matches!(ny.to_utc(&fold, LocalPolicy::Error), Err(ZoneError::Ambiguous { .. })));
+        assert_eq!(
+            ny.to_utc(&fold, LocalPolicy::Earlier).unwrap(),
+            utc("2024-11-03 05:30")
+        );
+        assert_eq!(
+            ny.to_utc(&fold, LocalPolicy::Later).unwrap(),
+            utc("2024-11-03 06:30")
+        );
+        assert!(matches!(
+            ny.to_utc(&fold, LocalPolicy::Error),
+            Err(ZoneError::Ambiguous { .. })
+        ));
         let gap = ndt("2024-03-10 02:30");
-        assert_eq!(ny.to_utc(&gap, LocalPolicy::Earlier).unwrap(), utc("2024-03-10 06:30"));
-        assert_eq!(ny.to_utc(&gap, LocalPolicy::Later).unwrap(), utc("2024-03-10 07:30"));
+        assert_eq!(
+            ny.to_utc(&gap, LocalPolicy::Earlier).unwrap(),
+            utc("2024-03-10 06:30")
+        );
+        assert_eq!(
+            ny.to_utc(&gap, LocalPolicy::Later).unwrap(),
+            utc("2024-03-10 07:30")
+        );
     }
 
     /// Source: ../shared/REFERENCES.md §2.4 (zoneinfo-computed rows).
     #[test]
     fn new_york_release_in_other_zones() {
         let ny = Zone::Iana(chrono_tz::America::New_York);
-        let t = ny.to_utc(&ndt("2024-03-15 08:30"), LocalPolicy::Error).unwrap();
+        let t = ny
+            .to_utc(&ndt("2024-03-15 08:30"), LocalPolicy::Error)
+            .unwrap();
         assert_eq!(format_utc(t), "2024-03-15T12:30:00Z");
         assert_eq!(format_utc(t + 250), "2024-03-15T12:30:00.250Z");
         assert_eq!(format_utc(-1), "1969-12-31T23:59:59.999Z");
@@ -522,9 +644,14 @@ mod tests {
         assert_eq!(berlin.format(t), "2024-03-15T13:30:00+01:00");
         let sydney: Zone = "Australia/Sydney".parse().unwrap();
         assert_eq!(sydney.format(t), "2024-03-15T23:30:00+11:00");
-        let t = ny.to_utc(&ndt("2024-11-08 08:30"), LocalPolicy::Error).unwrap();
+        let t = ny
+            .to_utc(&ndt("2024-11-08 08:30"), LocalPolicy::Error)
+            .unwrap();
         assert_eq!(sydney.format(t), "2024-11-09T00:30:00+11:00");
-        assert_eq!("Asia/Tokyo".parse::<Zone>().unwrap().format(t), "2024-11-08T22:30:00+09:00");
+        assert_eq!(
+            "Asia/Tokyo".parse::<Zone>().unwrap().format(t),
+            "2024-11-08T22:30:00+09:00"
+        );
     }
 
     #[test]
@@ -533,27 +660,47 @@ mod tests {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(7);
         // Every 17th IANA zone, plus zones with half-hour and midnight
         // transitions, and a shifted server clock.
-        let mut zones: Vec<Zone> = chrono_tz::TZ_VARIANTS.iter().step_by(17).map(|tz| Zone::Iana(*tz)).collect();
-        for z in ["Australia/Lord_Howe", "America/Santiago", "Asia/Beirut", "America/New_York+07:00", "Europe/Dublin"] {
+        let mut zones: Vec<Zone> = chrono_tz::TZ_VARIANTS
+            .iter()
+            .step_by(17)
+            .map(|tz| Zone::Iana(*tz))
+            .collect();
+        for z in [
+            "Australia/Lord_Howe",
+            "America/Santiago",
+            "Asia/Beirut",
+            "America/New_York+07:00",
+            "Europe/Dublin",
+        ] {
             zones.push(z.parse().unwrap());
         }
         for zone in &zones {
             let mut cache = DayOffsetCache::default();
             // Sorted local times (as in a trade file) and random ones.
-            let mut t: Vec<i64> = (0..400).map(|_| rng.random_range(-2_208_988_800_000i64..4_102_444_800_000)).collect();
+            let mut t: Vec<i64> = (0..400)
+                .map(|_| rng.random_range(-2_208_988_800_000i64..4_102_444_800_000))
+                .collect();
             t.sort();
             t.extend((0..200).map(|_| rng.random_range(-2_208_988_800_000i64..4_102_444_800_000)));
             for ms in t {
                 let local = ms_to_naive(ms - ms % 60_000);
                 for policy in [LocalPolicy::Error, LocalPolicy::Later] {
-                    assert_eq!(zone.to_utc_cached(&local, policy, &mut cache), zone.to_utc(&local, policy), "{zone} {local}");
+                    assert_eq!(
+                        zone.to_utc_cached(&local, policy, &mut cache),
+                        zone.to_utc(&local, policy),
+                        "{zone} {local}"
+                    );
                 }
             }
             // Every local hour around this zone's transitions of 2024.
             let mut cache = DayOffsetCache::default();
             for h in 0..(366 * 24) {
                 let local = ms_to_naive(1_704_067_200_000 + h * 3_600_000 + 30 * 60_000);
-                assert_eq!(zone.to_utc_cached(&local, LocalPolicy::Error, &mut cache), zone.to_utc(&local, LocalPolicy::Error), "{zone} {local}");
+                assert_eq!(
+                    zone.to_utc_cached(&local, LocalPolicy::Error, &mut cache),
+                    zone.to_utc(&local, LocalPolicy::Error),
+                    "{zone} {local}"
+                );
             }
         }
     }
@@ -565,7 +712,14 @@ mod tests {
         assert_eq!(parse_offset("-\u{7f}〲"), None);
         assert_eq!(parse_offset("+〲"), None);
         assert!("UTC-\u{7f}〲".parse::<Zone>().is_err());
-        assert_eq!(crate::timefmt::parse_stamp("2024-01-08 03:34-\u{7f}〲", &crate::timefmt::TimeFormat::Auto).ok(), None);
+        assert_eq!(
+            crate::timefmt::parse_stamp(
+                "2024-01-08 03:34-\u{7f}〲",
+                &crate::timefmt::TimeFormat::Auto
+            )
+            .ok(),
+            None
+        );
         assert_eq!(parse_offset("+05:30"), Some(19_800));
     }
 }

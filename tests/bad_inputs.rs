@@ -22,7 +22,10 @@ fn cases() -> Vec<Case> {
         .filter(|l| l.starts_with("| `"))
         .map(|l| {
             let l = l.replace("\\|", "\u{0}");
-            let cells: Vec<String> = l.split('|').map(|c| c.trim().trim_matches('`').replace('\u{0}', "|")).collect();
+            let cells: Vec<String> = l
+                .split('|')
+                .map(|c| c.trim().trim_matches('`').replace('\u{0}', "|"))
+                .collect();
             Case {
                 file: cells[1].clone(),
                 flags: cells[2].split_whitespace().map(String::from).collect(),
@@ -35,7 +38,11 @@ fn cases() -> Vec<Case> {
 
 fn check(c: &Case, extra: &[&str]) -> Output {
     let dir = common::root().join("tests/bad_inputs");
-    let role = if c.file.starts_with("trades-") { "--trades" } else { "--calendar" };
+    let role = if c.file.starts_with("trades-") {
+        "--trades"
+    } else {
+        "--calendar"
+    };
     std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
         .current_dir(&dir)
         .args(["check", role, &c.file, "--unmapped", "none"])
@@ -46,13 +53,21 @@ fn check(c: &Case, extra: &[&str]) -> Output {
 }
 
 fn text(o: &Output) -> String {
-    format!("{}{}", String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr))
+    format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    )
 }
 
 #[test]
 fn every_bad_input_behaves_as_documented() {
     let cases = cases();
-    assert!(cases.len() >= 30, "the corpus has {} documented cases", cases.len());
+    assert!(
+        cases.len() >= 30,
+        "the corpus has {} documented cases",
+        cases.len()
+    );
     let on_disk: BTreeSet<String> = std::fs::read_dir(common::root().join("tests/bad_inputs"))
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
@@ -80,16 +95,29 @@ fn every_bad_input_behaves_as_documented() {
                 }
             }
             ["imported", n] | ["rejected", _, "of", n] | ["attention", n] => {
-                let rejected: usize = if words[0] == "rejected" { words[1].parse().unwrap() } else { 0 };
+                let rejected: usize = if words[0] == "rejected" {
+                    words[1].parse().unwrap()
+                } else {
+                    0
+                };
                 let read: usize = n.parse().unwrap();
-                let expect_code = if rejected > 0 || words[0] == "attention" { 3 } else { 0 };
+                let expect_code = if rejected > 0 || words[0] == "attention" {
+                    3
+                } else {
+                    0
+                };
                 if plain.status.code() != Some(expect_code) {
-                    fail(format!("exit {:?}, expected {expect_code}", plain.status.code()));
+                    fail(format!(
+                        "exit {:?}, expected {expect_code}",
+                        plain.status.code()
+                    ));
                 }
                 if words[0] == "attention" && !all.contains(&c.text) {
                     fail(format!("the output lacks '{}'", c.text));
                 }
-                if rejected > 0 && !(all.contains(&c.file) && all.contains(" row ") && all.contains(&c.text)) {
+                if rejected > 0
+                    && !(all.contains(&c.file) && all.contains(" row ") && all.contains(&c.text))
+                {
                     fail(format!("the listing lacks file, row or '{}'", c.text));
                 }
                 let o = check(c, &["--skip-bad-rows", "--json"]);
@@ -100,21 +128,42 @@ fn every_bad_input_behaves_as_documented() {
                         continue;
                     }
                 };
-                let import = if c.file.starts_with("trades-") { &j["trades"]["import"] } else { &j["calendar"]["import"] };
-                let got = (import["rows_read"].as_u64().unwrap() as usize, import["rows_rejected"].as_u64().unwrap() as usize);
+                let import = if c.file.starts_with("trades-") {
+                    &j["trades"]["import"]
+                } else {
+                    &j["calendar"]["import"]
+                };
+                let got = (
+                    import["rows_read"].as_u64().unwrap() as usize,
+                    import["rows_rejected"].as_u64().unwrap() as usize,
+                );
                 if got != (read, rejected) {
-                    fail(format!("read/rejected {got:?}, expected ({read}, {rejected})"));
+                    fail(format!(
+                        "read/rejected {got:?}, expected ({read}, {rejected})"
+                    ));
                 }
                 if rejected > 0 {
                     let r = &import["rejections"][0];
-                    let line = format!("{}: {}", r["field"].as_str().unwrap(), r["message"].as_str().unwrap());
+                    let line = format!(
+                        "{}: {}",
+                        r["field"].as_str().unwrap(),
+                        r["message"].as_str().unwrap()
+                    );
                     if !line.contains(&c.text) || r["row"].as_u64().unwrap_or(0) == 0 {
-                        fail(format!("first rejection '{line}' lacks '{}' or a row", c.text));
+                        fail(format!(
+                            "first rejection '{line}' lacks '{}' or a row",
+                            c.text
+                        ));
                     }
                 }
             }
             _ => fail(format!("unknown outcome '{}' in the table", c.outcome)),
         }
     }
-    assert!(failures.is_empty(), "{} case(s) differ from docs/bad-inputs.md:\n{}", failures.len(), failures.join("\n---\n"));
+    assert!(
+        failures.is_empty(),
+        "{} case(s) differ from docs/bad-inputs.md:\n{}",
+        failures.len(),
+        failures.join("\n---\n")
+    );
 }

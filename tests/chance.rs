@@ -33,26 +33,70 @@ fn trades_from(opened: Vec<i64>, closed: Vec<i64>, pnl: Vec<f64>) -> Trades {
 
 #[test]
 fn bootstrap_percentiles_match_numpy() {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/bootstrap_reference.json");
-    let f: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/bootstrap_reference.json"
+    );
+    let f: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
     assert_eq!(f["libraries"]["numpy"], "2.4.6");
     let v = |k: &str| f[k].as_array().unwrap().clone();
-    let opened: Vec<i64> = v("opened_min").iter().map(|x| x.as_i64().unwrap() * MINUTE_MS).collect();
-    let closed: Vec<i64> = v("closed_min").iter().map(|x| x.as_i64().unwrap() * MINUTE_MS).collect();
+    let opened: Vec<i64> = v("opened_min")
+        .iter()
+        .map(|x| x.as_i64().unwrap() * MINUTE_MS)
+        .collect();
+    let closed: Vec<i64> = v("closed_min")
+        .iter()
+        .map(|x| x.as_i64().unwrap() * MINUTE_MS)
+        .collect();
     let pnl: Vec<f64> = v("pnl").iter().map(|x| x.as_f64().unwrap()).collect();
     let exposed: Vec<bool> = v("exposed").iter().map(|x| x.as_bool().unwrap()).collect();
-    let sets: Vec<Vec<u32>> = v("sets").iter().map(|s| s.as_array().unwrap().iter().map(|i| i.as_u64().unwrap() as u32).collect()).collect();
+    let sets: Vec<Vec<u32>> = v("sets")
+        .iter()
+        .map(|s| {
+            s.as_array()
+                .unwrap()
+                .iter()
+                .map(|i| i.as_u64().unwrap() as u32)
+                .collect()
+        })
+        .collect();
     let t = trades_from(opened, closed, pnl);
-    let settings = ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::Quantile(0.99), initial_equity: None };
-    let ctx = Context { span: t.span().unwrap(), report_zone: Zone::Utc, initial_equity: None, tcr_p: f["tcr_p"].as_f64().unwrap() };
-    let got = stats::bootstrap_drawn(sets.len(), &|r| sets[r].clone(), &t, &exposed, &settings, &ctx, 0.95, &|| {});
+    let settings = ScenarioSettings {
+        sizing: Sizing::Fixed,
+        cap: CapRule::Quantile(0.99),
+        initial_equity: None,
+    };
+    let ctx = Context {
+        span: t.span().unwrap(),
+        report_zone: Zone::Utc,
+        initial_equity: None,
+        tcr_p: f["tcr_p"].as_f64().unwrap(),
+    };
+    let got = stats::bootstrap_drawn(
+        sets.len(),
+        &|r| sets[r].clone(),
+        &t,
+        &exposed,
+        &settings,
+        &ctx,
+        0.95,
+        &|| {},
+    );
     for name in ["net", "profit_factor", "max_drawdown", "tcr"] {
         let want = &f["percentiles"][name];
         let g = &got[name];
-        assert_eq!(g.replicates as u64, want["replicates"].as_u64().unwrap(), "{name}");
+        assert_eq!(
+            g.replicates as u64,
+            want["replicates"].as_u64().unwrap(),
+            "{name}"
+        );
         for (side, value) in [("low", g.low.unwrap()), ("high", g.high.unwrap())] {
             let w = want[side].as_f64().unwrap();
-            assert!((value - w).abs() <= 1e-9 * w.abs().max(1.0), "{name} {side}: {value} vs numpy {w}");
+            assert!(
+                (value - w).abs() <= 1e-9 * w.abs().max(1.0),
+                "{name} {side}: {value} vs numpy {w}"
+            );
         }
     }
 }
@@ -81,8 +125,13 @@ fn synthetic(seed: u64, effect: f64) -> (Trades, Vec<Release>) {
         })
         .collect();
     let n = 400;
-    let opened: Vec<i64> = (0..n).map(|_| weekday(rng.random_range(0..250)) + rng.random_range(6 * 60..20 * 60) * MINUTE_MS).collect();
-    let closed: Vec<i64> = opened.iter().map(|o| o + rng.random_range(0..120) * MINUTE_MS).collect();
+    let opened: Vec<i64> = (0..n)
+        .map(|_| weekday(rng.random_range(0..250)) + rng.random_range(6 * 60..20 * 60) * MINUTE_MS)
+        .collect();
+    let closed: Vec<i64> = opened
+        .iter()
+        .map(|o| o + rng.random_range(0..120) * MINUTE_MS)
+        .collect();
     let mut pnl: Vec<f64> = (0..n)
         .map(|_| {
             let u1: f64 = rng.random::<f64>().max(1e-12);
@@ -91,7 +140,12 @@ fn synthetic(seed: u64, effect: f64) -> (Trades, Vec<Release>) {
         })
         .collect();
     let t = trades_from(opened.clone(), closed.clone(), pnl.clone());
-    let exp = Engine::new(&releases, &WindowSettings::default(), ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &[vec!["EUR".into(), "USD".into()]]);
+    let exp = Engine::new(&releases, &WindowSettings::default(), ExposureRule::Overlap).run(
+        &t.opened,
+        &t.closed,
+        &t.instrument,
+        &[vec!["EUR".into(), "USD".into()]],
+    );
     for (i, p) in pnl.iter_mut().enumerate() {
         if exp.k[i] > 0 {
             *p += effect;
@@ -104,9 +158,22 @@ fn placebo_p(seed: u64, effect: f64, n: usize) -> f64 {
     let (t, rel) = synthetic(seed, effect);
     let w = WindowSettings::default();
     let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
-    let exp = Engine::new(&rel, &w, ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &cur);
+    let exp =
+        Engine::new(&rel, &w, ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &cur);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
-    let r = stats::placebo(&t, &rel, &used_windows(&rel, &w), &cur, ExposureRule::Overlap, &flags, PlaceboSettings { n, seed: seed + 1000 }, &|| {});
+    let r = stats::placebo(
+        &t,
+        &rel,
+        &used_windows(&rel, &w),
+        &cur,
+        ExposureRule::Overlap,
+        &flags,
+        PlaceboSettings {
+            n,
+            seed: seed + 1000,
+        },
+        &|| {},
+    );
     r.p_share.expect("defined")
 }
 
@@ -114,9 +181,15 @@ fn placebo_p(seed: u64, effect: f64, n: usize) -> f64 {
 fn placebo_p_values_are_roughly_uniform_without_an_effect() {
     let ps: Vec<f64> = (0..200).map(|s| placebo_p(s, 0.0, 99)).collect();
     let below = ps.iter().filter(|&&p| p <= 0.05).count() as f64 / ps.len() as f64;
-    assert!((0.02..=0.10).contains(&below), "share of p ≤ 0.05 = {below}");
+    assert!(
+        (0.02..=0.10).contains(&below),
+        "share of p ≤ 0.05 = {below}"
+    );
     let below_half = ps.iter().filter(|&&p| p <= 0.5).count() as f64 / ps.len() as f64;
-    assert!((0.4..=0.6).contains(&below_half), "share of p ≤ 0.5 = {below_half}");
+    assert!(
+        (0.4..=0.6).contains(&below_half),
+        "share of p ≤ 0.5 = {below_half}"
+    );
 }
 
 #[test]

@@ -6,51 +6,87 @@ mod common;
 use std::path::Path;
 
 fn demo(cmd: &str, out: &Path, extra: &[&str]) {
-    let o = common::demo(cmd).arg("--out").arg(out).args(extra).output().unwrap();
+    let o = common::demo(cmd)
+        .arg("--out")
+        .arg(out)
+        .args(extra)
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
 
 fn svg(path: &Path) -> String {
     let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-    roxmltree::Document::parse(&text).unwrap_or_else(|e| panic!("{} is not well-formed XML: {e}", path.display()));
+    roxmltree::Document::parse(&text)
+        .unwrap_or_else(|e| panic!("{} is not well-formed XML: {e}", path.display()));
     text
 }
 
 fn texts(svg: &str) -> Vec<String> {
     let doc = roxmltree::Document::parse(svg).unwrap();
-    doc.descendants().filter(|n| n.has_tag_name("text")).filter_map(|n| n.text().map(|t| t.trim().to_string())).collect()
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|n| n.text().map(|t| t.trim().to_string()))
+        .collect()
 }
 
 fn count(svg: &str, tag: &str, stroke: &str) -> usize {
     let doc = roxmltree::Document::parse(svg).unwrap();
-    doc.descendants().filter(|n| n.has_tag_name(tag) && (n.attribute("stroke") == Some(stroke) || n.attribute("fill") == Some(stroke))).count()
+    doc.descendants()
+        .filter(|n| {
+            n.has_tag_name(tag)
+                && (n.attribute("stroke") == Some(stroke) || n.attribute("fill") == Some(stroke))
+        })
+        .count()
 }
 
 #[test]
 fn every_chart_renders_with_its_series() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("a");
-    demo("analyze", &out, &["--placebo", "19", "--bootstrap", "20", "--png"]);
+    demo(
+        "analyze",
+        &out,
+        &["--placebo", "19", "--bootstrap", "20", "--png"],
+    );
     for id in ["tail", "equity", "by-category", "by-currency", "scatter"] {
         // PNG signature, then the IHDR width (760 px) as a big-endian u32.
         let png = std::fs::read(out.join(format!("chart-{id}.png"))).unwrap();
         assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n", "{id}");
-        assert_eq!(u32::from_be_bytes(png[16..20].try_into().unwrap()), 760, "{id}");
+        assert_eq!(
+            u32::from_be_bytes(png[16..20].try_into().unwrap()),
+            760,
+            "{id}"
+        );
     }
     let tail = svg(&out.join("chart-tail.svg"));
     let t = texts(&tail);
     for label in ["baseline", "removed", "exposed trade"] {
-        assert!(t.iter().any(|x| x == label), "tail chart lacks legend '{label}'");
+        assert!(
+            t.iter().any(|x| x == label),
+            "tail chart lacks legend '{label}'"
+        );
     }
     assert!(t.iter().any(|x| x.starts_with("Sorted |P/L|: TCR")));
     // Two curves (plus their legend swatches) in the scenario colours.
     assert!(count(&tail, "polyline", "#1B4F8A") >= 1 && count(&tail, "polyline", "#1A9E77") >= 1);
     let eq = svg(&out.join("chart-equity.svg"));
-    for (label, colour) in [("baseline", "#1B4F8A"), ("removed", "#1A9E77"), ("capped", "#A84C9A")] {
-        assert!(texts(&eq).iter().any(|x| x == label), "equity lacks {label}");
-        assert!(count(&eq, "polyline", colour) >= 1, "equity lacks the {label} curve");
+    for (label, colour) in [
+        ("baseline", "#1B4F8A"),
+        ("removed", "#1A9E77"),
+        ("capped", "#A84C9A"),
+    ] {
+        assert!(
+            texts(&eq).iter().any(|x| x == label),
+            "equity lacks {label}"
+        );
+        assert!(
+            count(&eq, "polyline", colour) >= 1,
+            "equity lacks the {label} curve"
+        );
     }
-    let summary: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     let cats = summary["attribution"]["by_category"].as_object().unwrap();
     let bars = svg(&out.join("chart-by-category.svg"));
     let bar_count = count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#6A3D9A");
@@ -60,27 +96,57 @@ fn every_chart_renders_with_its_series() {
     }
     let curs = summary["attribution"]["by_currency"].as_object().unwrap();
     let bars = svg(&out.join("chart-by-currency.svg"));
-    assert_eq!(count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#6A3D9A"), curs.len());
+    assert_eq!(
+        count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#6A3D9A"),
+        curs.len()
+    );
     let sc = svg(&out.join("chart-scatter.svg"));
-    assert!(texts(&sc).iter().any(|x| x == "exposed") && texts(&sc).iter().any(|x| x == "not exposed"));
+    assert!(
+        texts(&sc).iter().any(|x| x == "exposed") && texts(&sc).iter().any(|x| x == "not exposed")
+    );
 
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
-    assert!(html.len() < 2 * 1024 * 1024, "report.html is {} bytes", html.len());
+    assert!(
+        html.len() < 2 * 1024 * 1024,
+        "report.html is {} bytes",
+        html.len()
+    );
     assert_eq!(html.matches("<svg").count(), 5);
     for needle in ["<script", "src=", "href=", "@import", "url("] {
-        assert!(!html.contains(needle), "report.html must not reference anything external ({needle})");
+        assert!(
+            !html.contains(needle),
+            "report.html must not reference anything external ({needle})"
+        );
     }
-    assert!(html.contains("not investment advice") && html.contains("Rejected rows") && html.contains("Scenarios"));
+    assert!(
+        html.contains("not investment advice")
+            && html.contains("Rejected rows")
+            && html.contains("Scenarios")
+    );
 
     let out = dir.path().join("r");
     demo("rank", &out, &[]);
     let rk = svg(&out.join("chart-rank-shift.svg"));
-    assert_eq!(count(&rk, "circle", "#1B4F8A"), 50 + 1, "one point per run plus the legend swatch");
+    assert_eq!(
+        count(&rk, "circle", "#1B4F8A"),
+        50 + 1,
+        "one point per run plus the legend swatch"
+    );
     let out = dir.path().join("t");
     demo("tune", &out, &["--pre", "0..30/15", "--post", "0..60/30"]);
     let hm = svg(&out.join("chart-tune.svg"));
-    let tune: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("tune.json")).unwrap()).unwrap();
-    let frontier = tune["cells"].as_array().unwrap().iter().filter(|c| c["frontier"] == true).count();
+    let tune: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("tune.json")).unwrap()).unwrap();
+    let frontier = tune["cells"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|c| c["frontier"] == true)
+        .count();
     assert!(frontier > 0);
-    assert_eq!(count(&hm, "rect", "#E09B1F"), frontier, "frontier cells outlined");
+    assert_eq!(
+        count(&hm, "rect", "#E09B1F"),
+        frontier,
+        "frontier cells outlined"
+    );
 }

@@ -23,10 +23,22 @@ const CAL: &str = "released_at,title,currency,tier,category\n2024-03-08 13:30,Jo
 
 #[test]
 fn demo_analysis_shows_a_difference_and_carries_the_caution() {
-    let o = common::demo("analyze").args(["--json", "--placebo", "19", "--bootstrap", "10"]).output().unwrap();
+    let o = common::demo("analyze")
+        .args(["--json", "--placebo", "19", "--bootstrap", "10"])
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
-    for key in ["tool", "inputs", "settings", "exposure", "scenarios", "attribution", "runs", "caution"] {
+    for key in [
+        "tool",
+        "inputs",
+        "settings",
+        "exposure",
+        "scenarios",
+        "attribution",
+        "runs",
+        "caution",
+    ] {
         assert!(j.get(key).is_some(), "summary lacks {key}");
     }
     let base = &j["scenarios"]["baseline"];
@@ -36,24 +48,53 @@ fn demo_analysis_shows_a_difference_and_carries_the_caution() {
         removed["trades"].as_u64().unwrap() + j["exposure"]["exposed_trades"].as_u64().unwrap(),
         base["trades"].as_u64().unwrap()
     );
-    let (bn, rn, en) = (base["net"].as_f64().unwrap(), removed["net"].as_f64().unwrap(), j["exposure"]["exposed_pnl"].as_f64().unwrap());
+    let (bn, rn, en) = (
+        base["net"].as_f64().unwrap(),
+        removed["net"].as_f64().unwrap(),
+        j["exposure"]["exposed_pnl"].as_f64().unwrap(),
+    );
     assert!((bn - rn - en).abs() < 0.005, "removed + exposed = baseline");
-    assert!((bn - rn).abs() > 1000.0, "the demo shows a visible difference");
+    assert!(
+        (bn - rn).abs() > 1000.0,
+        "the demo shows a visible difference"
+    );
     assert!(base["tcr"].as_f64().unwrap() > removed["tcr"].as_f64().unwrap());
     assert_eq!(j["runs"].as_array().unwrap().len(), 50);
-    assert!(j["caution"].as_str().unwrap().contains("not investment advice"));
+    assert!(
+        j["caution"]
+            .as_str()
+            .unwrap()
+            .contains("not investment advice")
+    );
     assert_eq!(j["placebo"]["placebos"], 19);
     let p = j["placebo"]["p_share"].as_f64().unwrap();
     assert!((0.05..=1.0).contains(&p), "p is a multiple of 1/20: {p}");
     assert_eq!(j["bootstrap"]["intervals"]["net"]["replicates"], 10);
     assert_eq!(j["tail"]["threshold"], 12.0);
-    assert!(j["tail"]["threshold_source"].as_str().unwrap().contains("common practice"));
-    assert!(j["warnings"].as_array().unwrap().is_empty(), "demo calendar covers the demo trades: {}", j["warnings"]);
+    assert!(
+        j["tail"]["threshold_source"]
+            .as_str()
+            .unwrap()
+            .contains("common practice")
+    );
+    assert!(
+        j["warnings"].as_array().unwrap().is_empty(),
+        "demo calendar covers the demo trades: {}",
+        j["warnings"]
+    );
     // Attribution sums equal the exposed P/L.
-    let sum: f64 = j["attribution"]["by_release"].as_array().unwrap().iter().map(|r| r["attributed_pnl"].as_f64().unwrap()).sum();
+    let sum: f64 = j["attribution"]["by_release"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["attributed_pnl"].as_f64().unwrap())
+        .sum();
     assert!((sum - en).abs() < 0.005);
 
-    let o = common::demo("analyze").args(["--placebo", "0", "--bootstrap", "0"]).output().unwrap();
+    let o = common::demo("analyze")
+        .args(["--placebo", "0", "--bootstrap", "0"])
+        .output()
+        .unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(text.contains("profit factor") && text.contains("not investment advice"));
     assert!(!text.contains('\u{1b}'), "no escape codes in piped output");
@@ -74,27 +115,64 @@ yesterday,2024-03-08 14:00,EURUSD,5\n\
 2024-03-11 13:00,2024-03-11 14:00,GBPUSD,-4\n",
     )
     .unwrap();
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
+    let o = run(
+        &["analyze", "--trades", "t.csv", "--calendar", "cal.csv"],
+        dir.path(),
+    );
     assert!(!o.status.success());
     let e = stderr(&o);
     assert!(e.contains("4 trade row(s) rejected"), "{e}");
     assert!(e.contains("t.csv row 2: closed_at"), "{e}");
-    assert!(e.contains("t.csv row 3: opened_at: 'yesterday' is not a time"), "{e}");
+    assert!(
+        e.contains("t.csv row 3: opened_at: 'yesterday' is not a time"),
+        "{e}"
+    );
     assert!(e.contains("t.csv row 4: pnl: empty"), "{e}");
     assert!(e.contains("t.csv row 5: pnl: 'abc' is not a number"), "{e}");
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--skip-bad-rows", "--json"], dir.path());
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--skip-bad-rows",
+            "--json",
+        ],
+        dir.path(),
+    );
     // Completed, with rows skipped: status 3 (README), in every command.
     assert_eq!(o.status.code(), Some(3), "{}", stderr(&o));
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let t = &j["inputs"]["trades"];
-    assert_eq!((t["rows_read"].as_u64(), t["rows_imported"].as_u64(), t["rows_rejected"].as_u64()), (Some(6), Some(2), Some(4)));
+    assert_eq!(
+        (
+            t["rows_read"].as_u64(),
+            t["rows_imported"].as_u64(),
+            t["rows_rejected"].as_u64()
+        ),
+        (Some(6), Some(2), Some(4))
+    );
     assert_eq!(t["rejected_by_reason"]["missing_value"], 1);
     assert_eq!(t["rejected_by_reason"]["closed_before_opened"], 1);
-    assert!(j["warnings"].as_array().unwrap().iter().any(|w| w.as_str().unwrap().starts_with("SKIPPED: 4 trade row(s)")));
+    assert!(
+        j["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|w| w.as_str().unwrap().starts_with("SKIPPED: 4 trade row(s)"))
+    );
     assert_eq!(j["exposure"]["exposed_trades"], 1);
 
-    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
-    assert_eq!(o.status.code(), Some(3), "check exits non-zero when rows are rejected");
+    let o = run(
+        &["check", "--trades", "t.csv", "--calendar", "cal.csv"],
+        dir.path(),
+    );
+    assert_eq!(
+        o.status.code(),
+        Some(3),
+        "check exits non-zero when rows are rejected"
+    );
     assert!(String::from_utf8_lossy(&o.stdout).contains("closed_before_opened"));
 }
 
@@ -102,21 +180,107 @@ yesterday,2024-03-08 14:00,EURUSD,5\n\
 fn flags_and_unmapped_instruments_fail_clearly() {
     let dir = tempfile::tempdir().unwrap();
     std::fs::write(dir.path().join("cal.csv"), CAL).unwrap();
-    std::fs::write(dir.path().join("t.csv"), "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,US500,10\n").unwrap();
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--trades-tz", "Mars/Olympus"], dir.path());
-    assert!(stderr(&o).contains("--trades-tz: unknown time zone 'Mars/Olympus'"), "{}", stderr(&o));
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
-    assert!(stderr(&o).contains("no currencies known for instrument(s) US500"), "{}", stderr(&o));
-    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv"], dir.path());
-    assert_eq!(o.status.code(), Some(3), "check lists unmapped instruments and exits 3");
-    assert!(String::from_utf8_lossy(&o.stdout).contains("no currencies known for instrument(s) US500"));
-    let o = run(&["check", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD"], dir.path());
+    std::fs::write(
+        dir.path().join("t.csv"),
+        "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,US500,10\n",
+    )
+    .unwrap();
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--trades-tz",
+            "Mars/Olympus",
+        ],
+        dir.path(),
+    );
+    assert!(
+        stderr(&o).contains("--trades-tz: unknown time zone 'Mars/Olympus'"),
+        "{}",
+        stderr(&o)
+    );
+    let o = run(
+        &["analyze", "--trades", "t.csv", "--calendar", "cal.csv"],
+        dir.path(),
+    );
+    assert!(
+        stderr(&o).contains("no currencies known for instrument(s) US500"),
+        "{}",
+        stderr(&o)
+    );
+    let o = run(
+        &["check", "--trades", "t.csv", "--calendar", "cal.csv"],
+        dir.path(),
+    );
+    assert_eq!(
+        o.status.code(),
+        Some(3),
+        "check lists unmapped instruments and exits 3"
+    );
+    assert!(
+        String::from_utf8_lossy(&o.stdout).contains("no currencies known for instrument(s) US500")
+    );
+    let o = run(
+        &[
+            "check",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--instrument-map",
+            "US500=USD",
+        ],
+        dir.path(),
+    );
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD", "--json"], dir.path());
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--instrument-map",
+            "US500=USD",
+            "--json",
+        ],
+        dir.path(),
+    );
     assert!(o.status.success(), "{}", stderr(&o));
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--map", "pnl=Profit"], dir.path());
-    assert!(stderr(&o).contains("no column 'Profit' for pnl"), "{}", stderr(&o));
-    let o = run(&["analyze", "--trades", "t.csv", "--calendar", "cal.csv", "--instrument-map", "US500=USD", "--cap", "lots"], dir.path());
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--map",
+            "pnl=Profit",
+        ],
+        dir.path(),
+    );
+    assert!(
+        stderr(&o).contains("no column 'Profit' for pnl"),
+        "{}",
+        stderr(&o)
+    );
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "cal.csv",
+            "--instrument-map",
+            "US500=USD",
+            "--cap",
+            "lots",
+        ],
+        dir.path(),
+    );
     assert!(stderr(&o).contains("--cap 'lots'"), "{}", stderr(&o));
 }
 
@@ -124,10 +288,29 @@ fn flags_and_unmapped_instruments_fail_clearly() {
 fn out_folder_never_overwrites_an_input() {
     let dir = tempfile::tempdir().unwrap();
     std::fs::write(dir.path().join("cal.csv"), CAL).unwrap();
-    std::fs::write(dir.path().join("trades.csv"), "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,EURUSD,10\n").unwrap();
-    let o = run(&["analyze", "--trades", "trades.csv", "--calendar", "cal.csv", "--out", "."], dir.path());
+    std::fs::write(
+        dir.path().join("trades.csv"),
+        "opened_at,closed_at,instrument,pnl\n2024-03-08 13:00,2024-03-08 14:00,EURUSD,10\n",
+    )
+    .unwrap();
+    let o = run(
+        &[
+            "analyze",
+            "--trades",
+            "trades.csv",
+            "--calendar",
+            "cal.csv",
+            "--out",
+            ".",
+        ],
+        dir.path(),
+    );
     assert!(stderr(&o).contains("refusing to write"), "{}", stderr(&o));
-    assert!(std::fs::read_to_string(dir.path().join("trades.csv")).unwrap().contains("EURUSD,10"));
+    assert!(
+        std::fs::read_to_string(dir.path().join("trades.csv"))
+            .unwrap()
+            .contains("EURUSD,10")
+    );
 }
 
 #[test]
@@ -137,7 +320,11 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let runs = j["runs"].as_array().unwrap();
     assert_eq!(runs.len(), 50);
-    let max_shift = runs.iter().map(|r| r["rank_shift"].as_i64().unwrap().abs()).max().unwrap();
+    let max_shift = runs
+        .iter()
+        .map(|r| r["rank_shift"].as_i64().unwrap().abs())
+        .max()
+        .unwrap();
     assert!(max_shift >= 10, "largest rank shift {max_shift}");
     // Ranks are a permutation of 1..=50 in both scenarios.
     for key in ["rank_baseline", "rank_removed"] {
@@ -146,52 +333,99 @@ fn rank_on_the_demo_moves_runs_and_fits_80_columns() {
         assert_eq!(r, (1..=50).collect::<Vec<_>>());
     }
     let dir = tempfile::tempdir().unwrap();
-    let o = common::demo("rank").arg("--out").arg(dir.path()).output().unwrap();
+    let o = common::demo("rank")
+        .arg("--out")
+        .arg(dir.path())
+        .output()
+        .unwrap();
     let text = String::from_utf8_lossy(&o.stdout);
-    assert!(text.lines().all(|l| l.chars().count() <= 80), "table wider than 80 columns:\n{text}");
+    assert!(
+        text.lines().all(|l| l.chars().count() <= 80),
+        "table wider than 80 columns:\n{text}"
+    );
     let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
     assert_eq!(csv.lines().count(), 51);
     // The terminal's width (COLUMNS here) is used, and a cell is never
     // split (the table once wrapped at 80 columns, splitting numbers): a
     // wide terminal gets every column, a narrow one whole columns fewer.
     let rows_of = |columns: &str| {
-        let o = common::demo("rank").env("COLUMNS", columns).args(["--placebo", "5"]).output().unwrap();
+        let o = common::demo("rank")
+            .env("COLUMNS", columns)
+            .args(["--placebo", "5"])
+            .output()
+            .unwrap();
         let text = String::from_utf8_lossy(&o.stdout).into_owned();
         let rows: Vec<usize> = text
             .lines()
-            .filter(|l| l.trim_start().starts_with('p') && l.trim_start()[1..].starts_with(|c: char| c.is_ascii_digit()))
+            .filter(|l| {
+                l.trim_start().starts_with('p')
+                    && l.trim_start()[1..].starts_with(|c: char| c.is_ascii_digit())
+            })
             .map(|l| l.split_whitespace().count())
             .collect();
         (rows, text)
     };
     let (wide, text) = rows_of("200");
     assert_eq!(wide.len(), 50, "{text}");
-    assert!(wide.iter().all(|&n| n == 11) && !text.contains("Left out to fit"), "{text}");
+    assert!(
+        wide.iter().all(|&n| n == 11) && !text.contains("Left out to fit"),
+        "{text}"
+    );
     let (narrow, text) = rows_of("60");
     assert_eq!(narrow.len(), 50, "{text}");
     assert!(narrow.iter().all(|&n| n == 7), "{text}");
-    assert!(text.contains("Left out to fit 60 columns: p, TCR r, TCR b, trades (all in --json and runs.csv)."), "{text}");
-    let table_width = text.lines().filter(|l| l.contains("rk b") || l.starts_with("  p")).map(|l| l.chars().count()).max().unwrap();
+    assert!(
+        text.contains(
+            "Left out to fit 60 columns: p, TCR r, TCR b, trades (all in --json and runs.csv)."
+        ),
+        "{text}"
+    );
+    let table_width = text
+        .lines()
+        .filter(|l| l.contains("rk b") || l.starts_with("  p"))
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap();
     assert!(table_width <= 60, "{table_width}");
 }
 
 #[test]
 fn no_colour_codes_and_no_progress_bar_in_pipes() {
-    let o = common::demo("analyze").env("NO_COLOR", "1").args(["--placebo", "5", "--bootstrap", "5"]).output().unwrap();
+    let o = common::demo("analyze")
+        .env("NO_COLOR", "1")
+        .args(["--placebo", "5", "--bootstrap", "5"])
+        .output()
+        .unwrap();
     assert!(o.status.success());
-    assert!(!o.stdout.contains(&0x1b) && !o.stderr.contains(&0x1b), "escape codes in output");
-    assert!(o.stderr.is_empty(), "stderr is a pipe: no progress bar expected, got {}", stderr(&o));
+    assert!(
+        !o.stdout.contains(&0x1b) && !o.stderr.contains(&0x1b),
+        "escape codes in output"
+    );
+    assert!(
+        o.stderr.is_empty(),
+        "stderr is a pipe: no progress bar expected, got {}",
+        stderr(&o)
+    );
 }
 
 /// A trade input estimated to need more memory than allowed is refused
 /// before reading, naming the file, the estimate and the way out.
 #[test]
 fn input_larger_than_the_memory_budget_is_refused_up_front() {
-    let o = common::demo("check").args(["--max-memory", "8M"]).output().unwrap();
+    let o = common::demo("check")
+        .args(["--max-memory", "8M"])
+        .output()
+        .unwrap();
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     let e = stderr(&o);
-    assert!(e.contains("trades.csv") && e.contains("rows need about") && e.contains("--max-memory"), "{e}");
-    let o = common::demo("check").args(["--max-memory", "4G"]).output().unwrap();
+    assert!(
+        e.contains("trades.csv") && e.contains("rows need about") && e.contains("--max-memory"),
+        "{e}"
+    );
+    let o = common::demo("check")
+        .args(["--max-memory", "4G"])
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", stderr(&o));
 }
 
@@ -200,12 +434,27 @@ fn input_larger_than_the_memory_budget_is_refused_up_front() {
 #[test]
 fn answer_sentence_reflects_the_release_selection() {
     let first_answer = |extra: &[&str]| {
-        let o = common::demo("analyze").args(["--placebo", "0", "--bootstrap", "0"]).args(extra).env("NO_COLOR", "1").output().unwrap();
+        let o = common::demo("analyze")
+            .args(["--placebo", "0", "--bootstrap", "0"])
+            .args(extra)
+            .env("NO_COLOR", "1")
+            .output()
+            .unwrap();
         let text = String::from_utf8_lossy(&o.stdout).into_owned();
-        text.lines().find(|l| l.contains("were exposed to")).unwrap().to_string()
+        text.lines()
+            .find(|l| l.contains("were exposed to"))
+            .unwrap()
+            .to_string()
     };
     assert!(first_answer(&[]).contains(" used releases and made "));
-    let narrowed = first_answer(&["--tiers", "high", "--window-title", "(?i)payroll=30/90", "--window-category", "rates=off"]);
+    let narrowed = first_answer(&[
+        "--tiers",
+        "high",
+        "--window-title",
+        "(?i)payroll=30/90",
+        "--window-category",
+        "rates=off",
+    ]);
     assert!(narrowed.contains("used releases (tiers high; category rates off; titles matching '(?i)payroll' 30/90) and made"), "{narrowed}");
 }
 
@@ -228,24 +477,52 @@ fn run_flag_equals_a_file_of_that_run() {
         m.remove("inputs");
         v
     };
-    let a = common::demo("analyze").args(["--json", "--placebo", "19", "--bootstrap", "20", "--run", "p07"]).output().unwrap();
+    let a = common::demo("analyze")
+        .args([
+            "--json",
+            "--placebo",
+            "19",
+            "--bootstrap",
+            "20",
+            "--run",
+            "p07",
+        ])
+        .output()
+        .unwrap();
     assert!(a.status.success(), "{}", stderr(&a));
     let a: Value = serde_json::from_slice(&a.stdout).unwrap();
-    assert_eq!(a["inputs"]["trades"]["runs_selected"], serde_json::json!(["p07"]));
+    assert_eq!(
+        a["inputs"]["trades"]["runs_selected"],
+        serde_json::json!(["p07"])
+    );
     let cmd = common::demo("analyze");
     let args: Vec<std::ffi::OsString> = cmd.get_args().map(|s| s.to_owned()).collect();
     let mut b = Command::new(env!("CARGO_BIN_EXE_eventfence"));
     for (k, arg) in args.iter().enumerate() {
-        if k > 0 && args[k - 1] == "--trades" { b.arg(&p07); } else { b.arg(arg); }
+        if k > 0 && args[k - 1] == "--trades" {
+            b.arg(&p07);
+        } else {
+            b.arg(arg);
+        }
     }
-    let b = b.args(["--json", "--placebo", "19", "--bootstrap", "20"]).output().unwrap();
+    let b = b
+        .args(["--json", "--placebo", "19", "--bootstrap", "20"])
+        .output()
+        .unwrap();
     assert!(b.status.success(), "{}", stderr(&b));
     let b: Value = serde_json::from_slice(&b.stdout).unwrap();
     assert_eq!(figures(&a), figures(&b));
     assert_eq!(a["runs"].as_array().unwrap().len(), 1);
-    let e = common::demo("analyze").args(["--run", "p99"]).output().unwrap();
+    let e = common::demo("analyze")
+        .args(["--run", "p99"])
+        .output()
+        .unwrap();
     assert_eq!(e.status.code(), Some(1));
-    assert!(stderr(&e).contains("--run p99: no such run; runs are p01, p02"), "{}", stderr(&e));
+    assert!(
+        stderr(&e).contains("--run p99: no such run; runs are p01, p02"),
+        "{}",
+        stderr(&e)
+    );
 }
 
 /// The across-runs figures of the demo (50 runs), recomputed here from the
@@ -254,7 +531,10 @@ fn run_flag_equals_a_file_of_that_run() {
 /// worst, and the share of runs improved without the exposed trades.
 #[test]
 fn across_runs_spread_matches_the_runs() {
-    let o = common::demo("analyze").args(["--json", "--placebo", "0", "--bootstrap", "0"]).output().unwrap();
+    let o = common::demo("analyze")
+        .args(["--json", "--placebo", "0", "--bootstrap", "0"])
+        .output()
+        .unwrap();
     let j: Value = serde_json::from_slice(&o.stdout).unwrap();
     let runs = j["runs"].as_array().unwrap();
     let quantile = |v: &[f64], p: f64| {
@@ -265,22 +545,65 @@ fn across_runs_spread_matches_the_runs() {
     for (metric, higher) in [("sharpe", true), ("max_drawdown", false), ("t_stat", true)] {
         let pairs: Vec<(f64, f64)> = runs
             .iter()
-            .filter_map(|r| Some((r["scenarios"]["baseline"][metric].as_f64()?, r["scenarios"]["removed"][metric].as_f64()?)))
+            .filter_map(|r| {
+                Some((
+                    r["scenarios"]["baseline"][metric].as_f64()?,
+                    r["scenarios"]["removed"][metric].as_f64()?,
+                ))
+            })
             .collect();
         let mut base: Vec<f64> = pairs.iter().map(|p| p.0).collect();
         base.sort_by(f64::total_cmp);
-        let f = j["across_runs"]["figures"].as_array().unwrap().iter().find(|f| f["metric"] == metric).unwrap();
+        let f = j["across_runs"]["figures"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|f| f["metric"] == metric)
+            .unwrap();
         let close = |a: &Value, b: f64| (a.as_f64().unwrap() - b).abs() < 1e-9 * b.abs().max(1.0);
         assert_eq!(f["runs"].as_u64().unwrap() as usize, pairs.len());
-        assert!(close(&f["baseline"]["median"], quantile(&base, 0.5)), "{metric} median");
-        assert!(close(&f["baseline"]["q1"], quantile(&base, 0.25)), "{metric} q1");
-        assert!(close(&f["baseline"]["q3"], quantile(&base, 0.75)), "{metric} q3");
+        assert!(
+            close(&f["baseline"]["median"], quantile(&base, 0.5)),
+            "{metric} median"
+        );
+        assert!(
+            close(&f["baseline"]["q1"], quantile(&base, 0.25)),
+            "{metric} q1"
+        );
+        assert!(
+            close(&f["baseline"]["q3"], quantile(&base, 0.75)),
+            "{metric} q3"
+        );
         let (lo, hi) = (base[0], base[base.len() - 1]);
-        assert!(close(&f["baseline"]["best"], if higher { hi } else { lo }), "{metric} best");
-        let improved = pairs.iter().filter(|(b, r)| if higher { r > b } else { r < b }).count() as f64 / pairs.len() as f64;
+        assert!(
+            close(&f["baseline"]["best"], if higher { hi } else { lo }),
+            "{metric} best"
+        );
+        let improved = pairs
+            .iter()
+            .filter(|(b, r)| if higher { r > b } else { r < b })
+            .count() as f64
+            / pairs.len() as f64;
         assert!(close(&f["share_improved"], improved), "{metric} improved");
     }
-    let above = runs.iter().filter(|r| r["scenarios"]["baseline"]["tcr"].as_f64().is_some_and(|t| t > 12.0)).count() as f64;
-    let with_tcr = runs.iter().filter(|r| r["scenarios"]["baseline"]["tcr"].is_f64()).count() as f64;
-    assert!((j["across_runs"]["share_above_tcr_threshold_baseline"].as_f64().unwrap() - above / with_tcr).abs() < 1e-12);
+    let above = runs
+        .iter()
+        .filter(|r| {
+            r["scenarios"]["baseline"]["tcr"]
+                .as_f64()
+                .is_some_and(|t| t > 12.0)
+        })
+        .count() as f64;
+    let with_tcr = runs
+        .iter()
+        .filter(|r| r["scenarios"]["baseline"]["tcr"].is_f64())
+        .count() as f64;
+    assert!(
+        (j["across_runs"]["share_above_tcr_threshold_baseline"]
+            .as_f64()
+            .unwrap()
+            - above / with_tcr)
+            .abs()
+            < 1e-12
+    );
 }

@@ -78,9 +78,15 @@ fn server_clock_and_zoned_calendars_across_dst() {
         .output()
         .unwrap();
     // Status 3 exactly when the run has warnings (README).
-    let summary: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|_| panic!("{}", String::from_utf8_lossy(&out.stderr)));
+    let summary: serde_json::Value = serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|_| panic!("{}", String::from_utf8_lossy(&out.stderr)));
     let warned = !summary["warnings"].as_array().unwrap().is_empty();
-    assert_eq!(out.status.code(), Some(if warned { 3 } else { 0 }), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(if warned { 3 } else { 0 }),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let csv = std::fs::read_to_string(p("out/trades.csv")).unwrap();
     let mut k_by_pnl = Vec::new();
     let mut rows = csv.lines();
@@ -88,21 +94,43 @@ fn server_clock_and_zoned_calendars_across_dst() {
     let col = |n: &str| header.iter().position(|h| *h == n).unwrap();
     for line in rows {
         let f: Vec<&str> = line.split(',').collect();
-        k_by_pnl.push((f[col("pnl")].parse::<f64>().unwrap() as i32, f[col("matches")].parse::<u32>().unwrap()));
+        k_by_pnl.push((
+            f[col("pnl")].parse::<f64>().unwrap() as i32,
+            f[col("matches")].parse::<u32>().unwrap(),
+        ));
     }
     k_by_pnl.sort();
     assert_eq!(
         k_by_pnl,
-        vec![(1, 1), (2, 0), (3, 1), (4, 1), (5, 1), (6, 2), (7, 1), (8, 0), (9, 1), (10, 0), (11, 0)]
+        vec![
+            (1, 1),
+            (2, 0),
+            (3, 1),
+            (4, 1),
+            (5, 1),
+            (6, 2),
+            (7, 1),
+            (8, 0),
+            (9, 1),
+            (10, 0),
+            (11, 0)
+        ]
     );
     // The opened_at column is written in UTC: T3 opened at 12:20Z.
     assert!(csv.contains("2024-03-15T12:20:00Z"));
     let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(json["exposure"]["exposed_trades"], 7);
-    assert_eq!(json["exposure"]["exposed_pnl"], 1.0 + 3.0 + 4.0 + 5.0 + 6.0 + 7.0 + 9.0);
+    assert_eq!(
+        json["exposure"]["exposed_pnl"],
+        1.0 + 3.0 + 4.0 + 5.0 + 6.0 + 7.0 + 9.0
+    );
     // Per release: G1 got T4 (4); E4 got T5 + half of T6 (5 + 3); G2 half of T6.
     let by_release = json["attribution"]["by_release"].as_array().unwrap();
-    let amount = |id: &str| by_release.iter().find(|r| r["id"] == id).unwrap()["attributed_pnl"].as_f64().unwrap();
+    let amount = |id: &str| {
+        by_release.iter().find(|r| r["id"] == id).unwrap()["attributed_pnl"]
+            .as_f64()
+            .unwrap()
+    };
     assert_eq!(amount("g1"), 4.0);
     assert_eq!(amount("e4"), 8.0);
     assert_eq!(amount("g2"), 3.0);

@@ -14,7 +14,11 @@ fn status(args: &[&str], trades: &str) -> Option<i32> {
     let dir = tempfile::tempdir().unwrap();
     std::fs::write(dir.path().join("t.csv"), trades).unwrap();
     std::fs::write(dir.path().join("c.csv"), CAL).unwrap();
-    let o = Command::new(env!("CARGO_BIN_EXE_eventfence")).current_dir(dir.path()).args(args).output().unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .current_dir(dir.path())
+        .args(args)
+        .output()
+        .unwrap();
     o.status.code()
 }
 
@@ -24,9 +28,15 @@ fn each_command_exits_0_clean_3_with_warnings_1_on_error() {
     let common = ["--trades", "t.csv", "--calendar", "c.csv"];
     let commands: [(&str, &[&str]); 4] = [
         ("check", &[]),
-        ("analyze", &["--placebo", "0", "--bootstrap", "0", "--quiet"]),
+        (
+            "analyze",
+            &["--placebo", "0", "--bootstrap", "0", "--quiet"],
+        ),
         ("rank", &["--quiet"]),
-        ("tune", &["--pre", "0..15/15", "--post", "0..30/30", "--quiet"]),
+        (
+            "tune",
+            &["--pre", "0..15/15", "--post", "0..30/30", "--quiet"],
+        ),
     ];
     for (cmd, extra) in commands {
         let mut args = vec![cmd];
@@ -36,10 +46,27 @@ fn each_command_exits_0_clean_3_with_warnings_1_on_error() {
         let mut skip = args.clone();
         skip.push("--skip-bad-rows");
         assert_eq!(status(&skip, &damaged), Some(3), "{cmd} with a skipped row");
-        assert_eq!(status(&args, &damaged), Some(if cmd == "check" { 3 } else { 1 }), "{cmd} stopping on a bad row");
+        assert_eq!(
+            status(&args, &damaged),
+            Some(if cmd == "check" { 3 } else { 1 }),
+            "{cmd} stopping on a bad row"
+        );
     }
     let sched = |from: &str, to: &str| {
-        status(&["schedule", "--calendar", "c.csv", "--currencies", "USD", "--from", from, "--to", to], CLEAN)
+        status(
+            &[
+                "schedule",
+                "--calendar",
+                "c.csv",
+                "--currencies",
+                "USD",
+                "--from",
+                from,
+                "--to",
+                to,
+            ],
+            CLEAN,
+        )
     };
     assert_eq!(sched("2024-03-05", "2024-03-12"), Some(0));
     // A range past the calendar's last release: warned, status 3.

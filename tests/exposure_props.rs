@@ -26,7 +26,12 @@ fn release(i: usize, at_min: i64, cur: &str, tier: Tier, cat: &str) -> Release {
 }
 
 const CURRENCIES: [&str; 4] = ["USD", "EUR", "JPY", "GBP"];
-const INSTRUMENTS: [[&str; 2]; 4] = [["EUR", "USD"], ["USD", "JPY"], ["EUR", "GBP"], ["GBP", "JPY"]];
+const INSTRUMENTS: [[&str; 2]; 4] = [
+    ["EUR", "USD"],
+    ["USD", "JPY"],
+    ["EUR", "GBP"],
+    ["GBP", "JPY"],
+];
 
 /// The plain reading: for every trade and every release, test the rule.
 fn naive(
@@ -67,15 +72,25 @@ struct Case {
 
 fn case() -> impl Strategy<Value = Case> {
     // Times on a 5-minute grid over ~2 days so window edges coincide often.
-    let rel = (0i64..600, 0usize..4, 0u8..3, 0u8..2).prop_map(|(slot, c, tier, cat)| (slot * 5, c, tier, cat));
-    let trade = (0i64..600, prop_oneof![Just(0i64), 0i64..12, 0i64..400], 0u32..4, -500i64..500)
+    let rel = (0i64..600, 0usize..4, 0u8..3, 0u8..2)
+        .prop_map(|(slot, c, tier, cat)| (slot * 5, c, tier, cat));
+    let trade = (
+        0i64..600,
+        prop_oneof![Just(0i64), 0i64..12, 0i64..400],
+        0u32..4,
+        -500i64..500,
+    )
         .prop_map(|(slot, len, inst, p)| (slot * 5, slot * 5 + len * 5, inst, p as f64 / 4.0));
     (
         prop::collection::vec(rel, 0..40),
         prop::collection::vec(trade, 0..60),
         prop::option::of((0i64..90, 0i64..120)),
     )
-        .prop_map(|(releases, trades, category_window)| Case { releases, trades, category_window })
+        .prop_map(|(releases, trades, category_window)| Case {
+            releases,
+            trades,
+            category_window,
+        })
 }
 
 proptest! {
@@ -132,9 +147,16 @@ proptest! {
 /// A trade spanning many releases matches each of them.
 #[test]
 fn long_trade_matches_every_release_it_spans() {
-    let releases: Vec<Release> = (0..37).map(|i| release(i, 100 + i as i64 * 60, "USD", Tier::High, "rates")).collect();
+    let releases: Vec<Release> = (0..37)
+        .map(|i| release(i, 100 + i as i64 * 60, "USD", Tier::High, "rates"))
+        .collect();
     let w = WindowSettings::default();
     let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
-    let exp = Engine::new(&releases, &w, ExposureRule::Overlap).run(&[0], &[100 * MIN + 36 * 60 * MIN], &[0], &cur);
+    let exp = Engine::new(&releases, &w, ExposureRule::Overlap).run(
+        &[0],
+        &[100 * MIN + 36 * 60 * MIN],
+        &[0],
+        &cur,
+    );
     assert_eq!(exp.k, vec![37]);
 }

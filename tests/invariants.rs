@@ -31,7 +31,14 @@ const INSTRUMENTS: [&str; 4] = ["EURUSD", "USDJPY", "EURGBP", "GBPJPY"];
 const CURRENCIES: [&str; 4] = ["USD", "EUR", "JPY", "GBP"];
 /// Input zones for the same instants: fixed offsets, IANA zones with DST
 /// (Lord Howe shifts by 30 minutes), and a shifted server clock.
-const ZONES: [&str; 6] = ["UTC", "+05:30", "America/New_York", "Europe/London", "Australia/Lord_Howe", "America/New_York+07:00"];
+const ZONES: [&str; 6] = [
+    "UTC",
+    "+05:30",
+    "America/New_York",
+    "Europe/London",
+    "Australia/Lord_Howe",
+    "America/New_York+07:00",
+];
 
 #[derive(Debug, Clone)]
 struct TradeRow {
@@ -53,7 +60,14 @@ struct Case {
 }
 
 fn case(damage_odds: u8) -> impl Strategy<Value = Case> {
-    let trade = (0i64..45 * 288, prop_oneof![Just(0i64), 1i64..24, 1i64..2000], 0usize..4, -40_000i64..40_000, 0usize..3, 0u8..100)
+    let trade = (
+        0i64..45 * 288,
+        prop_oneof![Just(0i64), 1i64..24, 1i64..2000],
+        0usize..4,
+        -40_000i64..40_000,
+        0usize..3,
+        0u8..100,
+    )
         .prop_map(move |(slot, len, inst, pnl_cents, run, d)| TradeRow {
             open_min: slot * 5,
             len_min: len * 5,
@@ -63,12 +77,26 @@ fn case(damage_odds: u8) -> impl Strategy<Value = Case> {
             damage: if d < damage_odds { 1 + d % 4 } else { 0 },
         });
     let release = (0i64..45 * 288, 0usize..4, 0usize..3).prop_map(|(slot, c, t)| (slot * 5, c, t));
-    (prop::collection::vec(trade, 1..40), prop::collection::vec(release, 0..30), 0usize..ZONES.len())
+    (
+        prop::collection::vec(trade, 1..40),
+        prop::collection::vec(release, 0..30),
+        0usize..ZONES.len(),
+    )
         .prop_flat_map(|(trades, releases, zone)| {
             let n = trades.len();
-            (Just(trades), Just(releases), Just((0..n).collect::<Vec<_>>()).prop_shuffle(), Just(zone))
+            (
+                Just(trades),
+                Just(releases),
+                Just((0..n).collect::<Vec<_>>()).prop_shuffle(),
+                Just(zone),
+            )
         })
-        .prop_map(|(trades, releases, order, zone)| Case { order: keep_tie_order(&trades, order), trades, releases, zone })
+        .prop_map(|(trades, releases, order, zone)| Case {
+            order: keep_tie_order(&trades, order),
+            trades,
+            releases,
+            zone,
+        })
 }
 
 /// SPEC §5 orders trades by close, then open, then input order: rows with
@@ -135,7 +163,12 @@ fn import_files(texts: &[String], zone: &Zone, dir: &Path) -> (Trades, TradeSumm
             p
         })
         .collect();
-    let opts = TradeOptions { zone: *zone, policy: LocalPolicy::Error, skip_bad_rows: true, ..TradeOptions::default() };
+    let opts = TradeOptions {
+        zone: *zone,
+        policy: LocalPolicy::Error,
+        skip_bad_rows: true,
+        ..TradeOptions::default()
+    };
     trades::load(&paths, &opts).unwrap()
 }
 
@@ -146,7 +179,17 @@ fn ranked(t: &Trades, rel: &[Release]) -> Value {
     let s = settings();
     let windows = eventfence::exposure::used_windows(rel, &s.windows);
     let placebo = eventfence::stats::PlaceboSettings { n: 19, seed: 7 };
-    let mut rows = eventfence::rank::rank(t, rel, &windows, &lists, &s, eventfence::rank::RankBy::Net, placebo, &|| {}).unwrap();
+    let mut rows = eventfence::rank::rank(
+        t,
+        rel,
+        &windows,
+        &lists,
+        &s,
+        eventfence::rank::RankBy::Net,
+        placebo,
+        &|| {},
+    )
+    .unwrap();
     rows.sort_by(|a, b| a.run.cmp(&b.run));
     serde_json::to_value(rows).unwrap()
 }
@@ -174,7 +217,11 @@ fn settings() -> AnalysisSettings {
     AnalysisSettings {
         exposure_rule: ExposureRule::Overlap,
         windows: WindowSettings::default(),
-        scenario: ScenarioSettings { sizing: Sizing::Fixed, cap: CapRule::parse("q0.99").unwrap(), initial_equity: Some(10_000.0) },
+        scenario: ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::parse("q0.99").unwrap(),
+            initial_equity: Some(10_000.0),
+        },
         report_tz: "Europe/London".parse().unwrap(),
         tcr_p: 1.0,
         tcr_threshold: 12.0,
@@ -187,7 +234,11 @@ fn analyse(t: &Trades, rel: &[Release]) -> Option<Analysis> {
         return None;
     }
     let cur = relevance::resolve(&t.instruments, &HashMap::new(), Unmapped::Error, &[]).unwrap();
-    Some(analysis::analyze(t, rel, &cur, &settings(), false).unwrap().0)
+    Some(
+        analysis::analyze(t, rel, &cur, &settings(), false)
+            .unwrap()
+            .0,
+    )
 }
 
 /// Equal JSON, numbers to 1e-9 relative (summation order may differ).
@@ -195,15 +246,23 @@ fn same(a: &Value, b: &Value, at: &str) -> Result<(), String> {
     match (a, b) {
         (Value::Number(x), Value::Number(y)) => {
             let (x, y) = (x.as_f64().unwrap(), y.as_f64().unwrap());
-            if (x - y).abs() <= 1e-9 * x.abs().max(y.abs()).max(1.0) { Ok(()) } else { Err(format!("{at}: {x} vs {y}")) }
+            if (x - y).abs() <= 1e-9 * x.abs().max(y.abs()).max(1.0) {
+                Ok(())
+            } else {
+                Err(format!("{at}: {x} vs {y}"))
+            }
         }
-        (Value::Array(x), Value::Array(y)) if x.len() == y.len() => {
-            x.iter().zip(y).enumerate().try_for_each(|(i, (p, q))| same(p, q, &format!("{at}[{i}]")))
+        (Value::Array(x), Value::Array(y)) if x.len() == y.len() => x
+            .iter()
+            .zip(y)
+            .enumerate()
+            .try_for_each(|(i, (p, q))| same(p, q, &format!("{at}[{i}]"))),
+        (Value::Object(x), Value::Object(y)) if x.len() == y.len() => {
+            x.iter().try_for_each(|(k, v)| match y.get(k) {
+                Some(w) => same(v, w, &format!("{at}.{k}")),
+                None => Err(format!("{at}: key {k} missing")),
+            })
         }
-        (Value::Object(x), Value::Object(y)) if x.len() == y.len() => x.iter().try_for_each(|(k, v)| match y.get(k) {
-            Some(w) => same(v, w, &format!("{at}.{k}")),
-            None => Err(format!("{at}: key {k} missing")),
-        }),
         _ if a == b => Ok(()),
         _ => Err(format!("{at}: {a} vs {b}")),
     }

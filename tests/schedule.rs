@@ -15,8 +15,22 @@ fn schedule(dir: &Path, extra: &[&str]) {
         .arg("--calendar")
         .arg(r.join("calendars/demo-usd.ics"))
         .arg(r.join("calendars/demo-eur.csv"))
-        .args(["--calendar-tz", "Europe/Berlin", "--instruments", "EURUSD,US500", "--instrument-map", "US500=USD"])
-        .args(["--from", "2024-03-01", "--to", "2024-03-31", "--tz", "America/New_York+07:00"])
+        .args([
+            "--calendar-tz",
+            "Europe/Berlin",
+            "--instruments",
+            "EURUSD,US500",
+            "--instrument-map",
+            "US500=USD",
+        ])
+        .args([
+            "--from",
+            "2024-03-01",
+            "--to",
+            "2024-03-31",
+            "--tz",
+            "America/New_York+07:00",
+        ])
         .args(extra)
         .output()
         .unwrap();
@@ -49,10 +63,14 @@ fn demo_month_in_three_formats_round_trips() {
         schedule(dir.path(), &["--format", fmt, "--output", file]);
     }
     let csv = std::fs::read_to_string(dir.path().join("m.csv")).unwrap();
-    let json: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(dir.path().join("m.json")).unwrap()).unwrap();
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("m.json")).unwrap()).unwrap();
     let ics = std::fs::read_to_string(dir.path().join("m.ics")).unwrap();
     let windows = json["windows"].as_array().unwrap();
-    assert!(windows.len() >= 10, "a month of demo releases gives many windows");
+    assert!(
+        windows.len() >= 10,
+        "a month of demo releases gives many windows"
+    );
     // CSV round trip: same windows, same order.
     let rows = csv_rows(&csv);
     assert_eq!(rows.len(), windows.len());
@@ -65,12 +83,19 @@ fn demo_month_in_three_formats_round_trips() {
     // The payrolls window on 2024-03-01 (EST): 08:30 NY = 13:30Z, window
     // 13:15–14:00Z, server clock (UTC+2) 15:15–16:00.
     let first = &rows[0];
-    assert_eq!((first[1].as_str(), first[3].as_str(), first[5].as_str()), ("2024-03-01 15:15:00", "+02:00", "2024-03-01T13:15:00Z"));
+    assert_eq!(
+        (first[1].as_str(), first[3].as_str(), first[5].as_str()),
+        ("2024-03-01 15:15:00", "+02:00", "2024-03-01T13:15:00Z")
+    );
 
     // ICS read back with the icalendar crate's parser.
     let unfolded = icalendar::parser::unfold(&ics);
     let cal = icalendar::parser::read_calendar(&unfolded).unwrap();
-    let events: Vec<_> = cal.components.iter().filter(|c| c.name.as_str() == "VEVENT").collect();
+    let events: Vec<_> = cal
+        .components
+        .iter()
+        .filter(|c| c.name.as_str() == "VEVENT")
+        .collect();
     assert_eq!(events.len(), windows.len());
     let compact = |s: &str| s.replace(['-', ':'], "");
     for (e, w) in events.iter().zip(windows) {
@@ -80,12 +105,20 @@ fn demo_month_in_three_formats_round_trips() {
         assert!(prop("DTSTART").ends_with('Z') && prop("DTEND").ends_with('Z'));
         assert_eq!(prop("UID"), w["uid"].as_str().unwrap());
     }
-    assert!(ics.lines().all(|l| l.trim_end_matches('\r').len() <= 75), "lines folded at 75 octets");
+    assert!(
+        ics.lines().all(|l| l.trim_end_matches('\r').len() <= 75),
+        "lines folded at 75 octets"
+    );
 
     // UIDs are stable across runs.
     schedule(dir.path(), &["--format", "ics", "--output", "again.ics"]);
     let again = std::fs::read_to_string(dir.path().join("again.ics")).unwrap();
-    let uids = |t: &str| t.lines().filter(|l| l.starts_with("UID:")).map(String::from).collect::<Vec<_>>();
+    let uids = |t: &str| {
+        t.lines()
+            .filter(|l| l.starts_with("UID:"))
+            .map(String::from)
+            .collect::<Vec<_>>()
+    };
     assert_eq!(uids(&ics), uids(&again));
 }
 
@@ -103,26 +136,53 @@ fn local_times_across_us_and_eu_changes() {
     let run = |zone: &str| {
         let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
             .current_dir(dir.path())
-            .args(["schedule", "--calendar", "c.csv", "--currencies", "USD,EUR", "--from", "2024-01-01", "--to", "2024-12-31"])
+            .args([
+                "schedule",
+                "--calendar",
+                "c.csv",
+                "--currencies",
+                "USD,EUR",
+                "--from",
+                "2024-01-01",
+                "--to",
+                "2024-12-31",
+            ])
             .args(["--tz", zone, "--format", "csv"])
             .output()
             .unwrap();
         // Each currency's calendar covers one day of the requested year:
         // the schedule is written, with a warning and status 3.
-        assert_eq!(o.status.code(), Some(3), "{}", String::from_utf8_lossy(&o.stderr));
+        assert_eq!(
+            o.status.code(),
+            Some(3),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
         assert!(String::from_utf8_lossy(&o.stderr).contains("lies partly outside it"));
         csv_rows(&String::from_utf8(o.stdout).unwrap())
     };
     // Window [06:35Z, 07:20Z]: 01:35 EST (−05:00) to 03:20 EDT (−04:00).
     let ny = run("America/New_York");
     let usd = ny.iter().find(|r| r[0] == "USD").unwrap();
-    assert_eq!((usd[1].as_str(), usd[3].as_str()), ("2024-03-10 01:35:00", "-05:00"));
-    assert_eq!((usd[2].as_str(), usd[4].as_str()), ("2024-03-10 03:20:00", "-04:00"));
+    assert_eq!(
+        (usd[1].as_str(), usd[3].as_str()),
+        ("2024-03-10 01:35:00", "-05:00")
+    );
+    assert_eq!(
+        (usd[2].as_str(), usd[4].as_str()),
+        ("2024-03-10 03:20:00", "-04:00")
+    );
     // Window [00:35Z, 01:20Z]: 02:35 CEST (+02:00) to 02:20 CET (+01:00).
     let be = run("Europe/Berlin");
     let eur = be.iter().find(|r| r[0] == "EUR").unwrap();
-    assert_eq!((eur[1].as_str(), eur[3].as_str()), ("2024-10-27 02:35:00", "+02:00"));
-    assert_eq!((eur[2].as_str(), eur[4].as_str()), ("2024-10-27 02:20:00", "+01:00"));
+    assert_eq!(
+        (eur[1].as_str(), eur[3].as_str()),
+        ("2024-10-27 02:35:00", "+02:00")
+    );
+    assert_eq!(
+        (eur[2].as_str(), eur[4].as_str()),
+        ("2024-10-27 02:20:00", "+01:00")
+    );
 }
 
 /// A window crossing local midnight shows the date it ends on, and high-tier
@@ -137,15 +197,39 @@ fn midnight_crossing_windows_and_all_day_releases_are_shown() {
     .unwrap();
     let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
         .current_dir(dir.path())
-        .args(["schedule", "--calendar", "c.csv", "--currencies", "USD", "--from", "2024-03-05", "--to", "2024-03-07", "--tz", "UTC"])
+        .args([
+            "schedule",
+            "--calendar",
+            "c.csv",
+            "--currencies",
+            "USD",
+            "--from",
+            "2024-03-05",
+            "--to",
+            "2024-03-07",
+            "--tz",
+            "UTC",
+        ])
         .output()
         .unwrap();
-    let (out, err) = (String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+    let (out, err) = (
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr),
+    );
     // 23:50 − 15 min to + 30 min: 23:35 on Tuesday to 00:20 on Wednesday.
     let late = out.lines().find(|l| l.contains("Late release")).unwrap();
-    assert!(late.contains("Tue 2024-03-05 23:35") && late.contains("Wed 2024-03-06 00:20"), "{late}");
+    assert!(
+        late.contains("Tue 2024-03-05 23:35") && late.contains("Wed 2024-03-06 00:20"),
+        "{late}"
+    );
     let morning = out.lines().find(|l| l.contains("Morning")).unwrap();
-    assert!(morning.contains("Thu 2024-03-07 08:15") && morning.contains(" 09:00 "), "{morning}");
-    assert!(err.contains("1 high-tier all-day release(s) in the range are left out"), "{err}");
+    assert!(
+        morning.contains("Thu 2024-03-07 08:15") && morning.contains(" 09:00 "),
+        "{morning}"
+    );
+    assert!(
+        err.contains("1 high-tier all-day release(s) in the range are left out"),
+        "{err}"
+    );
     assert_eq!(o.status.code(), Some(3));
 }

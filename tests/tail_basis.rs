@@ -17,20 +17,52 @@ fn analyze(trades: &str, extra: &[&str]) -> (Value, std::path::PathBuf, tempfile
     let out = dir.path().join("out");
     let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
         .current_dir(dir.path())
-        .args(["analyze", "--trades", "t.csv", "--calendar", "c.csv", "--placebo", "0", "--bootstrap", "0", "--tcr-p", "25", "--json", "--out"])
+        .args([
+            "analyze",
+            "--trades",
+            "t.csv",
+            "--calendar",
+            "c.csv",
+            "--placebo",
+            "0",
+            "--bootstrap",
+            "0",
+            "--tcr-p",
+            "25",
+            "--json",
+            "--out",
+        ])
         .arg(&out)
         .args(extra)
         .output()
         .unwrap();
-    assert!(o.status.code() == Some(0) || o.status.code() == Some(3), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(
+        o.status.code() == Some(0) || o.status.code() == Some(3),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     (serde_json::from_slice(&o.stdout).unwrap(), out, dir)
 }
 
 fn rows(equity: bool) -> String {
-    let mut s = String::from(if equity { "opened_at,closed_at,instrument,pnl,equity_before\n" } else { "opened_at,closed_at,instrument,pnl\n" });
-    for (d, (pnl, eq)) in [(100.0, 1000.0), (110.0, 1100.0), (121.0, 1210.0), (133.1, 1331.0)].iter().enumerate() {
+    let mut s = String::from(if equity {
+        "opened_at,closed_at,instrument,pnl,equity_before\n"
+    } else {
+        "opened_at,closed_at,instrument,pnl\n"
+    });
+    for (d, (pnl, eq)) in [
+        (100.0, 1000.0),
+        (110.0, 1100.0),
+        (121.0, 1210.0),
+        (133.1, 1331.0),
+    ]
+    .iter()
+    .enumerate()
+    {
         let day = 4 + d;
-        s.push_str(&format!("2024-03-0{day} 10:00,2024-03-0{day} 11:00,EURUSD,{pnl}"));
+        s.push_str(&format!(
+            "2024-03-0{day} 10:00,2024-03-0{day} 11:00,EURUSD,{pnl}"
+        ));
         if equity {
             s.push_str(&format!(",{eq}"));
         }
@@ -43,17 +75,31 @@ const AMOUNT_TCR: f64 = 133.1 / 116.025;
 
 #[test]
 fn compounding_measures_the_tail_on_returns() {
-    let (j, out, _dir) = analyze(&rows(false), &["--sizing", "compounding", "--initial-equity", "1000"]);
+    let (j, out, _dir) = analyze(
+        &rows(false),
+        &["--sizing", "compounding", "--initial-equity", "1000"],
+    );
     assert_eq!(j["tail"]["tcr_basis"], "return");
     let tcr = j["scenarios"]["baseline"]["tcr"].as_f64().unwrap();
     assert!((tcr - 1.0).abs() < 1e-12, "{tcr}");
     assert!((j["tail"]["baseline"]["tcr"].as_f64().unwrap() - 1.0).abs() < 1e-12);
     let csv = std::fs::read_to_string(out.join("tail.csv")).unwrap();
     assert!(csv.starts_with("rank,abs_return,exposed\n"), "{csv}");
-    let first: f64 = csv.lines().nth(1).unwrap().split(',').nth(1).unwrap().parse().unwrap();
+    let first: f64 = csv
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .nth(1)
+        .unwrap()
+        .parse()
+        .unwrap();
     assert!((first - 0.1).abs() < 1e-12, "{first}");
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
-    assert!(html.contains("on per-trade returns"), "the report names the basis");
+    assert!(
+        html.contains("on per-trade returns"),
+        "the report names the basis"
+    );
 }
 
 #[test]

@@ -6,7 +6,11 @@ mod common;
 use serde_json::Value;
 
 fn demo(cmd: &str, extra: &[&str]) -> Value {
-    let o = common::demo(cmd).arg("--json").args(extra).output().unwrap();
+    let o = common::demo(cmd)
+        .arg("--json")
+        .args(extra)
+        .output()
+        .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     serde_json::from_slice(&o.stdout).unwrap()
 }
@@ -23,7 +27,10 @@ fn close(a: &Value, b: &Value) -> bool {
 /// compounding figures were fixed-sizing ones).
 #[test]
 fn tune_cells_match_analyze_and_frontier_is_not_empty() {
-    for sizing in [&[][..], &["--sizing", "compounding", "--initial-equity", "100000"][..]] {
+    for sizing in [
+        &[][..],
+        &["--sizing", "compounding", "--initial-equity", "100000"][..],
+    ] {
         let mut flags = vec!["--pre", "0..30/15", "--post", "0..60/30"];
         flags.extend_from_slice(sizing);
         let t = demo("tune", &flags);
@@ -31,20 +38,53 @@ fn tune_cells_match_analyze_and_frontier_is_not_empty() {
         assert_eq!(cells.len(), 9);
         assert!(cells.iter().any(|c| c["frontier"] == true));
         for (pre, post) in [(15, 30), (0, 60), (30, 0)] {
-            let c = cells.iter().find(|c| c["pre_min"] == pre && c["post_min"] == post).unwrap();
+            let c = cells
+                .iter()
+                .find(|c| c["pre_min"] == pre && c["post_min"] == post)
+                .unwrap();
             let w = format!("{pre}/{post}");
             let (hw, mw) = (format!("high={w}"), format!("medium={w}"));
-            let mut flags = vec!["--window", &hw, "--window", &mw, "--placebo", "0", "--bootstrap", "0"];
+            let mut flags = vec![
+                "--window",
+                &hw,
+                "--window",
+                &mw,
+                "--placebo",
+                "0",
+                "--bootstrap",
+                "0",
+            ];
             flags.extend_from_slice(sizing);
             let a = demo("analyze", &flags);
             let rem = &a["scenarios"]["removed"];
             let at = format!("{w} {sizing:?}");
             assert_eq!(c["trades_removed"], a["exposure"]["exposed_trades"], "{at}");
-            assert!(close(&t["tcr_baseline"], &a["scenarios"]["baseline"]["tcr"]), "{at}: baseline tcr");
-            assert!(close(&c["tcr_after"], &rem["tcr"]), "{at}: tcr {} vs {}", c["tcr_after"], rem["tcr"]);
-            assert!(close(&c["sharpe_after"], &rem["sharpe"]), "{at}: sharpe {} vs {}", c["sharpe_after"], rem["sharpe"]);
-            assert!(close(&c["max_drawdown_after"], &rem["max_drawdown"]), "{at}: max dd {} vs {}", c["max_drawdown_after"], rem["max_drawdown"]);
-            assert!(close(&c["share_of_net_removed"], &a["headline"]["share_of_net"]), "{at}: share");
+            assert!(
+                close(&t["tcr_baseline"], &a["scenarios"]["baseline"]["tcr"]),
+                "{at}: baseline tcr"
+            );
+            assert!(
+                close(&c["tcr_after"], &rem["tcr"]),
+                "{at}: tcr {} vs {}",
+                c["tcr_after"],
+                rem["tcr"]
+            );
+            assert!(
+                close(&c["sharpe_after"], &rem["sharpe"]),
+                "{at}: sharpe {} vs {}",
+                c["sharpe_after"],
+                rem["sharpe"]
+            );
+            assert!(
+                close(&c["max_drawdown_after"], &rem["max_drawdown"]),
+                "{at}: max dd {} vs {}",
+                c["max_drawdown_after"],
+                rem["max_drawdown"]
+            );
+            assert!(
+                close(&c["share_of_net_removed"], &a["headline"]["share_of_net"]),
+                "{at}: share"
+            );
         }
     }
 }

@@ -23,7 +23,10 @@ pub struct ContentLine {
 impl ContentLine {
     /// The first value of a parameter, by upper-case name.
     pub fn param(&self, name: &str) -> Option<&str> {
-        self.params.iter().find(|(n, _)| n == name).map(|(_, v)| v.as_str())
+        self.params
+            .iter()
+            .find(|(n, _)| n == name)
+            .map(|(_, v)| v.as_str())
     }
 }
 
@@ -56,7 +59,8 @@ pub fn parse_lines_each(bytes: &[u8]) -> Vec<Result<ContentLine, LineError>> {
             if logical.is_empty() && out.is_empty() {
                 out.push(Err(LineError {
                     line: physical,
-                    message: "continuation line (starts with a space) before any content line".into(),
+                    message: "continuation line (starts with a space) before any content line"
+                        .into(),
                 }));
                 return out;
             }
@@ -84,9 +88,14 @@ fn split_line(bytes: &[u8], line: usize) -> Result<ContentLine, LineError> {
             e.valid_up_to()
         ),
     })?;
-    let fail = |m: &str| LineError { line, message: format!("{m}: '{}'", text.chars().take(60).collect::<String>()) };
+    let fail = |m: &str| LineError {
+        line,
+        message: format!("{m}: '{}'", text.chars().take(60).collect::<String>()),
+    };
     // The name runs to the first ';' or ':'.
-    let name_end = text.find([';', ':']).ok_or_else(|| fail("no ':' separating name and value"))?;
+    let name_end = text
+        .find([';', ':'])
+        .ok_or_else(|| fail("no ':' separating name and value"))?;
     let name = text[..name_end].trim().to_ascii_uppercase();
     if name.is_empty() || !name.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'-') {
         return Err(fail("bad property name"));
@@ -94,12 +103,16 @@ fn split_line(bytes: &[u8], line: usize) -> Result<ContentLine, LineError> {
     let mut params = Vec::new();
     let mut rest = &text[name_end..];
     while let Some(after) = rest.strip_prefix(';') {
-        let eq = after.find('=').ok_or_else(|| fail("parameter without '='"))?;
+        let eq = after
+            .find('=')
+            .ok_or_else(|| fail("parameter without '='"))?;
         let pname = after[..eq].trim().to_ascii_uppercase();
         let mut v = &after[eq + 1..];
         let value;
         if let Some(q) = v.strip_prefix('"') {
-            let close = q.find('"').ok_or_else(|| fail("unclosed quote in parameter"))?;
+            let close = q
+                .find('"')
+                .ok_or_else(|| fail("unclosed quote in parameter"))?;
             value = q[..close].to_string();
             v = &q[close + 1..];
         } else {
@@ -110,7 +123,9 @@ fn split_line(bytes: &[u8], line: usize) -> Result<ContentLine, LineError> {
         // Multi-valued parameters: keep the first value, skip the rest.
         while let Some(more) = v.strip_prefix(',') {
             let end = if let Some(q) = more.strip_prefix('"') {
-                q.find('"').map(|c| c + 2).ok_or_else(|| fail("unclosed quote in parameter"))?
+                q.find('"')
+                    .map(|c| c + 2)
+                    .ok_or_else(|| fail("unclosed quote in parameter"))?
             } else {
                 more.find([';', ':', ',']).unwrap_or(more.len())
             };
@@ -119,8 +134,15 @@ fn split_line(bytes: &[u8], line: usize) -> Result<ContentLine, LineError> {
         params.push((pname, value));
         rest = v;
     }
-    let value = rest.strip_prefix(':').ok_or_else(|| fail("no ':' separating name and value"))?;
-    Ok(ContentLine { line, name, params, value: value.to_string() })
+    let value = rest
+        .strip_prefix(':')
+        .ok_or_else(|| fail("no ':' separating name and value"))?;
+    Ok(ContentLine {
+        line,
+        name,
+        params,
+        value: value.to_string(),
+    })
 }
 
 /// Decodes a TEXT value (RFC 5545 §3.3.11): `\\`, `\;`, `\,`, `\n`, `\N`.
@@ -166,7 +188,11 @@ pub fn split_text_list(v: &str) -> Vec<String> {
         cur.push('\\');
     }
     items.push(unescape_text(&cur));
-    items.into_iter().map(|s| s.trim().to_string()).filter(|s| !s.is_empty()).collect()
+    items
+        .into_iter()
+        .map(|s| s.trim().to_string())
+        .filter(|s| !s.is_empty())
+        .collect()
 }
 
 #[cfg(test)]
@@ -177,10 +203,14 @@ mod tests {
     /// spaces, one of which is content.
     #[test]
     fn rfc5545_folding_example() {
-        let src = b"DESCRIPTION:This is a lo\r\n ng description\r\n  that exists on a long line.\r\n";
+        let src =
+            b"DESCRIPTION:This is a lo\r\n ng description\r\n  that exists on a long line.\r\n";
         let lines = parse_lines(src).unwrap();
         assert_eq!(lines.len(), 1);
-        assert_eq!(lines[0].value, "This is a long description that exists on a long line.");
+        assert_eq!(
+            lines[0].value,
+            "This is a long description that exists on a long line."
+        );
     }
 
     /// RFC 5545 §4 first example, DESCRIPTION decoded as REFERENCES.md §1.3 gives.
@@ -204,12 +234,17 @@ mod tests {
 
     #[test]
     fn params_quoted_and_multi() {
-        let l = &parse_lines(b"DTSTART;TZID=\"America/New_York\";VALUE=DATE-TIME:19980119T020000\n").unwrap()[0];
+        let l =
+            &parse_lines(b"DTSTART;TZID=\"America/New_York\";VALUE=DATE-TIME:19980119T020000\n")
+                .unwrap()[0];
         assert_eq!(l.name, "DTSTART");
         assert_eq!(l.param("TZID"), Some("America/New_York"));
         assert_eq!(l.param("VALUE"), Some("DATE-TIME"));
         assert_eq!(l.value, "19980119T020000");
-        let l = &parse_lines(b"ATTENDEE;DELEGATED-TO=\"mailto:a@x\",\"mailto:b@x\";RSVP=TRUE:mailto:c@x\n").unwrap()[0];
+        let l = &parse_lines(
+            b"ATTENDEE;DELEGATED-TO=\"mailto:a@x\",\"mailto:b@x\";RSVP=TRUE:mailto:c@x\n",
+        )
+        .unwrap()[0];
         assert_eq!(l.param("RSVP"), Some("TRUE"));
         assert_eq!(l.value, "mailto:c@x");
     }
@@ -217,8 +252,14 @@ mod tests {
     /// RFC 5545 §3.8.1.2 examples; an escaped comma is content.
     #[test]
     fn categories_split() {
-        assert_eq!(split_text_list("BUSINESS,HUMAN RESOURCES"), vec!["BUSINESS", "HUMAN RESOURCES"]);
-        assert_eq!(split_text_list("ANNIVERSARY,PERSONAL,SPECIAL OCCASION").len(), 3);
+        assert_eq!(
+            split_text_list("BUSINESS,HUMAN RESOURCES"),
+            vec!["BUSINESS", "HUMAN RESOURCES"]
+        );
+        assert_eq!(
+            split_text_list("ANNIVERSARY,PERSONAL,SPECIAL OCCASION").len(),
+            3
+        );
         assert_eq!(split_text_list("A\\,B,C"), vec!["A,B", "C"]);
     }
 

@@ -73,7 +73,8 @@ const COUNTRIES: &[(&str, &[(u32, &str)])] = &[
 /// Codes of earlier currencies the table maps to (no longer in ISO 4217's
 /// current list, valid for releases before the euro).
 pub const FORMER: &[&str] = &[
-    "ATS", "BEF", "CYP", "DEM", "EEK", "ESP", "FIM", "FRF", "GRD", "HRK", "IEP", "ITL", "LTL", "LUF", "LVL", "MTL", "NLG", "PTE", "SIT", "SKK",
+    "ATS", "BEF", "CYP", "DEM", "EEK", "ESP", "FIM", "FRF", "GRD", "HRK", "IEP", "ITL", "LTL",
+    "LUF", "LVL", "MTL", "NLG", "PTE", "SIT", "SKK",
 ];
 
 /// Country names (lower case) to codes: the ISO 3166-1 English short names
@@ -199,7 +200,10 @@ pub fn code_of(text: &str) -> Option<&'static str> {
         return COUNTRIES.iter().find(|(c, _)| *c == upper).map(|(c, _)| *c);
     }
     let lower = t.to_lowercase();
-    NAMES.binary_search_by(|(n, _)| (*n).cmp(lower.as_str())).ok().map(|i| NAMES[i].1)
+    NAMES
+        .binary_search_by(|(n, _)| (*n).cmp(lower.as_str()))
+        .ok()
+        .map(|i| NAMES[i].1)
 }
 
 /// The currency of `country` on `date`; `None` for an unknown code or a
@@ -207,9 +211,16 @@ pub fn code_of(text: &str) -> Option<&'static str> {
 pub fn currency_on(country: &str, date: chrono::NaiveDate) -> Option<&'static str> {
     use chrono::Datelike;
     let upper = country.to_ascii_uppercase();
-    let i = COUNTRIES.binary_search_by(|(c, _)| (*c).cmp(upper.as_str())).ok()?;
+    let i = COUNTRIES
+        .binary_search_by(|(c, _)| (*c).cmp(upper.as_str()))
+        .ok()?;
     let day = date.year() as u32 * 10_000 + date.month() * 100 + date.day();
-    COUNTRIES[i].1.iter().rev().find(|(from, _)| *from <= day).map(|(_, code)| *code)
+    COUNTRIES[i]
+        .1
+        .iter()
+        .rev()
+        .find(|(from, _)| *from <= day)
+        .map(|(_, code)| *code)
 }
 
 #[cfg(test)]
@@ -220,24 +231,38 @@ mod tests {
     fn table_is_sorted_and_matches_cldr() {
         assert!(COUNTRIES.windows(2).all(|w| w[0].0 < w[1].0));
         assert!(FORMER.windows(2).all(|w| w[0] < w[1]));
-        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/country_currency.json");
-        let cases: Vec<(String, String, Vec<String>)> = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/fixtures/country_currency.json"
+        );
+        let cases: Vec<(String, String, Vec<String>)> =
+            serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
         assert!(cases.len() > 100, "{}", cases.len());
         for (country, date, in_use) in &cases {
             let d = chrono::NaiveDate::parse_from_str(date, "%Y-%m-%d").unwrap();
             let ours = currency_on(country, d).unwrap_or("none");
-            assert!(in_use.iter().any(|c| c == ours), "{country} on {date}: ours {ours}, CLDR {in_use:?}");
+            assert!(
+                in_use.iter().any(|c| c == ours),
+                "{country} on {date}: ours {ours}, CLDR {in_use:?}"
+            );
         }
         for (country, _) in COUNTRIES {
-            assert!(cases.iter().any(|c| c.0 == *country), "{country} has no CLDR check");
+            assert!(
+                cases.iter().any(|c| c.0 == *country),
+                "{country} has no CLDR check"
+            );
         }
     }
 
     #[test]
     fn names_match_iso_3166_as_pycountry_has_them() {
         assert!(NAMES.windows(2).all(|w| w[0].0 < w[1].0));
-        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/country_names.json");
-        let names: Vec<(String, String)> = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/fixtures/country_names.json"
+        );
+        let names: Vec<(String, String)> =
+            serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
         for (name, code) in &names {
             assert_eq!(code_of(name), Some(code.as_str()), "{name}");
         }

@@ -13,7 +13,9 @@
 use super::contentline::{ContentLine, parse_lines_each, split_text_list, unescape_text};
 use super::rules::Draft;
 use super::vtimezone::{CustomZone, Observance, expand_local};
-use super::{CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency};
+use super::{
+    CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency,
+};
 use crate::timefmt::{scan_date, scan_time};
 use crate::zones::{DAY_MS, LocalPolicy, Zone, ms_to_naive, naive_to_ms};
 use chrono::{NaiveDate, NaiveDateTime, NaiveTime};
@@ -37,7 +39,8 @@ enum IcsTime {
 fn parse_ics_time(v: &str, value_param: Option<&str>) -> Result<IcsTime, String> {
     let v = v.trim();
     let b = v.as_bytes();
-    let bad = || format!("'{v}' is not an RFC 5545 DATE (YYYYMMDD) or DATE-TIME (YYYYMMDDTHHMMSS[Z])");
+    let bad =
+        || format!("'{v}' is not an RFC 5545 DATE (YYYYMMDD) or DATE-TIME (YYYYMMDDTHHMMSS[Z])");
     if b.len() < 8 || !b[..8].iter().all(u8::is_ascii_digit) {
         return Err(bad());
     }
@@ -72,7 +75,9 @@ enum EventZone<'a> {
 impl EventZone<'_> {
     fn to_utc(&self, local: &NaiveDateTime) -> i64 {
         match self {
-            EventZone::Named(z) => z.to_utc(local, LocalPolicy::Rfc5545).expect("RFC policy never fails"),
+            EventZone::Named(z) => z
+                .to_utc(local, LocalPolicy::Rfc5545)
+                .expect("RFC policy never fails"),
             EventZone::Custom(c) => c.to_utc_rfc(local),
         }
     }
@@ -93,7 +98,13 @@ impl EventZone<'_> {
 /// - a floating time under a zoned or UTC DTSTART: a time on DTSTART's clock.
 ///
 /// `None`: UNTIL lies before DTSTART, an empty series.
-fn rule_for_expander(rule: &str, start: IcsTime, zoned: bool, zone: &EventZone, notes: &mut Vec<String>) -> Result<Option<String>, String> {
+fn rule_for_expander(
+    rule: &str,
+    start: IcsTime,
+    zoned: bool,
+    zone: &EventZone,
+    notes: &mut Vec<String>,
+) -> Result<Option<String>, String> {
     let mut parts: Vec<String> = Vec::new();
     let local0 = match start {
         IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
@@ -118,17 +129,23 @@ fn rule_for_expander(rule: &str, start: IcsTime, zoned: bool, zone: &EventZone, 
             (IcsTime::Utc(t), IcsTime::Utc(_)) => t,
             (IcsTime::Utc(t), _) => zone.to_local(naive_to_ms(&t)),
             (IcsTime::Local(t), IcsTime::Local(_)) if zoned => {
-                notes.push(format!("RRULE '{rule}': UNTIL has no Z under a zoned DTSTART; read on DTSTART's clock"));
+                notes.push(format!(
+                    "RRULE '{rule}': UNTIL has no Z under a zoned DTSTART; read on DTSTART's clock"
+                ));
                 t
             }
             (IcsTime::Local(t), IcsTime::Local(_) | IcsTime::Date(_)) => t,
             (IcsTime::Local(t), IcsTime::Utc(_)) => {
-                notes.push(format!("RRULE '{rule}': UNTIL has no Z under a UTC DTSTART; read as UTC"));
+                notes.push(format!(
+                    "RRULE '{rule}': UNTIL has no Z under a UTC DTSTART; read as UTC"
+                ));
                 t
             }
         };
         if on_clock < local0 {
-            notes.push(format!("RRULE '{rule}': UNTIL lies before DTSTART, so the series is empty"));
+            notes.push(format!(
+                "RRULE '{rule}': UNTIL lies before DTSTART, so the series is empty"
+            ));
             return Ok(None);
         }
         parts.push(format!("UNTIL={}", on_clock.format("%Y%m%dT%H%M%SZ")));
@@ -154,9 +171,16 @@ pub fn read(
     out: &mut Vec<Release>,
     summary: &mut CalendarSummary,
 ) -> Result<(), CalendarError> {
-    let bytes = std::fs::read(path).map_err(|source| CalendarError::Io { path: path.into(), source })?;
-    read_bytes(&bytes, &path.display().to_string(), opts, out, summary)
-        .map_err(|message| CalendarError::Format { path: path.into(), message })
+    let bytes = std::fs::read(path).map_err(|source| CalendarError::Io {
+        path: path.into(),
+        source,
+    })?;
+    read_bytes(&bytes, &path.display().to_string(), opts, out, summary).map_err(|message| {
+        CalendarError::Format {
+            path: path.into(),
+            message,
+        }
+    })
 }
 
 /// Reads iCalendar bytes; `file` names them in messages. Structural errors
@@ -207,9 +231,16 @@ pub fn read_bytes(
                 let parent = stack.last().map(|s| s.0.as_str());
                 match (comp.as_str(), parent) {
                     ("VCALENDAR", None) => saw_calendar = true,
-                    ("VEVENT", Some("VCALENDAR")) => cur_event = Some(Component { line: l.line, props: Vec::new() }),
+                    ("VEVENT", Some("VCALENDAR")) => {
+                        cur_event = Some(Component {
+                            line: l.line,
+                            props: Vec::new(),
+                        })
+                    }
                     ("VTIMEZONE", Some("VCALENDAR")) => {}
-                    ("STANDARD" | "DAYLIGHT", Some("VTIMEZONE")) => cur_obs = Some(Observance::default()),
+                    ("STANDARD" | "DAYLIGHT", Some("VTIMEZONE")) => {
+                        cur_obs = Some(Observance::default())
+                    }
                     _ => {
                         skipping = Some((comp, l.line));
                         continue;
@@ -220,7 +251,10 @@ pub fn read_bytes(
             "END" => {
                 let comp = l.value.trim().to_ascii_uppercase();
                 let Some((open, at)) = stack.pop() else {
-                    return Err(format!("line {}: END:{comp} without a matching BEGIN", l.line));
+                    return Err(format!(
+                        "line {}: END:{comp} without a matching BEGIN",
+                        l.line
+                    ));
                 };
                 if open != comp {
                     return Err(format!(
@@ -248,14 +282,18 @@ pub fn read_bytes(
                     }
                 } else if l.name == "TZID" && stack.last().is_some_and(|s| s.0 == "VTIMEZONE") {
                     cur_tzid = Some(l.value.trim().to_string());
-                } else if l.name == "X-WR-TIMEZONE" && stack.last().is_some_and(|s| s.0 == "VCALENDAR") {
+                } else if l.name == "X-WR-TIMEZONE"
+                    && stack.last().is_some_and(|s| s.0 == "VCALENDAR")
+                {
                     wr_timezone = Some(unescape_text(&l.value).trim().to_string());
                 }
             }
         }
     }
     if let Some((open, at)) = stack.pop() {
-        return Err(format!("BEGIN:{open} at line {at} has no END:{open}; the file looks truncated"));
+        return Err(format!(
+            "BEGIN:{open} at line {at} has no END:{open}; the file looks truncated"
+        ));
     }
     if !saw_calendar {
         return Err("no BEGIN:VCALENDAR found; is this an iCalendar file?".into());
@@ -264,7 +302,11 @@ pub fn read_bytes(
     let until = opts
         .span
         .map(|s| ms_to_naive(s.1 + 2 * DAY_MS))
-        .unwrap_or_else(|| NaiveDate::from_ymd_opt(2100, 1, 1).unwrap().and_time(NaiveTime::MIN));
+        .unwrap_or_else(|| {
+            NaiveDate::from_ymd_opt(2100, 1, 1)
+                .unwrap()
+                .and_time(NaiveTime::MIN)
+        });
     // Floating times: --calendar-tz when given, else the file's
     // X-WR-TIMEZONE (a widespread calendar-level property), else UTC.
     let mut local_opts;
@@ -291,8 +333,15 @@ pub fn read_bytes(
     // Instances with RECURRENCE-ID (RFC 5545 §3.8.4.4) change one
     // occurrence of their series (same UID), or with RANGE=THISANDFUTURE
     // that one and every later one; they are applied after the series.
-    let (overrides, masters): (Vec<Component>, Vec<Component>) = events.into_iter().partition(|e| e.props.iter().any(|p| p.name == "RECURRENCE-ID"));
-    let uid_of = |e: &Component| e.props.iter().find(|p| p.name == "UID").map(|p| p.value.trim().to_string());
+    let (overrides, masters): (Vec<Component>, Vec<Component>) = events
+        .into_iter()
+        .partition(|e| e.props.iter().any(|p| p.name == "RECURRENCE-ID"));
+    let uid_of = |e: &Component| {
+        e.props
+            .iter()
+            .find(|p| p.name == "UID")
+            .map(|p| p.value.trim().to_string())
+    };
     let mut series: Vec<(Option<String>, Release)> = Vec::new();
     let mut notes = Vec::new();
     for ev in &masters {
@@ -309,16 +358,38 @@ pub fn read_bytes(
                 reason: "cancelled",
                 message: "STATUS:CANCELLED; not a release".into(),
             }),
-            Err((field, reason, message)) => summary.reject(CalendarRejection { file: file.into(), row: ev.line, field, reason, message }),
+            Err((field, reason, message)) => summary.reject(CalendarRejection {
+                file: file.into(),
+                row: ev.line,
+                field,
+                reason,
+                message,
+            }),
         }
     }
     let mut ordered: Vec<&Component> = overrides.iter().collect();
-    ordered.sort_by_key(|e| e.props.iter().find(|p| p.name == "RECURRENCE-ID").map(|p| p.value.trim().to_string()));
+    ordered.sort_by_key(|e| {
+        e.props
+            .iter()
+            .find(|p| p.name == "RECURRENCE-ID")
+            .map(|p| p.value.trim().to_string())
+    });
     for ov in ordered {
         summary.rows_read += 1;
         let uid = uid_of(ov);
         let master = masters.iter().find(|m| uid.is_some() && uid_of(m) == uid);
-        match apply_override(ov, master, file, opts, &zones_raw, &mut custom, until, &mut notes, &uid, &mut series) {
+        match apply_override(
+            ov,
+            master,
+            file,
+            opts,
+            &zones_raw,
+            &mut custom,
+            until,
+            &mut notes,
+            &uid,
+            &mut series,
+        ) {
             Ok(moved) => {
                 if moved {
                     summary.occurrences_moved += 1;
@@ -326,10 +397,18 @@ pub fn read_bytes(
                     summary.occurrences_cancelled += 1;
                 }
             }
-            Err((field, reason, message)) => summary.reject(CalendarRejection { file: file.into(), row: ov.line, field, reason, message }),
+            Err((field, reason, message)) => summary.reject(CalendarRejection {
+                file: file.into(),
+                row: ov.line,
+                field,
+                reason,
+                message,
+            }),
         }
     }
-    summary.notes.extend(notes.into_iter().map(|n| format!("{file}: {n}")));
+    summary
+        .notes
+        .extend(notes.into_iter().map(|n| format!("{file}: {n}")));
     out.extend(series.into_iter().map(|(_, r)| r));
     Ok(())
 }
@@ -353,8 +432,21 @@ fn apply_override(
     uid: &Option<String>,
     series: &mut Vec<(Option<String>, Release)>,
 ) -> Result<bool, Reject> {
-    const SERIES_ONLY: [&str; 8] = ["RRULE", "RDATE", "EXDATE", "EXRULE", "RECURRENCE-ID", "DTSTART", "DTEND", "DURATION"];
-    let rid = ov.props.iter().find(|p| p.name == "RECURRENCE-ID").expect("partitioned on it");
+    const SERIES_ONLY: [&str; 8] = [
+        "RRULE",
+        "RDATE",
+        "EXDATE",
+        "EXRULE",
+        "RECURRENCE-ID",
+        "DTSTART",
+        "DTEND",
+        "DURATION",
+    ];
+    let rid = ov
+        .props
+        .iter()
+        .find(|p| p.name == "RECURRENCE-ID")
+        .expect("partitioned on it");
     let mut props = ov.props.clone();
     if let Some(m) = master {
         for p in &m.props {
@@ -365,18 +457,33 @@ fn apply_override(
     }
     props.retain(|p| p.name != "RECURRENCE-ID");
     // The original start: RECURRENCE-ID in its own zone, else the series'.
-    let rid_time = parse_ics_time(&rid.value, rid.param("VALUE")).map_err(|m| reject("RECURRENCE-ID", "bad_time", m))?;
-    let tzid = rid.param("TZID").or_else(|| master.and_then(|m| m.props.iter().find(|p| p.name == "DTSTART")).and_then(|p| p.param("TZID")));
+    let rid_time = parse_ics_time(&rid.value, rid.param("VALUE"))
+        .map_err(|m| reject("RECURRENCE-ID", "bad_time", m))?;
+    let tzid = rid.param("TZID").or_else(|| {
+        master
+            .and_then(|m| m.props.iter().find(|p| p.name == "DTSTART"))
+            .and_then(|p| p.param("TZID"))
+    });
     let rid_at = match rid_time {
-        IcsTime::Date(d) => opts.zone.to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545).expect("RFC policy"),
+        IcsTime::Date(d) => opts
+            .zone
+            .to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545)
+            .expect("RFC policy"),
         IcsTime::Utc(t) => naive_to_ms(&t),
         IcsTime::Local(t) => match tzid {
-            Some(z) => resolve_tzid(z, zones_raw, custom, until).map_err(|m| reject("RECURRENCE-ID", "unknown_zone", m))?.to_utc(&t),
+            Some(z) => resolve_tzid(z, zones_raw, custom, until)
+                .map_err(|m| reject("RECURRENCE-ID", "unknown_zone", m))?
+                .to_utc(&t),
             None => EventZone::Named(opts.zone).to_utc(&t),
         },
     };
-    let this_and_future = rid.param("RANGE").is_some_and(|r| r.eq_ignore_ascii_case("THISANDFUTURE"));
-    let instance = Component { line: ov.line, props };
+    let this_and_future = rid
+        .param("RANGE")
+        .is_some_and(|r| r.eq_ignore_ascii_case("THISANDFUTURE"));
+    let instance = Component {
+        line: ov.line,
+        props,
+    };
     let outcome = event_releases(&instance, file, opts, zones_raw, custom, until, notes)?;
     let same_series = |u: &Option<String>| u.is_some() && u == uid;
     series.retain(|(u, r)| !(same_series(u) && r.at == rid_at));
@@ -388,7 +495,9 @@ fn apply_override(
             false
         }
         EventOutcome::Releases(rs) => {
-            let Some(mut r) = rs.into_iter().next() else { return Ok(true) };
+            let Some(mut r) = rs.into_iter().next() else {
+                return Ok(true);
+            };
             let shift = r.at - rid_at;
             if this_and_future {
                 for (u, later) in series.iter_mut() {
@@ -411,10 +520,20 @@ fn apply_override(
 }
 
 fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), String> {
-    let off = |v: &str| utc_offset(v.trim()).ok_or_else(|| format!("line {}: {} '{}' is not a UTC offset like -0500 or +005328", l.line, l.name, v));
+    let off = |v: &str| {
+        utc_offset(v.trim()).ok_or_else(|| {
+            format!(
+                "line {}: {} '{}' is not a UTC offset like -0500 or +005328",
+                l.line, l.name, v
+            )
+        })
+    };
     let local = |v: &str| match parse_ics_time(v, None) {
         Ok(IcsTime::Local(t)) => Ok(t),
-        _ => Err(format!("line {}: {} '{}' must be a local DATE-TIME", l.line, l.name, v)),
+        _ => Err(format!(
+            "line {}: {} '{}' must be a local DATE-TIME",
+            l.line, l.name, v
+        )),
     };
     match l.name.as_str() {
         "DTSTART" => o.dtstart = Some(local(&l.value)?),
@@ -473,7 +592,9 @@ fn event_releases(
     if prop("STATUS").is_some_and(|p| p.value.trim().eq_ignore_ascii_case("CANCELLED")) {
         return Ok(EventOutcome::Cancelled);
     }
-    let title = prop("SUMMARY").map(|p| unescape_text(&p.value)).unwrap_or_default();
+    let title = prop("SUMMARY")
+        .map(|p| unescape_text(&p.value))
+        .unwrap_or_default();
     if title.trim().is_empty() {
         return Err(reject("SUMMARY", "missing_title", "event has no SUMMARY"));
     }
@@ -482,10 +603,18 @@ fn event_releases(
     let mut category: Option<String> = None;
     if let Some(p) = prop("PRIORITY") {
         let n: u8 = p.value.trim().parse().map_err(|_| {
-            reject("PRIORITY", "bad_priority", format!("PRIORITY '{}' is not an integer 0–9", p.value))
+            reject(
+                "PRIORITY",
+                "bad_priority",
+                format!("PRIORITY '{}' is not an integer 0–9", p.value),
+            )
         })?;
         if n > 9 {
-            return Err(reject("PRIORITY", "bad_priority", format!("PRIORITY {n} is outside 0–9 (RFC 5545 §3.8.1.9)")));
+            return Err(reject(
+                "PRIORITY",
+                "bad_priority",
+                format!("PRIORITY {n} is outside 0–9 (RFC 5545 §3.8.1.9)"),
+            ));
         }
         tier = Tier::from_priority(n);
     }
@@ -500,58 +629,117 @@ fn event_releases(
             }
         }
     }
-    let text_of = |name: &str| prop(name).map(|p| unescape_text(&p.value).trim().to_string()).filter(|s| !s.is_empty());
+    let text_of = |name: &str| {
+        prop(name)
+            .map(|p| unescape_text(&p.value).trim().to_string())
+            .filter(|s| !s.is_empty())
+    };
     if let Some(c) = text_of(X_CURRENCY) {
         if !is_currency(&c) {
-            return Err(reject(X_CURRENCY, "bad_currency", format!("'{c}' is not an ISO 4217 code")));
+            return Err(reject(
+                X_CURRENCY,
+                "bad_currency",
+                format!("'{c}' is not an ISO 4217 code"),
+            ));
         }
         currency = Some(c.to_ascii_uppercase());
     }
     if let Some(t) = text_of(X_TIER) {
-        tier = Some(Tier::parse(&t).ok_or_else(|| reject(X_TIER, "bad_tier", format!("'{t}' is not high, medium or low")))?);
+        tier = Some(Tier::parse(&t).ok_or_else(|| {
+            reject(
+                X_TIER,
+                "bad_tier",
+                format!("'{t}' is not high, medium or low"),
+            )
+        })?);
     }
     if let Some(c) = text_of(X_CATEGORY) {
         category = Some(c.to_lowercase());
     }
     let region = text_of(X_REGION);
-    opts.rules.fill(Draft { title: &title, country: None, region: region.as_deref(), currency: &mut currency, tier: &mut tier, category: &mut category });
+    opts.rules.fill(Draft {
+        title: &title,
+        country: None,
+        region: region.as_deref(),
+        currency: &mut currency,
+        tier: &mut tier,
+        category: &mut category,
+    });
     let currency = currency.ok_or_else(|| {
-        reject("currency", "missing_currency", format!("'{title}' has no currency: add CATEGORIES:USD, {X_CURRENCY}, or a title rule"))
+        reject(
+            "currency",
+            "missing_currency",
+            format!("'{title}' has no currency: add CATEGORIES:USD, {X_CURRENCY}, or a title rule"),
+        )
     })?;
     let tier = tier.unwrap_or(Tier::Medium);
 
-    let dt = prop("DTSTART").ok_or_else(|| reject("DTSTART", "missing_time", "event has no DTSTART"))?;
-    let start = parse_ics_time(&dt.value, dt.param("VALUE")).map_err(|m| reject("DTSTART", "bad_time", m))?;
+    let dt =
+        prop("DTSTART").ok_or_else(|| reject("DTSTART", "missing_time", "event has no DTSTART"))?;
+    let start = parse_ics_time(&dt.value, dt.param("VALUE"))
+        .map_err(|m| reject("DTSTART", "bad_time", m))?;
     let zone = match (start, dt.param("TZID")) {
         (IcsTime::Utc(_), Some(_)) => {
-            return Err(reject("DTSTART", "bad_time", "TZID must not be used with a UTC (Z) time (RFC 5545 §3.3.5)"));
+            return Err(reject(
+                "DTSTART",
+                "bad_time",
+                "TZID must not be used with a UTC (Z) time (RFC 5545 §3.3.5)",
+            ));
         }
-        (IcsTime::Local(_), Some(tzid)) => resolve_tzid(tzid, zones_raw, custom, until).map_err(|m| reject("DTSTART", "unknown_zone", m))?,
+        (IcsTime::Local(_), Some(tzid)) => resolve_tzid(tzid, zones_raw, custom, until)
+            .map_err(|m| reject("DTSTART", "unknown_zone", m))?,
         _ => EventZone::Named(opts.zone),
     };
     // Occurrences as (local or UTC) start values: the union of every RRULE
     // (RFC 5545 deprecates more than one, but software still writes them).
-    let rrules: Vec<String> = ev.props.iter().filter(|p| p.name == "RRULE").map(|p| p.value.trim().to_string()).collect();
-    let mut starts: Vec<IcsTime> = if rrules.is_empty() { vec![start] } else { Vec::new() };
+    let rrules: Vec<String> = ev
+        .props
+        .iter()
+        .filter(|p| p.name == "RRULE")
+        .map(|p| p.value.trim().to_string())
+        .collect();
+    let mut starts: Vec<IcsTime> = if rrules.is_empty() {
+        vec![start]
+    } else {
+        Vec::new()
+    };
     let mut seen = std::collections::HashSet::new();
     for rule in &rrules {
         let upper = rule.to_ascii_uppercase();
         let bounded = upper.contains("COUNT=") || upper.contains("UNTIL=");
         let (from_l, to_l) = match opts.span {
-            Some((a, b)) => (ms_to_naive(a - 2 * DAY_MS), ms_to_naive(b + 2 * DAY_MS).min(until)),
+            Some((a, b)) => (
+                ms_to_naive(a - 2 * DAY_MS),
+                ms_to_naive(b + 2 * DAY_MS).min(until),
+            ),
             None if bounded => (NaiveDate::MIN.and_time(NaiveTime::MIN), until),
             None => {
-                return Err(reject("RRULE", "unbounded_rule", "RRULE has no COUNT or UNTIL; give trades or --from/--to so it can be expanded over that span"));
+                return Err(reject(
+                    "RRULE",
+                    "unbounded_rule",
+                    "RRULE has no COUNT or UNTIL; give trades or --from/--to so it can be expanded over that span",
+                ));
             }
         };
         let local0 = match start {
             IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
             IcsTime::Utc(t) | IcsTime::Local(t) => t,
         };
-        let Some(expandable) = rule_for_expander(rule, start, dt.param("TZID").is_some(), &zone, notes).map_err(|m| reject("RRULE", "bad_rule", m))? else {
+        let Some(expandable) =
+            rule_for_expander(rule, start, dt.param("TZID").is_some(), &zone, notes)
+                .map_err(|m| reject("RRULE", "bad_rule", m))?
+        else {
             continue;
         };
-        let occ = expand_local(local0, &expandable, from_l, to_l, opts.max_occurrences, MAX_RULE_STEPS).map_err(|m| reject("RRULE", "bad_rule", m))?;
+        let occ = expand_local(
+            local0,
+            &expandable,
+            from_l,
+            to_l,
+            opts.max_occurrences,
+            MAX_RULE_STEPS,
+        )
+        .map_err(|m| reject("RRULE", "bad_rule", m))?;
         for t in occ {
             let time = match start {
                 IcsTime::Date(_) => IcsTime::Date(t.date()),
@@ -564,7 +752,9 @@ fn event_releases(
         }
     }
     for p in ev.props.iter().filter(|p| p.name == "RDATE") {
-        let period = p.param("VALUE").is_some_and(|v| v.eq_ignore_ascii_case("PERIOD"));
+        let period = p
+            .param("VALUE")
+            .is_some_and(|v| v.eq_ignore_ascii_case("PERIOD"));
         for v in p.value.split(',') {
             // A PERIOD (start/end or start/duration, §3.3.9) occurs at its start.
             let (v, kind) = match v.split_once('/') {
@@ -578,10 +768,14 @@ fn event_releases(
     let mut excluded = std::collections::HashSet::new();
     for p in ev.props.iter().filter(|p| p.name == "EXDATE") {
         for v in p.value.split(',') {
-            excluded.insert(parse_ics_time(v, p.param("VALUE")).map_err(|m| reject("EXDATE", "bad_time", m))?);
+            excluded.insert(
+                parse_ics_time(v, p.param("VALUE")).map_err(|m| reject("EXDATE", "bad_time", m))?,
+            );
         }
     }
-    let uid = prop("UID").map(|p| p.value.trim().to_string()).filter(|s| !s.is_empty());
+    let uid = prop("UID")
+        .map(|p| p.value.trim().to_string())
+        .filter(|s| !s.is_empty());
     let recurring = starts.len() > 1 || !rrules.is_empty();
     let mut out = Vec::with_capacity(starts.len());
     for s in starts {
@@ -590,8 +784,17 @@ fn event_releases(
         }
         let (at, end, all_day) = match s {
             IcsTime::Date(d) => {
-                let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545).expect("RFC policy");
-                let e = opts.zone.to_utc(&(d + chrono::Days::new(1)).and_time(NaiveTime::MIN), LocalPolicy::Rfc5545).expect("RFC policy");
+                let a = opts
+                    .zone
+                    .to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545)
+                    .expect("RFC policy");
+                let e = opts
+                    .zone
+                    .to_utc(
+                        &(d + chrono::Days::new(1)).and_time(NaiveTime::MIN),
+                        LocalPolicy::Rfc5545,
+                    )
+                    .expect("RFC policy");
                 (a, e, true)
             }
             IcsTime::Utc(t) => (naive_to_ms(&t), naive_to_ms(&t), false),
@@ -601,7 +804,11 @@ fn event_releases(
             }
         };
         let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ev.line));
-        let id = if recurring { format!("{base}/{}", crate::zones::format_utc(at)) } else { base };
+        let id = if recurring {
+            format!("{base}/{}", crate::zones::format_utc(at))
+        } else {
+            base
+        };
         out.push(Release {
             id,
             at,
@@ -628,9 +835,13 @@ fn resolve_tzid<'a>(
         return Ok(EventZone::Named(Zone::Iana(tz)));
     }
     let Some(obs) = zones_raw.get(tzid) else {
-        return Err(format!("TZID '{tzid}' is neither an IANA zone name nor defined by a VTIMEZONE in this file"));
+        return Err(format!(
+            "TZID '{tzid}' is neither an IANA zone name nor defined by a VTIMEZONE in this file"
+        ));
     };
-    let built = custom.entry(tzid.to_string()).or_insert_with(|| CustomZone::build(tzid, obs, until));
+    let built = custom
+        .entry(tzid.to_string())
+        .or_insert_with(|| CustomZone::build(tzid, obs, until));
     match built {
         Ok(z) => Ok(EventZone::Custom(z)),
         Err(m) => Err(m.clone()),
@@ -662,7 +873,10 @@ mod tests {
         let body = "BEGIN:VEVENT\r\nUID:a\r\nSUMMARY:A\r\nCATEGORIES:USD\r\nDTSTART:19970714T133000\r\nEND:VEVENT\r\n\
 BEGIN:VEVENT\r\nUID:b\r\nSUMMARY:B\r\nCATEGORIES:USD\r\nDTSTART:19970714T173000Z\r\nEND:VEVENT\r\n\
 BEGIN:VEVENT\r\nUID:c\r\nSUMMARY:C\r\nCATEGORIES:USD\r\nDTSTART;TZID=America/New_York:19970714T133000\r\nEND:VEVENT\r\n";
-        let opts = CalendarOptions { zone: "America/New_York".parse().unwrap(), ..Default::default() };
+        let opts = CalendarOptions {
+            zone: "America/New_York".parse().unwrap(),
+            ..Default::default()
+        };
         let (rs, s) = read_str(&cal(body), &opts);
         assert_eq!(s.rows_rejected, 0);
         assert!(rs.iter().all(|r| r.at == utc("1997-07-14 17:30")), "{rs:?}");
@@ -686,8 +900,22 @@ BEGIN:VEVENT\r\nUID:y\r\nSUMMARY:Rate decision\r\nPRIORITY:2\r\nX-EVENTFENCE-CUR
 BEGIN:VEVENT\r\nUID:z\r\nSUMMARY:Minor\r\nPRIORITY:7\r\nCATEGORIES:GBP,housing\r\nDTSTART:20240606T090000Z\r\nEND:VEVENT\r\n";
         let (rs, _) = read_str(&cal(body), &CalendarOptions::default());
         assert_eq!(rs[0].at, utc("2024-06-06 12:15"));
-        assert_eq!((rs[0].currency.as_str(), rs[0].tier, rs[0].category.as_deref()), ("EUR", Tier::High, Some("rates")));
-        assert_eq!((rs[1].currency.as_str(), rs[1].tier, rs[1].category.as_deref()), ("GBP", Tier::Low, Some("housing")));
+        assert_eq!(
+            (
+                rs[0].currency.as_str(),
+                rs[0].tier,
+                rs[0].category.as_deref()
+            ),
+            ("EUR", Tier::High, Some("rates"))
+        );
+        assert_eq!(
+            (
+                rs[1].currency.as_str(),
+                rs[1].tier,
+                rs[1].category.as_deref()
+            ),
+            ("GBP", Tier::Low, Some("housing"))
+        );
     }
 
     #[test]
@@ -695,7 +923,10 @@ BEGIN:VEVENT\r\nUID:z\r\nSUMMARY:Minor\r\nPRIORITY:7\r\nCATEGORIES:GBP,housing\r
         // First Friday 08:30 New York; EXDATE drops one; March and November
         // 2024 straddle the US changes (REFERENCES.md §2.2).
         let body = "BEGIN:VEVENT\r\nUID:jobs\r\nSUMMARY:Jobs\r\nCATEGORIES:USD,HIGH,employment\r\nDTSTART;TZID=America/New_York:20240105T083000\r\nRRULE:FREQ=MONTHLY;BYDAY=1FR\r\nEXDATE;TZID=America/New_York:20240202T083000\r\nEND:VEVENT\r\n";
-        let opts = CalendarOptions { span: Some((utc("2024-01-01 00:00"), utc("2024-12-31 00:00"))), ..Default::default() };
+        let opts = CalendarOptions {
+            span: Some((utc("2024-01-01 00:00"), utc("2024-12-31 00:00"))),
+            ..Default::default()
+        };
         let (rs, s) = read_str(&cal(body), &opts);
         assert_eq!(rs.len(), 11);
         assert_eq!(s.recurrences_expanded, 10);
@@ -703,7 +934,10 @@ BEGIN:VEVENT\r\nUID:z\r\nSUMMARY:Minor\r\nPRIORITY:7\r\nCATEGORIES:GBP,housing\r
         assert_eq!(rs[1].at, utc("2024-03-01 13:30"));
         assert_eq!(rs[2].at, utc("2024-04-05 12:30"));
         assert_eq!(rs[10].at, utc("2024-12-06 13:30"));
-        assert!(rs.iter().all(|r| r.tier == Tier::High && r.category.as_deref() == Some("employment")));
+        assert!(
+            rs.iter()
+                .all(|r| r.tier == Tier::High && r.category.as_deref() == Some("employment"))
+        );
         assert!(rs[0].id.starts_with("jobs/"));
         // Without a span an endless rule is refused, not expanded forever.
         let (rs, s) = read_str(&cal(body), &CalendarOptions::default());
@@ -719,16 +953,28 @@ BEGIN:VEVENT\r\nSUMMARY:Prio\r\nCATEGORIES:USD\r\nPRIORITY:10\r\nDTSTART:2024010
 BEGIN:VEVENT\r\nSUMMARY:Zone\r\nCATEGORIES:USD\r\nDTSTART;TZID=Nowhere:20240101T000000\r\nEND:VEVENT\r\n\
 BEGIN:VEVENT\r\nSUMMARY:Off\r\nSTATUS:CANCELLED\r\nCATEGORIES:USD\r\nDTSTART:20240101T000000Z\r\nEND:VEVENT\r\n\
 BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102\r\nEND:VEVENT\r\n";
-        let opts = CalendarOptions { zone: "Asia/Tokyo".parse().unwrap(), ..Default::default() };
+        let opts = CalendarOptions {
+            zone: "Asia/Tokyo".parse().unwrap(),
+            ..Default::default()
+        };
         let (rs, s) = read_str(&cal(body), &opts);
         assert_eq!(s.rows_read, 6);
         assert_eq!(s.rows_rejected, 5);
-        for reason in ["missing_currency", "bad_time", "bad_priority", "unknown_zone", "cancelled"] {
+        for reason in [
+            "missing_currency",
+            "bad_time",
+            "bad_priority",
+            "unknown_zone",
+            "cancelled",
+        ] {
             assert_eq!(s.rejected_by_reason.get(reason), Some(&1), "{reason}");
         }
         assert_eq!(rs.len(), 1);
         assert!(rs[0].all_day);
-        assert_eq!((rs[0].at, rs[0].end), (utc("2024-01-01 15:00"), utc("2024-01-02 15:00")));
+        assert_eq!(
+            (rs[0].at, rs[0].end),
+            (utc("2024-01-01 15:00"), utc("2024-01-02 15:00"))
+        );
         assert_eq!(s.rejections[0].row, 4);
     }
 
@@ -736,7 +982,14 @@ BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102
     fn truncated_file_is_an_error_naming_the_line() {
         let mut out = Vec::new();
         let mut s = CalendarSummary::default();
-        let e = read_bytes(b"BEGIN:VCALENDAR\nBEGIN:VEVENT\nSUMMARY:x\n", "t.ics", &CalendarOptions::default(), &mut out, &mut s).unwrap_err();
+        let e = read_bytes(
+            b"BEGIN:VCALENDAR\nBEGIN:VEVENT\nSUMMARY:x\n",
+            "t.ics",
+            &CalendarOptions::default(),
+            &mut out,
+            &mut s,
+        )
+        .unwrap_err();
         assert!(e.contains("line 2") && e.contains("truncated"), "{e}");
     }
 }

@@ -117,7 +117,10 @@ pub const KEEP_REJECTIONS: usize = 1000;
 impl CalendarSummary {
     pub(crate) fn reject(&mut self, r: CalendarRejection) {
         self.rows_rejected += 1;
-        *self.rejected_by_reason.entry(r.reason.to_string()).or_default() += 1;
+        *self
+            .rejected_by_reason
+            .entry(r.reason.to_string())
+            .or_default() += 1;
         if self.rejections.len() < KEEP_REJECTIONS {
             self.rejections.push(r);
         }
@@ -135,12 +138,24 @@ pub struct Calendar {
 #[derive(Debug, thiserror::Error)]
 pub enum CalendarError {
     #[error("cannot read calendar {path}: {source}")]
-    Io { path: PathBuf, source: std::io::Error },
+    Io {
+        path: PathBuf,
+        source: std::io::Error,
+    },
     #[error("calendar {path}: {message}")]
     Format { path: PathBuf, message: String },
-    #[error("calendar {path}: column '{column}' for field {field} not found (columns: {available}); map it with --calendar-map {field}=<column>")]
-    MissingColumn { path: PathBuf, field: String, column: String, available: String },
-    #[error("{count} calendar row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them)")]
+    #[error(
+        "calendar {path}: column '{column}' for field {field} not found (columns: {available}); map it with --calendar-map {field}=<column>"
+    )]
+    MissingColumn {
+        path: PathBuf,
+        field: String,
+        column: String,
+        available: String,
+    },
+    #[error(
+        "{count} calendar row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them)"
+    )]
     Rejected { count: usize, examples: String },
     #[error("rules file {path}: {message}")]
     Rules { path: PathBuf, message: String },
@@ -191,7 +206,10 @@ impl Default for CalendarOptions {
 /// duplicate detection.
 pub fn normalise_title(t: &str) -> String {
     let mut out = String::with_capacity(t.len());
-    for w in t.split(|c: char| !c.is_alphanumeric()).filter(|w| !w.is_empty()) {
+    for w in t
+        .split(|c: char| !c.is_alphanumeric())
+        .filter(|w| !w.is_empty())
+    {
         if !out.is_empty() {
             out.push(' ');
         }
@@ -220,7 +238,10 @@ pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, Calen
             .map(|r| format!("  {} row {}: {}: {}", r.file, r.row, r.field, r.message))
             .collect::<Vec<_>>()
             .join("\n");
-        return Err(CalendarError::Rejected { count: summary.rows_rejected, examples });
+        return Err(CalendarError::Rejected {
+            count: summary.rows_rejected,
+            examples,
+        });
     }
     let releases = merge_duplicates(releases, &mut summary);
     summary.releases = releases.len();
@@ -230,7 +251,10 @@ pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, Calen
 /// Whether a calendar file is read as iCalendar (by its extension).
 pub fn is_ics(path: &Path) -> bool {
     matches!(
-        path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref(),
+        path.extension()
+            .and_then(|e| e.to_str())
+            .map(|e| e.to_ascii_lowercase())
+            .as_deref(),
         Some("ics" | "ical" | "ifb" | "icalendar")
     )
 }
@@ -263,21 +287,27 @@ fn merge_duplicates(mut rs: Vec<Release>, summary: &mut CalendarSummary) -> Vec<
 /// (list recalled from memory of the ISO 4217 table, not checked against
 /// the current amendment); used to tell a currency from a category word.
 pub const ISO_4217: &[&str] = &[
-    "AED", "AFN", "ALL", "AMD", "ANG", "AOA", "ARS", "AUD", "AWG", "AZN", "BAM", "BBD", "BDT", "BGN", "BHD", "BIF",
-    "BMD", "BND", "BOB", "BRL", "BSD", "BTN", "BWP", "BYN", "BZD", "CAD", "CDF", "CHF", "CLP", "CNY", "COP", "CRC",
-    "CUP", "CVE", "CZK", "DJF", "DKK", "DOP", "DZD", "EGP", "ERN", "ETB", "EUR", "FJD", "FKP", "GBP", "GEL", "GHS",
-    "GIP", "GMD", "GNF", "GTQ", "GYD", "HKD", "HNL", "HTG", "HUF", "IDR", "ILS", "INR", "IQD", "IRR", "ISK", "JMD",
-    "JOD", "JPY", "KES", "KGS", "KHR", "KMF", "KPW", "KRW", "KWD", "KYD", "KZT", "LAK", "LBP", "LKR", "LRD", "LSL",
-    "LYD", "MAD", "MDL", "MGA", "MKD", "MMK", "MNT", "MOP", "MRU", "MUR", "MVR", "MWK", "MXN", "MYR", "MZN", "NAD",
-    "NGN", "NIO", "NOK", "NPR", "NZD", "OMR", "PAB", "PEN", "PGK", "PHP", "PKR", "PLN", "PYG", "QAR", "RON", "RSD",
-    "RUB", "RWF", "SAR", "SBD", "SCR", "SDG", "SEK", "SGD", "SHP", "SLE", "SOS", "SRD", "SSP", "STN", "SVC", "SYP",
-    "SZL", "THB", "TJS", "TMT", "TND", "TOP", "TRY", "TTD", "TWD", "TZS", "UAH", "UGX", "USD", "UYU", "UZS", "VES",
-    "VND", "VUV", "WST", "XAF", "XAG", "XAU", "XCD", "XOF", "XPD", "XPF", "XPT", "YER", "ZAR", "ZMW", "ZWL",
+    "AED", "AFN", "ALL", "AMD", "ANG", "AOA", "ARS", "AUD", "AWG", "AZN", "BAM", "BBD", "BDT",
+    "BGN", "BHD", "BIF", "BMD", "BND", "BOB", "BRL", "BSD", "BTN", "BWP", "BYN", "BZD", "CAD",
+    "CDF", "CHF", "CLP", "CNY", "COP", "CRC", "CUP", "CVE", "CZK", "DJF", "DKK", "DOP", "DZD",
+    "EGP", "ERN", "ETB", "EUR", "FJD", "FKP", "GBP", "GEL", "GHS", "GIP", "GMD", "GNF", "GTQ",
+    "GYD", "HKD", "HNL", "HTG", "HUF", "IDR", "ILS", "INR", "IQD", "IRR", "ISK", "JMD", "JOD",
+    "JPY", "KES", "KGS", "KHR", "KMF", "KPW", "KRW", "KWD", "KYD", "KZT", "LAK", "LBP", "LKR",
+    "LRD", "LSL", "LYD", "MAD", "MDL", "MGA", "MKD", "MMK", "MNT", "MOP", "MRU", "MUR", "MVR",
+    "MWK", "MXN", "MYR", "MZN", "NAD", "NGN", "NIO", "NOK", "NPR", "NZD", "OMR", "PAB", "PEN",
+    "PGK", "PHP", "PKR", "PLN", "PYG", "QAR", "RON", "RSD", "RUB", "RWF", "SAR", "SBD", "SCR",
+    "SDG", "SEK", "SGD", "SHP", "SLE", "SOS", "SRD", "SSP", "STN", "SVC", "SYP", "SZL", "THB",
+    "TJS", "TMT", "TND", "TOP", "TRY", "TTD", "TWD", "TZS", "UAH", "UGX", "USD", "UYU", "UZS",
+    "VES", "VND", "VUV", "WST", "XAF", "XAG", "XAU", "XCD", "XOF", "XPD", "XPF", "XPT", "YER",
+    "ZAR", "ZMW", "ZWL",
 ];
 
 /// Whether `s` is an ISO 4217 code (case-insensitive).
 pub fn is_currency(s: &str) -> bool {
-    s.len() == 3 && ISO_4217.binary_search(&s.to_ascii_uppercase().as_str()).is_ok()
+    s.len() == 3
+        && ISO_4217
+            .binary_search(&s.to_ascii_uppercase().as_str())
+            .is_ok()
 }
 
 #[cfg(test)]
@@ -324,7 +354,11 @@ mod tests {
         };
         let mut s = CalendarSummary::default();
         let out = merge_duplicates(
-            vec![r("Jobs report", Tier::Medium), r("JOBS  report.", Tier::High), r("Jobs report, revised", Tier::Low)],
+            vec![
+                r("Jobs report", Tier::Medium),
+                r("JOBS  report.", Tier::High),
+                r("Jobs report, revised", Tier::Low),
+            ],
             &mut s,
         );
         assert_eq!(out.len(), 2);

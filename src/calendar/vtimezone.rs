@@ -27,8 +27,14 @@ pub fn expand_local(
     use chrono::TimeZone;
     // The expander's own messages name its internals (its time zones, its
     // types): ours name the rule and the RFC section instead.
-    let unreadable = || format!("RRULE '{rrule_text}' is not a recurrence rule eventfence can read (RFC 5545 §3.3.10: FREQ, then INTERVAL, COUNT or UNTIL, BY… parts)");
-    let rule: rrule::RRule<rrule::Unvalidated> = rrule_text.parse().map_err(|_: rrule::RRuleError| unreadable())?;
+    let unreadable = || {
+        format!(
+            "RRULE '{rrule_text}' is not a recurrence rule eventfence can read (RFC 5545 §3.3.10: FREQ, then INTERVAL, COUNT or UNTIL, BY… parts)"
+        )
+    };
+    let rule: rrule::RRule<rrule::Unvalidated> = rrule_text
+        .parse()
+        .map_err(|_: rrule::RRuleError| unreadable())?;
     let start = rrule::Tz::UTC.from_utc_datetime(&skip_ahead(dtstart, rrule_text, from));
     let set = rule.build(start).map_err(|_| unreadable())?;
     let mut out = Vec::new();
@@ -111,11 +117,18 @@ pub struct CustomZone {
 
 impl CustomZone {
     /// Builds the transition table up to local year `until_year`.
-    pub fn build(tzid: &str, obs: &[Observance], until: NaiveDateTime) -> Result<CustomZone, String> {
+    pub fn build(
+        tzid: &str,
+        obs: &[Observance],
+        until: NaiveDateTime,
+    ) -> Result<CustomZone, String> {
         let mut trans: Vec<(i64, i32, i32)> = Vec::new();
         for o in obs {
-            let (Some(start), Some(from), Some(to)) = (o.dtstart, o.offset_from, o.offset_to) else {
-                return Err(format!("VTIMEZONE {tzid}: an observance lacks DTSTART, TZOFFSETFROM or TZOFFSETTO"));
+            let (Some(start), Some(from), Some(to)) = (o.dtstart, o.offset_from, o.offset_to)
+            else {
+                return Err(format!(
+                    "VTIMEZONE {tzid}: an observance lacks DTSTART, TZOFFSETFROM or TZOFFSETTO"
+                ));
             };
             let mut onsets = vec![start];
             if let Some(rule) = &o.rrule {
@@ -127,7 +140,9 @@ impl CustomZone {
             }
         }
         if trans.is_empty() {
-            return Err(format!("VTIMEZONE {tzid} has no STANDARD or DAYLIGHT observance"));
+            return Err(format!(
+                "VTIMEZONE {tzid} has no STANDARD or DAYLIGHT observance"
+            ));
         }
         trans.sort_by_key(|t| t.0);
         let initial = trans[0].2;
@@ -158,7 +173,9 @@ impl CustomZone {
         let first_valid = offsets
             .iter()
             .map(|&o| base - o as i64 * 1000)
-            .filter(|&inst| naive_to_ms(&ms_to_naive(inst + self.offset_at(inst) as i64 * 1000)) == base)
+            .filter(|&inst| {
+                naive_to_ms(&ms_to_naive(inst + self.offset_at(inst) as i64 * 1000)) == base
+            })
             .min();
         match first_valid {
             Some(inst) => inst,
@@ -201,33 +218,107 @@ mod tests {
         assert_eq!(z.offset_at(utc("20240310T070000")), -4 * 3600);
         assert_eq!(z.offset_at(utc("20241103T055959")), -4 * 3600);
         assert_eq!(z.offset_at(utc("20241103T060000")), -5 * 3600);
-        assert_eq!(z.to_utc_rfc(&ndt("20071104T013000")), utc("20071104T053000"));
-        assert_eq!(z.to_utc_rfc(&ndt("20070311T023000")), utc("20070311T073000"));
-        assert_eq!(z.to_utc_rfc(&ndt("20240105T083000")), utc("20240105T133000"));
+        assert_eq!(
+            z.to_utc_rfc(&ndt("20071104T013000")),
+            utc("20071104T053000")
+        );
+        assert_eq!(
+            z.to_utc_rfc(&ndt("20070311T023000")),
+            utc("20070311T073000")
+        );
+        assert_eq!(
+            z.to_utc_rfc(&ndt("20240105T083000")),
+            utc("20240105T133000")
+        );
     }
 
     #[test]
     fn expansion_is_bounded() {
         // COUNT forbids skipping ahead: the steps before the span are bounded.
-        let e = expand_local(ndt("19900101T000000"), "FREQ=MINUTELY;COUNT=900000000", ndt("20200101T000000"), ndt("20200102T000000"), 50_000, 1_000_000)
-            .unwrap_err();
+        let e = expand_local(
+            ndt("19900101T000000"),
+            "FREQ=MINUTELY;COUNT=900000000",
+            ndt("20200101T000000"),
+            ndt("20200102T000000"),
+            50_000,
+            1_000_000,
+        )
+        .unwrap_err();
         assert!(e.contains("steps"), "{e}");
         // Without COUNT the same rule skips ahead to the span: 1 441 minutes.
-        let ok = expand_local(ndt("19900101T000000"), "FREQ=MINUTELY", ndt("20200101T000000"), ndt("20200102T000000"), 50_000, 1_000_000).unwrap();
+        let ok = expand_local(
+            ndt("19900101T000000"),
+            "FREQ=MINUTELY",
+            ndt("20200101T000000"),
+            ndt("20200102T000000"),
+            50_000,
+            1_000_000,
+        )
+        .unwrap();
         assert_eq!(ok.len(), 1441);
-        let e = expand_local(ndt("20200101T000000"), "FREQ=MINUTELY", ndt("20200101T000000"), ndt("20210101T000000"), 50_000, 1_000_000)
-            .unwrap_err();
+        let e = expand_local(
+            ndt("20200101T000000"),
+            "FREQ=MINUTELY",
+            ndt("20200101T000000"),
+            ndt("20210101T000000"),
+            50_000,
+            1_000_000,
+        )
+        .unwrap_err();
         assert!(e.contains("occurrences"), "{e}");
         // Started centuries before the span: skipped ahead, same occurrences.
-        let late = expand_local(ndt("00040204T000000"), "FREQ=MINUTELY;INTERVAL=7", ndt("20200101T000000"), ndt("20200101T010000"), 50_000, 1_000)
-            .unwrap();
-        let step = (ndt("20200101T000000") - ndt("00040204T000000")).num_minutes().rem_euclid(7);
-        assert_eq!(late[0], ndt("20200101T000000") + chrono::Duration::minutes((7 - step) % 7));
+        let late = expand_local(
+            ndt("00040204T000000"),
+            "FREQ=MINUTELY;INTERVAL=7",
+            ndt("20200101T000000"),
+            ndt("20200101T010000"),
+            50_000,
+            1_000,
+        )
+        .unwrap();
+        let step = (ndt("20200101T000000") - ndt("00040204T000000"))
+            .num_minutes()
+            .rem_euclid(7);
+        assert_eq!(
+            late[0],
+            ndt("20200101T000000") + chrono::Duration::minutes((7 - step) % 7)
+        );
         assert_eq!(late.len(), 9);
         assert!(late.windows(2).all(|w| (w[1] - w[0]).num_minutes() == 7));
-        let weekly = expand_local(ndt("19000102T083000"), "FREQ=WEEKLY;BYDAY=TU,TH", ndt("20240101T000000"), ndt("20240115T000000"), 100, 1_000).unwrap();
-        assert_eq!(weekly, vec![ndt("20240102T083000"), ndt("20240104T083000"), ndt("20240109T083000"), ndt("20240111T083000")]);
-        let ok = expand_local(ndt("20240105T083000"), "FREQ=MONTHLY;BYDAY=1FR;COUNT=3", ndt("20240101T000000"), ndt("20250101T000000"), 10, 100).unwrap();
-        assert_eq!(ok, vec![ndt("20240105T083000"), ndt("20240202T083000"), ndt("20240301T083000")]);
+        let weekly = expand_local(
+            ndt("19000102T083000"),
+            "FREQ=WEEKLY;BYDAY=TU,TH",
+            ndt("20240101T000000"),
+            ndt("20240115T000000"),
+            100,
+            1_000,
+        )
+        .unwrap();
+        assert_eq!(
+            weekly,
+            vec![
+                ndt("20240102T083000"),
+                ndt("20240104T083000"),
+                ndt("20240109T083000"),
+                ndt("20240111T083000")
+            ]
+        );
+        let ok = expand_local(
+            ndt("20240105T083000"),
+            "FREQ=MONTHLY;BYDAY=1FR;COUNT=3",
+            ndt("20240101T000000"),
+            ndt("20250101T000000"),
+            10,
+            100,
+        )
+        .unwrap();
+        assert_eq!(
+            ok,
+            vec![
+                ndt("20240105T083000"),
+                ndt("20240202T083000"),
+                ndt("20240301T083000")
+            ]
+        );
     }
 }

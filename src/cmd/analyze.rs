@@ -53,35 +53,87 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
     let loaded = args.input.load("analyze", &args.terminal)?;
-    let (trades, trade_summary, cal, currencies) = (&loaded.trades, &loaded.trade_summary, &loaded.calendar, &loaded.currencies);
-    let (mut result, exposure) = analysis::analyze(trades, &cal.releases, currencies, &settings, args.out.is_some())?;
+    let (trades, trade_summary, cal, currencies) = (
+        &loaded.trades,
+        &loaded.trade_summary,
+        &loaded.calendar,
+        &loaded.currencies,
+    );
+    let (mut result, exposure) = analysis::analyze(
+        trades,
+        &cal.releases,
+        currencies,
+        &settings,
+        args.out.is_some(),
+    )?;
     // The scenario series (filled only for --out) go to the files below.
     let series = std::mem::take(&mut result.series);
-    let (placebo, bootstrap) = chance(&args, trades, &cal.releases, currencies, &settings, &exposure, result.initial_equity);
-    let inputs = Inputs::new(trade_summary, args.input.trades.trades_tz.clone(), &cal.summary, args.input.calendar.calendar_tz().to_string());
+    let (placebo, bootstrap) = chance(
+        &args,
+        trades,
+        &cal.releases,
+        currencies,
+        &settings,
+        &exposure,
+        result.initial_equity,
+    );
+    let inputs = Inputs::new(
+        trade_summary,
+        args.input.trades.trades_tz.clone(),
+        &cal.summary,
+        args.input.calendar.calendar_tz().to_string(),
+    );
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     crate::phases::mark("summary");
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
-        let mut removed_abs: Vec<f64> = series.removed.view().tail_values().iter().map(|v| v.abs()).collect();
+        let mut removed_abs: Vec<f64> = series
+            .removed
+            .view()
+            .tail_values()
+            .iter()
+            .map(|v| v.abs())
+            .collect();
         removed_abs.sort_by(|a, b| b.total_cmp(a));
         drop(series);
-        let annotated = crate::render::files::annotated_trades(trades, &exposure, &cal.releases, &trade_summary.files);
+        let annotated = crate::render::files::annotated_trades(
+            trades,
+            &exposure,
+            &cal.releases,
+            &trade_summary.files,
+        );
         match args.trades_format {
             TradesFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
             TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
         };
-        out.write("releases.csv", &crate::render::files::releases_csv(&summary.attribution.by_release))?;
-        out.write("tail.csv", &crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis))?;
+        out.write(
+            "releases.csv",
+            &crate::render::files::releases_csv(&summary.attribution.by_release),
+        )?;
+        out.write(
+            "tail.csv",
+            &crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis),
+        )?;
         let high_releases = cal
             .releases
             .iter()
-            .filter(|r| r.tier == crate::calendar::Tier::High && summary.settings.windows.window_for(r).is_some())
+            .filter(|r| {
+                r.tier == crate::calendar::Tier::High
+                    && summary.settings.windows.window_for(r).is_some()
+            })
             .map(|r| r.at)
             .collect();
-        let scatter = (0..trades.len()).map(|i| (exposure.minutes_from_nearest[i], trades.pnl[i], exposure.k[i] > 0)).collect();
+        let scatter = (0..trades.len())
+            .map(|i| {
+                (
+                    exposure.minutes_from_nearest[i],
+                    trades.pnl[i],
+                    exposure.k[i] > 0,
+                )
+            })
+            .collect();
         let data = crate::render::charts::AnalyzeCharts {
             summary: &summary,
             sorted_abs: &sorted_abs,
@@ -95,15 +147,28 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         for f in &figures {
             common::write_chart(&out, f.id, &f.svg, &args.charts)?;
         }
-        out.write("report.html", crate::render::html::analyze_report(&summary, &figures).as_bytes())?;
+        out.write(
+            "report.html",
+            crate::render::html::analyze_report(&summary, &figures).as_bytes(),
+        )?;
         out.write("summary.json", json.as_bytes())?;
     }
     if args.json {
         crate::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        crate::output::stdout(crate::render::term::emphasise(&crate::render::table::analyze(&summary), crate::render::term::use_colour()).as_bytes())?;
+        crate::output::stdout(
+            crate::render::term::emphasise(
+                &crate::render::table::analyze(&summary),
+                crate::render::term::use_colour(),
+            )
+            .as_bytes(),
+        )?;
         if let Some(dir) = &args.out {
-            let ext = if args.trades_format == TradesFormat::Csv { "csv" } else { "parquet" };
+            let ext = if args.trades_format == TradesFormat::Csv {
+                "csv"
+            } else {
+                "parquet"
+            };
             crate::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
         }
     }
@@ -119,7 +184,10 @@ fn chance(
     settings: &crate::analysis::AnalysisSettings,
     exposure: &crate::exposure::Exposure,
     initial_equity: Option<f64>,
-) -> (Option<crate::stats::PlaceboResult>, Option<crate::stats::BootstrapResult>) {
+) -> (
+    Option<crate::stats::PlaceboResult>,
+    Option<crate::stats::BootstrapResult>,
+) {
     use crate::stats;
     let flags: Vec<bool> = exposure.k.iter().map(|&k| k > 0).collect();
     let c = &args.chance;
@@ -134,7 +202,10 @@ fn chance(
             &cur,
             settings.exposure_rule,
             &flags,
-            stats::PlaceboSettings { n: c.placebo, seed: c.seed },
+            stats::PlaceboSettings {
+                n: c.placebo,
+                seed: c.seed,
+            },
             &|| pb.inc(1),
         );
         pb.finish_and_clear();
@@ -150,9 +221,24 @@ fn chance(
         };
         let n = trades.len();
         let draw = |r: usize| stats::resample(n, c.seed, r);
-        let intervals = stats::bootstrap_drawn(c.bootstrap, &draw, trades, &flags, &settings.scenario, &ctx, 0.95, &|| pb.inc(1));
+        let intervals = stats::bootstrap_drawn(
+            c.bootstrap,
+            &draw,
+            trades,
+            &flags,
+            &settings.scenario,
+            &ctx,
+            0.95,
+            &|| pb.inc(1),
+        );
         pb.finish_and_clear();
-        stats::BootstrapResult { resamples: c.bootstrap, seed: c.seed, confidence: 0.95, method: stats::BOOTSTRAP_METHOD, intervals }
+        stats::BootstrapResult {
+            resamples: c.bootstrap,
+            seed: c.seed,
+            confidence: 0.95,
+            method: stats::BOOTSTRAP_METHOD,
+            intervals,
+        }
     });
     (placebo, bootstrap)
 }

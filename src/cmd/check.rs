@@ -71,23 +71,53 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
         bail!("nothing to check: give --trades and/or --calendar");
     }
     // check always reads past bad rows so it can list them all.
-    let rows = RowArgs { skip_bad_rows: true, ..args.input.rows.clone() };
+    let rows = RowArgs {
+        skip_bad_rows: true,
+        ..args.input.rows.clone()
+    };
     let mut problems = Vec::new();
     let trade_opts = common::trade_options(&args.input.trades, &rows)?;
-    let loaded = if args.input.trades.trades.is_empty() { None } else { Some(common::load_trades(&args.input.trades, &trade_opts)?) };
+    let loaded = if args.input.trades.trades.is_empty() {
+        None
+    } else {
+        Some(common::load_trades(&args.input.trades, &trade_opts)?)
+    };
     let span = loaded.as_ref().and_then(|(t, _)| t.span());
-    let cal_opts = common::calendar_options(&args.input.calendar, &rows, args.input.trades.delimiter, span)?;
-    let cal = if args.input.calendar.calendar.is_empty() { None } else { Some(common::load_calendar(&args.input.calendar, &cal_opts)?) };
-    let cal_currencies = cal.as_ref().map(common::calendar_currencies).unwrap_or_default();
+    let cal_opts = common::calendar_options(
+        &args.input.calendar,
+        &rows,
+        args.input.trades.delimiter,
+        span,
+    )?;
+    let cal = if args.input.calendar.calendar.is_empty() {
+        None
+    } else {
+        Some(common::load_calendar(&args.input.calendar, &cal_opts)?)
+    };
+    let cal_currencies = cal
+        .as_ref()
+        .map(common::calendar_currencies)
+        .unwrap_or_default();
 
     let mut trades = None;
     if let Some((t, import)) = loaded {
         let counts = crate::relevance::trades_per_instrument(&t.instrument, &t.instruments);
         // Unmapped instruments are listed as a problem here, not fatal.
         let strict = args.input.instruments.unmapped == Unmapped::Error;
-        let policy = InstrumentArgs { unmapped: if strict { Unmapped::None } else { args.input.instruments.unmapped }, ..args.input.instruments.clone() };
+        let policy = InstrumentArgs {
+            unmapped: if strict {
+                Unmapped::None
+            } else {
+                args.input.instruments.unmapped
+            },
+            ..args.input.instruments.clone()
+        };
         let resolved = common::instrument_currencies(&policy, &t.instruments, &cal_currencies)?;
-        let mut missing: Vec<String> = resolved.iter().filter(|c| c.source == Source::NoCurrencies).map(|c| c.instrument.clone()).collect();
+        let mut missing: Vec<String> = resolved
+            .iter()
+            .filter(|c| c.source == Source::NoCurrencies)
+            .map(|c| c.instrument.clone())
+            .collect();
         if strict && !missing.is_empty() {
             missing.sort();
             problems.push(RelevanceError::Unmapped(missing.join(", ")).to_string());
@@ -98,7 +128,14 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
         if let Some(c) = &cal {
             let lists: Vec<Vec<String>> = resolved.iter().map(|r| r.currencies.clone()).collect();
             let defaults = crate::windows::WindowSettings::default();
-            let coverage = crate::exposure::coverage_at(&c.releases, &t, &lists, &defaults, crate::exposure::ExposureRule::Overlap, args.input.calendar.stated_span()?);
+            let coverage = crate::exposure::coverage_at(
+                &c.releases,
+                &t,
+                &lists,
+                &defaults,
+                crate::exposure::ExposureRule::Overlap,
+                args.input.calendar.stated_span()?,
+            );
             problems.extend(crate::report::coverage_warnings(&coverage));
         }
         let zone = trade_opts.zone;
@@ -110,30 +147,49 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
             runs: t.runs.len(),
             instruments: resolved
                 .into_iter()
-                .map(|c| InstrumentLine { trades: counts.get(&c.instrument).copied().unwrap_or(0), currencies: c })
+                .map(|c| InstrumentLine {
+                    trades: counts.get(&c.instrument).copied().unwrap_or(0),
+                    currencies: c,
+                })
                 .collect(),
         });
     }
     let calendar = cal.map(|c| {
         let mut by: BTreeMap<String, BTreeMap<Tier, usize>> = BTreeMap::new();
         for r in &c.releases {
-            *by.entry(r.currency.clone()).or_default().entry(r.tier).or_default() += 1;
+            *by.entry(r.currency.clone())
+                .or_default()
+                .entry(r.tier)
+                .or_default() += 1;
         }
         CalendarOverview {
-            span_utc: c.releases.first().zip(c.releases.last()).map(|(a, b)| [format_utc(a.at), format_utc(b.at)]),
+            span_utc: c
+                .releases
+                .first()
+                .zip(c.releases.last())
+                .map(|(a, b)| [format_utc(a.at), format_utc(b.at)]),
             releases_by_currency: by,
             all_day_releases: c.releases.iter().filter(|r| r.all_day).count(),
             import: c.summary,
         }
     });
-    let report = CheckReport { tool: ToolInfo::current(), trades, calendar, problems, caution: CAUTION };
+    let report = CheckReport {
+        tool: ToolInfo::current(),
+        trades,
+        calendar,
+        problems,
+        caution: CAUTION,
+    };
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
         crate::output::stdout(crate::render::table::check(&report).as_bytes())?;
     }
     let rejected = report.trades.as_ref().map_or(0, |t| t.import.rows_rejected)
-        + report.calendar.as_ref().map_or(0, |c| c.import.rows_rejected);
+        + report
+            .calendar
+            .as_ref()
+            .map_or(0, |c| c.import.rows_rejected);
     Ok(if rejected > 0 || !report.problems.is_empty() {
         std::process::ExitCode::from(3)
     } else {

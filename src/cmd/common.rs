@@ -102,9 +102,16 @@ pub struct CalendarArgs {
 impl CalendarArgs {
     /// `--calendar-span FROM..TO` as [from, to + 1 day) in ms.
     pub fn stated_span(&self) -> Result<Option<(i64, i64)>> {
-        let Some(spec) = &self.calendar_span else { return Ok(None) };
-        let (a, b) = spec.split_once("..").with_context(|| format!("--calendar-span '{spec}' is not FROM..TO, e.g. 2022-01-01..2024-09-30"))?;
-        let (from, to) = (parse_day("calendar-span", a)?, parse_day("calendar-span", b)? + DAY_MS);
+        let Some(spec) = &self.calendar_span else {
+            return Ok(None);
+        };
+        let (a, b) = spec.split_once("..").with_context(|| {
+            format!("--calendar-span '{spec}' is not FROM..TO, e.g. 2022-01-01..2024-09-30")
+        })?;
+        let (from, to) = (
+            parse_day("calendar-span", a)?,
+            parse_day("calendar-span", b)? + DAY_MS,
+        );
         if to <= from {
             bail!("--calendar-span '{spec}': the end comes before the start");
         }
@@ -163,28 +170,51 @@ fn delimiter_byte(d: Option<char>) -> Result<Option<u8>> {
 pub fn trade_options(t: &TradeArgs, rows: &RowArgs) -> Result<TradeOptions> {
     let mut columns = HashMap::new();
     if let Some(p) = &t.map_file {
-        columns = trades::load_mapping_file(p, trades::FIELDS).map_err(anyhow::Error::msg).context("--map-file")?;
+        columns = trades::load_mapping_file(p, trades::FIELDS)
+            .map_err(anyhow::Error::msg)
+            .context("--map-file")?;
     }
-    columns.extend(trades::parse_mapping(&t.map, trades::FIELDS).map_err(anyhow::Error::msg).context("--map")?);
+    columns.extend(
+        trades::parse_mapping(&t.map, trades::FIELDS)
+            .map_err(anyhow::Error::msg)
+            .context("--map")?,
+    );
     Ok(TradeOptions {
         zone: zone_flag("trades-tz", &t.trades_tz)?,
         policy: rows.local_policy,
-        time_format: TimeFormat::parse(&t.time_format).map_err(anyhow::Error::msg).context("--time-format")?,
+        time_format: TimeFormat::parse(&t.time_format)
+            .map_err(anyhow::Error::msg)
+            .context("--time-format")?,
         columns,
         delimiter: delimiter_byte(t.delimiter)?,
         skip_bad_rows: rows.skip_bad_rows,
-        keep: t.keep.iter().map(|k| k.trim().to_string()).filter(|k| !k.is_empty()).collect(),
+        keep: t
+            .keep
+            .iter()
+            .map(|k| k.trim().to_string())
+            .filter(|k| !k.is_empty())
+            .collect(),
     })
 }
 
 fn parse_day(flag: &str, s: &str) -> Result<i64> {
-    let d = chrono::NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").with_context(|| format!("--{flag} '{s}' is not YYYY-MM-DD"))?;
-    Ok(crate::zones::naive_to_ms(&d.and_time(chrono::NaiveTime::MIN)))
+    let d = chrono::NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d")
+        .with_context(|| format!("--{flag} '{s}' is not YYYY-MM-DD"))?;
+    Ok(crate::zones::naive_to_ms(
+        &d.and_time(chrono::NaiveTime::MIN),
+    ))
 }
 
 /// Resolved calendar-reading settings; `span` is the trades' span if known.
-pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char>, span: Option<(i64, i64)>) -> Result<CalendarOptions> {
-    let columns = trades::parse_mapping(&c.calendar_map, calendar::csv::FIELDS).map_err(anyhow::Error::msg).context("--calendar-map")?;
+pub fn calendar_options(
+    c: &CalendarArgs,
+    rows: &RowArgs,
+    delimiter: Option<char>,
+    span: Option<(i64, i64)>,
+) -> Result<CalendarOptions> {
+    let columns = trades::parse_mapping(&c.calendar_map, calendar::csv::FIELDS)
+        .map_err(anyhow::Error::msg)
+        .context("--calendar-map")?;
     let rules = match &c.rules {
         Some(p) => TitleRules::load(p)?,
         None => TitleRules::default(),
@@ -195,7 +225,8 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
         _ => bail!("--from and --to go together"),
     };
     if let Some(p) = &c.calendar_time_format
-        && chrono::format::StrftimeItems::new(p).any(|item| matches!(item, chrono::format::Item::Error))
+        && chrono::format::StrftimeItems::new(p)
+            .any(|item| matches!(item, chrono::format::Item::Error))
     {
         bail!("--calendar-time-format '{p}' is not a strftime pattern (e.g. '%d/%m/%Y %I:%M %p')");
     }
@@ -210,8 +241,14 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
         skip_bad_rows: rows.skip_bad_rows,
         layout: calendar::csv::Layout {
             time_format: c.calendar_time_format.clone(),
-            tier_map: calendar::csv::Layout::parse_tier_map(&c.tier_map).map_err(anyhow::Error::msg)?,
-            untimed: c.untimed.iter().map(|w| w.trim().to_string()).filter(|w| !w.is_empty()).collect(),
+            tier_map: calendar::csv::Layout::parse_tier_map(&c.tier_map)
+                .map_err(anyhow::Error::msg)?,
+            untimed: c
+                .untimed
+                .iter()
+                .map(|w| w.trim().to_string())
+                .filter(|w| !w.is_empty())
+                .collect(),
         },
         ..Default::default()
     })
@@ -220,7 +257,11 @@ pub fn calendar_options(c: &CalendarArgs, rows: &RowArgs, delimiter: Option<char
 /// Loads trades named by the flags.
 pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeSummary)> {
     let paths = trades::expand_paths(&t.trades)?;
-    let limit = t.max_memory.as_deref().map(crate::budget::parse_size).transpose()?;
+    let limit = t
+        .max_memory
+        .as_deref()
+        .map(crate::budget::parse_size)
+        .transpose()?;
     crate::budget::check(&paths, limit)?;
     let (trades, mut summary) = trades::load(&paths, opts)?;
     if t.run.is_empty() {
@@ -245,13 +286,22 @@ pub fn calendar_currencies(cal: &Calendar) -> Vec<String> {
 }
 
 /// Resolves instrument currencies from the flags.
-pub fn instrument_currencies(i: &InstrumentArgs, instruments: &[String], cal_currencies: &[String]) -> Result<Vec<InstrumentCurrencies>> {
+pub fn instrument_currencies(
+    i: &InstrumentArgs,
+    instruments: &[String],
+    cal_currencies: &[String],
+) -> Result<Vec<InstrumentCurrencies>> {
     let mut map = HashMap::new();
     if let Some(p) = &i.instrument_map_file {
         map = relevance::load_instrument_map(p)?;
     }
     map.extend(relevance::parse_instrument_map(&i.instrument_map)?);
-    Ok(relevance::resolve(instruments, &map, i.unmapped, cal_currencies)?)
+    Ok(relevance::resolve(
+        instruments,
+        &map,
+        i.unmapped,
+        cal_currencies,
+    )?)
 }
 
 /// Release windows and the exposure rule.
@@ -282,8 +332,14 @@ pub struct WindowArgs {
 
 impl WindowArgs {
     pub fn settings(&self) -> Result<crate::windows::WindowSettings> {
-        crate::windows::WindowSettings::from_flags(&self.window, &self.window_category, &self.window_title, self.tiers.as_deref(), self.all_day)
-            .map_err(anyhow::Error::msg)
+        crate::windows::WindowSettings::from_flags(
+            &self.window,
+            &self.window_category,
+            &self.window_title,
+            self.tiers.as_deref(),
+            self.all_day,
+        )
+        .map_err(anyhow::Error::msg)
     }
 }
 
@@ -416,15 +472,34 @@ pub struct Loaded {
 impl Loaded {
     /// Each instrument's currencies, indexed like `trades.instruments`.
     pub fn currency_lists(&self) -> Vec<Vec<String>> {
-        self.currencies.iter().map(|c| c.currencies.clone()).collect()
+        self.currencies
+            .iter()
+            .map(|c| c.currencies.clone())
+            .collect()
     }
 
     /// The warnings of these inputs under these settings (coverage needs the
     /// exposure at the settings' windows: one pass of the engine).
-    pub fn warnings(&self, input: &InputArgs, settings: &crate::analysis::AnalysisSettings) -> Vec<String> {
+    pub fn warnings(
+        &self,
+        input: &InputArgs,
+        settings: &crate::analysis::AnalysisSettings,
+    ) -> Vec<String> {
         let cur = self.currency_lists();
-        let coverage = crate::exposure::coverage_at(&self.calendar.releases, &self.trades, &cur, &settings.windows, settings.exposure_rule, settings.calendar_span);
-        let inputs = crate::report::Inputs::new(&self.trade_summary, input.trades.trades_tz.clone(), &self.calendar.summary, input.calendar.calendar_tz().to_string());
+        let coverage = crate::exposure::coverage_at(
+            &self.calendar.releases,
+            &self.trades,
+            &cur,
+            &settings.windows,
+            settings.exposure_rule,
+            settings.calendar_span,
+        );
+        let inputs = crate::report::Inputs::new(
+            &self.trade_summary,
+            input.trades.trades_tz.clone(),
+            &self.calendar.summary,
+            input.calendar.calendar_tz().to_string(),
+        );
         crate::report::input_warnings(&inputs, &coverage)
     }
 }
@@ -432,7 +507,11 @@ impl Loaded {
 /// Exit status 3 when the run completed but needs attention (warnings:
 /// rows rejected, trades the calendar cannot judge), else 0 (README).
 pub fn exit_status(warnings: &[String]) -> std::process::ExitCode {
-    if warnings.is_empty() { std::process::ExitCode::SUCCESS } else { std::process::ExitCode::from(3) }
+    if warnings.is_empty() {
+        std::process::ExitCode::SUCCESS
+    } else {
+        std::process::ExitCode::from(3)
+    }
 }
 
 impl InputArgs {
@@ -452,8 +531,12 @@ impl InputArgs {
         let (trades, early) = if needs_span {
             (load_trades(&self.trades, &trade_opts), None)
         } else {
-            let cal_opts = calendar_options(&self.calendar, &self.rows, self.trades.delimiter, None)?;
-            let (t, c) = rayon::join(|| load_trades(&self.trades, &trade_opts), || load_calendar(&self.calendar, &cal_opts));
+            let cal_opts =
+                calendar_options(&self.calendar, &self.rows, self.trades.delimiter, None)?;
+            let (t, c) = rayon::join(
+                || load_trades(&self.trades, &trade_opts),
+                || load_calendar(&self.calendar, &cal_opts),
+            );
             (t, Some(c))
         };
         let (trades, trade_summary) = trades?;
@@ -461,15 +544,37 @@ impl InputArgs {
         spin.finish_and_clear();
         let calendar = match early {
             Some(c) => c?,
-            None => load_calendar(&self.calendar, &calendar_options(&self.calendar, &self.rows, self.trades.delimiter, trades.span())?)?,
+            None => load_calendar(
+                &self.calendar,
+                &calendar_options(
+                    &self.calendar,
+                    &self.rows,
+                    self.trades.delimiter,
+                    trades.span(),
+                )?,
+            )?,
         };
-        let currencies = instrument_currencies(&self.instruments, &trades.instruments, &calendar_currencies(&calendar))?;
-        Ok(Loaded { trades, trade_summary, calendar, currencies })
+        let currencies = instrument_currencies(
+            &self.instruments,
+            &trades.instruments,
+            &calendar_currencies(&calendar),
+        )?;
+        Ok(Loaded {
+            trades,
+            trade_summary,
+            calendar,
+            currencies,
+        })
     }
 
     /// Every input file, for the output folder's overwrite guard.
     pub fn input_paths(&self, loaded: &Loaded) -> Vec<PathBuf> {
-        let mut v: Vec<PathBuf> = loaded.trade_summary.files.iter().map(PathBuf::from).collect();
+        let mut v: Vec<PathBuf> = loaded
+            .trade_summary
+            .files
+            .iter()
+            .map(PathBuf::from)
+            .collect();
         v.extend(self.calendar.calendar.iter().cloned());
         v
     }
@@ -485,13 +590,21 @@ pub struct ChartArgs {
 }
 
 /// Writes `chart-ID.svg` (and `.png` when asked) into the output folder.
-pub fn write_chart(out: &crate::output::OutDir, id: &str, svg: &str, charts: &ChartArgs) -> Result<()> {
+pub fn write_chart(
+    out: &crate::output::OutDir,
+    id: &str,
+    svg: &str,
+    charts: &ChartArgs,
+) -> Result<()> {
     out.write(&format!("chart-{id}.svg"), svg.as_bytes())?;
     if charts.png {
         if !crate::render::png::have_fonts() {
             eprintln!("eventfence: no system fonts found; chart-{id}.png has no text");
         }
-        out.write(&format!("chart-{id}.png"), &crate::render::png::svg_to_png(svg).map_err(anyhow::Error::msg)?)?;
+        out.write(
+            &format!("chart-{id}.png"),
+            &crate::render::png::svg_to_png(svg).map_err(anyhow::Error::msg)?,
+        )?;
     }
     Ok(())
 }

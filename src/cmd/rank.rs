@@ -88,14 +88,28 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let loaded = args.input.load("rank", &args.terminal)?;
     let trades = &loaded.trades;
     if !trades.has_runs() {
-        bail!("the trades have no runs: map a run column (--map run=<column>) or give one file per run");
+        bail!(
+            "the trades have no runs: map a run column (--map run=<column>) or give one file per run"
+        );
     }
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
     let windows = crate::exposure::used_windows(&cal.releases, &settings.windows);
     let pb = common::progress_bar(&args.terminal, trades.runs.len() as u64, "runs");
-    let placebo = crate::stats::PlaceboSettings { n: args.placebo, seed: args.seed };
-    let mut rows = rank::rank(trades, &cal.releases, &windows, &cur, &settings, args.by, placebo, &|| pb.inc(1))?;
+    let placebo = crate::stats::PlaceboSettings {
+        n: args.placebo,
+        seed: args.seed,
+    };
+    let mut rows = rank::rank(
+        trades,
+        &cal.releases,
+        &windows,
+        &cur,
+        &settings,
+        args.by,
+        placebo,
+        &|| pb.inc(1),
+    )?;
     pb.finish_and_clear();
     let total = rows.len();
     let warnings = loaded.warnings(&args.input, &settings);
@@ -110,24 +124,54 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         match args.runs_format {
-            super::analyze::TradesFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
-            super::analyze::TradesFormat::Parquet => out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?,
+            super::analyze::TradesFormat::Csv => {
+                out.write("runs.csv", &crate::render::files::runs_csv(&rows))?
+            }
+            super::analyze::TradesFormat::Parquet => {
+                out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?
+            }
         };
-        let pts: Vec<(usize, usize, String)> = rows.iter().map(|r| (r.rank_baseline, r.rank_removed, r.run.clone())).collect();
-        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades").map_err(anyhow::Error::msg)?;
+        let pts: Vec<(usize, usize, String)> = rows
+            .iter()
+            .map(|r| (r.rank_baseline, r.rank_removed, r.run.clone()))
+            .collect();
+        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")
+            .map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
-        let page = crate::render::html::charts_page("Parameter sets with and without release trades", &format!("{} runs; P/L per trade = {}", rows.len(), loaded.trade_summary.pnl_formed_as), &warnings, &[fig], CAUTION);
+        let page = crate::render::html::charts_page(
+            "Parameter sets with and without release trades",
+            &format!(
+                "{} runs; P/L per trade = {}",
+                rows.len(),
+                loaded.trade_summary.pnl_formed_as
+            ),
+            &warnings,
+            &[fig],
+            CAUTION,
+        );
         out.write("report.html", page.as_bytes())?;
     }
     if let Some(n) = args.top {
         rows.truncate(n);
     }
-    let report = RankReport { tool: ToolInfo::current(), by: args.by, settings, runs_total: total, warnings, pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(), tcr_basis, runs: rows, caution: CAUTION };
+    let report = RankReport {
+        tool: ToolInfo::current(),
+        by: args.by,
+        settings,
+        runs_total: total,
+        warnings,
+        pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(),
+        tcr_basis,
+        runs: rows,
+        caution: CAUTION,
+    };
     if args.json {
         crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
     } else {
-        crate::output::stdout(crate::render::table::rank(&report, crate::render::term::width()).as_bytes())?;
+        crate::output::stdout(
+            crate::render::table::rank(&report, crate::render::term::width()).as_bytes(),
+        )?;
     }
     Ok(common::exit_status(&report.warnings))
 }

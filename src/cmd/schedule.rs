@@ -81,7 +81,8 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
             bail!("give --from and --to (YYYY-MM-DD, UTC) or --next DAYS");
         };
         let day = |s: &str| -> Result<i64> {
-            let d = chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").with_context(|| format!("'{s}' is not YYYY-MM-DD"))?;
+            let d = chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d")
+                .with_context(|| format!("'{s}' is not YYYY-MM-DD"))?;
             Ok(naive_to_ms(&d.and_time(chrono::NaiveTime::MIN)))
         };
         (day(f)?, day(t)? + DAY_MS)
@@ -91,7 +92,11 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     let cal = common::load_calendar(&args.calendar, &cal_opts)?;
     let mut pairs: Vec<(String, Vec<String>)> = Vec::new();
     if !args.instruments_list.is_empty() {
-        for c in common::instrument_currencies(&args.instruments, &args.instruments_list, &common::calendar_currencies(&cal))? {
+        for c in common::instrument_currencies(
+            &args.instruments,
+            &args.instruments_list,
+            &common::calendar_currencies(&cal),
+        )? {
             pairs.push((c.instrument, c.currencies));
         }
     }
@@ -102,8 +107,19 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
         }
         pairs.push((c.clone(), vec![c]));
     }
-    let warnings = schedule_warnings(&cal, &pairs, range, args.calendar.stated_span()?, windows.include_all_day);
-    let settings = ScheduleSettings { windows, merge_gap_min: args.merge_gap.max(0), flat_min: args.flat, range };
+    let warnings = schedule_warnings(
+        &cal,
+        &pairs,
+        range,
+        args.calendar.stated_span()?,
+        windows.include_all_day,
+    );
+    let settings = ScheduleSettings {
+        windows,
+        merge_gap_min: args.merge_gap.max(0),
+        flat_min: args.flat,
+        range,
+    };
     let list = schedule::build(&cal.releases, &pairs, &settings);
     // On standard error, so that a piped schedule stays clean data.
     for w in &warnings {
@@ -117,8 +133,16 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     };
     match &args.output {
         Some(path) => {
-            let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).map(PathBuf::from).unwrap_or_else(|| PathBuf::from("."));
-            let name = path.file_name().context("--output needs a file name")?.to_string_lossy().into_owned();
+            let dir = path
+                .parent()
+                .filter(|p| !p.as_os_str().is_empty())
+                .map(PathBuf::from)
+                .unwrap_or_else(|| PathBuf::from("."));
+            let name = path
+                .file_name()
+                .context("--output needs a file name")?
+                .to_string_lossy()
+                .into_owned();
             crate::output::OutDir::new(&dir, &args.calendar.calendar)?.write(&name, &bytes)?;
             eprintln!("wrote {} window(s) to {}", list.len(), path.display());
         }
@@ -145,14 +169,24 @@ fn schedule_warnings(
     currencies.dedup();
     let day = |ms: i64| crate::zones::format_utc(ms)[..10].to_string();
     for c in currencies {
-        let of: Vec<i64> = cal.releases.iter().filter(|r| &r.currency == c).map(|r| r.at).collect();
+        let of: Vec<i64> = cal
+            .releases
+            .iter()
+            .filter(|r| &r.currency == c)
+            .map(|r| r.at)
+            .collect();
         let covered = match (stated, of.iter().min(), of.iter().max()) {
             (Some(s), Some(_), _) => Some(s),
-            (None, Some(&a), Some(&b)) => Some((a.div_euclid(DAY_MS) * DAY_MS, (b.div_euclid(DAY_MS) + 1) * DAY_MS)),
+            (None, Some(&a), Some(&b)) => Some((
+                a.div_euclid(DAY_MS) * DAY_MS,
+                (b.div_euclid(DAY_MS) + 1) * DAY_MS,
+            )),
             _ => None,
         };
         match covered {
-            None => w.push(format!("the calendar has no releases for {c}: the schedule holds no windows for it")),
+            None => w.push(format!(
+                "the calendar has no releases for {c}: the schedule holds no windows for it"
+            )),
             Some((a, b)) if range.0 < a || range.1 > b => {
                 let whole = range.1 <= a || range.0 >= b;
                 w.push(format!(
@@ -173,14 +207,23 @@ fn schedule_warnings(
         let left = cal
             .releases
             .iter()
-            .filter(|r| r.all_day && r.tier == crate::calendar::Tier::High && r.end > range.0 && r.at < range.1 && wanted.contains(&&r.currency))
+            .filter(|r| {
+                r.all_day
+                    && r.tier == crate::calendar::Tier::High
+                    && r.end > range.0
+                    && r.at < range.1
+                    && wanted.contains(&&r.currency)
+            })
             .count();
         if left > 0 {
             w.push(format!("{left} high-tier all-day release(s) in the range are left out (no fixed time); --all-day blocks their whole local day"));
         }
     }
     if cal.summary.rows_rejected > 0 {
-        w.push(format!("SKIPPED: {} calendar row(s) rejected and left out", cal.summary.rows_rejected));
+        w.push(format!(
+            "SKIPPED: {} calendar row(s) rejected and left out",
+            cal.summary.rows_rejected
+        ));
     }
     w
 }

@@ -67,7 +67,10 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let post = crate::tune::parse_range(&args.post).map_err(|e| anyhow::anyhow!("--post {e}"))?;
     let tier = match &args.tier {
         None => None,
-        Some(t) => Some(Tier::parse(t).ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?),
+        Some(t) => Some(
+            Tier::parse(t)
+                .ok_or_else(|| anyhow::anyhow!("--tier '{t}' is not high, medium or low"))?,
+        ),
     };
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
@@ -76,22 +79,58 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
     let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
-    let result = crate::tune::tune(trades, &cal.releases, &cur, &settings, tier, &pre, &post, &|| pb.inc(1))?;
+    let result = crate::tune::tune(
+        trades,
+        &cal.releases,
+        &cur,
+        &settings,
+        tier,
+        &pre,
+        &post,
+        &|| pb.inc(1),
+    )?;
     pb.finish_and_clear();
     let warnings = loaded.warnings(&args.input, &settings);
-    let report = TuneReport { tool: ToolInfo::current(), settings, warnings, pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(), result, caution: CAUTION };
+    let report = TuneReport {
+        tool: ToolInfo::current(),
+        settings,
+        warnings,
+        pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(),
+        result,
+        caution: CAUTION,
+    };
     let json = serde_json::to_string_pretty(&report)?;
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        out.write("grid.csv", &crate::render::files::grid_csv(&report.result.cells))?;
+        out.write(
+            "grid.csv",
+            &crate::render::files::grid_csv(&report.result.cells),
+        )?;
         out.write("tune.json", json.as_bytes())?;
         let res = &report.result;
         let cell = |a: usize, b: usize| &res.cells[a * res.post.len() + b];
-        let svg = crate::render::charts::heatmap(&res.pre, &res.post, &|a, b| cell(a, b).tcr_reduction, &|a, b| cell(a, b).frontier, "Tail reduction by window (frontier outlined)")
-            .map_err(anyhow::Error::msg)?;
+        let svg = crate::render::charts::heatmap(
+            &res.pre,
+            &res.post,
+            &|a, b| cell(a, b).tcr_reduction,
+            &|a, b| cell(a, b).frontier,
+            "Tail reduction by window (frontier outlined)",
+        )
+        .map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "tune", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
-        let page = crate::render::html::charts_page("Window tuning", &format!("{} × {} cells; P/L per trade = {}", res.pre.len(), res.post.len(), report.pnl_formed_as), &report.warnings, &[fig], CAUTION);
+        let page = crate::render::html::charts_page(
+            "Window tuning",
+            &format!(
+                "{} × {} cells; P/L per trade = {}",
+                res.pre.len(),
+                res.post.len(),
+                report.pnl_formed_as
+            ),
+            &report.warnings,
+            &[fig],
+            CAUTION,
+        );
         out.write("report.html", page.as_bytes())?;
     }
     if args.json {

@@ -30,7 +30,9 @@ pub fn thin<T: Clone>(v: &[T], max: usize) -> Vec<T> {
         return v.to_vec();
     }
     let step = (v.len() - 1) as f64 / (max - 1) as f64;
-    (0..max).map(|i| v[((i as f64 * step).round() as usize).min(v.len() - 1)].clone()).collect()
+    (0..max)
+        .map(|i| v[((i as f64 * step).round() as usize).min(v.len() - 1)].clone())
+        .collect()
 }
 
 /// Keeps the first `head` items whole (they matter on a log axis) and thins
@@ -68,7 +70,12 @@ pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> R
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
         let n = baseline.len().max(removed.len()).max(2) as f64;
-        let top = baseline.first().map(|x| x.0).unwrap_or(1.0).max(removed.first().copied().unwrap_or(0.0)) * 1.05;
+        let top = baseline
+            .first()
+            .map(|x| x.0)
+            .unwrap_or(1.0)
+            .max(removed.first().copied().unwrap_or(0.0))
+            * 1.05;
         let mut c = ChartBuilder::on(&root)
             .caption(caption, (FONT, 18))
             .margin(12)
@@ -76,23 +83,55 @@ pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> R
             .y_label_area_size(60)
             .build_cartesian_2d((1f64..n).log_scale(), 0f64..top.max(1e-9))
             .map_err(err)?;
-        c.configure_mesh().x_desc("rank by |P/L| (1 = largest, log scale)").y_desc("|P/L|").light_line_style(WHITE).draw().map_err(err)?;
-        let pts: Vec<(f64, f64)> = baseline.iter().enumerate().map(|(i, x)| ((i + 1) as f64, x.0)).collect();
-        c.draw_series(LineSeries::new(thin_head(&pts, 400, 1500), BASELINE.stroke_width(2)))
-            .map_err(err)?
-            .label("baseline")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BASELINE.stroke_width(2)));
-        let rem: Vec<(f64, f64)> = removed.iter().enumerate().map(|(i, v)| ((i + 1) as f64, *v)).collect();
-        c.draw_series(LineSeries::new(thin_head(&rem, 400, 1500), REMOVED.stroke_width(2)))
-            .map_err(err)?
-            .label("removed")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], REMOVED.stroke_width(2)));
-        let exposed: Vec<(f64, f64)> = baseline.iter().enumerate().filter(|x| x.1.1).map(|(i, x)| ((i + 1) as f64, x.0)).collect();
-        c.draw_series(thin_head(&exposed, 200, 600).into_iter().map(|p| Circle::new(p, 3, EXPOSED.filled())))
-            .map_err(err)?
-            .label("exposed trade")
-            .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
-        c.configure_series_labels().background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        c.configure_mesh()
+            .x_desc("rank by |P/L| (1 = largest, log scale)")
+            .y_desc("|P/L|")
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
+        let pts: Vec<(f64, f64)> = baseline
+            .iter()
+            .enumerate()
+            .map(|(i, x)| ((i + 1) as f64, x.0))
+            .collect();
+        c.draw_series(LineSeries::new(
+            thin_head(&pts, 400, 1500),
+            BASELINE.stroke_width(2),
+        ))
+        .map_err(err)?
+        .label("baseline")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BASELINE.stroke_width(2)));
+        let rem: Vec<(f64, f64)> = removed
+            .iter()
+            .enumerate()
+            .map(|(i, v)| ((i + 1) as f64, *v))
+            .collect();
+        c.draw_series(LineSeries::new(
+            thin_head(&rem, 400, 1500),
+            REMOVED.stroke_width(2),
+        ))
+        .map_err(err)?
+        .label("removed")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], REMOVED.stroke_width(2)));
+        let exposed: Vec<(f64, f64)> = baseline
+            .iter()
+            .enumerate()
+            .filter(|x| x.1.1)
+            .map(|(i, x)| ((i + 1) as f64, x.0))
+            .collect();
+        c.draw_series(
+            thin_head(&exposed, 200, 600)
+                .into_iter()
+                .map(|p| Circle::new(p, 3, EXPOSED.filled())),
+        )
+        .map_err(err)?
+        .label("exposed trade")
+        .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
+        c.configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK.mix(0.3))
+            .draw()
+            .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(s)
@@ -106,7 +145,12 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
         let (x0, x1) = range(curves.iter().flat_map(|c| c.1.iter().map(|p| p.0)));
-        let (y0, y1) = range(curves.iter().flat_map(|c| c.1.iter().map(|p| p.1)).chain([0.0]));
+        let (y0, y1) = range(
+            curves
+                .iter()
+                .flat_map(|c| c.1.iter().map(|p| p.1))
+                .chain([0.0]),
+        );
         let mut c = ChartBuilder::on(&root)
             .caption(caption, (FONT, 18))
             .margin(12)
@@ -114,19 +158,36 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
             .y_label_area_size(70)
             .build_cartesian_2d(x0..x1, y0..y1)
             .map_err(err)?;
-        c.configure_mesh().x_desc("days since first open").y_desc("cumulative P/L").light_line_style(WHITE).draw().map_err(err)?;
-        c.draw_series(thin(ticks_days, 400).into_iter().filter(|d| *d >= x0 && *d <= x1).map(|d| PathElement::new(vec![(d, y0), (d, y1)], TICK.mix(0.5))))
-            .map_err(err)?
-            .label("top-tier release")
-            .legend(|(x, y)| PathElement::new(vec![(x + 9, y - 6), (x + 9, y + 6)], TICK));
+        c.configure_mesh()
+            .x_desc("days since first open")
+            .y_desc("cumulative P/L")
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
+        c.draw_series(
+            thin(ticks_days, 400)
+                .into_iter()
+                .filter(|d| *d >= x0 && *d <= x1)
+                .map(|d| PathElement::new(vec![(d, y0), (d, y1)], TICK.mix(0.5))),
+        )
+        .map_err(err)?
+        .label("top-tier release")
+        .legend(|(x, y)| PathElement::new(vec![(x + 9, y - 6), (x + 9, y + 6)], TICK));
         for (i, (name, pts)) in curves.iter().enumerate() {
             let col = [BASELINE, REMOVED, CAPPED][i % 3];
             c.draw_series(LineSeries::new(thin(pts, 1500), col.stroke_width(2)))
                 .map_err(err)?
                 .label(*name)
-                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2)));
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
+                });
         }
-        c.configure_series_labels().position(SeriesLabelPosition::UpperLeft).background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        c.configure_series_labels()
+            .position(SeriesLabelPosition::UpperLeft)
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK.mix(0.3))
+            .draw()
+            .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(s)
@@ -161,7 +222,13 @@ pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
             .map_err(err)?;
         c.draw_series(items.iter().enumerate().map(|(i, (_, v))| {
             let col = if *v >= 0.0 { BASELINE } else { NEGATIVE };
-            let mut r = Rectangle::new([(0.0, SegmentValue::Exact(i)), (*v, SegmentValue::Exact(i + 1))], col.filled());
+            let mut r = Rectangle::new(
+                [
+                    (0.0, SegmentValue::Exact(i)),
+                    (*v, SegmentValue::Exact(i + 1)),
+                ],
+                col.filled(),
+            );
             r.set_margin(4, 4, 0, 0);
             r
         }))
@@ -172,12 +239,22 @@ pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
 }
 
 /// Trade P/L against minutes from the nearest release, window bounds drawn.
-pub fn scatter(points: &[(f64, f64, bool)], pre: f64, post: f64, span_min: f64, caption: &str) -> Res {
+pub fn scatter(
+    points: &[(f64, f64, bool)],
+    pre: f64,
+    post: f64,
+    span_min: f64,
+    caption: &str,
+) -> Res {
     let mut s = String::new();
     {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
-        let inside: Vec<(f64, f64, bool)> = points.iter().copied().filter(|p| p.0.abs() <= span_min && p.1.is_finite()).collect();
+        let inside: Vec<(f64, f64, bool)> = points
+            .iter()
+            .copied()
+            .filter(|p| p.0.abs() <= span_min && p.1.is_finite())
+            .collect();
         let (y0, y1) = range(inside.iter().map(|p| p.1));
         let mut c = ChartBuilder::on(&root)
             .caption(caption, (FONT, 18))
@@ -186,29 +263,55 @@ pub fn scatter(points: &[(f64, f64, bool)], pre: f64, post: f64, span_min: f64, 
             .y_label_area_size(60)
             .build_cartesian_2d(-span_min..span_min, y0..y1)
             .map_err(err)?;
-        c.configure_mesh().x_desc("minutes from nearest release to the open").y_desc("P/L").light_line_style(WHITE).draw().map_err(err)?;
+        c.configure_mesh()
+            .x_desc("minutes from nearest release to the open")
+            .y_desc("P/L")
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
         let calm: Vec<(f64, f64)> = inside.iter().filter(|p| !p.2).map(|p| (p.0, p.1)).collect();
         let hit: Vec<(f64, f64)> = inside.iter().filter(|p| p.2).map(|p| (p.0, p.1)).collect();
-        c.draw_series(thin(&calm, 2500).into_iter().map(|p| Circle::new(p, 2, BASELINE.mix(0.35).filled())))
-            .map_err(err)?
-            .label("not exposed")
-            .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
-        c.draw_series(thin(&hit, 1500).into_iter().map(|p| Circle::new(p, 2, EXPOSED.filled())))
-            .map_err(err)?
-            .label("exposed")
-            .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
+        c.draw_series(
+            thin(&calm, 2500)
+                .into_iter()
+                .map(|p| Circle::new(p, 2, BASELINE.mix(0.35).filled())),
+        )
+        .map_err(err)?
+        .label("not exposed")
+        .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        c.draw_series(
+            thin(&hit, 1500)
+                .into_iter()
+                .map(|p| Circle::new(p, 2, EXPOSED.filled())),
+        )
+        .map_err(err)?
+        .label("exposed")
+        .legend(|(x, y)| Circle::new((x + 9, y), 3, EXPOSED.filled()));
         for b in [-pre, post] {
-            c.draw_series(std::iter::once(PathElement::new(vec![(b, y0), (b, y1)], BLACK.mix(0.5))))
-                .map_err(err)?;
+            c.draw_series(std::iter::once(PathElement::new(
+                vec![(b, y0), (b, y1)],
+                BLACK.mix(0.5),
+            )))
+            .map_err(err)?;
         }
-        c.configure_series_labels().background_style(WHITE.mix(0.9)).border_style(BLACK.mix(0.3)).draw().map_err(err)?;
+        c.configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK.mix(0.3))
+            .draw()
+            .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(s)
 }
 
 /// Heat map of tail reduction over the pre × post grid, frontier cells outlined.
-pub fn heatmap(pre: &[i64], post: &[i64], value: &dyn Fn(usize, usize) -> Option<f64>, frontier: &dyn Fn(usize, usize) -> bool, caption: &str) -> Res {
+pub fn heatmap(
+    pre: &[i64],
+    post: &[i64],
+    value: &dyn Fn(usize, usize) -> Option<f64>,
+    frontier: &dyn Fn(usize, usize) -> bool,
+    caption: &str,
+) -> Res {
     let mut s = String::new();
     {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
@@ -230,17 +333,34 @@ pub fn heatmap(pre: &[i64], post: &[i64], value: &dyn Fn(usize, usize) -> Option
             .y_desc("minutes before")
             .draw()
             .map_err(err)?;
-        let vals: Vec<f64> = (0..pre.len()).flat_map(|a| (0..post.len()).map(move |b| (a, b))).filter_map(|(a, b)| value(a, b)).collect();
+        let vals: Vec<f64> = (0..pre.len())
+            .flat_map(|a| (0..post.len()).map(move |b| (a, b)))
+            .filter_map(|(a, b)| value(a, b))
+            .collect();
         let (lo, hi) = range(vals.into_iter());
         for a in 0..pre.len() {
             for b in 0..post.len() {
-                let shade = value(a, b).map(|v| ((v - lo) / (hi - lo)).clamp(0.0, 1.0)).unwrap_or(0.0);
+                let shade = value(a, b)
+                    .map(|v| ((v - lo) / (hi - lo)).clamp(0.0, 1.0))
+                    .unwrap_or(0.0);
                 // White to dark blue.
                 let mix = |w: u8, d: u8| (w as f64 + (d as f64 - w as f64) * shade) as u8;
-                let col = RGBColor(mix(0xf4, BASELINE.0), mix(0xf7, BASELINE.1), mix(0xfb, BASELINE.2));
-                c.draw_series(std::iter::once(Rectangle::new([(b, a), (b + 1, a + 1)], col.filled()))).map_err(err)?;
+                let col = RGBColor(
+                    mix(0xf4, BASELINE.0),
+                    mix(0xf7, BASELINE.1),
+                    mix(0xfb, BASELINE.2),
+                );
+                c.draw_series(std::iter::once(Rectangle::new(
+                    [(b, a), (b + 1, a + 1)],
+                    col.filled(),
+                )))
+                .map_err(err)?;
                 if frontier(a, b) {
-                    c.draw_series(std::iter::once(Rectangle::new([(b, a), (b + 1, a + 1)], EXPOSED.stroke_width(3)))).map_err(err)?;
+                    c.draw_series(std::iter::once(Rectangle::new(
+                        [(b, a), (b + 1, a + 1)],
+                        EXPOSED.stroke_width(3),
+                    )))
+                    .map_err(err)?;
                 }
             }
         }
@@ -264,11 +384,31 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
             .y_label_area_size(50)
             .build_cartesian_2d(0f64..n, 0f64..n)
             .map_err(err)?;
-        c.configure_mesh().x_desc("rank with all trades").y_desc("rank without release trades").light_line_style(WHITE).draw().map_err(err)?;
-        c.draw_series(std::iter::once(PathElement::new(vec![(0.0, 0.0), (n, n)], TICK.stroke_width(1)))).map_err(err)?;
+        c.configure_mesh()
+            .x_desc("rank with all trades")
+            .y_desc("rank without release trades")
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
+        c.draw_series(std::iter::once(PathElement::new(
+            vec![(0.0, 0.0), (n, n)],
+            TICK.stroke_width(1),
+        )))
+        .map_err(err)?;
         let pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 as f64, p.1 as f64)).collect();
-        c.draw_series(thin(&pts, 3000).into_iter().map(|p| Circle::new(p, 3, BASELINE.filled()))).map_err(err)?.label("run").legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
-        c.configure_series_labels().position(SeriesLabelPosition::LowerRight).background_style(WHITE.mix(0.9)).draw().map_err(err)?;
+        c.draw_series(
+            thin(&pts, 3000)
+                .into_iter()
+                .map(|p| Circle::new(p, 3, BASELINE.filled())),
+        )
+        .map_err(err)?
+        .label("run")
+        .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        c.configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .background_style(WHITE.mix(0.9))
+            .draw()
+            .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(s)
@@ -314,24 +454,69 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, St
             }))
             .collect::<Vec<_>>()
     };
-    let curves = [("baseline", eq(&d.curves[0])), ("removed", eq(&d.curves[1])), ("capped", eq(&d.curves[2]))];
-    let ticks: Vec<f64> = d.high_releases.iter().map(|&t| (t - d.span_start) as f64 / day).collect();
-    let cats: Vec<(String, f64)> = s.attribution.by_category.iter().map(|(k, g)| (k.clone(), g.attributed_pnl)).collect();
-    let curs: Vec<(String, f64)> = s.attribution.by_currency.iter().map(|(k, g)| (k.clone(), g.attributed_pnl)).collect();
-    let high = s.settings.windows.high.unwrap_or(crate::windows::Window { pre_min: 0, post_min: 0 });
+    let curves = [
+        ("baseline", eq(&d.curves[0])),
+        ("removed", eq(&d.curves[1])),
+        ("capped", eq(&d.curves[2])),
+    ];
+    let ticks: Vec<f64> = d
+        .high_releases
+        .iter()
+        .map(|&t| (t - d.span_start) as f64 / day)
+        .collect();
+    let cats: Vec<(String, f64)> = s
+        .attribution
+        .by_category
+        .iter()
+        .map(|(k, g)| (k.clone(), g.attributed_pnl))
+        .collect();
+    let curs: Vec<(String, f64)> = s
+        .attribution
+        .by_currency
+        .iter()
+        .map(|(k, g)| (k.clone(), g.attributed_pnl))
+        .collect();
+    let high = s.settings.windows.high.unwrap_or(crate::windows::Window {
+        pre_min: 0,
+        post_min: 0,
+    });
     Ok(vec![
         Figure {
             id: "tail",
-            caption: format!("Trades by size of {what}, largest first; exposed trades marked. A steep start means a few trades carry the result."),
+            caption: format!(
+                "Trades by size of {what}, largest first; exposed trades marked. A steep start means a few trades carry the result."
+            ),
             svg: tail_curve(d.sorted_abs, d.removed_abs, &caption)?,
         },
-        Figure { id: "equity", caption: "Cumulative P/L of the three scenarios; grey ticks are top-tier releases.".into(), svg: equity(&curves, &ticks, "Equity: baseline, removed, capped")? },
-        Figure { id: "by-category", caption: "P/L attributed to releases, by category.".into(), svg: bars(&cats, "Attributed P/L by category")? },
-        Figure { id: "by-currency", caption: "P/L attributed to releases, by currency.".into(), svg: bars(&curs, "Attributed P/L by currency")? },
+        Figure {
+            id: "equity",
+            caption: "Cumulative P/L of the three scenarios; grey ticks are top-tier releases."
+                .into(),
+            svg: equity(&curves, &ticks, "Equity: baseline, removed, capped")?,
+        },
+        Figure {
+            id: "by-category",
+            caption: "P/L attributed to releases, by category.".into(),
+            svg: bars(&cats, "Attributed P/L by category")?,
+        },
+        Figure {
+            id: "by-currency",
+            caption: "P/L attributed to releases, by currency.".into(),
+            svg: bars(&curs, "Attributed P/L by currency")?,
+        },
         Figure {
             id: "scatter",
-            caption: format!("Trade P/L against minutes from the nearest relevant release to the open; lines at −{} and +{} minutes (high-tier window).", high.pre_min, high.post_min),
-            svg: scatter(&d.scatter, high.pre_min as f64, high.post_min as f64, 240.0, "P/L around releases")?,
+            caption: format!(
+                "Trade P/L against minutes from the nearest relevant release to the open; lines at −{} and +{} minutes (high-tier window).",
+                high.pre_min, high.post_min
+            ),
+            svg: scatter(
+                &d.scatter,
+                high.pre_min as f64,
+                high.post_min as f64,
+                240.0,
+                "P/L around releases",
+            )?,
         },
     ])
 }

@@ -18,7 +18,11 @@ pub fn csv_field(s: &str) -> std::borrow::Cow<'_, str> {
 }
 
 fn opt_num(v: f64) -> String {
-    if v.is_finite() { format!("{v}") } else { String::new() }
+    if v.is_finite() {
+        format!("{v}")
+    } else {
+        String::new()
+    }
 }
 
 /// Each input trade with its exposure columns.
@@ -29,8 +33,18 @@ pub struct AnnotatedTrades<'a> {
     files: &'a [String],
 }
 
-pub fn annotated_trades<'a>(trades: &'a Trades, exposure: &'a Exposure, releases: &'a [Release], files: &'a [String]) -> AnnotatedTrades<'a> {
-    AnnotatedTrades { trades, exposure, releases, files }
+pub fn annotated_trades<'a>(
+    trades: &'a Trades,
+    exposure: &'a Exposure,
+    releases: &'a [Release],
+    files: &'a [String],
+) -> AnnotatedTrades<'a> {
+    AnnotatedTrades {
+        trades,
+        exposure,
+        releases,
+        files,
+    }
 }
 
 pub const TRADE_COLUMNS: &[&str] = &[
@@ -71,7 +85,12 @@ impl AnnotatedTrades<'_> {
                 "{},{},{},{},{},{},{},{},{},{},{},{},{}",
                 csv_field(&self.files[t.file[i] as usize]),
                 t.row[i],
-                csv_field(t.runs.get(t.run[i] as usize).map(String::as_str).unwrap_or("")),
+                csv_field(
+                    t.runs
+                        .get(t.run[i] as usize)
+                        .map(String::as_str)
+                        .unwrap_or("")
+                ),
                 format_utc(t.opened[i]),
                 format_utc(t.closed[i]),
                 csv_field(&t.instruments[t.instrument[i] as usize]),
@@ -103,21 +122,63 @@ impl AnnotatedTrades<'_> {
         let mut df = DataFrame::new(
             n,
             vec![
-                Column::new("source_file".into(), (0..n).map(|i| self.files[t.file[i] as usize].as_str()).collect::<Vec<_>>()),
+                Column::new(
+                    "source_file".into(),
+                    (0..n)
+                        .map(|i| self.files[t.file[i] as usize].as_str())
+                        .collect::<Vec<_>>(),
+                ),
                 Column::new("source_row".into(), t.row.clone()),
-                Column::new("run".into(), (0..n).map(|i| t.runs.get(t.run[i] as usize).map(String::as_str).unwrap_or("")).collect::<Vec<_>>()),
+                Column::new(
+                    "run".into(),
+                    (0..n)
+                        .map(|i| {
+                            t.runs
+                                .get(t.run[i] as usize)
+                                .map(String::as_str)
+                                .unwrap_or("")
+                        })
+                        .collect::<Vec<_>>(),
+                ),
                 utc_column("opened_at", &t.opened),
                 utc_column("closed_at", &t.closed),
-                Column::new("instrument".into(), (0..n).map(|i| t.instruments[t.instrument[i] as usize].as_str()).collect::<Vec<_>>()),
+                Column::new(
+                    "instrument".into(),
+                    (0..n)
+                        .map(|i| t.instruments[t.instrument[i] as usize].as_str())
+                        .collect::<Vec<_>>(),
+                ),
                 Column::new("pnl".into(), t.pnl.clone()),
-                Column::new("exposed".into(), self.exposure.k.iter().map(|&k| k > 0).collect::<Vec<_>>()),
+                Column::new(
+                    "exposed".into(),
+                    self.exposure.k.iter().map(|&k| k > 0).collect::<Vec<_>>(),
+                ),
                 Column::new("matches".into(), self.exposure.k.clone()),
-                Column::new("nearest_release_id".into(), near.iter().map(|r| r.map(|r| r.id.as_str())).collect::<Vec<_>>()),
-                Column::new("nearest_release_title".into(), near.iter().map(|r| r.map(|r| r.title.as_str())).collect::<Vec<_>>()),
-                Column::new("nearest_release_tier".into(), near.iter().map(|r| r.map(|r| r.tier.as_str())).collect::<Vec<_>>()),
+                Column::new(
+                    "nearest_release_id".into(),
+                    near.iter()
+                        .map(|r| r.map(|r| r.id.as_str()))
+                        .collect::<Vec<_>>(),
+                ),
+                Column::new(
+                    "nearest_release_title".into(),
+                    near.iter()
+                        .map(|r| r.map(|r| r.title.as_str()))
+                        .collect::<Vec<_>>(),
+                ),
+                Column::new(
+                    "nearest_release_tier".into(),
+                    near.iter()
+                        .map(|r| r.map(|r| r.tier.as_str()))
+                        .collect::<Vec<_>>(),
+                ),
                 Column::new(
                     "minutes_from_nearest".into(),
-                    self.exposure.minutes_from_nearest.iter().map(|v| v.is_finite().then_some(*v)).collect::<Vec<_>>(),
+                    self.exposure
+                        .minutes_from_nearest
+                        .iter()
+                        .map(|v| v.is_finite().then_some(*v))
+                        .collect::<Vec<_>>(),
                 ),
             ],
         )?;
@@ -142,7 +203,8 @@ fn utc_column(name: &str, ms: &[i64]) -> polars::prelude::Column {
 
 /// releases.csv: one row per used release.
 pub fn releases_csv(lines: &[ReleaseLine]) -> Vec<u8> {
-    let mut s = String::from("id,released_at,title,currency,tier,category,trades_touched,attributed_pnl\n");
+    let mut s =
+        String::from("id,released_at,title,currency,tier,category,trades_touched,attributed_pnl\n");
     for r in lines {
         let _ = writeln!(
             s,
@@ -198,7 +260,9 @@ pub const RUN_COLUMNS: &[&str] = &[
 ];
 
 fn opt(v: Option<f64>) -> String {
-    v.filter(|x| x.is_finite()).map(|x| x.to_string()).unwrap_or_default()
+    v.filter(|x| x.is_finite())
+        .map(|x| x.to_string())
+        .unwrap_or_default()
 }
 
 /// runs.csv: one row per run, columns as `RUN_COLUMNS`.
@@ -242,26 +306,62 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
     let mut df = DataFrame::new(
         rows.len(),
         vec![
-            Column::new("run".into(), rows.iter().map(|r| r.run.as_str()).collect::<Vec<_>>()),
-            Column::new("trades".into(), rows.iter().map(|r| r.trades as u64).collect::<Vec<_>>()),
-            Column::new("exposed_trades".into(), rows.iter().map(|r| r.exposed_trades as u64).collect::<Vec<_>>()),
+            Column::new(
+                "run".into(),
+                rows.iter().map(|r| r.run.as_str()).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "trades".into(),
+                rows.iter().map(|r| r.trades as u64).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "exposed_trades".into(),
+                rows.iter()
+                    .map(|r| r.exposed_trades as u64)
+                    .collect::<Vec<_>>(),
+            ),
             Column::new("exposed_pnl".into(), f(|r| Some(r.exposed_pnl))),
             Column::new("exposed_share".into(), f(|r| r.exposed_share)),
             Column::new("net_baseline".into(), f(|r| Some(r.net_baseline))),
             Column::new("net_removed".into(), f(|r| Some(r.net_removed))),
-            Column::new("profit_factor_baseline".into(), f(|r| r.profit_factor_baseline)),
-            Column::new("profit_factor_removed".into(), f(|r| r.profit_factor_removed)),
+            Column::new(
+                "profit_factor_baseline".into(),
+                f(|r| r.profit_factor_baseline),
+            ),
+            Column::new(
+                "profit_factor_removed".into(),
+                f(|r| r.profit_factor_removed),
+            ),
             Column::new("sharpe_baseline".into(), f(|r| r.sharpe_baseline)),
             Column::new("sharpe_removed".into(), f(|r| r.sharpe_removed)),
-            Column::new("max_drawdown_baseline".into(), f(|r| Some(r.max_drawdown_baseline))),
-            Column::new("max_drawdown_removed".into(), f(|r| Some(r.max_drawdown_removed))),
+            Column::new(
+                "max_drawdown_baseline".into(),
+                f(|r| Some(r.max_drawdown_baseline)),
+            ),
+            Column::new(
+                "max_drawdown_removed".into(),
+                f(|r| Some(r.max_drawdown_removed)),
+            ),
             Column::new("tcr_baseline".into(), f(|r| r.tcr_baseline)),
             Column::new("tcr_removed".into(), f(|r| r.tcr_removed)),
             Column::new("by_baseline".into(), f(|r| r.by_baseline)),
             Column::new("by_removed".into(), f(|r| r.by_removed)),
-            Column::new("rank_baseline".into(), rows.iter().map(|r| r.rank_baseline as u64).collect::<Vec<_>>()),
-            Column::new("rank_removed".into(), rows.iter().map(|r| r.rank_removed as u64).collect::<Vec<_>>()),
-            Column::new("rank_shift".into(), rows.iter().map(|r| r.rank_shift).collect::<Vec<_>>()),
+            Column::new(
+                "rank_baseline".into(),
+                rows.iter()
+                    .map(|r| r.rank_baseline as u64)
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "rank_removed".into(),
+                rows.iter()
+                    .map(|r| r.rank_removed as u64)
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "rank_shift".into(),
+                rows.iter().map(|r| r.rank_shift).collect::<Vec<_>>(),
+            ),
             Column::new("placebo_p".into(), f(|r| r.placebo_p)),
         ],
     )?;
@@ -272,7 +372,9 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
 
 /// grid.csv: one row per tune cell (heat-map data).
 pub fn grid_csv(cells: &[crate::tune::Cell]) -> Vec<u8> {
-    let mut s = String::from("pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,blocked_share,frontier\n");
+    let mut s = String::from(
+        "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,blocked_share,frontier\n",
+    );
     for c in cells {
         let _ = writeln!(
             s,

@@ -7,7 +7,10 @@ use std::fmt::Write;
 
 /// Escapes text for HTML.
 pub fn esc(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 const STYLE: &str = "body{font-family:sans-serif;max-width:980px;margin:2em auto;color:#222;line-height:1.4}\
@@ -27,9 +30,16 @@ pub struct Figure {
 
 pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     let mut h = String::new();
-    let _ = write!(h, "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>eventfence report</title><style>{STYLE}</style></head><body>");
+    let _ = write!(
+        h,
+        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>eventfence report</title><style>{STYLE}</style></head><body>"
+    );
     let _ = write!(h, "<h1>Release exposure report</h1>");
-    let _ = write!(h, "<p class=\"answer\">{}</p>", esc(&super::table::headline_sentence(s)));
+    let _ = write!(
+        h,
+        "<p class=\"answer\">{}</p>",
+        esc(&super::table::headline_sentence(s))
+    );
     for w in &s.warnings {
         let _ = write!(h, "<p class=\"warn\">{}</p>", esc(w));
     }
@@ -38,16 +48,34 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     let c = &s.inputs.calendar;
     let rows = [
         ("trade files", t.files.join(", ")),
-        ("trade rows read / imported / rejected", format!("{} / {} / {}", t.rows_read, t.rows_imported, t.rows_rejected)),
+        (
+            "trade rows read / imported / rejected",
+            format!(
+                "{} / {} / {}",
+                t.rows_read, t.rows_imported, t.rows_rejected
+            ),
+        ),
         ("trade time zone", t.input_tz.clone()),
         ("P/L per trade", t.pnl_formed_as.clone()),
         ("calendar files", c.files.join(", ")),
-        ("releases / used / touched", format!("{} / {} / {}", c.releases, s.exposure.releases_used, s.exposure.releases_touched)),
+        (
+            "releases / used / touched",
+            format!(
+                "{} / {} / {}",
+                c.releases, s.exposure.releases_used, s.exposure.releases_touched
+            ),
+        ),
         ("calendar time zone", c.calendar_tz.clone()),
         ("exposure rule", super::label(&s.settings.exposure_rule)),
-        ("windows (minutes before/after)", super::windows_text(&s.settings.windows)),
+        (
+            "windows (minutes before/after)",
+            super::windows_text(&s.settings.windows),
+        ),
         ("sizing", super::label(&s.settings.scenario.sizing)),
-        ("cap for capped scenario", super::table::fmt_opt(s.cap_value, 4)),
+        (
+            "cap for capped scenario",
+            super::table::fmt_opt(s.cap_value, 4),
+        ),
         ("report zone for days", s.settings.report_tz.to_string()),
     ];
     for (k, v) in rows {
@@ -55,13 +83,31 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     }
     let _ = write!(h, "</table>");
     let _ = write!(h, "<h2>Scenarios</h2>{}", super::table::scenario_html(s));
-    let _ = write!(h, "<h2>Is it chance?</h2><p>{}</p>", esc(&super::table::chance_text(s)).replace('\n', "<br>"));
+    let _ = write!(
+        h,
+        "<h2>Is it chance?</h2><p>{}</p>",
+        esc(&super::table::chance_text(s)).replace('\n', "<br>")
+    );
     let _ = write!(h, "<h2>Charts</h2>");
     for f in figures {
-        let _ = write!(h, "<figure id=\"{}\">{}<figcaption>{}</figcaption></figure>", f.id, strip_xml_decl(&f.svg), esc(&f.caption));
+        let _ = write!(
+            h,
+            "<figure id=\"{}\">{}<figcaption>{}</figcaption></figure>",
+            f.id,
+            strip_xml_decl(&f.svg),
+            esc(&f.caption)
+        );
     }
-    let _ = write!(h, "<h2>Releases with the largest attributed P/L</h2><table><tr><th>released (UTC)</th><th>title</th><th>currency</th><th>tier</th><th>trades</th><th>attributed</th></tr>");
-    let mut top: Vec<_> = s.attribution.by_release.iter().filter(|r| r.trades_touched > 0).collect();
+    let _ = write!(
+        h,
+        "<h2>Releases with the largest attributed P/L</h2><table><tr><th>released (UTC)</th><th>title</th><th>currency</th><th>tier</th><th>trades</th><th>attributed</th></tr>"
+    );
+    let mut top: Vec<_> = s
+        .attribution
+        .by_release
+        .iter()
+        .filter(|r| r.trades_touched > 0)
+        .collect();
     top.sort_by(|a, b| b.attributed_pnl.abs().total_cmp(&a.attributed_pnl.abs()));
     for r in top.iter().take(15) {
         let _ = write!(
@@ -77,10 +123,19 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     }
     let _ = write!(h, "</table><h2>Rejected rows</h2>");
     if t.rows_rejected + c.rows_rejected == 0 {
-        let _ = write!(h, "<p>None: every trade row and calendar row was imported.</p>");
+        let _ = write!(
+            h,
+            "<p>None: every trade row and calendar row was imported.</p>"
+        );
     } else {
-        let _ = write!(h, "<table><tr><th>input</th><th>reason</th><th>rows</th></tr>");
-        for (src, m) in [("trades", &t.rejected_by_reason), ("calendar", &c.rejected_by_reason)] {
+        let _ = write!(
+            h,
+            "<table><tr><th>input</th><th>reason</th><th>rows</th></tr>"
+        );
+        for (src, m) in [
+            ("trades", &t.rejected_by_reason),
+            ("calendar", &c.rejected_by_reason),
+        ] {
             for (k, v) in m {
                 let _ = write!(h, "<tr><td>{src}</td><td>{}</td><td>{v}</td></tr>", esc(k));
             }
@@ -88,7 +143,12 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         let _ = write!(h, "</table>");
     }
     let _ = write!(h, "<p class=\"caution\">{}</p>", esc(s.caution));
-    let _ = write!(h, "<p class=\"caution\">{} {}</p></body></html>", esc(s.tool.name), esc(s.tool.version));
+    let _ = write!(
+        h,
+        "<p class=\"caution\">{} {}</p></body></html>",
+        esc(s.tool.name),
+        esc(s.tool.version)
+    );
     h
 }
 
@@ -100,13 +160,30 @@ fn strip_xml_decl(svg: &str) -> &str {
 }
 
 /// A page holding charts only (rank and tune reports).
-pub fn charts_page(title: &str, intro: &str, warnings: &[String], figures: &[Figure], caution: &str) -> String {
-    let mut h = format!("<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body><h1>{}</h1><p>{}</p>", esc(title), esc(title), esc(intro));
+pub fn charts_page(
+    title: &str,
+    intro: &str,
+    warnings: &[String],
+    figures: &[Figure],
+    caution: &str,
+) -> String {
+    let mut h = format!(
+        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>{}</title><style>{STYLE}</style></head><body><h1>{}</h1><p>{}</p>",
+        esc(title),
+        esc(title),
+        esc(intro)
+    );
     for w in warnings {
         let _ = write!(h, "<p class=\"warn\">{}</p>", esc(w));
     }
     for f in figures {
-        let _ = write!(h, "<figure id=\"{}\">{}<figcaption>{}</figcaption></figure>", f.id, strip_xml_decl(&f.svg), esc(&f.caption));
+        let _ = write!(
+            h,
+            "<figure id=\"{}\">{}<figcaption>{}</figcaption></figure>",
+            f.id,
+            strip_xml_decl(&f.svg),
+            esc(&f.caption)
+        );
     }
     let _ = write!(h, "<p class=\"caution\">{}</p></body></html>", esc(caution));
     h

@@ -12,11 +12,23 @@ pub mod term;
 /// The snake_case name an enum has in JSON (`overlap`, `fixed`, `sharpe`),
 /// so terminal, HTML and JSON use the same words.
 pub fn label<T: serde::Serialize>(v: &T) -> String {
-    serde_json::to_value(v).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default()
+    serde_json::to_value(v)
+        .ok()
+        .and_then(|v| v.as_str().map(String::from))
+        .unwrap_or_default()
 }
 
 /// Tier windows as "high 15/30, medium 5/10, low off".
 pub fn windows_text(w: &crate::windows::WindowSettings) -> String {
-    let f = |x: Option<crate::windows::Window>| x.map_or("off".to_string(), |w| format!("{}/{}", w.pre_min, w.post_min));
-    format!("high {}, medium {}, low {}", f(w.high), f(w.medium), f(w.low))
+    let f = |x: Option<crate::windows::Window>| {
+        x.map_or("off".to_string(), |w| {
+            format!("{}/{}", w.pre_min, w.post_min)
+        })
+    };
+    format!(
+        "high {}, medium {}, low {}",
+        f(w.high),
+        f(w.medium),
+        f(w.low)
+    )
 }

@@ -12,12 +12,21 @@ fn options() -> &'static usvg::Options<'static> {
         db.load_system_fonts();
         // Charts ask for the generic "sans-serif": point it at a font that
         // is actually installed.
-        let families: Vec<String> = db.faces().flat_map(|f| f.families.iter().map(|x| x.0.clone())).collect();
-        let pick = ["DejaVu Sans", "Liberation Sans", "Noto Sans", "Arial", "FreeSans"]
-            .iter()
-            .find(|p| families.iter().any(|f| f == *p))
-            .map(|p| p.to_string())
-            .or_else(|| families.first().cloned());
+        let families: Vec<String> = db
+            .faces()
+            .flat_map(|f| f.families.iter().map(|x| x.0.clone()))
+            .collect();
+        let pick = [
+            "DejaVu Sans",
+            "Liberation Sans",
+            "Noto Sans",
+            "Arial",
+            "FreeSans",
+        ]
+        .iter()
+        .find(|p| families.iter().any(|f| f == *p))
+        .map(|p| p.to_string())
+        .or_else(|| families.first().cloned());
         if let Some(f) = pick {
             db.set_sans_serif_family(f);
         }
@@ -34,8 +43,11 @@ pub fn have_fonts() -> bool {
 pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, String> {
     let tree = usvg::Tree::from_str(svg, options()).map_err(|e| format!("chart SVG: {e}"))?;
     let size = tree.size().to_int_size();
-    let mut pixmap = tiny_skia::Pixmap::new(size.width(), size.height()).ok_or("chart has no size")?;
+    let mut pixmap =
+        tiny_skia::Pixmap::new(size.width(), size.height()).ok_or("chart has no size")?;
     pixmap.fill(tiny_skia::Color::WHITE);
     resvg::render(&tree, tiny_skia::Transform::default(), &mut pixmap.as_mut());
-    pixmap.encode_png().map_err(|e| format!("PNG encoding: {e}"))
+    pixmap
+        .encode_png()
+        .map_err(|e| format!("PNG encoding: {e}"))
 }

@@ -12,7 +12,11 @@ fn local(z: &Zone, ms: i64) -> String {
 }
 
 fn titles(b: &Blackout) -> String {
-    b.releases.iter().map(|r| format!("{} {} ({})", r.currency, r.title, r.tier)).collect::<Vec<_>>().join("; ")
+    b.releases
+        .iter()
+        .map(|r| format!("{} {} ({})", r.currency, r.title, r.tier))
+        .collect::<Vec<_>>()
+        .join("; ")
 }
 
 pub const CSV_COLUMNS: &[&str] = &[
@@ -46,7 +50,13 @@ pub fn csv(windows: &[Blackout], z: &Zone) -> Vec<u8> {
             format_utc(b.end),
             (b.end - b.start) / 60_000,
             csv_field(&titles(b)),
-            csv_field(&b.releases.iter().map(|r| r.id.as_str()).collect::<Vec<_>>().join(";")),
+            csv_field(
+                &b.releases
+                    .iter()
+                    .map(|r| r.id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(";")
+            ),
             csv_field(&b.uid()),
         );
     }
@@ -101,7 +111,13 @@ pub fn json(windows: &[Blackout], z: &Zone) -> String {
                 releases: b
                     .releases
                     .iter()
-                    .map(|r| JsonRelease { id: &r.id, title: &r.title, currency: &r.currency, tier: r.tier, released_at: format_utc(r.at) })
+                    .map(|r| JsonRelease {
+                        id: &r.id,
+                        title: &r.title,
+                        currency: &r.currency,
+                        tier: r.tier,
+                        released_at: format_utc(r.at),
+                    })
                     .collect(),
             })
             .collect(),
@@ -112,7 +128,10 @@ pub fn json(windows: &[Blackout], z: &Zone) -> String {
 
 /// RFC 5545 §3.3.11 TEXT escaping.
 fn escape(s: &str) -> String {
-    s.replace('\\', "\\\\").replace(';', "\\;").replace(',', "\\,").replace('\n', "\\n")
+    s.replace('\\', "\\\\")
+        .replace(';', "\\;")
+        .replace(',', "\\,")
+        .replace('\n', "\\n")
 }
 
 /// Folds a content line at 75 octets (RFC 5545 §3.1), never inside a UTF-8
@@ -132,13 +151,21 @@ fn fold(line: &str, out: &mut String) {
 }
 
 fn ics_utc(ms: i64) -> String {
-    crate::zones::ms_to_naive(ms).format("%Y%m%dT%H%M%SZ").to_string()
+    crate::zones::ms_to_naive(ms)
+        .format("%Y%m%dT%H%M%SZ")
+        .to_string()
 }
 
 /// One VEVENT per merged window, DTSTART/DTEND in UTC, stable UIDs.
 pub fn ics(windows: &[Blackout], dtstamp_ms: i64) -> Vec<u8> {
     let mut s = String::new();
-    for l in ["BEGIN:VCALENDAR", "VERSION:2.0", "PRODID:-//eventfence//blackout schedule//EN", "CALSCALE:GREGORIAN", "METHOD:PUBLISH"] {
+    for l in [
+        "BEGIN:VCALENDAR",
+        "VERSION:2.0",
+        "PRODID:-//eventfence//blackout schedule//EN",
+        "CALSCALE:GREGORIAN",
+        "METHOD:PUBLISH",
+    ] {
         fold(l, &mut s);
     }
     for b in windows {
@@ -147,8 +174,28 @@ pub fn ics(windows: &[Blackout], dtstamp_ms: i64) -> Vec<u8> {
         fold(&format!("DTSTAMP:{}", ics_utc(dtstamp_ms)), &mut s);
         fold(&format!("DTSTART:{}", ics_utc(b.start)), &mut s);
         fold(&format!("DTEND:{}", ics_utc(b.end)), &mut s);
-        fold(&format!("SUMMARY:{}", escape(&format!("{} blackout: {}", b.instrument, b.releases.iter().map(|r| r.title.as_str()).collect::<Vec<_>>().join(" + ")))), &mut s);
-        fold(&format!("DESCRIPTION:{}", escape(&format!("{}\n{}", titles(b), CAUTION))), &mut s);
+        fold(
+            &format!(
+                "SUMMARY:{}",
+                escape(&format!(
+                    "{} blackout: {}",
+                    b.instrument,
+                    b.releases
+                        .iter()
+                        .map(|r| r.title.as_str())
+                        .collect::<Vec<_>>()
+                        .join(" + ")
+                ))
+            ),
+            &mut s,
+        );
+        fold(
+            &format!(
+                "DESCRIPTION:{}",
+                escape(&format!("{}\n{}", titles(b), CAUTION))
+            ),
+            &mut s,
+        );
         fold("TRANSP:TRANSPARENT", &mut s);
         fold(&format!("CATEGORIES:{}", escape(&b.instrument)), &mut s);
         fold("END:VEVENT", &mut s);
@@ -167,11 +214,19 @@ pub fn table(windows: &[Blackout], z: &Zone) -> String {
             // A window that ends on a later local day shows that day.
             comfy_table::Cell::new({
                 let (start, end) = (z.to_local(b.start), z.to_local(b.end));
-                if end.date() == start.date() { end.format("%H:%M").to_string() } else { end.format("%a %Y-%m-%d %H:%M").to_string() }
+                if end.date() == start.date() {
+                    end.format("%H:%M").to_string()
+                } else {
+                    end.format("%a %Y-%m-%d %H:%M").to_string()
+                }
             }),
             comfy_table::Cell::new(format_offset(z.offset_at(b.start))),
             comfy_table::Cell::new(titles(b)),
         ]);
     }
-    format!("Blackout windows in {z} ({} windows)\n{t}\n{}\n", windows.len(), super::table::wrap(CAUTION, 78))
+    format!(
+        "Blackout windows in {z} ({} windows)\n{t}\n{}\n",
+        windows.len(),
+        super::table::wrap(CAUTION, 78)
+    )
 }

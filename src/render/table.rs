@@ -3,7 +3,9 @@
 
 use crate::calendar::Tier;
 use crate::cmd::check::CheckReport;
-use comfy_table::{Cell, CellAlignment, ContentArrangement, ContentLineStyle, LineStyle, Table, TableStyle};
+use comfy_table::{
+    Cell, CellAlignment, ContentArrangement, ContentLineStyle, LineStyle, Table, TableStyle,
+};
 use std::fmt::Write;
 
 /// House look: a rule under the header, columns two spaces apart.
@@ -32,7 +34,11 @@ pub fn check(r: &CheckReport) -> String {
     if let Some(t) = &r.trades {
         let i = &t.import;
         let _ = writeln!(out, "Trades: {} file(s)", i.files.len());
-        let _ = writeln!(out, "  rows read {}, imported {}, rejected {}", i.rows_read, i.rows_imported, i.rows_rejected);
+        let _ = writeln!(
+            out,
+            "  rows read {}, imported {}, rejected {}",
+            i.rows_read, i.rows_imported, i.rows_rejected
+        );
         let _ = writeln!(out, "  P/L per trade = {}", i.pnl_formed_as);
         if let (Some(u), Some(z)) = (&t.span_utc, &t.span_input_zone) {
             let _ = writeln!(out, "  span (UTC)        {} → {}", u[0], u[1]);
@@ -44,8 +50,16 @@ pub fn check(r: &CheckReport) -> String {
             let _ = writeln!(out, "  parameter sets (runs): {}", t.runs);
         }
         for c in &i.time_columns {
-            let file = if i.files.len() > 1 { format!("{}: ", c.file) } else { String::new() };
-            let _ = writeln!(out, "  {file}{} from '{}': {}", c.field, c.column, c.read_as);
+            let file = if i.files.len() > 1 {
+                format!("{}: ", c.file)
+            } else {
+                String::new()
+            };
+            let _ = writeln!(
+                out,
+                "  {file}{} from '{}': {}",
+                c.field, c.column, c.read_as
+            );
         }
         let mut tab = new_table(&["instrument", "trades", "currencies", "from"]);
         for l in &t.instruments {
@@ -53,12 +67,22 @@ pub fn check(r: &CheckReport) -> String {
             tab.add_row(vec![
                 Cell::new(&c.instrument),
                 num(l.trades),
-                Cell::new(if c.currencies.is_empty() { "—".to_string() } else { c.currencies.join(" ") }),
+                Cell::new(if c.currencies.is_empty() {
+                    "—".to_string()
+                } else {
+                    c.currencies.join(" ")
+                }),
                 Cell::new(format!("{:?}", c.source).to_lowercase()),
             ]);
         }
         let _ = writeln!(out, "{tab}");
-        rejections(&mut out, &i.rejected_by_reason, i.rejections.iter().map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)));
+        rejections(
+            &mut out,
+            &i.rejected_by_reason,
+            i.rejections
+                .iter()
+                .map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)),
+        );
     }
     if let Some(c) = &r.calendar {
         let i = &c.import;
@@ -72,10 +96,18 @@ pub fn check(r: &CheckReport) -> String {
             let _ = writeln!(out, "  span (UTC)  {} → {}", s[0], s[1]);
         }
         if i.occurrences_moved + i.occurrences_cancelled > 0 {
-            let _ = writeln!(out, "  instances: {} occurrence(s) moved, {} cancelled (RECURRENCE-ID)", i.occurrences_moved, i.occurrences_cancelled);
+            let _ = writeln!(
+                out,
+                "  instances: {} occurrence(s) moved, {} cancelled (RECURRENCE-ID)",
+                i.occurrences_moved, i.occurrences_cancelled
+            );
         }
         if i.components_skipped > 0 {
-            let _ = writeln!(out, "  {} component(s) not used (to-dos, journals, alarms…) passed over", i.components_skipped);
+            let _ = writeln!(
+                out,
+                "  {} component(s) not used (to-dos, journals, alarms…) passed over",
+                i.components_skipped
+            );
         }
         for n in &i.notes {
             let _ = writeln!(out, "  note: {n}");
@@ -83,13 +115,29 @@ pub fn check(r: &CheckReport) -> String {
         let mut tab = new_table(&["currency", "high", "medium", "low", "total"]);
         for (cur, tiers) in &c.releases_by_currency {
             let g = |t| tiers.get(&t).copied().unwrap_or(0);
-            tab.add_row(vec![Cell::new(cur), num(g(Tier::High)), num(g(Tier::Medium)), num(g(Tier::Low)), num(tiers.values().sum::<usize>())]);
+            tab.add_row(vec![
+                Cell::new(cur),
+                num(g(Tier::High)),
+                num(g(Tier::Medium)),
+                num(g(Tier::Low)),
+                num(tiers.values().sum::<usize>()),
+            ]);
         }
         let _ = writeln!(out, "{tab}");
         if c.all_day_releases > 0 {
-            let _ = writeln!(out, "  {} all-day release(s): ignored by analyses unless --all-day is given", c.all_day_releases);
+            let _ = writeln!(
+                out,
+                "  {} all-day release(s): ignored by analyses unless --all-day is given",
+                c.all_day_releases
+            );
         }
-        rejections(&mut out, &i.rejected_by_reason, i.rejections.iter().map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)));
+        rejections(
+            &mut out,
+            &i.rejected_by_reason,
+            i.rejections
+                .iter()
+                .map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)),
+        );
     }
     for p in &r.problems {
         let _ = writeln!(out, "\nProblem: {p}");
@@ -98,7 +146,11 @@ pub fn check(r: &CheckReport) -> String {
     out
 }
 
-fn rejections(out: &mut String, by_reason: &std::collections::BTreeMap<String, usize>, lines: impl Iterator<Item = String>) {
+fn rejections(
+    out: &mut String,
+    by_reason: &std::collections::BTreeMap<String, usize>,
+    lines: impl Iterator<Item = String>,
+) {
     if by_reason.is_empty() {
         return;
     }
@@ -155,7 +207,12 @@ const METRIC_ROWS: &[Row] = &[
     ("largest loss", |m| m.largest_loss, 2, false),
     ("max drawdown", |m| Some(m.max_drawdown), 2, false),
     ("max drawdown %", |m| m.max_drawdown_pct, 3, true),
-    ("longest drawdown (days)", |m| Some(m.longest_drawdown_days), 1, false),
+    (
+        "longest drawdown (days)",
+        |m| Some(m.longest_drawdown_days),
+        1,
+        false,
+    ),
     ("return / drawdown", |m| m.return_to_drawdown, 3, false),
     ("Sharpe (daily, ann.)", |m| m.sharpe, 3, false),
     ("Sortino (daily, ann.)", |m| m.sortino, 3, false),
@@ -171,9 +228,20 @@ const METRIC_ROWS: &[Row] = &[
 fn release_scope(w: &crate::windows::WindowSettings) -> String {
     let mut parts = Vec::new();
     if w.tiers.len() < 3 {
-        parts.push(format!("tiers {}", w.tiers.iter().map(|t| t.as_str()).collect::<Vec<_>>().join(", ")));
+        parts.push(format!(
+            "tiers {}",
+            w.tiers
+                .iter()
+                .map(|t| t.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
     }
-    let shown = |win: &Option<crate::windows::Window>| win.map_or("off".to_string(), |x| format!("{}/{}", x.pre_min, x.post_min));
+    let shown = |win: &Option<crate::windows::Window>| {
+        win.map_or("off".to_string(), |x| {
+            format!("{}/{}", x.pre_min, x.post_min)
+        })
+    };
     for (cat, win) in &w.by_category {
         parts.push(format!("category {cat} {}", shown(win)));
     }
@@ -183,7 +251,11 @@ fn release_scope(w: &crate::windows::WindowSettings) -> String {
     if w.include_all_day {
         parts.push("all-day releases included".into());
     }
-    if parts.is_empty() { String::new() } else { format!(" ({})", parts.join("; ")) }
+    if parts.is_empty() {
+        String::new()
+    } else {
+        format!(" ({})", parts.join("; "))
+    }
 }
 
 pub fn headline_sentence(s: &Summary) -> String {
@@ -204,7 +276,10 @@ pub fn headline_sentence(s: &Summary) -> String {
         fmt_opt(b.profit_factor, 2),
         fmt_opt(r.profit_factor, 2),
         r.net,
-        s.placebo.as_ref().map_or(String::new(), |p| format!("; placebo p = {}", fmt_opt(p.p_share, 3)))
+        s.placebo.as_ref().map_or(String::new(), |p| format!(
+            "; placebo p = {}",
+            fmt_opt(p.p_share, 3)
+        ))
     )
 }
 
@@ -214,7 +289,11 @@ pub fn analyze(s: &Summary) -> String {
         out,
         "eventfence analyze: {} trades{} · {} releases ({} used) · rule {} · windows (min) {} · sizing {} · days in {}",
         s.exposure.trades,
-        if s.runs.is_empty() { String::new() } else { format!(" in {} runs", s.runs.len()) },
+        if s.runs.is_empty() {
+            String::new()
+        } else {
+            format!(" in {} runs", s.runs.len())
+        },
         s.inputs.calendar.releases,
         s.exposure.releases_used,
         super::label(&s.settings.exposure_rule),
@@ -237,29 +316,66 @@ pub fn analyze(s: &Summary) -> String {
         pct(h.share_of_count),
         fmt_opt(s.cap_value, 4)
     );
-    let mut t = new_table(&["figure", "baseline", "removed", "Δ removed", "capped", "Δ capped"]);
+    let mut t = new_table(&[
+        "figure",
+        "baseline",
+        "removed",
+        "Δ removed",
+        "capped",
+        "Δ capped",
+    ]);
     let sc = &s.scenarios;
     for (label, get, dec, is_pct) in METRIC_ROWS {
         let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
         let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
-        let d = |a: Option<f64>, b: Option<f64>| if *is_pct { delta(a.map(|x: f64| x * 100.0), b.map(|x: f64| x * 100.0), 1) } else { delta(a, b, *dec) };
-        t.add_row(vec![Cell::new(label), num(f(b)), num(f(r)), num(d(b, r)), num(f(c)), num(d(b, c))]);
+        let d = |a: Option<f64>, b: Option<f64>| {
+            if *is_pct {
+                delta(a.map(|x: f64| x * 100.0), b.map(|x: f64| x * 100.0), 1)
+            } else {
+                delta(a, b, *dec)
+            }
+        };
+        t.add_row(vec![
+            Cell::new(label),
+            num(f(b)),
+            num(f(r)),
+            num(d(b, r)),
+            num(f(c)),
+            num(d(b, c)),
+        ]);
     }
     let _ = writeln!(out, "{t}");
     let _ = writeln!(out, "{}", chance_text(s));
     if let Some(b) = &s.bootstrap {
         let mut t = new_table(&["figure", "change", "low", "high"]);
         for (name, i) in &b.intervals {
-            t.add_row(vec![Cell::new(name.replace('_', " ")), num(fmt_opt(i.observed, 3)), num(fmt_opt(i.low, 3)), num(fmt_opt(i.high, 3))]);
+            t.add_row(vec![
+                Cell::new(name.replace('_', " ")),
+                num(fmt_opt(i.observed, 3)),
+                num(fmt_opt(i.low, 3)),
+                num(fmt_opt(i.high, 3)),
+            ]);
         }
         let _ = writeln!(out, "{t}");
     }
     let _ = writeln!(out);
-    let mut top: Vec<&crate::attribution::ReleaseLine> = s.attribution.by_release.iter().filter(|r| r.trades_touched > 0).collect();
+    let mut top: Vec<&crate::attribution::ReleaseLine> = s
+        .attribution
+        .by_release
+        .iter()
+        .filter(|r| r.trades_touched > 0)
+        .collect();
     top.sort_by(|a, b| b.attributed_pnl.abs().total_cmp(&a.attributed_pnl.abs()));
     if !top.is_empty() {
         let _ = writeln!(out, "Releases with the largest attributed P/L:");
-        let mut t = new_table(&["released (UTC)", "title", "ccy", "tier", "trades", "attributed"]);
+        let mut t = new_table(&[
+            "released (UTC)",
+            "title",
+            "ccy",
+            "tier",
+            "trades",
+            "attributed",
+        ]);
         for r in top.iter().take(10) {
             t.add_row(vec![
                 Cell::new(&r.released_at[..16]),
@@ -272,18 +388,47 @@ pub fn analyze(s: &Summary) -> String {
         }
         let _ = writeln!(out, "{t}");
     }
-    for (name, groups) in [("category", &s.attribution.by_category), ("currency", &s.attribution.by_currency), ("tier", &s.attribution.by_tier)] {
+    for (name, groups) in [
+        ("category", &s.attribution.by_category),
+        ("currency", &s.attribution.by_currency),
+        ("tier", &s.attribution.by_tier),
+    ] {
         let mut t = new_table(&[name, "releases used", "touched", "matches", "attributed"]);
         for (k, g) in groups {
-            t.add_row(vec![Cell::new(k), num(g.releases_used), num(g.releases_touched), num(g.matches), num(format!("{:.2}", g.attributed_pnl))]);
+            t.add_row(vec![
+                Cell::new(k),
+                num(g.releases_used),
+                num(g.releases_touched),
+                num(g.matches),
+                num(format!("{:.2}", g.attributed_pnl)),
+            ]);
         }
         let _ = writeln!(out, "{t}");
     }
     if !s.runs.is_empty() {
         let mut runs: Vec<&crate::analysis::RunResult> = s.runs.iter().collect();
-        runs.sort_by(|a, b| b.scenarios.baseline.net.total_cmp(&a.scenarios.baseline.net));
-        let _ = writeln!(out, "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):", runs.len());
-        let mut t = new_table(&["run", "trades", "exposed", "net", "net removed", "PF", "PF removed", "TCR", "TCR removed"]);
+        runs.sort_by(|a, b| {
+            b.scenarios
+                .baseline
+                .net
+                .total_cmp(&a.scenarios.baseline.net)
+        });
+        let _ = writeln!(
+            out,
+            "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):",
+            runs.len()
+        );
+        let mut t = new_table(&[
+            "run",
+            "trades",
+            "exposed",
+            "net",
+            "net removed",
+            "PF",
+            "PF removed",
+            "TCR",
+            "TCR removed",
+        ]);
         for r in runs.iter().take(10) {
             let (b, m) = (&r.scenarios.baseline, &r.scenarios.removed);
             t.add_row(vec![
@@ -305,7 +450,19 @@ pub fn analyze(s: &Summary) -> String {
             out,
             "Across runs: each run is an alternative account, while the scenario table above pools\nevery run's trades; read the account-path figures (Sharpe, Sortino, drawdowns,\nreturn/drawdown, t) here, per run:"
         );
-        let mut t = new_table(&["figure", "runs", "median", "q1", "q3", "best", "worst", "median rem", "q1 rem", "q3 rem", "improved"]);
+        let mut t = new_table(&[
+            "figure",
+            "runs",
+            "median",
+            "q1",
+            "q3",
+            "best",
+            "worst",
+            "median rem",
+            "q1 rem",
+            "q3 rem",
+            "improved",
+        ]);
         // Whole cells only: a number split over two lines misreads.
         t.set_content_arrangement(ContentArrangement::Disabled);
         for f in &d.figures {
@@ -347,15 +504,37 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     for warning in &r.warnings {
         let _ = writeln!(out, "WARNING {warning}");
     }
-    let _ = writeln!(out, "{} of {} runs ranked by {by} (rank 1 best).", r.runs.len(), r.runs_total);
-    let _ = writeln!(out, "base/rem: {by} with all trades / without release-exposed trades;");
-    let _ = writeln!(out, "shift > 0: the run moves up once release trades are removed.");
-    let _ = writeln!(out, "TCR b/r: tail concentration {}. P/L per trade = {}.", basis_words(r.tcr_basis), r.pnl_formed_as);
+    let _ = writeln!(
+        out,
+        "{} of {} runs ranked by {by} (rank 1 best).",
+        r.runs.len(),
+        r.runs_total
+    );
+    let _ = writeln!(
+        out,
+        "base/rem: {by} with all trades / without release-exposed trades;"
+    );
+    let _ = writeln!(
+        out,
+        "shift > 0: the run moves up once release trades are removed."
+    );
+    let _ = writeln!(
+        out,
+        "TCR b/r: tail concentration {}. P/L per trade = {}.",
+        basis_words(r.tcr_basis),
+        r.pnl_formed_as
+    );
     if let Some(first) = r.runs.first() {
-        let _ = writeln!(out, "Open one run in full: the same inputs to analyze, with --run {}.\n", first.run);
+        let _ = writeln!(
+            out,
+            "Open one run in full: the same inputs to analyze, with --run {}.\n",
+            first.run
+        );
     }
     let with_p = r.runs.iter().any(|x| x.placebo_p.is_some());
-    let mut header = vec!["run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift"];
+    let mut header = vec![
+        "run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift",
+    ];
     if with_p {
         header.push("p");
     }
@@ -366,7 +545,10 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
             let mut row = vec![
                 x.run.clone(),
                 x.trades.to_string(),
-                format!("{:.1}", 100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64),
+                format!(
+                    "{:.1}",
+                    100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64
+                ),
                 fmt_opt(x.by_baseline, 2),
                 fmt_opt(x.by_removed, 2),
                 fmt_opt(x.tcr_baseline, 1),
@@ -385,7 +567,17 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
         let mut t = new_table(&keep.iter().map(|&k| header[k]).collect::<Vec<_>>());
         t.set_content_arrangement(ContentArrangement::Disabled);
         for row in &rows {
-            t.add_row(keep.iter().map(|&k| if k == 0 { Cell::new(&row[k]) } else { num(&row[k]) }).collect::<Vec<_>>());
+            t.add_row(
+                keep.iter()
+                    .map(|&k| {
+                        if k == 0 {
+                            Cell::new(&row[k])
+                        } else {
+                            num(&row[k])
+                        }
+                    })
+                    .collect::<Vec<_>>(),
+            );
         }
         t.to_string()
     };
@@ -406,7 +598,12 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     }
     let _ = writeln!(out, "{table}");
     if !dropped.is_empty() {
-        let _ = writeln!(out, "Left out to fit {} columns: {} (all in --json and runs.csv).", width.unwrap_or(0), dropped.join(", "));
+        let _ = writeln!(
+            out,
+            "Left out to fit {} columns: {} (all in --json and runs.csv).",
+            width.unwrap_or(0),
+            dropped.join(", ")
+        );
     }
     let _ = writeln!(out, "{}", wrap(r.caution, 78));
     out
@@ -454,7 +651,17 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
         fmt_opt(res.tcr_baseline, 2),
         basis_words(res.tcr_basis)
     );
-    let mut t = new_table(&["pre", "post", "removed", "% of net", "TCR after", "Sharpe after", "max DD after", "blocked", ""]);
+    let mut t = new_table(&[
+        "pre",
+        "post",
+        "removed",
+        "% of net",
+        "TCR after",
+        "Sharpe after",
+        "max DD after",
+        "blocked",
+        "",
+    ]);
     for c in res.cells.iter().filter(|c| c.frontier || !frontier_only) {
         t.add_row(vec![
             num(c.pre_min),
@@ -479,14 +686,21 @@ pub fn chance_text(s: &Summary) -> String {
     let tail = &s.tail;
     let (what, basis) = match tail.tcr_basis {
         crate::scenarios::TailBasis::Amount => ("|P/L|", "on P/L amounts"),
-        crate::scenarios::TailBasis::Return => ("|return|", "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known"),
+        crate::scenarios::TailBasis::Return => (
+            "|return|",
+            "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known",
+        ),
     };
     let _ = writeln!(
         out,
         "Tail concentration {basis}: mean of the top {} % {what} over mean {what}; threshold {} — {}.",
         tail.p, tail.threshold, tail.threshold_source
     );
-    for (name, l) in [("baseline", &tail.baseline), ("removed", &tail.removed), ("capped", &tail.capped)] {
+    for (name, l) in [
+        ("baseline", &tail.baseline),
+        ("removed", &tail.removed),
+        ("capped", &tail.capped),
+    ] {
         let _ = writeln!(
             out,
             "  {name:<8} TCR {} ({}){}; Hill tail index {}",
@@ -496,8 +710,18 @@ pub fn chance_text(s: &Summary) -> String {
                 Some(false) => "at or below threshold",
                 None => "undefined",
             },
-            if l.too_few { format!(", top bucket of {} trade(s) is too few to judge", l.top_bucket) } else { String::new() },
-            l.hill.map_or("—".to_string(), |h| format!("{:.2} (k = {} of {})", h.alpha, h.k, h.n)),
+            if l.too_few {
+                format!(
+                    ", top bucket of {} trade(s) is too few to judge",
+                    l.top_bucket
+                )
+            } else {
+                String::new()
+            },
+            l.hill.map_or("—".to_string(), |h| format!(
+                "{:.2} (k = {} of {})",
+                h.alpha, h.k, h.n
+            )),
         );
     }
     if let Some(p) = &s.placebo {
@@ -513,9 +737,22 @@ pub fn chance_text(s: &Summary) -> String {
         );
     }
     if let Some(b) = &s.bootstrap {
-        let _ = write!(out, "Bootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline:", b.resamples, b.seed, b.confidence * 100.0);
+        let _ = write!(
+            out,
+            "Bootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline:",
+            b.resamples,
+            b.seed,
+            b.confidence * 100.0
+        );
         for (name, i) in &b.intervals {
-            let _ = write!(out, "\n  {:<14} {} [{}, {}]", name.replace('_', " "), fmt_opt(i.observed, 3), fmt_opt(i.low, 3), fmt_opt(i.high, 3));
+            let _ = write!(
+                out,
+                "\n  {:<14} {} [{}, {}]",
+                name.replace('_', " "),
+                fmt_opt(i.observed, 3),
+                fmt_opt(i.low, 3),
+                fmt_opt(i.high, 3)
+            );
         }
     }
     out
@@ -524,13 +761,30 @@ pub fn chance_text(s: &Summary) -> String {
 /// The scenario table as HTML.
 pub fn scenario_html(s: &Summary) -> String {
     use super::html::esc;
-    let mut h = String::from("<table><tr><th>figure</th><th>baseline</th><th>removed</th><th>Δ removed</th><th>capped</th><th>Δ capped</th></tr>");
+    let mut h = String::from(
+        "<table><tr><th>figure</th><th>baseline</th><th>removed</th><th>Δ removed</th><th>capped</th><th>Δ capped</th></tr>",
+    );
     let sc = &s.scenarios;
     for (label, get, dec, is_pct) in METRIC_ROWS {
         let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
         let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
-        let d = |a: Option<f64>, b: Option<f64>| if *is_pct { delta(a.map(|x| x * 100.0), b.map(|x| x * 100.0), 1) } else { delta(a, b, *dec) };
-        let _ = write!(h, "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>", esc(label), f(b), f(r), d(b, r), f(c), d(b, c));
+        let d = |a: Option<f64>, b: Option<f64>| {
+            if *is_pct {
+                delta(a.map(|x| x * 100.0), b.map(|x| x * 100.0), 1)
+            } else {
+                delta(a, b, *dec)
+            }
+        };
+        let _ = write!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            esc(label),
+            f(b),
+            f(r),
+            d(b, r),
+            f(c),
+            d(b, c)
+        );
     }
     h.push_str("</table>");
     h

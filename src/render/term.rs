@@ -12,13 +12,19 @@ pub fn use_colour() -> bool {
 /// The terminal's width in columns: `COLUMNS` when set to a number, else
 /// the width of the terminal on stdout; `None` when piped (no limit).
 pub fn width() -> Option<usize> {
-    if let Some(c) = std::env::var("COLUMNS").ok().and_then(|v| v.trim().parse::<usize>().ok()).filter(|&c| c > 0) {
+    if let Some(c) = std::env::var("COLUMNS")
+        .ok()
+        .and_then(|v| v.trim().parse::<usize>().ok())
+        .filter(|&c| c > 0)
+    {
         return Some(c);
     }
     if !std::io::stdout().is_terminal() {
         return None;
     }
-    console::Term::stdout().size_checked().map(|(_, cols)| cols as usize)
+    console::Term::stdout()
+        .size_checked()
+        .map(|(_, cols)| cols as usize)
 }
 
 /// Adds emphasis to a rendered report when `colour` is true.
