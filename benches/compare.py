@@ -87,7 +87,7 @@ def to_peer_format(summary_path, work):
     """Writes eventfence's figures in the peers' file layout."""
     s = json.load(open(summary_path))
     e = s["exposure"]
-    sc = s["scenarios"]
+    sc = s["scenarios"]  # run with --pool: the peers read all runs as one account
     peer = {
         "peer": "eventfence",
         "trades": e["trades"], "exposed_trades": e["exposed_trades"], "exposed_pnl": e["exposed_pnl"],
@@ -124,10 +124,10 @@ def compare(n, m, runs, years, reps, seed):
     jobs = {
         "floor (check)": lambda: timed([BIN, "check", "--trades", trades]),
         "eventfence analyze": lambda: timed([BIN, "analyze", "--quiet", "--trades", trades, "--calendar", cal,
-                                             "--placebo", "0", "--bootstrap", "0", "--json"],
+                                             "--placebo", "0", "--bootstrap", "0", "--json", "--pool"],
                                             os.path.join(work, "summary.json")),
         "analyze (Parquet)": lambda: timed([BIN, "analyze", "--quiet", "--trades", trades_pq, "--calendar", cal,
-                                            "--placebo", "0", "--bootstrap", "0", "--json"],
+                                            "--placebo", "0", "--bootstrap", "0", "--json", "--pool"],
                                            os.path.join(work, "summary_parquet.json")),
         "eventfence rank": lambda: timed([BIN, "rank", "--quiet", "--trades", trades, "--calendar", cal, "--top", "1"]),
     }

@@ -30,6 +30,63 @@ pub struct AnalysisSettings {
     /// to last release. Shown in the coverage lines.
     #[serde(skip)]
     pub calendar_span: Option<(i64, i64)>,
+    /// `--pool`: read every run's trades as one account (runs that really
+    /// are one account split by strategy).
+    pub pool: bool,
+}
+
+/// How the overall account-path figures (Sharpe, Sortino, drawdowns,
+/// return/drawdown, t-statistic, time in market) of an input are read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AccountFigures {
+    /// No runs, or one: the trades are one account.
+    OneAccount,
+    /// Several runs, each an alternative account: the overall account-path
+    /// figures are their spread across runs (`across_runs`), and the pooled
+    /// scenario figures leave them out (null).
+    PerRun,
+    /// Several runs read as one account (`--pool`).
+    Pooled,
+}
+
+impl AccountFigures {
+    pub fn of(trades: &Trades, pool: bool) -> AccountFigures {
+        // One run, alone or picked with --run, is one account.
+        if trades.runs.len() < 2 {
+            AccountFigures::OneAccount
+        } else if pool {
+            AccountFigures::Pooled
+        } else {
+            AccountFigures::PerRun
+        }
+    }
+}
+
+impl Metrics {
+    /// Leaves out the figures that follow one account's path through time
+    /// (for trades pooled from alternative accounts).
+    pub fn without_account_path(mut self) -> Metrics {
+        self.max_drawdown = None;
+        self.max_drawdown_pct = None;
+        self.longest_drawdown_days = None;
+        self.return_to_drawdown = None;
+        self.sharpe = None;
+        self.sortino = None;
+        self.t_stat = None;
+        self.time_in_market = None;
+        self
+    }
+}
+
+impl ScenarioMetrics {
+    fn without_account_path(self) -> ScenarioMetrics {
+        ScenarioMetrics {
+            baseline: self.baseline.without_account_path(),
+            removed: self.removed.without_account_path(),
+            capped: self.capped.without_account_path(),
+        }
+    }
 }
 
 /// Where the default TCR threshold comes from (SPEC §6).
@@ -163,12 +220,8 @@ pub fn across_runs(runs: &[RunResult], tcr_threshold: f64) -> Option<RunDistribu
     let figures: [(&'static str, Get, bool); 7] = [
         ("sharpe", |m| m.sharpe, true),
         ("sortino", |m| m.sortino, true),
-        ("max_drawdown", |m| Some(m.max_drawdown), false),
-        (
-            "longest_drawdown_days",
-            |m| Some(m.longest_drawdown_days),
-            false,
-        ),
+        ("max_drawdown", |m| m.max_drawdown, false),
+        ("longest_drawdown_days", |m| m.longest_drawdown_days, false),
         ("return_to_drawdown", |m| m.return_to_drawdown, true),
         ("t_stat", |m| m.t_stat, true),
         ("time_in_market", |m| m.time_in_market, true),
@@ -222,6 +275,7 @@ pub fn across_runs(runs: &[RunResult], tcr_threshold: f64) -> Option<RunDistribu
 
 #[derive(Debug, Clone, Serialize)]
 pub struct Analysis {
+    pub account_figures: AccountFigures,
     pub exposure: ExposureSummary,
     pub coverage: Vec<CoverageLine>,
     pub cap_value: Option<f64>,
@@ -461,8 +515,15 @@ pub fn analyze(
             .filter(|r| r.trades_touched > 0)
             .count(),
     };
+    let account_figures = AccountFigures::of(trades, settings.pool);
+    let overall = if account_figures == AccountFigures::PerRun {
+        overall.without_account_path()
+    } else {
+        overall
+    };
     Ok((
         Analysis {
+            account_figures,
             exposure: summary,
             coverage,
             cap_value,

@@ -46,11 +46,11 @@ pub struct Metrics {
     pub largest_win: Option<f64>,
     pub largest_loss: Option<f64>,
     /// Largest peak-to-trough fall of the closed-trade equity curve (≥ 0).
-    pub max_drawdown: f64,
+    pub max_drawdown: Option<f64>,
     /// The same as a fraction of the peak equity, when equity is known.
     pub max_drawdown_pct: Option<f64>,
     /// Longest time from a peak to the next new peak, in days.
-    pub longest_drawdown_days: f64,
+    pub longest_drawdown_days: Option<f64>,
     /// net ÷ max drawdown.
     pub return_to_drawdown: Option<f64>,
     /// Daily mean ÷ sample sd (ddof 1) × √252, rf = 0.
@@ -437,10 +437,10 @@ pub fn compute_with_union(c: &Curve, ctx: &Context, union: Option<i64>) -> Metri
     m.largest_win = (m.wins > 0).then_some(big_win);
     m.largest_loss = (m.losses > 0).then_some(big_loss);
     let (dd, dd_pct) = max_drawdown(c.pnl, ctx.initial_equity.unwrap_or(0.0));
-    m.max_drawdown = dd;
+    m.max_drawdown = Some(dd);
     m.max_drawdown_pct = ctx.initial_equity.and(dd_pct);
     let (daily, longest) = walk_closes(c, ctx);
-    m.longest_drawdown_days = longest;
+    m.longest_drawdown_days = Some(longest);
     m.return_to_drawdown = (dd > 0.0).then(|| m.net / dd);
     m.sharpe = sharpe(&daily, DAYS_PER_YEAR);
     m.sortino = sortino(&daily, DAYS_PER_YEAR);
@@ -571,7 +571,7 @@ mod tests {
         assert!(close(m.profit_factor.unwrap(), 2.395348837209302));
         assert!(close(m.win_rate.unwrap(), 0.6));
         assert!(close(m.t_stat.unwrap(), 1.056905286528691));
-        assert!(close(m.max_drawdown, 200.0));
+        assert!(close(m.max_drawdown.unwrap(), 200.0));
         // k = ceil(10 × 10 / 100) = 1 → 400 / 146.
         assert!(close(m.tcr.unwrap(), 2.73972602739726));
         assert!(close(tcr(&REF, 20.0).unwrap(), 2.2260273972602738));

@@ -40,7 +40,7 @@ impl RankBy {
             RankBy::ReturnToDrawdown => m.return_to_drawdown,
             RankBy::Expectancy => m.expectancy,
             RankBy::TStat => m.t_stat,
-            RankBy::MaxDrawdown => Some(m.max_drawdown),
+            RankBy::MaxDrawdown => m.max_drawdown,
         }
     }
     fn higher_is_better(self) -> bool {
@@ -55,16 +55,18 @@ pub struct RunRow {
     pub trades: usize,
     pub exposed_trades: usize,
     pub exposed_pnl: f64,
-    /// exposed P/L ÷ net.
-    pub exposed_share: Option<f64>,
+    /// Exposed trades ÷ trades.
+    pub exposed_share_of_trades: Option<f64>,
+    /// Exposed P/L ÷ net P/L.
+    pub exposed_share_of_net: Option<f64>,
     pub net_baseline: f64,
     pub net_removed: f64,
     pub profit_factor_baseline: Option<f64>,
     pub profit_factor_removed: Option<f64>,
     pub sharpe_baseline: Option<f64>,
     pub sharpe_removed: Option<f64>,
-    pub max_drawdown_baseline: f64,
-    pub max_drawdown_removed: f64,
+    pub max_drawdown_baseline: Option<f64>,
+    pub max_drawdown_removed: Option<f64>,
     pub tcr_baseline: Option<f64>,
     pub tcr_removed: Option<f64>,
     /// The ranking figure in each scenario.
@@ -191,7 +193,9 @@ fn run_row(
         trades: t.len(),
         exposed_trades: flags.iter().filter(|&&f| f).count(),
         exposed_pnl,
-        exposed_share: (b.net != 0.0).then(|| exposed_pnl / b.net),
+        exposed_share_of_trades: (!t.is_empty())
+            .then(|| flags.iter().filter(|&&f| f).count() as f64 / t.len() as f64),
+        exposed_share_of_net: (b.net != 0.0).then(|| exposed_pnl / b.net),
         net_baseline: b.net,
         net_removed: rm.net,
         profit_factor_baseline: b.profit_factor,

@@ -113,6 +113,9 @@ pub struct Summary {
     pub tool: ToolInfo,
     pub inputs: Inputs,
     pub settings: AnalysisSettings,
+    /// `one_account`, `per_run` (account-path figures only in `runs` and
+    /// `across_runs`; null in `scenarios`) or `pooled` (`--pool`).
+    pub account_figures: crate::analysis::AccountFigures,
     pub exposure: ExposureSummary,
     pub coverage: Vec<CoverageLine>,
     /// The cap C of the capped scenario (amount, or return fraction under
@@ -165,6 +168,7 @@ impl Summary {
             tool: ToolInfo::current(),
             inputs,
             settings,
+            account_figures: a.account_figures,
             exposure: a.exposure,
             coverage: a.coverage,
             cap_value: a.cap_value,

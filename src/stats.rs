@@ -279,6 +279,10 @@ pub struct BootstrapResult {
     pub intervals: BTreeMap<&'static str, Interval>,
 }
 
+/// Of [`BOOTSTRAP_FIGURES`], those that follow one account's path through
+/// time (left out when runs are alternative accounts).
+pub const ACCOUNT_PATH_FIGURES: [&str; 2] = ["sharpe", "max_drawdown"];
+
 /// The figures whose change is bootstrapped.
 pub const BOOTSTRAP_FIGURES: [&str; 5] = ["net", "profit_factor", "sharpe", "max_drawdown", "tcr"];
 
@@ -287,7 +291,7 @@ fn figure(m: &metrics::Metrics, name: &str) -> Option<f64> {
         "net" => Some(m.net),
         "profit_factor" => m.profit_factor,
         "sharpe" => m.sharpe,
-        "max_drawdown" => Some(m.max_drawdown),
+        "max_drawdown" => m.max_drawdown,
         "tcr" => m.tcr,
         _ => None,
     }

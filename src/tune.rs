@@ -6,7 +6,7 @@
 //! The trades are read, sorted into close order and indexed once; a cell
 //! only moves the release windows and re-runs the exposure engine.
 
-use crate::analysis::AnalysisSettings;
+use crate::analysis::{AccountFigures, AnalysisSettings};
 use crate::calendar::{Release, Tier};
 use crate::exposure::{Engine, used_windows};
 use crate::metrics::{self, Context};
@@ -50,7 +50,11 @@ pub struct Cell {
     /// Baseline TCR − TCR after removal.
     pub tcr_reduction: Option<f64>,
     pub sharpe_after: Option<f64>,
-    pub max_drawdown_after: f64,
+    pub max_drawdown_after: Option<f64>,
+    /// With alternative runs: share of runs whose tail concentration falls
+    /// without the exposed trades, and share whose Sharpe rises.
+    pub runs_tcr_reduced: Option<f64>,
+    pub runs_sharpe_improved: Option<f64>,
     /// Union of the windows (of the traded currencies) ÷ weekday time in
     /// the trades' span.
     pub blocked_share: f64,
@@ -61,6 +65,12 @@ pub struct Cell {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct TuneResult {
+    /// `per_run`: each cell's tail, Sharpe and drawdown figures are medians
+    /// over runs (alternative accounts) of the per-run figures, and
+    /// `tcr_baseline` the median run's; else the figures of all trades.
+    pub account_figures: AccountFigures,
+    /// Runs the medians are taken over (0 unless `per_run`).
+    pub runs: usize,
     /// `None`: every used tier gets the cell's window; else only this tier.
     pub tier: Option<Tier>,
     pub pre: Vec<i64>,
@@ -124,13 +134,59 @@ pub fn tune(
         initial_equity: sc.initial_equity,
         tcr_p: settings.tcr_p,
     };
+    let account_figures = AccountFigures::of(trades, settings.pool);
     let base = build(&|_| false)?;
-    let tcr_baseline = metrics::compute(
-        &base.baseline.view().curve(&trades.opened, &trades.closed),
-        &ctx_of(&base),
-    )
-    .tcr;
     let tcr_basis = base.tail_basis;
+    // Per run (alternative accounts): each run's trades in close order,
+    // its span, and its baseline TCR and Sharpe, computed once.
+    let per_run: Vec<RunBase> = if account_figures == AccountFigures::PerRun {
+        let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
+        for &i in &order {
+            by_run[trades.run[i as usize] as usize].push(i);
+        }
+        by_run
+            .into_par_iter()
+            .map(|idx| -> Result<RunBase, scenarios::ScenarioError> {
+                let span = (
+                    idx.iter()
+                        .map(|&i| trades.opened[i as usize])
+                        .min()
+                        .unwrap_or(span.0),
+                    idx.iter()
+                        .map(|&i| trades.closed[i as usize])
+                        .max()
+                        .unwrap_or(span.1),
+                );
+                let sc =
+                    scenarios::build(&TradeView::of(&idx, trades, &|_| false), &settings.scenario)?;
+                let ctx = Context {
+                    span,
+                    ..ctx_of(&sc)
+                };
+                let m = metrics::compute(
+                    &sc.baseline.view().curve(&trades.opened, &trades.closed),
+                    &ctx,
+                );
+                Ok(RunBase {
+                    order: idx,
+                    span,
+                    tcr: m.tcr,
+                    sharpe: m.sharpe,
+                })
+            })
+            .collect::<Result<_, _>>()?
+    } else {
+        Vec::new()
+    };
+    let tcr_baseline = if per_run.is_empty() {
+        metrics::compute(
+            &base.baseline.view().curve(&trades.opened, &trades.closed),
+            &ctx_of(&base),
+        )
+        .tcr
+    } else {
+        median(per_run.iter().filter_map(|r| r.tcr).collect())
+    };
     drop(base);
     let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
@@ -164,11 +220,23 @@ pub fn tune(
                 .map(|i| trades.pnl[i])
                 .sum();
             let is_exposed = |i: usize| exp.k[i] > 0;
-            let sc = build(&is_exposed)?;
-            let m = metrics::compute(
-                &sc.removed.view().curve(&trades.opened, &trades.closed),
-                &ctx_of(&sc),
-            );
+            let after = if per_run.is_empty() {
+                let sc = build(&is_exposed)?;
+                let m = metrics::compute(
+                    &sc.removed.view().curve(&trades.opened, &trades.closed),
+                    &ctx_of(&sc),
+                );
+                After {
+                    tcr: m.tcr,
+                    tcr_reduction: tcr_baseline.zip(m.tcr).map(|(x, y)| x - y),
+                    sharpe: m.sharpe,
+                    max_drawdown: m.max_drawdown,
+                    runs_tcr_reduced: None,
+                    runs_sharpe_improved: None,
+                }
+            } else {
+                runs_after(&per_run, trades, &is_exposed, settings, &ctx_of)?
+            };
             let blocked = metrics::union_within(
                 used.iter()
                     .filter(|w| traded.contains(&&w.currency))
@@ -182,10 +250,12 @@ pub fn tune(
                 post_min: b,
                 trades_removed: exp.exposed_count(),
                 share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
-                tcr_after: m.tcr,
-                tcr_reduction: tcr_baseline.zip(m.tcr).map(|(x, y)| x - y),
-                sharpe_after: m.sharpe,
-                max_drawdown_after: m.max_drawdown,
+                tcr_after: after.tcr,
+                tcr_reduction: after.tcr_reduction,
+                sharpe_after: after.sharpe,
+                max_drawdown_after: after.max_drawdown,
+                runs_tcr_reduced: after.runs_tcr_reduced,
+                runs_sharpe_improved: after.runs_sharpe_improved,
                 blocked_share: if week > 0.0 {
                     blocked as f64 / week
                 } else {
@@ -197,12 +267,88 @@ pub fn tune(
         .collect::<Result<_, _>>()?;
     mark_frontier(&mut cells);
     Ok(TuneResult {
+        account_figures,
+        runs: per_run.len(),
         tier,
         pre: pre.to_vec(),
         post: post.to_vec(),
         tcr_baseline,
         tcr_basis,
         cells,
+    })
+}
+
+/// One run's trades and its figures with every trade.
+struct RunBase {
+    order: Vec<u32>,
+    span: (i64, i64),
+    tcr: Option<f64>,
+    sharpe: Option<f64>,
+}
+
+/// A cell's figures without the exposed trades.
+struct After {
+    tcr: Option<f64>,
+    tcr_reduction: Option<f64>,
+    sharpe: Option<f64>,
+    max_drawdown: Option<f64>,
+    runs_tcr_reduced: Option<f64>,
+    runs_sharpe_improved: Option<f64>,
+}
+
+fn median(mut v: Vec<f64>) -> Option<f64> {
+    metrics::quantile_type7_unsorted(&mut v, 0.5)
+}
+
+/// Medians over runs of each run's figures without the exposed trades
+/// (the reduction is each run's own, then the median), and the shares of
+/// runs whose TCR falls and whose Sharpe rises.
+fn runs_after(
+    runs: &[RunBase],
+    trades: &Trades,
+    exposed: &(dyn Fn(usize) -> bool + Sync),
+    settings: &AnalysisSettings,
+    ctx_of: &(dyn Fn(&scenarios::Scenarios) -> Context + Sync),
+) -> Result<After, scenarios::ScenarioError> {
+    // Per run: TCR after, its reduction, Sharpe after, max drawdown after,
+    // Sharpe gain.
+    type RunAfter = [Option<f64>; 5];
+    let each: Vec<RunAfter> = runs
+        .iter()
+        .map(|r| -> Result<_, scenarios::ScenarioError> {
+            let sc = scenarios::build(
+                &TradeView::of(&r.order, trades, exposed),
+                &settings.scenario,
+            )?;
+            let ctx = Context {
+                span: r.span,
+                ..ctx_of(&sc)
+            };
+            let m = metrics::compute(
+                &sc.removed.view().curve(&trades.opened, &trades.closed),
+                &ctx,
+            );
+            Ok([
+                m.tcr,
+                r.tcr.zip(m.tcr).map(|(b, a)| b - a),
+                m.sharpe,
+                m.max_drawdown,
+                r.sharpe.zip(m.sharpe).map(|(b, a)| a - b),
+            ])
+        })
+        .collect::<Result<_, _>>()?;
+    let share = |v: Vec<f64>| {
+        (!v.is_empty()).then(|| v.iter().filter(|&&d| d > 0.0).count() as f64 / v.len() as f64)
+    };
+    let reductions: Vec<f64> = each.iter().filter_map(|e| e[1]).collect();
+    let sharpe_gains: Vec<f64> = each.iter().filter_map(|e| e[4]).collect();
+    Ok(After {
+        tcr: median(each.iter().filter_map(|e| e[0]).collect()),
+        tcr_reduction: median(reductions.clone()),
+        sharpe: median(each.iter().filter_map(|e| e[2]).collect()),
+        max_drawdown: median(each.iter().filter_map(|e| e[3]).collect()),
+        runs_tcr_reduced: share(reductions),
+        runs_sharpe_improved: share(sharpe_gains),
     })
 }
 
@@ -239,7 +385,9 @@ mod tests {
             tcr_after: None,
             tcr_reduction: Some(red),
             sharpe_after: None,
-            max_drawdown_after: 0.0,
+            max_drawdown_after: None,
+            runs_tcr_reduced: None,
+            runs_sharpe_improved: None,
             blocked_share: blocked,
             frontier: false,
         }

@@ -607,3 +607,171 @@ fn across_runs_spread_matches_the_runs() {
             < 1e-12
     );
 }
+
+/// Runs are alternative accounts (the demo's 50 parameter sets): the
+/// pooled scenario figures keep what sums over runs (trades, net, gross
+/// profit and loss, each equal to the per-run sums) and leave out every
+/// account-path figure, which is given per run and across runs instead;
+/// the bootstrap keeps only figures that are sums or shares. `--pool`
+/// reads the same trades as one account and fills them again.
+#[test]
+fn runs_are_alternatives_unless_pooled() {
+    let json = |extra: &[&str]| -> Value {
+        let o = common::demo("analyze")
+            .args(["--json", "--placebo", "0", "--bootstrap", "20"])
+            .args(extra)
+            .output()
+            .unwrap();
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let j = json(&[]);
+    assert_eq!(j["account_figures"], "per_run");
+    let runs = j["runs"].as_array().unwrap();
+    assert_eq!(runs.len(), 50);
+    for scenario in ["baseline", "removed", "capped"] {
+        let m = &j["scenarios"][scenario];
+        for path in [
+            "max_drawdown",
+            "longest_drawdown_days",
+            "return_to_drawdown",
+            "sharpe",
+            "sortino",
+            "t_stat",
+            "time_in_market",
+        ] {
+            assert!(m[path].is_null(), "{scenario}.{path} = {}", m[path]);
+        }
+        // Each run has its own cap, so only trades sum in 'capped'.
+        let sums: &[&str] = if scenario == "capped" {
+            &["trades"]
+        } else {
+            &["trades", "net", "gross_profit", "gross_loss"]
+        };
+        for &sum in sums {
+            let total: f64 = runs
+                .iter()
+                .map(|r| r["scenarios"][scenario][sum].as_f64().unwrap())
+                .sum();
+            let got = m[sum].as_f64().unwrap();
+            assert!(
+                (got - total).abs() < 1e-6 * total.abs().max(1.0),
+                "{scenario}.{sum}: {got} vs Σ runs {total}"
+            );
+        }
+        assert!(runs[0]["scenarios"][scenario]["sharpe"].is_f64());
+    }
+    let intervals: Vec<&str> = j["bootstrap"]["intervals"]
+        .as_object()
+        .unwrap()
+        .keys()
+        .map(|k| k.as_str())
+        .collect();
+    assert_eq!(intervals, ["net", "profit_factor", "tcr"]);
+    let pooled = json(&["--pool"]);
+    assert_eq!(pooled["account_figures"], "pooled");
+    assert!(pooled["scenarios"]["baseline"]["sharpe"].is_f64());
+    assert!(
+        pooled["scenarios"]["removed"]["max_drawdown"]
+            .as_f64()
+            .unwrap()
+            > 0.0
+    );
+    assert_eq!(
+        pooled["scenarios"]["baseline"]["net"],
+        j["scenarios"]["baseline"]["net"]
+    );
+    assert_eq!(
+        pooled["bootstrap"]["intervals"].as_object().unwrap().len(),
+        5
+    );
+    // One run picked out is one account.
+    let one = json(&["--run", "p07"]);
+    assert_eq!(one["account_figures"], "one_account");
+    assert!(one["scenarios"]["baseline"]["sharpe"].is_f64());
+}
+
+/// `schedule --trades F --run a` writes the windows of the instruments run
+/// `a` traded, and no others: a traded EURUSD only, b USDJPY only.
+#[test]
+fn schedule_for_one_run_covers_its_instruments() {
+    let dir = tempfile::tempdir().unwrap();
+    let trades = dir.path().join("t.csv");
+    std::fs::write(
+        &trades,
+        "run,opened_at,closed_at,instrument,pnl\n\
+         a,2024-03-01T10:00:00Z,2024-03-01T11:00:00Z,EURUSD,5\n\
+         b,2024-03-01T10:00:00Z,2024-03-01T11:00:00Z,USDJPY,5\n",
+    )
+    .unwrap();
+    let r = common::root();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .arg("schedule")
+        .arg("--calendar")
+        .arg(r.join("calendars/demo-usd.ics"))
+        .arg(r.join("calendars/demo-eur.csv"))
+        .args(["--calendar-tz", "Europe/Berlin", "--trades"])
+        .arg(&trades)
+        .args(["--run", "a", "--from", "2024-03-01", "--to", "2024-03-31"])
+        .args(["--format", "csv"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = String::from_utf8_lossy(&o.stdout);
+    let instruments: std::collections::BTreeSet<&str> = text
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().unwrap())
+        .collect();
+    assert_eq!(instruments.into_iter().collect::<Vec<_>>(), ["EURUSD"]);
+}
+
+/// The rank report lists every run, largest |shift| first, with both
+/// ranks, and its chart names the runs that move most.
+#[test]
+fn rank_report_has_the_run_table_and_names_on_the_chart() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = common::demo("rank")
+        .args(["--json", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let mut runs: Vec<(i64, String)> = j["runs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| {
+            (
+                r["rank_shift"].as_i64().unwrap(),
+                r["run"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    let table = &html[html.find("<h2>Runs</h2>").expect("run table")..];
+    assert_eq!(table.matches("<tr>").count(), 51, "header + 50 runs");
+    // Rows in order of |shift|, never increasing.
+    let shifts: Vec<i64> = table
+        .split("<tr>")
+        .skip(2)
+        .map(|row| {
+            let cells: Vec<&str> = row
+                .split("<td>")
+                .skip(1)
+                .map(|c| c.split("</td>").next().unwrap())
+                .collect();
+            cells[8].parse::<i64>().unwrap()
+        })
+        .collect();
+    assert!(
+        shifts.windows(2).all(|w| w[0].abs() >= w[1].abs()),
+        "{shifts:?}"
+    );
+    runs.sort_by_key(|r| -r.0.abs());
+    let svg = std::fs::read_to_string(dir.path().join("chart-rank-shift.svg")).unwrap();
+    assert!(
+        svg.contains(&format!(">\n{}\n<", runs[0].1)),
+        "most moved run {} named",
+        runs[0].1
+    );
+}

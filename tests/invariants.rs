@@ -226,6 +226,7 @@ fn settings() -> AnalysisSettings {
         tcr_p: 1.0,
         tcr_threshold: 12.0,
         calendar_span: None,
+        pool: false,
     }
 }
 

@@ -67,7 +67,7 @@ fn metrics_match_library_reference_values() {
             w("profit_factor"),
         );
         assert_rel("win_rate", m.win_rate.unwrap(), w("win_rate"));
-        assert_rel("max_drawdown", m.max_drawdown, w("max_drawdown"));
+        assert_rel("max_drawdown", m.max_drawdown.unwrap(), w("max_drawdown"));
         assert_rel("t_stat", m.t_stat.unwrap(), w("t_stat"));
         assert_rel("sharpe", m.sharpe.unwrap(), w("sharpe"));
         assert_rel("sortino", m.sortino.unwrap(), w("sortino"));

@@ -22,8 +22,8 @@ fn close(a: &Value, b: &Value) -> bool {
     }
 }
 
-/// Cells equal analyze at equal windows, under fixed and under compounding
-/// sizing (tune once rebuilt its removed scenario from raw P/L, so its
+/// With `--pool` (all runs one account), cells equal analyze --pool at
+/// equal windows, under fixed and under compounding sizing (tune once rebuilt its removed scenario from raw P/L, so its
 /// compounding figures were fixed-sizing ones).
 #[test]
 fn tune_cells_match_analyze_and_frontier_is_not_empty() {
@@ -31,7 +31,7 @@ fn tune_cells_match_analyze_and_frontier_is_not_empty() {
         &[][..],
         &["--sizing", "compounding", "--initial-equity", "100000"][..],
     ] {
-        let mut flags = vec!["--pre", "0..30/15", "--post", "0..60/30"];
+        let mut flags = vec!["--pool", "--pre", "0..30/15", "--post", "0..60/30"];
         flags.extend_from_slice(sizing);
         let t = demo("tune", &flags);
         let cells = t["cells"].as_array().unwrap();
@@ -45,6 +45,7 @@ fn tune_cells_match_analyze_and_frontier_is_not_empty() {
             let w = format!("{pre}/{post}");
             let (hw, mw) = (format!("high={w}"), format!("medium={w}"));
             let mut flags = vec![
+                "--pool",
                 "--window",
                 &hw,
                 "--window",
@@ -86,5 +87,87 @@ fn tune_cells_match_analyze_and_frontier_is_not_empty() {
                 "{at}: share"
             );
         }
+    }
+}
+
+/// Median by linear interpolation between order statistics (numpy's
+/// default `np.median`), written out here independently of the crate.
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        (v[n / 2 - 1] + v[n / 2]) / 2.0
+    }
+}
+
+/// Without `--pool` the demo's 50 runs are alternative accounts: each cell
+/// gives medians over runs of each run's own figure, recomputed here from
+/// analyze's per-run figures at the same windows.
+#[test]
+fn tune_cells_aggregate_per_run() {
+    let t = demo("tune", &["--pre", "15..15/15", "--post", "0..30/30"]);
+    assert_eq!(t["account_figures"], "per_run");
+    assert_eq!(t["runs"], 50);
+    for post in [0, 30] {
+        let c = t["cells"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|c| c["post_min"] == post)
+            .unwrap();
+        let w = format!("15/{post}");
+        let (hw, mw) = (format!("high={w}"), format!("medium={w}"));
+        let a = demo(
+            "analyze",
+            &[
+                "--window",
+                &hw,
+                "--window",
+                &mw,
+                "--placebo",
+                "0",
+                "--bootstrap",
+                "0",
+            ],
+        );
+        let runs = a["runs"].as_array().unwrap();
+        let fig = |r: &Value, sc: &str, k: &str| r["scenarios"][sc][k].as_f64();
+        let of =
+            |f: &dyn Fn(&Value) -> Option<f64>| runs.iter().filter_map(f).collect::<Vec<f64>>();
+        let reductions = of(&|r| Some(fig(r, "baseline", "tcr")? - fig(r, "removed", "tcr")?));
+        let want = [
+            (
+                "tcr_baseline",
+                median(of(&|r| fig(r, "baseline", "tcr"))),
+                &t,
+            ),
+            ("tcr_after", median(of(&|r| fig(r, "removed", "tcr"))), c),
+            ("tcr_reduction", median(reductions.clone()), c),
+            (
+                "sharpe_after",
+                median(of(&|r| fig(r, "removed", "sharpe"))),
+                c,
+            ),
+            (
+                "max_drawdown_after",
+                median(of(&|r| fig(r, "removed", "max_drawdown"))),
+                c,
+            ),
+            (
+                "runs_tcr_reduced",
+                reductions.iter().filter(|&&d| d > 0.0).count() as f64 / reductions.len() as f64,
+                c,
+            ),
+        ];
+        for (key, value, from) in want {
+            assert!(
+                (from[key].as_f64().unwrap() - value).abs() <= 1e-9 * value.abs().max(1.0),
+                "15/{post} {key}: {} vs {value}",
+                from[key]
+            );
+        }
+        assert_eq!(c["trades_removed"], a["exposure"]["exposed_trades"]);
     }
 }

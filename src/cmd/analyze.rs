@@ -30,6 +30,12 @@ pub struct AnalyzeArgs {
     pub terminal: TerminalArgs,
     #[command(flatten)]
     pub charts: common::ChartArgs,
+    /// With runs: read every run's trades as one account (for runs that
+    /// really are one account split by strategy). Without it, runs are
+    /// alternative parameter sets and the account-path figures (Sharpe,
+    /// drawdowns, t, ...) are given per run and as their spread across runs.
+    #[arg(long)]
+    pub pool: bool,
     /// Print summary JSON to stdout instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -52,6 +58,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     // Resolve every flag before reading data.
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
+    settings.pool = args.pool;
     let loaded = args.input.load("analyze", &args.terminal)?;
     let (trades, trade_summary, cal, currencies) = (
         &loaded.trades,
@@ -221,7 +228,7 @@ fn chance(
         };
         let n = trades.len();
         let draw = |r: usize| stats::resample(n, c.seed, r);
-        let intervals = stats::bootstrap_drawn(
+        let mut intervals = stats::bootstrap_drawn(
             c.bootstrap,
             &draw,
             trades,
@@ -232,6 +239,13 @@ fn chance(
             &|| pb.inc(1),
         );
         pb.finish_and_clear();
+        // Runs read as alternatives: the pooled trades make no account
+        // path, so only the figures that are sums or shares are kept.
+        if crate::analysis::AccountFigures::of(trades, settings.pool)
+            == crate::analysis::AccountFigures::PerRun
+        {
+            intervals.retain(|name, _| !stats::ACCOUNT_PATH_FIGURES.contains(name));
+        }
         stats::BootstrapResult {
             resamples: c.bootstrap,
             seed: c.seed,

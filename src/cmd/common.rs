@@ -381,6 +381,7 @@ impl ScenarioArgs {
         }
         Ok(crate::analysis::AnalysisSettings {
             calendar_span: None,
+            pool: false,
             exposure_rule: windows.rule,
             windows: windows.settings()?,
             scenario: crate::scenarios::ScenarioSettings {

@@ -135,6 +135,8 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
             .iter()
             .map(|r| (r.rank_baseline, r.rank_removed, r.run.clone()))
             .collect();
+        let mut by_shift = rows.clone();
+        by_shift.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed));
         let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")
             .map_err(anyhow::Error::msg)?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
@@ -148,6 +150,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
             ),
             &warnings,
             &[fig],
+            &crate::render::html::rank_table(&by_shift, &crate::render::label(&args.by)),
             CAUTION,
         );
         out.write("report.html", page.as_bytes())?;

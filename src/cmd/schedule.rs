@@ -28,6 +28,11 @@ pub struct ScheduleArgs {
     /// Instruments to schedule (comma-separated).
     #[arg(long = "instruments", value_name = "CODES", value_delimiter = ',')]
     pub instruments_list: Vec<String>,
+    /// Or the instruments traded in a back-test: its trade list(s), read as
+    /// analyze reads them (--trades-tz, --map, ...); with --run, only the
+    /// instruments those runs traded.
+    #[command(flatten)]
+    pub trades: common::TradeArgs,
     /// Or currencies directly (comma-separated); each becomes its own row.
     #[arg(long, value_name = "CCYS", value_delimiter = ',')]
     pub currencies: Vec<String>,
@@ -64,8 +69,26 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     if args.calendar.calendar.is_empty() {
         bail!("schedule needs --calendar");
     }
+    if !args.trades.run.is_empty() && args.trades.trades.is_empty() {
+        bail!("--run picks runs of --trades: give the trade list too");
+    }
+    if !args.trades.trades.is_empty() {
+        let opts = common::trade_options(&args.trades, &args.rows)?;
+        let (trades, _) = common::load_trades(&args.trades, &opts)?;
+        // The instruments that actually traded, in name order, after any
+        // named with --instruments.
+        let mut traded: Vec<String> = trades
+            .instrument
+            .iter()
+            .map(|&i| trades.instruments[i as usize].clone())
+            .collect::<std::collections::BTreeSet<_>>()
+            .into_iter()
+            .collect();
+        traded.retain(|i| !args.instruments_list.contains(i));
+        args.instruments_list.extend(traded);
+    }
     if args.instruments_list.is_empty() && args.currencies.is_empty() {
-        bail!("name --instruments or --currencies");
+        bail!("name --instruments, --currencies or --trades");
     }
     let zone = common::zone_flag("tz", &args.tz)?;
     let now = chrono::Utc::now().timestamp_millis();

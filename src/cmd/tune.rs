@@ -38,6 +38,12 @@ pub struct TuneArgs {
     /// tier that has a window.
     #[arg(long, value_name = "TIER")]
     pub tier: Option<String>,
+    /// With runs: read every run's trades as one account (for runs that
+    /// really are one account split by strategy). Without it, runs are
+    /// alternative parameter sets and the account-path figures (Sharpe,
+    /// drawdowns, t, ...) are given per run and as their spread across runs.
+    #[arg(long)]
+    pub pool: bool,
     /// Show only frontier cells in the table.
     #[arg(long)]
     pub frontier_only: bool,
@@ -74,6 +80,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     };
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
+    settings.pool = args.pool;
     let loaded = args.input.load("tune", &args.terminal)?;
     let trades = &loaded.trades;
     let cal = &loaded.calendar;
@@ -122,13 +129,22 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         let page = crate::render::html::charts_page(
             "Window tuning",
             &format!(
-                "{} × {} cells; P/L per trade = {}",
+                "{} × {} cells; P/L per trade = {}{}",
                 res.pre.len(),
                 res.post.len(),
-                report.pnl_formed_as
+                report.pnl_formed_as,
+                if res.account_figures == crate::analysis::AccountFigures::PerRun {
+                    format!(
+                        "; runs are alternative accounts: each cell's tail figure is the median over {} runs of each run's own",
+                        res.runs
+                    )
+                } else {
+                    String::new()
+                }
             ),
             &report.warnings,
             &[fig],
+            "",
             CAUTION,
         );
         out.write("report.html", page.as_bytes())?;

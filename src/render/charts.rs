@@ -404,6 +404,17 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
         .map_err(err)?
         .label("run")
         .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        // The ten runs that move most carry their names.
+        let mut moved: Vec<&(usize, usize, String)> = points.iter().collect();
+        moved.sort_by_key(|p| std::cmp::Reverse((p.0 as i64 - p.1 as i64).abs()));
+        c.draw_series(moved.iter().take(10).map(|p| {
+            Text::new(
+                p.2.clone(),
+                (p.0 as f64 + n * 0.01, p.1 as f64 + n * 0.01),
+                (FONT, 11).into_font(),
+            )
+        }))
+        .map_err(err)?;
         c.configure_series_labels()
             .position(SeriesLabelPosition::LowerRight)
             .background_style(WHITE.mix(0.9))
@@ -490,9 +501,23 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, St
         },
         Figure {
             id: "equity",
-            caption: "Cumulative P/L of the three scenarios; grey ticks are top-tier releases."
-                .into(),
-            svg: equity(&curves, &ticks, "Equity: baseline, removed, capped")?,
+            caption: if d.summary.account_figures == crate::analysis::AccountFigures::PerRun {
+                format!(
+                    "Cumulative P/L of the three scenarios, summed over all {} runs (alternative parameter sets, so no account anyone held: read it for where in time the exposed P/L sits); grey ticks are top-tier releases.",
+                    d.summary.runs.len()
+                )
+            } else {
+                "Cumulative P/L of the three scenarios; grey ticks are top-tier releases.".into()
+            },
+            svg: equity(
+                &curves,
+                &ticks,
+                if d.summary.account_figures == crate::analysis::AccountFigures::PerRun {
+                    "Summed P/L of all runs: baseline, removed, capped"
+                } else {
+                    "Equity: baseline, removed, capped"
+                },
+            )?,
         },
         Figure {
             id: "by-category",

@@ -240,7 +240,8 @@ pub const RUN_COLUMNS: &[&str] = &[
     "trades",
     "exposed_trades",
     "exposed_pnl",
-    "exposed_share",
+    "exposed_share_of_trades",
+    "exposed_share_of_net",
     "net_baseline",
     "net_removed",
     "profit_factor_baseline",
@@ -272,20 +273,21 @@ pub fn runs_csv(rows: &[crate::rank::RunRow]) -> Vec<u8> {
     for r in rows {
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
             csv_field(&r.run),
             r.trades,
             r.exposed_trades,
             r.exposed_pnl,
-            opt(r.exposed_share),
+            opt(r.exposed_share_of_trades),
+            opt(r.exposed_share_of_net),
             r.net_baseline,
             r.net_removed,
             opt(r.profit_factor_baseline),
             opt(r.profit_factor_removed),
             opt(r.sharpe_baseline),
             opt(r.sharpe_removed),
-            r.max_drawdown_baseline,
-            r.max_drawdown_removed,
+            opt(r.max_drawdown_baseline),
+            opt(r.max_drawdown_removed),
             opt(r.tcr_baseline),
             opt(r.tcr_removed),
             opt(r.by_baseline),
@@ -321,7 +323,11 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
                     .collect::<Vec<_>>(),
             ),
             Column::new("exposed_pnl".into(), f(|r| Some(r.exposed_pnl))),
-            Column::new("exposed_share".into(), f(|r| r.exposed_share)),
+            Column::new(
+                "exposed_share_of_trades".into(),
+                f(|r| r.exposed_share_of_trades),
+            ),
+            Column::new("exposed_share_of_net".into(), f(|r| r.exposed_share_of_net)),
             Column::new("net_baseline".into(), f(|r| Some(r.net_baseline))),
             Column::new("net_removed".into(), f(|r| Some(r.net_removed))),
             Column::new(
@@ -336,12 +342,9 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
             Column::new("sharpe_removed".into(), f(|r| r.sharpe_removed)),
             Column::new(
                 "max_drawdown_baseline".into(),
-                f(|r| Some(r.max_drawdown_baseline)),
+                f(|r| r.max_drawdown_baseline),
             ),
-            Column::new(
-                "max_drawdown_removed".into(),
-                f(|r| Some(r.max_drawdown_removed)),
-            ),
+            Column::new("max_drawdown_removed".into(), f(|r| r.max_drawdown_removed)),
             Column::new("tcr_baseline".into(), f(|r| r.tcr_baseline)),
             Column::new("tcr_removed".into(), f(|r| r.tcr_removed)),
             Column::new("by_baseline".into(), f(|r| r.by_baseline)),
@@ -373,12 +376,12 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
 /// grid.csv: one row per tune cell (heat-map data).
 pub fn grid_csv(cells: &[crate::tune::Cell]) -> Vec<u8> {
     let mut s = String::from(
-        "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,blocked_share,frontier\n",
+        "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,runs_tcr_reduced,runs_sharpe_improved,blocked_share,frontier\n",
     );
     for c in cells {
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{},{}",
             c.pre_min,
             c.post_min,
             c.trades_removed,
@@ -386,7 +389,9 @@ pub fn grid_csv(cells: &[crate::tune::Cell]) -> Vec<u8> {
             opt(c.tcr_after),
             opt(c.tcr_reduction),
             opt(c.sharpe_after),
-            c.max_drawdown_after,
+            opt(c.max_drawdown_after),
+            opt(c.runs_tcr_reduced),
+            opt(c.runs_sharpe_improved),
             c.blocked_share,
             c.frontier
         );

@@ -22,6 +22,24 @@ td:first-child,th:first-child{text-align:left}tr:nth-child(even){background:#f3f
 figure{margin:1.5em 0}figcaption{font-size:.9em;color:#444}";
 
 /// One chart: id, caption, SVG.
+/// An HTML table of text rows (escaped).
+pub fn table(header: &[&str], rows: &[Vec<String>]) -> String {
+    let mut h = String::from("<table><tr>");
+    for c in header {
+        let _ = write!(h, "<th>{}</th>", esc(c));
+    }
+    h.push_str("</tr>");
+    for row in rows {
+        h.push_str("<tr>");
+        for c in row {
+            let _ = write!(h, "<td>{}</td>", esc(c));
+        }
+        h.push_str("</tr>");
+    }
+    h.push_str("</table>");
+    h
+}
+
 pub struct Figure {
     pub id: &'static str,
     pub caption: String,
@@ -83,6 +101,30 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     }
     let _ = write!(h, "</table>");
     let _ = write!(h, "<h2>Scenarios</h2>{}", super::table::scenario_html(s));
+    if s.account_figures == crate::analysis::AccountFigures::PerRun {
+        let _ = write!(
+            h,
+            "<p>The table pools the trades of {} alternative runs. Sharpe, Sortino, drawdowns, return/drawdown, t and time in market describe one account, so they are given per run, as their spread across runs (--pool reads all runs as one account).</p>",
+            s.runs.len()
+        );
+    }
+    if let Some(d) = &s.across_runs {
+        let _ = write!(
+            h,
+            "<h2>Across runs</h2>{}<p>Runs above the tail threshold: {} with all trades, {} without the exposed ones.</p>",
+            table(&super::table::ACROSS_HEADER, &super::table::across_rows(d)),
+            super::table::pct(d.share_above_tcr_threshold_baseline),
+            super::table::pct(d.share_above_tcr_threshold_removed)
+        );
+    }
+    if !s.runs.is_empty() {
+        let _ = write!(
+            h,
+            "<h2>Runs</h2><p>The top 10 of {} runs by baseline net; every run is in summary.json.</p>{}",
+            s.runs.len(),
+            table(&super::table::RUNS_HEADER, &super::table::runs_rows(s, 10))
+        );
+    }
     let _ = write!(
         h,
         "<h2>Is it chance?</h2><p>{}</p>",
@@ -165,6 +207,7 @@ pub fn charts_page(
     intro: &str,
     warnings: &[String],
     figures: &[Figure],
+    tables: &str,
     caution: &str,
 ) -> String {
     let mut h = format!(
@@ -185,6 +228,51 @@ pub fn charts_page(
             esc(&f.caption)
         );
     }
+    h.push_str(tables);
     let _ = write!(h, "<p class=\"caution\">{}</p></body></html>", esc(caution));
     h
+}
+
+/// The rank report's per-run table: every run, the largest rank shifts
+/// first (as given), with the ranking figure and both ranks.
+pub fn rank_table(rows: &[crate::rank::RunRow], by: &str) -> String {
+    use super::table::{fmt_opt, pct};
+    let header = [
+        "run",
+        "trades",
+        "exposed trades",
+        "exposed share of net",
+        &format!("{by} with all trades"),
+        &format!("{by} without exposed"),
+        "rank with all",
+        "rank without",
+        "shift",
+        "TCR with all",
+        "TCR without",
+        "placebo p",
+    ];
+    let body: Vec<Vec<String>> = rows
+        .iter()
+        .map(|r| {
+            vec![
+                r.run.clone(),
+                r.trades.to_string(),
+                pct(r.exposed_share_of_trades),
+                pct(r.exposed_share_of_net),
+                fmt_opt(r.by_baseline, 3),
+                fmt_opt(r.by_removed, 3),
+                r.rank_baseline.to_string(),
+                r.rank_removed.to_string(),
+                format!("{:+}", r.rank_shift),
+                fmt_opt(r.tcr_baseline, 2),
+                fmt_opt(r.tcr_removed, 2),
+                fmt_opt(r.placebo_p, 3),
+            ]
+        })
+        .collect();
+    let header: Vec<&str> = header.iter().map(|h| h.as_ref()).collect();
+    format!(
+        "<h2>Runs</h2><p>Every run, the largest rank shifts first; a positive shift means the run moves up once the exposed trades are removed.</p>{}",
+        table(&header, &body)
+    )
 }

@@ -1,6 +1,7 @@
 //! Terminal tables (comfy-table). Plain text, no colour codes, so output is
 //! the same on a terminal, in a pipe, and under NO_COLOR.
 
+use crate::analysis::AccountFigures;
 use crate::calendar::Tier;
 use crate::cmd::check::CheckReport;
 use comfy_table::{
@@ -175,7 +176,7 @@ pub fn fmt_opt(v: Option<f64>, decimals: usize) -> String {
     }
 }
 
-fn pct(v: Option<f64>) -> String {
+pub fn pct(v: Option<f64>) -> String {
     match v {
         Some(x) if x.is_finite() => format!("{:.1} %", x * 100.0),
         _ => "—".into(),
@@ -205,11 +206,11 @@ const METRIC_ROWS: &[Row] = &[
     ("expectancy", |m| m.expectancy, 2, false),
     ("largest win", |m| m.largest_win, 2, false),
     ("largest loss", |m| m.largest_loss, 2, false),
-    ("max drawdown", |m| Some(m.max_drawdown), 2, false),
+    ("max drawdown", |m| m.max_drawdown, 2, false),
     ("max drawdown %", |m| m.max_drawdown_pct, 3, true),
     (
         "longest drawdown (days)",
-        |m| Some(m.longest_drawdown_days),
+        |m| m.longest_drawdown_days,
         1,
         false,
     ),
@@ -258,12 +259,32 @@ fn release_scope(w: &crate::windows::WindowSettings) -> String {
     }
 }
 
+/// With alternative runs: the median run's Sharpe before and after.
+fn median_sharpe_words(s: &Summary) -> String {
+    if s.account_figures != AccountFigures::PerRun {
+        return String::new();
+    }
+    let Some(f) = s
+        .across_runs
+        .as_ref()
+        .and_then(|d| d.figures.iter().find(|f| f.metric == "sharpe"))
+    else {
+        return String::new();
+    };
+    format!(
+        "; the median run's Sharpe goes from {} to {} (over {} runs)",
+        fmt_opt(f.baseline.median, 2),
+        fmt_opt(f.removed.median, 2),
+        f.runs
+    )
+}
+
 pub fn headline_sentence(s: &Summary) -> String {
     let h = &s.headline;
     let b = &s.scenarios.baseline;
     let r = &s.scenarios.removed;
     format!(
-        "{} of {} trades ({}) were exposed to {} of {} used releases{} and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}{}.",
+        "{} of {} trades ({}) were exposed to {} of {} used releases{} and made {:.2}, {} of the net {:.2}; without them profit factor goes from {} to {} and net to {:.2}{}{}.",
         s.exposure.exposed_trades,
         s.exposure.trades,
         pct(h.share_of_count),
@@ -276,6 +297,7 @@ pub fn headline_sentence(s: &Summary) -> String {
         fmt_opt(b.profit_factor, 2),
         fmt_opt(r.profit_factor, 2),
         r.net,
+        median_sharpe_words(s),
         s.placebo.as_ref().map_or(String::new(), |p| format!(
             "; placebo p = {}",
             fmt_opt(p.p_share, 3)
@@ -316,35 +338,22 @@ pub fn analyze(s: &Summary) -> String {
         pct(h.share_of_count),
         fmt_opt(s.cap_value, 4)
     );
-    let mut t = new_table(&[
-        "figure",
-        "baseline",
-        "removed",
-        "Δ removed",
-        "capped",
-        "Δ capped",
-    ]);
-    let sc = &s.scenarios;
-    for (label, get, dec, is_pct) in METRIC_ROWS {
-        let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
-        let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
-        let d = |a: Option<f64>, b: Option<f64>| {
-            if *is_pct {
-                delta(a.map(|x: f64| x * 100.0), b.map(|x: f64| x * 100.0), 1)
-            } else {
-                delta(a, b, *dec)
-            }
-        };
-        t.add_row(vec![
-            Cell::new(label),
-            num(f(b)),
-            num(f(r)),
-            num(d(b, r)),
-            num(f(c)),
-            num(d(b, c)),
-        ]);
-    }
+    let (rows, left_out) = scenario_rows(s);
+    let t = grid(&SCENARIO_HEADER, &rows);
     let _ = writeln!(out, "{t}");
+    if s.account_figures == AccountFigures::PerRun {
+        let _ = writeln!(
+            out,
+            "The table pools the trades of {} alternative runs: Sharpe, Sortino, drawdowns, return/drawdown,\nt and time in market describe one account, so they are given per run below (--pool reads\nall runs as one account).",
+            s.runs.len()
+        );
+    } else if left_out.contains(&"max drawdown %") {
+        let _ = writeln!(
+            out,
+            "max drawdown % needs the account's equity: --initial-equity, or an equity or return column."
+        );
+    }
+    out.push_str(&across_runs_text(s));
     let _ = writeln!(out, "{}", chance_text(s));
     if let Some(b) = &s.bootstrap {
         let mut t = new_table(&["figure", "change", "low", "high"]);
@@ -406,81 +415,34 @@ pub fn analyze(s: &Summary) -> String {
         let _ = writeln!(out, "{t}");
     }
     if !s.runs.is_empty() {
-        let mut runs: Vec<&crate::analysis::RunResult> = s.runs.iter().collect();
-        runs.sort_by(|a, b| {
-            b.scenarios
-                .baseline
-                .net
-                .total_cmp(&a.scenarios.baseline.net)
-        });
         let _ = writeln!(
             out,
             "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):",
-            runs.len()
+            s.runs.len()
         );
-        let mut t = new_table(&[
-            "run",
-            "trades",
-            "exposed",
-            "net",
-            "net removed",
-            "PF",
-            "PF removed",
-            "TCR",
-            "TCR removed",
-        ]);
-        for r in runs.iter().take(10) {
-            let (b, m) = (&r.scenarios.baseline, &r.scenarios.removed);
-            t.add_row(vec![
-                Cell::new(&r.run),
-                num(r.trades),
-                num(r.exposed_trades),
-                num(format!("{:.2}", b.net)),
-                num(format!("{:.2}", m.net)),
-                num(fmt_opt(b.profit_factor, 2)),
-                num(fmt_opt(m.profit_factor, 2)),
-                num(fmt_opt(b.tcr, 1)),
-                num(fmt_opt(m.tcr, 1)),
-            ]);
-        }
-        let _ = writeln!(out, "{t}");
+        let _ = writeln!(out, "{}", grid(&RUNS_HEADER, &runs_rows(s, 10)));
     }
+    let _ = writeln!(out, "{}", s.caution);
+    out
+}
+
+/// The account-path figures as their spread across runs (with runs).
+fn across_runs_text(s: &Summary) -> String {
+    let mut out = String::new();
     if let Some(d) = &s.across_runs {
         let _ = writeln!(
             out,
-            "Across runs: each run is an alternative account, while the scenario table above pools\nevery run's trades; read the account-path figures (Sharpe, Sortino, drawdowns,\nreturn/drawdown, t) here, per run:"
+            "{}",
+            match s.account_figures {
+                AccountFigures::Pooled =>
+                    "Across runs (the table above reads all runs as one account, --pool):",
+                _ =>
+                    "Across runs: each run is an alternative account; its account-path figures, spread over runs:",
+            }
         );
-        let mut t = new_table(&[
-            "figure",
-            "runs",
-            "median",
-            "q1",
-            "q3",
-            "best",
-            "worst",
-            "median rem",
-            "q1 rem",
-            "q3 rem",
-            "improved",
-        ]);
+        let mut t = grid(&ACROSS_HEADER, &across_rows(d));
         // Whole cells only: a number split over two lines misreads.
         t.set_content_arrangement(ContentArrangement::Disabled);
-        for f in &d.figures {
-            let v = |x: Option<f64>| num(fmt_opt(x, 2));
-            t.add_row(vec![
-                Cell::new(f.metric.replace('_', " ")),
-                num(f.runs),
-                v(f.baseline.median),
-                v(f.baseline.q1),
-                v(f.baseline.q3),
-                v(f.baseline.best),
-                v(f.baseline.worst),
-                v(f.removed.median),
-                v(f.removed.q1),
-                v(f.removed.q3),
-                num(pct(f.share_improved)),
-            ]);
-        }
         let _ = writeln!(out, "{t}");
         let _ = writeln!(
             out,
@@ -489,7 +451,6 @@ pub fn analyze(s: &Summary) -> String {
             pct(d.share_above_tcr_threshold_removed)
         );
     }
-    let _ = writeln!(out, "{}", s.caution);
     out
 }
 
@@ -516,7 +477,7 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     );
     let _ = writeln!(
         out,
-        "shift > 0: the run moves up once release trades are removed."
+        "exposed: % of the run's trades exposed to a release; shift > 0: the run moves up\nonce release trades are removed."
     );
     let _ = writeln!(
         out,
@@ -533,7 +494,7 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
     }
     let with_p = r.runs.iter().any(|x| x.placebo_p.is_some());
     let mut header = vec![
-        "run", "trades", "exp%", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift",
+        "run", "trades", "exposed", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift",
     ];
     if with_p {
         header.push("p");
@@ -545,10 +506,8 @@ pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
             let mut row = vec![
                 x.run.clone(),
                 x.trades.to_string(),
-                format!(
-                    "{:.1}",
-                    100.0 * x.exposed_trades as f64 / x.trades.max(1) as f64
-                ),
+                x.exposed_share_of_trades
+                    .map_or("—".into(), |v| format!("{:.1}", 100.0 * v)),
                 fmt_opt(x.by_baseline, 2),
                 fmt_opt(x.by_removed, 2),
                 fmt_opt(x.tcr_baseline, 1),
@@ -644,14 +603,27 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
     let res = &r.result;
     let _ = writeln!(
         out,
-        "{} × {} cells; P/L per trade = {}; baseline TCR {} ({}); * = on the frontier (most tail reduction for least time blocked).\n",
+        "{} × {} cells; P/L per trade = {}; baseline TCR {}{} ({}); * = on the frontier (most tail reduction for least time blocked).\n",
         res.pre.len(),
         res.post.len(),
         r.pnl_formed_as,
         fmt_opt(res.tcr_baseline, 2),
+        if res.account_figures == AccountFigures::PerRun {
+            " (median run)"
+        } else {
+            ""
+        },
         basis_words(res.tcr_basis)
     );
-    let mut t = new_table(&[
+    let per_run = res.account_figures == AccountFigures::PerRun;
+    if per_run {
+        let _ = writeln!(
+            out,
+            "Runs are alternative accounts: TCR, its reduction, Sharpe and max DD are medians over the\n{} runs of each run's own figure; 'runs TCR↓' is the share of runs whose TCR falls (--pool\nreads all runs as one account).\n",
+            res.runs
+        );
+    }
+    let mut header = vec![
         "pre",
         "post",
         "removed",
@@ -660,20 +632,30 @@ pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
         "Sharpe after",
         "max DD after",
         "blocked",
-        "",
-    ]);
+    ];
+    if per_run {
+        header.insert(5, "TCR cut");
+        header.push("runs TCR↓");
+    }
+    header.push("");
+    let mut t = new_table(&header);
     for c in res.cells.iter().filter(|c| c.frontier || !frontier_only) {
-        t.add_row(vec![
+        let mut row = vec![
             num(c.pre_min),
             num(c.post_min),
             num(c.trades_removed),
             num(pct(c.share_of_net_removed)),
             num(fmt_opt(c.tcr_after, 2)),
             num(fmt_opt(c.sharpe_after, 2)),
-            num(format!("{:.2}", c.max_drawdown_after)),
+            num(fmt_opt(c.max_drawdown_after, 2)),
             num(format!("{:.2} %", c.blocked_share * 100.0)),
-            Cell::new(if c.frontier { "*" } else { "" }),
-        ]);
+        ];
+        if per_run {
+            row.insert(5, num(fmt_opt(c.tcr_reduction, 2)));
+            row.push(num(pct(c.runs_tcr_reduced)));
+        }
+        row.push(Cell::new(if c.frontier { "*" } else { "" }));
+        t.add_row(row);
     }
     let _ = writeln!(out, "{t}");
     let _ = writeln!(out, "{}", wrap(r.caution, 78));
@@ -760,13 +742,29 @@ pub fn chance_text(s: &Summary) -> String {
 
 /// The scenario table as HTML.
 pub fn scenario_html(s: &Summary) -> String {
-    use super::html::esc;
-    let mut h = String::from(
-        "<table><tr><th>figure</th><th>baseline</th><th>removed</th><th>Δ removed</th><th>capped</th><th>Δ capped</th></tr>",
-    );
+    super::html::table(&SCENARIO_HEADER, &scenario_rows(s).0)
+}
+
+const SCENARIO_HEADER: [&str; 6] = [
+    "figure",
+    "baseline",
+    "removed",
+    "Δ removed",
+    "capped",
+    "Δ capped",
+];
+
+/// The scenario table's rows as text, and the labels of the rows this
+/// input cannot fill (left out).
+pub fn scenario_rows(s: &Summary) -> (Vec<Vec<String>>, Vec<&'static str>) {
     let sc = &s.scenarios;
+    let (mut rows, mut left_out) = (Vec::new(), Vec::new());
     for (label, get, dec, is_pct) in METRIC_ROWS {
         let (b, r, c) = (get(&sc.baseline), get(&sc.removed), get(&sc.capped));
+        if b.is_none() && r.is_none() && c.is_none() {
+            left_out.push(*label);
+            continue;
+        }
         let f = |v: Option<f64>| if *is_pct { pct(v) } else { fmt_opt(v, *dec) };
         let d = |a: Option<f64>, b: Option<f64>| {
             if *is_pct {
@@ -775,17 +773,99 @@ pub fn scenario_html(s: &Summary) -> String {
                 delta(a, b, *dec)
             }
         };
-        let _ = write!(
-            h,
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
-            esc(label),
-            f(b),
-            f(r),
-            d(b, r),
-            f(c),
-            d(b, c)
+        rows.push(vec![label.to_string(), f(b), f(r), d(b, r), f(c), d(b, c)]);
+    }
+    (rows, left_out)
+}
+
+pub const RUNS_HEADER: [&str; 9] = [
+    "run",
+    "trades",
+    "exposed",
+    "net",
+    "net removed",
+    "PF",
+    "PF removed",
+    "TCR",
+    "TCR removed",
+];
+
+/// The first `top` runs by baseline net, as text rows.
+pub fn runs_rows(s: &Summary, top: usize) -> Vec<Vec<String>> {
+    let mut runs: Vec<&crate::analysis::RunResult> = s.runs.iter().collect();
+    runs.sort_by(|a, b| {
+        b.scenarios
+            .baseline
+            .net
+            .total_cmp(&a.scenarios.baseline.net)
+    });
+    runs.iter()
+        .take(top)
+        .map(|r| {
+            let (b, m) = (&r.scenarios.baseline, &r.scenarios.removed);
+            vec![
+                r.run.clone(),
+                r.trades.to_string(),
+                r.exposed_trades.to_string(),
+                format!("{:.2}", b.net),
+                format!("{:.2}", m.net),
+                fmt_opt(b.profit_factor, 2),
+                fmt_opt(m.profit_factor, 2),
+                fmt_opt(b.tcr, 1),
+                fmt_opt(m.tcr, 1),
+            ]
+        })
+        .collect()
+}
+
+pub const ACROSS_HEADER: [&str; 11] = [
+    "figure",
+    "runs",
+    "median",
+    "q1",
+    "q3",
+    "best",
+    "worst",
+    "median rem",
+    "q1 rem",
+    "q3 rem",
+    "improved",
+];
+
+/// The spread of each account-path figure across runs, as text rows.
+pub fn across_rows(d: &crate::analysis::RunDistribution) -> Vec<Vec<String>> {
+    d.figures
+        .iter()
+        .map(|f| {
+            let v = |x: Option<f64>| fmt_opt(x, 2);
+            vec![
+                f.metric.replace('_', " "),
+                f.runs.to_string(),
+                v(f.baseline.median),
+                v(f.baseline.q1),
+                v(f.baseline.q3),
+                v(f.baseline.best),
+                v(f.baseline.worst),
+                v(f.removed.median),
+                v(f.removed.q1),
+                v(f.removed.q3),
+                pct(f.share_improved),
+            ]
+        })
+        .collect()
+}
+
+/// A terminal table of text rows: the first column as text, the rest
+/// right-aligned numbers.
+fn grid(header: &[&str], rows: &[Vec<String>]) -> Table {
+    let mut t = new_table(header);
+    for row in rows {
+        t.add_row(
+            row.iter()
+                .enumerate()
+                .map(|(k, v)| if k == 0 { Cell::new(v) } else { num(v) })
+                .collect::<Vec<_>>(),
         );
     }
-    h.push_str("</table>");
-    h
+    t
 }
