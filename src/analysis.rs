@@ -89,11 +89,11 @@ impl ScenarioMetrics {
     }
 }
 
-/// Where the default TCR threshold comes from (SPEC §6).
+/// Where the default TCR threshold comes from (docs/method.md §6).
 pub const TCR_THRESHOLD_SOURCE: &str =
     "common practice (rule of thumb, no published source); set with --tcr-threshold";
 
-/// Tail figures of one scenario (SPEC §6).
+/// Tail figures of one scenario (docs/method.md §6).
 #[derive(Debug, Clone, Serialize)]
 pub struct TailLine {
     pub tcr: Option<f64>,
@@ -144,7 +144,7 @@ pub enum AnalysisError {
     NoTrades,
 }
 
-/// SPEC §8 `exposure` block.
+/// The `exposure` block of the summary (docs/method.md §8).
 #[derive(Debug, Clone, Serialize)]
 pub struct ExposureSummary {
     pub trades: usize,

@@ -1,4 +1,4 @@
-//! Attribution (SPEC §3): each exposed trade's P/L split equally over the
+//! Attribution (docs/method.md §3): each exposed trade's P/L split equally over the
 //! releases it matched, summed by release, category, currency and tier, and
 //! the headline shares.
 //!

@@ -1,4 +1,4 @@
-//! The exposure engine (SPEC §2): which trades meet which release windows.
+//! The exposure engine (docs/method.md §2): which trades meet which release windows.
 //!
 //! Every rule is an intersection of two closed intervals: the trade's
 //! `[open, close]` (`[open, open]` for `entered`) and the release's window
@@ -382,7 +382,7 @@ pub fn coverage_at(
     coverage(releases, trades, instrument_currencies, &exp.k, stated)
 }
 
-/// Coverage per trade currency (SPEC §2). Trades outside stay in every
+/// Coverage per trade currency (docs/method.md §2). Trades outside stay in every
 /// scenario (exposed only if another currency of theirs matched); reports
 /// say exactly which.
 pub fn coverage(

@@ -1,8 +1,8 @@
-//! Performance figures of one scenario (SPEC §5, §6).
+//! Performance figures of one scenario (docs/method.md §5, §6).
 //!
 //! Input is a scenario's kept trades in close order (ties by open, then
-//! input order) with their scenario P/L. Choices SPEC leaves open, fixed
-//! here and documented in README "How the figures are defined":
+//! input order) with their scenario P/L. The choices made
+//! here, documented in docs/method.md §5 and README "How the figures are defined":
 //! - the daily series runs over the weekdays of the *whole input's* span
 //!   (first open → last close, report zone) for every scenario, so scenarios
 //!   compare like for like; a close on a Saturday or Sunday counts on the
@@ -20,7 +20,7 @@ use serde::Serialize;
 /// `APPROX_BDAYS_PER_YEAR`; REFERENCES.md §4.3).
 pub const DAYS_PER_YEAR: f64 = 252.0;
 
-/// Every SPEC §5 figure for one scenario.
+/// Every docs/method.md §5 figure for one scenario.
 #[derive(Debug, Clone, Default, Serialize, PartialEq)]
 pub struct Metrics {
     pub trades: usize,
@@ -61,7 +61,7 @@ pub struct Metrics {
     pub t_stat: Option<f64>,
     /// Union of holding intervals ÷ span.
     pub time_in_market: Option<f64>,
-    /// Tail concentration ratio at p % (SPEC §6).
+    /// Tail concentration ratio at p % (docs/method.md §6).
     pub tcr: Option<f64>,
 }
 
@@ -163,7 +163,7 @@ pub fn max_drawdown(pnl: &[f64], start: f64) -> (f64, Option<f64>) {
     (dd, Some(dd_pct))
 }
 
-/// Tail concentration ratio (SPEC §6): k = ceil(n·p/100) clamped to [1, n];
+/// Tail concentration ratio (docs/method.md §6): k = ceil(n·p/100) clamped to [1, n];
 /// mean of the k largest |pnl| ÷ mean of all |pnl|.
 pub fn tcr(pnl: &[f64], p: f64) -> Option<f64> {
     let n = pnl.len();

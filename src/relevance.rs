@@ -1,4 +1,4 @@
-//! Which currencies an instrument answers to (SPEC §2, relevance).
+//! Which currencies an instrument answers to (docs/method.md §2, relevance).
 //!
 //! A six-letter FX or metal pair gives its two ISO 4217 codes, after
 //! dropping separators (`/ _ -`) and broker suffixes (`.m`, `-pro`, trailing

@@ -1,5 +1,5 @@
 //! Shared report furniture: the tool's identity and the caution every
-//! output carries (SPEC §8).
+//! output carries (docs/method.md §8).
 
 use serde::Serialize;
 
@@ -28,7 +28,7 @@ use crate::exposure::CoverageLine;
 use crate::trades::TradeSummary;
 use std::collections::BTreeMap;
 
-/// `inputs.trades` (SPEC §8).
+/// `inputs.trades` (docs/method.md §8).
 #[derive(Debug, Clone, Serialize)]
 pub struct TradeInputs {
     pub files: Vec<String>,
@@ -45,7 +45,7 @@ pub struct TradeInputs {
     pub runs_selected: Vec<String>,
 }
 
-/// `inputs.calendar` (SPEC §8).
+/// `inputs.calendar` (docs/method.md §8).
 #[derive(Debug, Clone, Serialize)]
 pub struct CalendarInputs {
     pub files: Vec<String>,
@@ -106,7 +106,7 @@ impl Inputs {
     }
 }
 
-/// The documented layout of `--json` and `summary.json` (SPEC §8). Field
+/// The documented layout of `--json` and `summary.json` (docs/method.md §8). Field
 /// order and names are a stable interface.
 #[derive(Debug, Clone, Serialize)]
 pub struct Summary {
@@ -124,7 +124,7 @@ pub struct Summary {
     pub initial_equity: Option<f64>,
     pub scenarios: ScenarioMetrics,
     pub tail: crate::analysis::TailSummary,
-    /// Placebo-calendar test (SPEC §7); null when turned off.
+    /// Placebo-calendar test (docs/method.md §7); null when turned off.
     pub placebo: Option<crate::stats::PlaceboResult>,
     /// Bootstrap intervals of removed − baseline; null when turned off.
     pub bootstrap: Option<crate::stats::BootstrapResult>,

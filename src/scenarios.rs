@@ -1,4 +1,4 @@
-//! Scenarios (SPEC §4): the same trades as given (`baseline`), without the
+//! Scenarios (docs/method.md §4): the same trades as given (`baseline`), without the
 //! exposed ones (`removed`), and with the exposed ones' P/L clipped
 //! (`capped`), under fixed or compounding sizing.
 //!

@@ -1,4 +1,4 @@
-//! Is the release effect real? (SPEC §6–§7): the Hill tail index of |P/L|,
+//! Is the release effect real? (docs/method.md §6–§7): the Hill tail index of |P/L|,
 //! placebo calendars, and bootstrap intervals of removed − baseline.
 //!
 //! Everything random is seeded (ChaCha8) and reproducible; placebo and
@@ -96,7 +96,7 @@ pub struct PlaceboSettings {
     pub seed: u64,
 }
 
-/// Result of the placebo test (SPEC §7).
+/// Result of the placebo test (docs/method.md §7).
 #[derive(Debug, Clone, Serialize)]
 pub struct PlaceboResult {
     pub placebos: usize,
@@ -116,7 +116,7 @@ pub struct PlaceboResult {
 
 pub const PLACEBO_METHOD: &str = "every used release moved by the same random whole number of weekdays (time of day kept, wrapping within the calendar's weekday span); a moved release within 1 day of a real release of the same series is dropped; p = (1 + #placebo >= observed) / (N + 1)";
 
-/// The two statistics of SPEC §7 for a set of exposure flags.
+/// The two statistics of docs/method.md §7 for a set of exposure flags.
 pub fn effect_statistics(pnl: &[f64], exposed: &[bool]) -> (Option<f64>, Option<f64>) {
     let (mut net, mut e_sum, mut e_n, mut u_sum, mut u_n) = (0.0, 0.0, 0usize, 0.0, 0usize);
     for (&p, &x) in pnl.iter().zip(exposed) {

@@ -1,4 +1,4 @@
-//! Reading time stamps from text (SPEC §1): ISO 8601 with or without `T` and
+//! Reading time stamps from text (docs/method.md §1): ISO 8601 with or without `T` and
 //! offset, `YYYY.MM.DD HH:MM[:SS]`, `YYYY-MM-DD HH:MM[:SS][.fff]`, epoch
 //! seconds or milliseconds (only when asked), or a user strftime format.
 //!
@@ -14,7 +14,7 @@ use chrono::{NaiveDate, NaiveDateTime, NaiveTime};
 /// How time columns are written.
 #[derive(Debug, Clone, PartialEq)]
 pub enum TimeFormat {
-    /// ISO 8601 and the dotted/dashed forms of SPEC §1 (default).
+    /// ISO 8601 and the dotted/dashed forms of docs/method.md §1 (default).
     Auto,
     /// Integer or decimal seconds since 1970-01-01 UTC.
     EpochSeconds,

@@ -1,5 +1,5 @@
 //! Trade import: CSV and Parquet back-test trade lists, read through polars
-//! into a columnar [`Trades`] table of UTC instants (SPEC §1).
+//! into a columnar [`Trades`] table of UTC instants (docs/method.md §1).
 //!
 //! Columns are mapped by the user (`--map field=Column`, or a JSON mapping
 //! file); times are parsed by [`crate::timefmt`] and resolved in the trades'
@@ -16,7 +16,7 @@ use std::collections::{BTreeMap, HashMap};
 use std::io::Read;
 use std::path::{Path, PathBuf};
 
-/// Field names of SPEC §1, in the order the mapping lists them.
+/// Field names of docs/method.md §1, in the order the mapping lists them.
 pub const FIELDS: &[&str] = &[
     "opened_at",
     "closed_at",

@@ -1,4 +1,4 @@
-//! Release windows (SPEC §2): how long before and after each release a
+//! Release windows (docs/method.md §2): how long before and after each release a
 //! trade counts as exposed, by tier, category or title pattern.
 //!
 //! Defaults: high 15 min before / 30 after, medium 5 / 10, low off. A title

@@ -1,5 +1,5 @@
 //! Time zones: parsing zone specs and turning local wall-clock times into UTC
-//! instants and back (SPEC §1).
+//! instants and back (docs/method.md §1).
 //!
 //! A zone spec is `UTC`, an IANA name (`Europe/Berlin`), a fixed offset
 //! (`+02:00`, `UTC-05:00`) or a *shifted* zone `IANA±HH:MM`: that zone's wall

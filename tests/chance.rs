@@ -1,4 +1,4 @@
-//! Placebo calendars and bootstrap intervals (SPEC §7).
+//! Placebo calendars and bootstrap intervals (docs/method.md §7).
 //!
 //! - Bootstrap percentiles against numpy (tests/reference/
 //!   make_bootstrap_fixture.py, numpy 2.4.6) on the same resample indices.

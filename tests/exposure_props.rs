@@ -1,5 +1,5 @@
 //! Property test: the exposure engine and per-release attribution equal a
-//! plain O(n·m) reading of SPEC §2–§3, written here without the engine's
+//! plain O(n·m) reading of docs/method.md §2–§3, written here without the engine's
 //! indexing, on random trades and calendars (zero-length trades, trades
 //! spanning many releases, releases exactly at window edges).
 

@@ -4,7 +4,7 @@
 //!   are rejected (counts add up);
 //! - the summary does not depend on the order of the input rows;
 //! - the summary does not depend on the zone the same instants are written in;
-//! - removed ∪ exposed = baseline, in trades and in P/L (SPEC §3);
+//! - removed ∪ exposed = baseline, in trades and in P/L (docs/method.md §3);
 //! - per-run figures, placebo p-values and ranks do not depend on the row
 //!   order nor on how the rows are split across files.
 //!
@@ -99,7 +99,7 @@ fn case(damage_odds: u8) -> impl Strategy<Value = Case> {
         })
 }
 
-/// SPEC §5 orders trades by close, then open, then input order: rows with
+/// docs/method.md §5 orders trades by close, then open, then input order: rows with
 /// the same open and close keep their relative input order in a shuffle.
 fn keep_tie_order(trades: &[TradeRow], mut order: Vec<usize>) -> Vec<usize> {
     let key = |i: usize| (trades[i].open_min, trades[i].len_min);
@@ -308,7 +308,7 @@ proptest! {
     }
 
     /// Shuffled input rows give the same summary (rows with the same open
-    /// and close keep their input order, which SPEC §5 makes significant).
+    /// and close keep their input order, which docs/method.md §5 makes significant).
     #[test]
     fn independent_of_row_order(c in case(0)) {
         let dir = tempfile::tempdir().unwrap();
@@ -348,7 +348,7 @@ proptest! {
     /// The rows shuffled and cut into one to four files give the same
     /// per-run figures, placebo p-values (seeded by run name) and ranks
     /// (ties by run name). Rows with equal open and close keep their
-    /// relative order (SPEC §5 makes it significant), so the files are
+    /// relative order (docs/method.md §5 makes it significant), so the files are
     /// consecutive pieces of the shuffled rows.
     #[test]
     fn runs_independent_of_order_and_files(c in case(0), cuts in prop::collection::vec(0usize..40, 0..3)) {

@@ -1,5 +1,5 @@
 //! Release calendars: the `Release` record, importing ICS and CSV files,
-//! title rules, and merging several files into one list (SPEC §1).
+//! title rules, and merging several files into one list (docs/method.md §1).
 //!
 //! Invariant: every calendar row or VEVENT read is either a release (possibly
 //! expanded into many by RRULE), a merged duplicate, or a counted rejection.

@@ -10,7 +10,7 @@ Writes tests/fixtures/metric_sets/{a,b}.csv and
 tests/fixtures/metric_reference.json. The Rust test
 tests/metric_reference.rs compares to these within 1e-9 relative.
 
-Definitions followed (SPEC §5): trades ordered by close, then open, then
+Definitions followed (docs/method.md §5): trades ordered by close, then open, then
 input order; daily P/L on every weekday (pandas business days) from the
 first open to the last close in UTC, a weekend close rolled forward to the
 next business day; Sharpe = empyrical.sharpe_ratio (ddof 1, x sqrt 252);
