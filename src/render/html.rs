@@ -130,6 +130,12 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         "<h2>Is it chance?</h2><p>{}</p>",
         esc(&super::table::chance_text(s)).replace('\n', "<br>")
     );
+    if let Some(b) = &s.bootstrap {
+        h.push_str(&table(
+            &super::table::BOOTSTRAP_HEADER,
+            &super::table::bootstrap_rows(b),
+        ));
+    }
     let _ = write!(h, "<h2>Charts</h2>");
     for f in figures {
         let _ = write!(

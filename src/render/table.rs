@@ -356,16 +356,7 @@ pub fn analyze(s: &Summary) -> String {
     out.push_str(&across_runs_text(s));
     let _ = writeln!(out, "{}", chance_text(s));
     if let Some(b) = &s.bootstrap {
-        let mut t = new_table(&["figure", "change", "low", "high"]);
-        for (name, i) in &b.intervals {
-            t.add_row(vec![
-                Cell::new(name.replace('_', " ")),
-                num(fmt_opt(i.observed, 3)),
-                num(fmt_opt(i.low, 3)),
-                num(fmt_opt(i.high, 3)),
-            ]);
-        }
-        let _ = writeln!(out, "{t}");
+        let _ = writeln!(out, "{}", grid(&BOOTSTRAP_HEADER, &bootstrap_rows(b)));
     }
     let _ = writeln!(out);
     let mut top: Vec<&crate::attribution::ReleaseLine> = s
@@ -726,18 +717,25 @@ pub fn chance_text(s: &Summary) -> String {
             b.seed,
             b.confidence * 100.0
         );
-        for (name, i) in &b.intervals {
-            let _ = write!(
-                out,
-                "\n  {:<14} {} [{}, {}]",
+    }
+    out
+}
+
+pub const BOOTSTRAP_HEADER: [&str; 4] = ["figure", "change", "low", "high"];
+
+/// The bootstrap intervals as text rows (terminal and HTML).
+pub fn bootstrap_rows(b: &crate::stats::BootstrapResult) -> Vec<Vec<String>> {
+    b.intervals
+        .iter()
+        .map(|(name, i)| {
+            vec![
                 name.replace('_', " "),
                 fmt_opt(i.observed, 3),
                 fmt_opt(i.low, 3),
-                fmt_opt(i.high, 3)
-            );
-        }
-    }
-    out
+                fmt_opt(i.high, 3),
+            ]
+        })
+        .collect()
 }
 
 /// The scenario table as HTML.
