@@ -24,6 +24,7 @@ pub mod render;
 pub mod report;
 pub mod scenarios;
 pub mod schedule;
+pub mod setting;
 pub mod stats;
 pub mod table;
 pub mod timefmt;

@@ -42,7 +42,7 @@ pub enum CapRule {
 
 impl CapRule {
     /// `q0.99`, `median*3`, `amount:500`, `equity:1.5` (percent).
-    pub fn parse(s: &str) -> Result<CapRule, String> {
+    pub fn parse(s: &str) -> Result<CapRule, crate::setting::BadSetting> {
         let bad = || {
             format!(
                 "--cap '{s}': use q0.99 (quantile), median*3, amount:500 or equity:1.5 (% of equity)"
@@ -59,7 +59,7 @@ impl CapRule {
         if let Some(q) = s.strip_prefix('q') {
             let v = num(q)?;
             if v > 1.0 {
-                return Err(format!("--cap '{s}': the quantile must be between 0 and 1"));
+                return Err(format!("--cap '{s}': the quantile must be between 0 and 1").into());
             }
             Ok(CapRule::Quantile(v))
         } else if let Some(m) = s.strip_prefix("median*") {
@@ -69,7 +69,7 @@ impl CapRule {
         } else if let Some(p) = s.strip_prefix("equity:") {
             Ok(CapRule::EquityPct(num(p)?))
         } else {
-            Err(bad())
+            Err(bad().into())
         }
     }
 }

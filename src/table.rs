@@ -110,14 +110,27 @@ pub fn is_parquet(path: &Path) -> bool {
     )
 }
 
+/// A table file that cannot be read as a whole (the caller names the
+/// file); row-level problems are [`RowProblem`]s instead.
+#[derive(Debug, thiserror::Error)]
+pub enum TableError {
+    #[error("{0}")]
+    Io(#[from] std::io::Error),
+    #[error("not a readable Parquet file: {0}")]
+    Parquet(#[from] polars::error::PolarsError),
+    #[error(transparent)]
+    Csv(#[from] crate::csvchunks::ScanError),
+    /// The columns read could not be put together as a table.
+    #[error("{0}")]
+    Frame(polars::error::PolarsError),
+}
+
 /// The rows of a Parquet file as (first row, rows) per row group, so that a
 /// large file can be read one group at a time.
-pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, String> {
-    let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, TableError> {
+    let file = std::fs::File::open(path)?;
     let mut reader = ParquetReader::new(file);
-    let meta = reader
-        .get_metadata()
-        .map_err(|e| format!("not a readable Parquet file: {e}"))?;
+    let meta = reader.get_metadata()?;
     let mut first = 0;
     Ok(meta
         .row_groups
@@ -132,12 +145,11 @@ pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, String> {
 
 impl Table {
     /// Rows `first..first + rows` of a Parquet file.
-    pub fn read_parquet_rows(path: &Path, first: usize, rows: usize) -> Result<Table, String> {
-        let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
+    pub fn read_parquet_rows(path: &Path, first: usize, rows: usize) -> Result<Table, TableError> {
+        let file = std::fs::File::open(path)?;
         let df = ParquetReader::new(file)
             .with_slice(Some((first, rows)))
-            .finish()
-            .map_err(|e| format!("not a readable Parquet file: {e}"))?;
+            .finish()?;
         Ok(Table {
             df,
             problems: Vec::new(),
@@ -150,25 +162,23 @@ impl Table {
     /// quote, bytes that are not UTF-8) keeps its row with empty cells and
     /// is named in [`Table::row_problem`], so the caller rejects that row
     /// alone.
-    pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, String> {
+    pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, TableError> {
         if is_parquet(path) {
-            let file = std::fs::File::open(path).map_err(|e| e.to_string())?;
-            let df = ParquetReader::new(file)
-                .finish()
-                .map_err(|e| format!("not a readable Parquet file: {e}"))?;
+            let file = std::fs::File::open(path)?;
+            let df = ParquetReader::new(file).finish()?;
             return Ok(Table {
                 df,
                 problems: Vec::new(),
             });
         }
         use crate::csvchunks::{self, Parsed, Record, Records, ScanError};
-        let mut bytes = std::fs::read(path).map_err(|e| e.to_string())?;
+        let mut bytes = std::fs::read(path)?;
         if bytes.is_empty() {
-            return Err(ScanError::Empty.to_string());
+            return Err(ScanError::Empty.into());
         }
         let sep = delimiter
             .unwrap_or_else(|| csvchunks::sniff_delimiter(&bytes[..bytes.len().min(64 * 1024)]));
-        let header = csvchunks::take_header(&mut bytes, sep).map_err(|e| e.to_string())?;
+        let header = csvchunks::take_header(&mut bytes, sep)?;
         let width = header.names.len();
         let mut columns: Vec<Vec<Option<String>>> = vec![Vec::new(); width];
         let mut problems = Vec::new();
@@ -187,7 +197,7 @@ impl Table {
                         row: row + 1,
                         column: format!("{column}{name}"),
                     }
-                    .to_string());
+                    .into());
                 }
                 Parsed::Record { .. } => {
                     let n = rec.len();
@@ -245,7 +255,7 @@ impl Table {
             .zip(columns)
             .map(|(name, values)| Column::new(name.as_str().into(), values))
             .collect();
-        let df = DataFrame::new(row, cols).map_err(|e| e.to_string())?;
+        let df = DataFrame::new(row, cols).map_err(TableError::Frame)?;
         Ok(Table { df, problems })
     }
 

@@ -26,7 +26,7 @@ pub enum TimeFormat {
 
 impl TimeFormat {
     /// `auto`, `epoch-s`, `epoch-ms`, or a strftime pattern containing `%`.
-    pub fn parse(spec: &str) -> Result<Self, String> {
+    pub fn parse(spec: &str) -> Result<Self, crate::setting::BadSetting> {
         match spec {
             "auto" | "iso" => Ok(TimeFormat::Auto),
             "epoch-s" | "epoch_s" | "unix" => Ok(TimeFormat::EpochSeconds),
@@ -34,7 +34,8 @@ impl TimeFormat {
             p if p.contains('%') => Ok(TimeFormat::Pattern(p.to_string())),
             other => Err(format!(
                 "unknown time format '{other}': use auto, epoch-s, epoch-ms or a strftime pattern such as '%d/%m/%Y %H:%M'"
-            )),
+            )
+            .into()),
         }
     }
 }

@@ -116,19 +116,26 @@ impl Trades {
     /// Only the trades of the named runs (`--run`), every column kept and
     /// run ids renumbered in the remaining runs' order; a name that is not
     /// a run of the input is an error naming the runs there are.
-    pub fn only_runs(self, names: &[String]) -> Result<Trades, String> {
+    pub fn only_runs(self, names: &[String]) -> Result<Trades, RunSelectionError> {
         let wanted: Vec<u32> = names
             .iter()
             .map(|n| {
-                self.runs.iter().position(|r| r == n.trim()).map(|i| i as u32).ok_or_else(|| {
-                    let mut all = self.runs.clone();
-                    all.sort_by(|a, b| run_order(a, b));
-                    if all.is_empty() {
-                        format!("--run {n}: the trades have no runs (map a run column, or give one file per run)")
-                    } else {
-                        format!("--run {n}: no such run; runs are {}", all.join(", "))
-                    }
-                })
+                self.runs
+                    .iter()
+                    .position(|r| r == n.trim())
+                    .map(|i| i as u32)
+                    .ok_or_else(|| {
+                        let mut all = self.runs.clone();
+                        all.sort_by(|a, b| run_order(a, b));
+                        if all.is_empty() {
+                            RunSelectionError::NoRuns { name: n.clone() }
+                        } else {
+                            RunSelectionError::NoSuchRun {
+                                name: n.clone(),
+                                runs: all.join(", "),
+                            }
+                        }
+                    })
             })
             .collect::<Result<_, _>>()?;
         let keep: Vec<usize> = (0..self.len())
@@ -284,20 +291,63 @@ impl Default for TradeOptions {
     }
 }
 
+/// `--run` named a run the input does not have.
+#[derive(Debug, thiserror::Error)]
+pub enum RunSelectionError {
+    #[error("--run {name}: the trades have no runs (map a run column, or give one file per run)")]
+    NoRuns { name: String },
+    #[error("--run {name}: no such run; runs are {runs}")]
+    NoSuchRun { name: String, runs: String },
+}
+
+/// A column mapping (`--map`, `--map-file`, `--calendar-map`) that cannot
+/// be used.
+#[derive(Debug, thiserror::Error)]
+pub enum MappingError {
+    #[error("'{0}' is not field=column")]
+    NotAPair(String),
+    #[error("unknown field '{field}' in '{pair}'; fields are {fields}")]
+    UnknownField {
+        field: String,
+        pair: String,
+        fields: String,
+    },
+    #[error("{}: {source}", path.display())]
+    Read {
+        path: PathBuf,
+        source: std::io::Error,
+    },
+    #[error("{}: {source} (expected {{\"field\": \"column\"}})", path.display())]
+    Json {
+        path: PathBuf,
+        source: serde_json::Error,
+    },
+    #[error("{}: unknown field '{field}'; fields are {fields}", path.display())]
+    UnknownFieldInFile {
+        path: PathBuf,
+        field: String,
+        fields: String,
+    },
+}
+
 /// Parses `field=Column,field=Column` pairs (repeatable flag values).
-pub fn parse_mapping(pairs: &[String], fields: &[&str]) -> Result<HashMap<String, String>, String> {
+pub fn parse_mapping(
+    pairs: &[String],
+    fields: &[&str],
+) -> Result<HashMap<String, String>, MappingError> {
     let mut out = HashMap::new();
     for spec in pairs {
         for pair in spec.split(',').filter(|p| !p.trim().is_empty()) {
             let (f, c) = pair
                 .split_once('=')
-                .ok_or_else(|| format!("'{pair}' is not field=column"))?;
+                .ok_or_else(|| MappingError::NotAPair(pair.to_string()))?;
             let f = f.trim();
             if !fields.contains(&f) {
-                return Err(format!(
-                    "unknown field '{f}' in '{pair}'; fields are {}",
-                    fields.join(", ")
-                ));
+                return Err(MappingError::UnknownField {
+                    field: f.to_string(),
+                    pair: pair.to_string(),
+                    fields: fields.join(", "),
+                });
             }
             out.insert(f.to_string(), c.trim().to_string());
         }
@@ -306,20 +356,25 @@ pub fn parse_mapping(pairs: &[String], fields: &[&str]) -> Result<HashMap<String
 }
 
 /// Reads a JSON mapping file `{"field": "column", ...}`.
-pub fn load_mapping_file(path: &Path, fields: &[&str]) -> Result<HashMap<String, String>, String> {
-    let text = std::fs::read_to_string(path).map_err(|e| format!("{}: {e}", path.display()))?;
-    let map: HashMap<String, String> = serde_json::from_str(&text).map_err(|e| {
-        format!(
-            "{}: {e} (expected {{\"field\": \"column\"}})",
-            path.display()
-        )
+pub fn load_mapping_file(
+    path: &Path,
+    fields: &[&str],
+) -> Result<HashMap<String, String>, MappingError> {
+    let text = std::fs::read_to_string(path).map_err(|source| MappingError::Read {
+        path: path.to_path_buf(),
+        source,
     })?;
+    let map: HashMap<String, String> =
+        serde_json::from_str(&text).map_err(|source| MappingError::Json {
+            path: path.to_path_buf(),
+            source,
+        })?;
     if let Some(bad) = map.keys().find(|k| !fields.contains(&k.as_str())) {
-        return Err(format!(
-            "{}: unknown field '{bad}'; fields are {}",
-            path.display(),
-            fields.join(", ")
-        ));
+        return Err(MappingError::UnknownFieldInFile {
+            path: path.to_path_buf(),
+            field: bad.clone(),
+            fields: fields.join(", "),
+        });
     }
     Ok(map)
 }
@@ -1099,7 +1154,7 @@ fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(),
         path: path.to_path_buf(),
         message,
     };
-    let groups = crate::table::parquet_row_groups(path).map_err(err)?;
+    let groups = crate::table::parquet_row_groups(path).map_err(|e| err(e.to_string()))?;
     sink.trades.reserve(groups.iter().map(|g| g.1).sum());
     // A file without row groups still has a schema: one empty read checks
     // the column mapping.
@@ -1108,7 +1163,7 @@ fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(),
     } else {
         groups
     } {
-        let table = Table::read_parquet_rows(path, first, rows).map_err(err)?;
+        let table = Table::read_parquet_rows(path, first, rows).map_err(|e| err(e.to_string()))?;
         read_table(&table, path, opts, sink)?;
     }
     Ok(())
@@ -1627,18 +1682,19 @@ mod tests {
     fn mapping_pairs() {
         let m = parse_mapping(
             &[
-                "opened_at=Open Time, closed_at = Close Time".into(),
-                "pnl=Profit".into(),
+                "opened_at=Entered At, closed_at = Left At".into(),
+                "pnl=Result".into(),
             ],
             FIELDS,
         )
         .unwrap();
-        assert_eq!(m["opened_at"], "Open Time");
-        assert_eq!(m["closed_at"], "Close Time");
-        assert_eq!(m["pnl"], "Profit");
+        assert_eq!(m["opened_at"], "Entered At");
+        assert_eq!(m["closed_at"], "Left At");
+        assert_eq!(m["pnl"], "Result");
         assert!(
             parse_mapping(&["profit=P".into()], FIELDS)
                 .unwrap_err()
+                .to_string()
                 .contains("unknown field")
         );
     }

@@ -18,7 +18,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 /// `START..END/STEP` minutes, END included.
-pub fn parse_range(s: &str) -> Result<Vec<i64>, String> {
+pub fn parse_range(s: &str) -> Result<Vec<i64>, crate::setting::BadSetting> {
     let bad = || format!("'{s}' is not START..END/STEP minutes, e.g. 0..60/5");
     let (range, step) = s.split_once('/').ok_or_else(bad)?;
     let (a, b) = range.split_once("..").ok_or_else(bad)?;
@@ -28,11 +28,11 @@ pub fn parse_range(s: &str) -> Result<Vec<i64>, String> {
         step.trim().parse().map_err(|_| bad())?,
     );
     if a < 0 || b < a || step <= 0 || b > 7 * 24 * 60 {
-        return Err(bad());
+        return Err(bad().into());
     }
     let v: Vec<i64> = (a..=b).step_by(step as usize).collect();
     if v.len() > 200 {
-        return Err(format!("'{s}' has {} steps; at most 200", v.len()));
+        return Err(format!("'{s}' has {} steps; at most 200", v.len()).into());
     }
     Ok(v)
 }

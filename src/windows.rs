@@ -6,6 +6,7 @@
 //! only when asked, and then cover their whole local day.
 
 use crate::calendar::{Release, Tier};
+use crate::setting::BadSetting;
 use crate::zones::MINUTE_MS;
 use regex::Regex;
 use serde::Serialize;
@@ -66,7 +67,7 @@ impl Default for WindowSettings {
 }
 
 /// Parses `PRE/POST` minutes or `off`.
-pub fn parse_window(s: &str) -> Result<Option<Window>, String> {
+pub fn parse_window(s: &str) -> Result<Option<Window>, BadSetting> {
     let s = s.trim();
     if s.eq_ignore_ascii_case("off") {
         return Ok(None);
@@ -74,13 +75,13 @@ pub fn parse_window(s: &str) -> Result<Option<Window>, String> {
     let (a, b) = s
         .split_once('/')
         .ok_or_else(|| format!("'{s}' is not PRE/POST minutes (e.g. 15/30) or off"))?;
-    let parse = |x: &str| -> Result<i64, String> {
+    let parse = |x: &str| -> Result<i64, BadSetting> {
         let v: i64 = x
             .trim()
             .parse()
             .map_err(|_| format!("'{x}' is not a whole number of minutes"))?;
         if !(0..=7 * 24 * 60).contains(&v) {
-            return Err(format!("{v} minutes is outside 0–10080 (one week)"));
+            return Err(format!("{v} minutes is outside 0–10080 (one week)").into());
         }
         Ok(v)
     };
@@ -99,7 +100,7 @@ impl WindowSettings {
         title: &[String],
         tiers: Option<&str>,
         all_day: bool,
-    ) -> Result<Self, String> {
+    ) -> Result<Self, BadSetting> {
         let mut w = WindowSettings {
             include_all_day: all_day,
             ..Default::default()

@@ -258,12 +258,12 @@ fn flags_and_unmapped_instruments_fail_clearly() {
             "--calendar",
             "cal.csv",
             "--map",
-            "pnl=Profit",
+            "pnl=Outcome",
         ],
         dir.path(),
     );
     assert!(
-        stderr(&o).contains("no column 'Profit' for pnl"),
+        stderr(&o).contains("no column 'Outcome' for pnl"),
         "{}",
         stderr(&o)
     );
@@ -774,4 +774,31 @@ fn rank_report_has_the_run_table_and_names_on_the_chart() {
         "most moved run {} named",
         runs[0].1
     );
+}
+
+/// The analyze report shows what the terminal shows for runs: the spread
+/// across runs and the per-run table, with the pooled table's note.
+#[test]
+fn analyze_report_has_the_run_tables() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = common::demo("analyze")
+        .args(["--placebo", "0", "--bootstrap", "0", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    let across = &html[html.find("<h2>Across runs</h2>").expect("across runs")..];
+    assert!(
+        across.contains("<td>sharpe</td><td>50</td>"),
+        "sharpe over 50 runs"
+    );
+    let runs = &html[html.find("<h2>Runs</h2>").expect("run table")..];
+    let table = &runs[..runs.find("</table>").unwrap()];
+    assert_eq!(table.matches("<tr>").count(), 11, "header + top 10");
+    assert!(html.contains("The table pools the trades of 50 alternative runs"));
+    // The pooled scenario table has no Sharpe row.
+    let scen = &html[html.find("<h2>Scenarios</h2>").unwrap()..];
+    let scen = &scen[..scen.find("</table>").unwrap()];
+    assert!(!scen.contains("Sharpe"), "{scen}");
 }

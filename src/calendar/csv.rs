@@ -48,7 +48,9 @@ pub struct Layout {
 impl Layout {
     /// Reads `--tier-map VALUE=TIER,...` (a value may be any text without
     /// `,` or `=`: words, digits, stars).
-    pub fn parse_tier_map(specs: &[String]) -> Result<Vec<(String, Tier)>, String> {
+    pub fn parse_tier_map(
+        specs: &[String],
+    ) -> Result<Vec<(String, Tier)>, crate::setting::BadSetting> {
         let mut out = Vec::new();
         for spec in specs {
             for pair in spec.split(',').filter(|p| !p.trim().is_empty()) {
@@ -106,7 +108,7 @@ pub fn read(
 ) -> Result<(), CalendarError> {
     let table = Table::read(path, opts.delimiter).map_err(|message| CalendarError::Format {
         path: path.into(),
-        message,
+        message: message.to_string(),
     })?;
     let name_of = |f: &str| {
         opts.columns
@@ -248,7 +250,7 @@ pub fn read(
                     .cloned()
                     .unwrap_or_else(|| field.to_string()),
                 reason,
-                message,
+                message: message.to_string(),
             }),
         }
     }

@@ -150,7 +150,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             high_releases,
             scatter,
         };
-        let figures = crate::render::charts::analyze_figures(&data).map_err(anyhow::Error::msg)?;
+        let figures = crate::render::charts::analyze_figures(&data)?;
         for f in &figures {
             common::write_chart(&out, f.id, &f.svg, &args.charts)?;
         }

@@ -170,21 +170,13 @@ fn delimiter_byte(d: Option<char>) -> Result<Option<u8>> {
 pub fn trade_options(t: &TradeArgs, rows: &RowArgs) -> Result<TradeOptions> {
     let mut columns = HashMap::new();
     if let Some(p) = &t.map_file {
-        columns = trades::load_mapping_file(p, trades::FIELDS)
-            .map_err(anyhow::Error::msg)
-            .context("--map-file")?;
+        columns = trades::load_mapping_file(p, trades::FIELDS).context("--map-file")?;
     }
-    columns.extend(
-        trades::parse_mapping(&t.map, trades::FIELDS)
-            .map_err(anyhow::Error::msg)
-            .context("--map")?,
-    );
+    columns.extend(trades::parse_mapping(&t.map, trades::FIELDS).context("--map")?);
     Ok(TradeOptions {
         zone: zone_flag("trades-tz", &t.trades_tz)?,
         policy: rows.local_policy,
-        time_format: TimeFormat::parse(&t.time_format)
-            .map_err(anyhow::Error::msg)
-            .context("--time-format")?,
+        time_format: TimeFormat::parse(&t.time_format).context("--time-format")?,
         columns,
         delimiter: delimiter_byte(t.delimiter)?,
         skip_bad_rows: rows.skip_bad_rows,
@@ -212,9 +204,8 @@ pub fn calendar_options(
     delimiter: Option<char>,
     span: Option<(i64, i64)>,
 ) -> Result<CalendarOptions> {
-    let columns = trades::parse_mapping(&c.calendar_map, calendar::csv::FIELDS)
-        .map_err(anyhow::Error::msg)
-        .context("--calendar-map")?;
+    let columns =
+        trades::parse_mapping(&c.calendar_map, calendar::csv::FIELDS).context("--calendar-map")?;
     let rules = match &c.rules {
         Some(p) => TitleRules::load(p)?,
         None => TitleRules::default(),
@@ -241,8 +232,7 @@ pub fn calendar_options(
         skip_bad_rows: rows.skip_bad_rows,
         layout: calendar::csv::Layout {
             time_format: c.calendar_time_format.clone(),
-            tier_map: calendar::csv::Layout::parse_tier_map(&c.tier_map)
-                .map_err(anyhow::Error::msg)?,
+            tier_map: calendar::csv::Layout::parse_tier_map(&c.tier_map)?,
             untimed: c
                 .untimed
                 .iter()
@@ -267,7 +257,7 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
     if t.run.is_empty() {
         return Ok((trades, summary));
     }
-    let trades = trades.only_runs(&t.run).map_err(anyhow::Error::msg)?;
+    let trades = trades.only_runs(&t.run)?;
     summary.runs_selected = trades.runs.clone();
     Ok((trades, summary))
 }
@@ -339,7 +329,7 @@ impl WindowArgs {
             self.tiers.as_deref(),
             self.all_day,
         )
-        .map_err(anyhow::Error::msg)
+        .map_err(anyhow::Error::from)
     }
 }
 
@@ -386,7 +376,7 @@ impl ScenarioArgs {
             windows: windows.settings()?,
             scenario: crate::scenarios::ScenarioSettings {
                 sizing: self.sizing,
-                cap: crate::scenarios::CapRule::parse(&self.cap).map_err(anyhow::Error::msg)?,
+                cap: crate::scenarios::CapRule::parse(&self.cap)?,
                 initial_equity: self.initial_equity,
             },
             report_tz: zone_flag("report-tz", &self.report_tz)?,
@@ -604,7 +594,7 @@ pub fn write_chart(
         }
         out.write(
             &format!("chart-{id}.png"),
-            &crate::render::png::svg_to_png(svg).map_err(anyhow::Error::msg)?,
+            &crate::render::png::svg_to_png(svg)?,
         )?;
     }
     Ok(())

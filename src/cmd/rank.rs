@@ -137,8 +137,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
             .collect();
         let mut by_shift = rows.clone();
         by_shift.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed));
-        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")
-            .map_err(anyhow::Error::msg)?;
+        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
         let page = crate::render::html::charts_page(

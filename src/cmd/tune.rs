@@ -122,8 +122,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
             &|a, b| cell(a, b).tcr_reduction,
             &|a, b| cell(a, b).frontier,
             "Tail reduction by window (frontier outlined)",
-        )
-        .map_err(anyhow::Error::msg)?;
+        )?;
         common::write_chart(&out, "tune", &svg, &args.charts)?;
         let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
         let page = crate::render::html::charts_page(

@@ -18,10 +18,24 @@ pub const NEGATIVE: RGBColor = RGBColor(0x6a, 0x3d, 0x9a);
 const SIZE: (u32, u32) = (760, 420);
 const FONT: &str = "sans-serif";
 
-type Res = Result<String, String>;
+/// A chart that could not be drawn or rasterised (the drawing library's
+/// own errors carry no type we can keep, so their text is kept).
+#[derive(Debug, thiserror::Error)]
+pub enum ChartError {
+    #[error("chart: {0}")]
+    Draw(String),
+    #[error("chart SVG: {0}")]
+    Svg(#[from] resvg::usvg::Error),
+    #[error("chart has no size")]
+    NoSize,
+    #[error("PNG encoding: {0}")]
+    Png(String),
+}
 
-fn err<E: std::fmt::Debug>(e: E) -> String {
-    format!("chart: {e:?}")
+type Res = Result<String, ChartError>;
+
+fn err<E: std::fmt::Debug>(e: E) -> ChartError {
+    ChartError::Draw(format!("{e:?}"))
 }
 
 /// Keeps at most `max` items, evenly spaced, always keeping the last.
@@ -441,7 +455,7 @@ pub struct AnalyzeCharts<'a> {
 }
 
 /// The analyze figures, in report order.
-pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, String> {
+pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, ChartError> {
     use super::html::Figure;
     let s = d.summary;
     let day = crate::zones::DAY_MS as f64;

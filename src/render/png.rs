@@ -1,6 +1,7 @@
 //! PNG copies of the SVG charts, rasterised with resvg. Fonts come from the
 //! system (fontdb); with none installed, text is left out of the PNG.
 
+use super::charts::ChartError;
 use resvg::{tiny_skia, usvg};
 use std::sync::OnceLock;
 
@@ -40,14 +41,14 @@ pub fn have_fonts() -> bool {
 }
 
 /// Rasterises an SVG at its own size, on a white background.
-pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, String> {
-    let tree = usvg::Tree::from_str(svg, options()).map_err(|e| format!("chart SVG: {e}"))?;
+pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, ChartError> {
+    let tree = usvg::Tree::from_str(svg, options())?;
     let size = tree.size().to_int_size();
     let mut pixmap =
-        tiny_skia::Pixmap::new(size.width(), size.height()).ok_or("chart has no size")?;
+        tiny_skia::Pixmap::new(size.width(), size.height()).ok_or(ChartError::NoSize)?;
     pixmap.fill(tiny_skia::Color::WHITE);
     resvg::render(&tree, tiny_skia::Transform::default(), &mut pixmap.as_mut());
     pixmap
         .encode_png()
-        .map_err(|e| format!("PNG encoding: {e}"))
+        .map_err(|e| ChartError::Png(e.to_string()))
 }
