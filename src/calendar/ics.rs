@@ -12,7 +12,7 @@
 
 use super::contentline::{ContentLine, parse_lines_each, split_text_list, unescape_text};
 use super::rules::Draft;
-use super::vtimezone::{CustomZone, Observance, expand_local};
+use super::vtimezone::{CustomZone, IcsProblem, Observance, expand_local};
 use super::{
     CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency,
 };
@@ -36,23 +36,23 @@ enum IcsTime {
     Local(NaiveDateTime),
 }
 
-fn parse_ics_time(v: &str, value_param: Option<&str>) -> Result<IcsTime, String> {
+fn parse_ics_time(v: &str, value_param: Option<&str>) -> Result<IcsTime, IcsProblem> {
     let v = v.trim();
     let b = v.as_bytes();
     let bad =
         || format!("'{v}' is not an RFC 5545 DATE (YYYYMMDD) or DATE-TIME (YYYYMMDDTHHMMSS[Z])");
     if b.len() < 8 || !b[..8].iter().all(u8::is_ascii_digit) {
-        return Err(bad());
+        return Err(bad().into());
     }
     let (date, _) = scan_date(&b[..8]).ok_or_else(bad)?;
     if b.len() == 8 {
         return Ok(IcsTime::Date(date));
     }
     if value_param.is_some_and(|p| p.eq_ignore_ascii_case("DATE")) {
-        return Err(bad());
+        return Err(bad().into());
     }
     if b[8] != b'T' || b.len() < 15 || !b[9..15].iter().all(u8::is_ascii_digit) {
-        return Err(bad());
+        return Err(bad().into());
     }
     let (time, used) = scan_time(&b[9..15]).ok_or_else(bad)?;
     debug_assert_eq!(used, 6);
@@ -62,7 +62,8 @@ fn parse_ics_time(v: &str, value_param: Option<&str>) -> Result<IcsTime, String>
         "Z" => Ok(IcsTime::Utc(ndt)),
         _ => Err(format!(
             "'{v}': a UTC offset is not allowed in an RFC 5545 DATE-TIME (use Z or TZID=)"
-        )),
+        )
+        .into()),
     }
 }
 
@@ -104,7 +105,7 @@ fn rule_for_expander(
     zoned: bool,
     zone: &EventZone,
     notes: &mut Vec<String>,
-) -> Result<Option<String>, String> {
+) -> Result<Option<String>, IcsProblem> {
     let mut parts: Vec<String> = Vec::new();
     let local0 = match start {
         IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
@@ -178,7 +179,7 @@ pub fn read(
     read_bytes(&bytes, &path.display().to_string(), opts, out, summary).map_err(|message| {
         CalendarError::Format {
             path: path.into(),
-            message,
+            message: message.to_string(),
         }
     })
 }
@@ -191,7 +192,7 @@ pub fn read_bytes(
     opts: &CalendarOptions,
     out: &mut Vec<Release>,
     summary: &mut CalendarSummary,
-) -> Result<(), String> {
+) -> Result<(), IcsProblem> {
     let lines = parse_lines_each(bytes);
     let mut stack: Vec<(String, usize)> = Vec::new();
     let mut events: Vec<Component> = Vec::new();
@@ -209,7 +210,7 @@ pub fn read_bytes(
         let l = match item {
             Ok(l) => l,
             Err(_) if skipping.is_some() => continue,
-            Err(e) => return Err(e.to_string()),
+            Err(e) => return Err(e.to_string().into()),
         };
         if let Some((name, at)) = &skipping {
             let ends = |c: &str| l.name == "END" && l.value.trim().eq_ignore_ascii_case(c);
@@ -251,16 +252,15 @@ pub fn read_bytes(
             "END" => {
                 let comp = l.value.trim().to_ascii_uppercase();
                 let Some((open, at)) = stack.pop() else {
-                    return Err(format!(
-                        "line {}: END:{comp} without a matching BEGIN",
-                        l.line
-                    ));
+                    return Err(
+                        format!("line {}: END:{comp} without a matching BEGIN", l.line).into(),
+                    );
                 };
                 if open != comp {
                     return Err(format!(
                         "line {}: END:{comp} closes BEGIN:{open} opened at line {at}; the file is malformed or truncated",
                         l.line
-                    ));
+                    ).into());
                 }
                 match comp.as_str() {
                     "VEVENT" => events.extend(cur_event.take()),
@@ -293,7 +293,8 @@ pub fn read_bytes(
     if let Some((open, at)) = stack.pop() {
         return Err(format!(
             "BEGIN:{open} at line {at} has no END:{open}; the file looks truncated"
-        ));
+        )
+        .into());
     }
     if !saw_calendar {
         return Err("no BEGIN:VCALENDAR found; is this an iCalendar file?".into());
@@ -329,7 +330,7 @@ pub fn read_bytes(
         }
         None => opts,
     };
-    let mut custom: HashMap<String, Result<CustomZone, String>> = HashMap::new();
+    let mut custom: HashMap<String, Result<CustomZone, IcsProblem>> = HashMap::new();
     // Instances with RECURRENCE-ID (RFC 5545 §3.8.4.4) change one
     // occurrence of their series (same UID), or with RANGE=THISANDFUTURE
     // that one and every later one; they are applied after the series.
@@ -426,7 +427,7 @@ fn apply_override(
     file: &str,
     opts: &CalendarOptions,
     zones_raw: &HashMap<String, Vec<Observance>>,
-    custom: &mut HashMap<String, Result<CustomZone, String>>,
+    custom: &mut HashMap<String, Result<CustomZone, IcsProblem>>,
     until: NaiveDateTime,
     notes: &mut Vec<String>,
     uid: &Option<String>,
@@ -519,7 +520,7 @@ fn apply_override(
     Ok(moved)
 }
 
-fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), String> {
+fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), IcsProblem> {
     let off = |v: &str| {
         utc_offset(v.trim()).ok_or_else(|| {
             format!(
@@ -530,10 +531,10 @@ fn read_observance_prop(o: &mut Observance, l: &ContentLine) -> Result<(), Strin
     };
     let local = |v: &str| match parse_ics_time(v, None) {
         Ok(IcsTime::Local(t)) => Ok(t),
-        _ => Err(format!(
+        _ => Err(IcsProblem(format!(
             "line {}: {} '{}' must be a local DATE-TIME",
             l.line, l.name, v
-        )),
+        ))),
     };
     match l.name.as_str() {
         "DTSTART" => o.dtstart = Some(local(&l.value)?),
@@ -584,7 +585,7 @@ fn event_releases(
     file: &str,
     opts: &CalendarOptions,
     zones_raw: &HashMap<String, Vec<Observance>>,
-    custom: &mut HashMap<String, Result<CustomZone, String>>,
+    custom: &mut HashMap<String, Result<CustomZone, IcsProblem>>,
     until: NaiveDateTime,
     notes: &mut Vec<String>,
 ) -> Result<EventOutcome, Reject> {
@@ -827,9 +828,9 @@ fn event_releases(
 fn resolve_tzid<'a>(
     tzid: &str,
     zones_raw: &HashMap<String, Vec<Observance>>,
-    custom: &'a mut HashMap<String, Result<CustomZone, String>>,
+    custom: &'a mut HashMap<String, Result<CustomZone, IcsProblem>>,
     until: NaiveDateTime,
-) -> Result<EventZone<'a>, String> {
+) -> Result<EventZone<'a>, IcsProblem> {
     let name = tzid.trim_start_matches('/');
     if let Ok(tz) = name.parse::<chrono_tz::Tz>() {
         return Ok(EventZone::Named(Zone::Iana(tz)));
@@ -837,7 +838,8 @@ fn resolve_tzid<'a>(
     let Some(obs) = zones_raw.get(tzid) else {
         return Err(format!(
             "TZID '{tzid}' is neither an IANA zone name nor defined by a VTIMEZONE in this file"
-        ));
+        )
+        .into());
     };
     let built = custom
         .entry(tzid.to_string())
@@ -990,6 +992,6 @@ BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102
             &mut s,
         )
         .unwrap_err();
-        assert!(e.contains("line 2") && e.contains("truncated"), "{e}");
+        assert!(e.0.contains("line 2") && e.0.contains("truncated"), "{e}");
     }
 }

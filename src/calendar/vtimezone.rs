@@ -6,6 +6,31 @@
 //! VTIMEZONEs (RFC 5545's own §4 example covers only 1998–1999).
 
 use crate::zones::{DAY_MS, ms_to_naive, naive_to_ms};
+
+/// Why a part of an iCalendar file (a time, a VTIMEZONE, an event's zone)
+/// cannot be used; the caller turns it into a rejected event or a file
+/// error naming the file and line.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("{0}")]
+pub struct IcsProblem(pub String);
+
+impl From<String> for IcsProblem {
+    fn from(message: String) -> Self {
+        IcsProblem(message)
+    }
+}
+
+impl From<IcsProblem> for String {
+    fn from(p: IcsProblem) -> Self {
+        p.0
+    }
+}
+
+impl From<&str> for IcsProblem {
+    fn from(message: &str) -> Self {
+        IcsProblem(message.to_string())
+    }
+}
 use chrono::NaiveDateTime;
 
 /// Expands an RRULE whose DTSTART is a local wall-clock time, returning local
@@ -23,7 +48,7 @@ pub fn expand_local(
     to: NaiveDateTime,
     max_keep: usize,
     max_steps: usize,
-) -> Result<Vec<NaiveDateTime>, String> {
+) -> Result<Vec<NaiveDateTime>, IcsProblem> {
     use chrono::TimeZone;
     // The expander's own messages name its internals (its time zones, its
     // types): ours name the rule and the RFC section instead.
@@ -46,13 +71,13 @@ pub fn expand_local(
         if steps >= max_steps {
             return Err(format!(
                 "RRULE '{rrule_text}' needs more than {max_steps} steps to cover the analysed span; narrow the span or the rule"
-            ));
+            ).into());
         }
         if local >= from {
             if out.len() >= max_keep {
                 return Err(format!(
                     "RRULE '{rrule_text}' yields more than {max_keep} occurrences in the analysed span; refusing to expand it"
-                ));
+                ).into());
             }
             out.push(local);
         }
@@ -121,14 +146,15 @@ impl CustomZone {
         tzid: &str,
         obs: &[Observance],
         until: NaiveDateTime,
-    ) -> Result<CustomZone, String> {
+    ) -> Result<CustomZone, IcsProblem> {
         let mut trans: Vec<(i64, i32, i32)> = Vec::new();
         for o in obs {
             let (Some(start), Some(from), Some(to)) = (o.dtstart, o.offset_from, o.offset_to)
             else {
                 return Err(format!(
                     "VTIMEZONE {tzid}: an observance lacks DTSTART, TZOFFSETFROM or TZOFFSETTO"
-                ));
+                )
+                .into());
             };
             let mut onsets = vec![start];
             if let Some(rule) = &o.rrule {
@@ -140,9 +166,7 @@ impl CustomZone {
             }
         }
         if trans.is_empty() {
-            return Err(format!(
-                "VTIMEZONE {tzid} has no STANDARD or DAYLIGHT observance"
-            ));
+            return Err(format!("VTIMEZONE {tzid} has no STANDARD or DAYLIGHT observance").into());
         }
         trans.sort_by_key(|t| t.0);
         let initial = trans[0].2;
@@ -244,7 +268,7 @@ mod tests {
             1_000_000,
         )
         .unwrap_err();
-        assert!(e.contains("steps"), "{e}");
+        assert!(e.0.contains("steps"), "{e}");
         // Without COUNT the same rule skips ahead to the span: 1 441 minutes.
         let ok = expand_local(
             ndt("19900101T000000"),
@@ -265,7 +289,7 @@ mod tests {
             1_000_000,
         )
         .unwrap_err();
-        assert!(e.contains("occurrences"), "{e}");
+        assert!(e.0.contains("occurrences"), "{e}");
         // Started centuries before the span: skipped ahead, same occurrences.
         let late = expand_local(
             ndt("00040204T000000"),
