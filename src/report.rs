@@ -6,10 +6,20 @@ use serde::Serialize;
 /// The caution printed in every terminal report, summary.json and HTML page.
 pub const CAUTION: &str = "Back-test figures are not forecasts. Release times come from the calendar you supplied: check them against the publisher. This is not investment advice.";
 
+/// The JSON layout's version, raised on any breaking change (2: runs read
+/// as alternatives — `account_figures`, account-path figures null in the
+/// pooled scenarios of a multi-run input, per-run share columns renamed).
+pub const SCHEMA_VERSION: u32 = 2;
+
+/// What made an output: the tool, its JSON layout, and the tz database the
+/// zones came from.
 #[derive(Debug, Clone, Serialize)]
 pub struct ToolInfo {
     pub name: &'static str,
     pub version: &'static str,
+    pub schema_version: u32,
+    /// IANA tz database release compiled in (chrono-tz).
+    pub tzdb_version: &'static str,
 }
 
 impl ToolInfo {
@@ -17,6 +27,8 @@ impl ToolInfo {
         ToolInfo {
             name: env!("CARGO_PKG_NAME"),
             version: env!("CARGO_PKG_VERSION"),
+            schema_version: SCHEMA_VERSION,
+            tzdb_version: chrono_tz::IANA_TZDB_VERSION,
         }
     }
 }

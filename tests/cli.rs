@@ -802,3 +802,59 @@ fn analyze_report_has_the_run_tables() {
     let scen = &scen[..scen.find("</table>").unwrap()];
     assert!(!scen.contains("Sharpe"), "{scen}");
 }
+
+/// Every `--json` names its layout version and the tz database release the
+/// zones came from (chrono-tz's compiled-in IANA release, e.g. "2025b").
+#[test]
+fn every_json_carries_schema_and_tzdb_versions() {
+    let tzdb = |v: &Value| {
+        let t = v["tool"]["tzdb_version"]
+            .as_str()
+            .unwrap_or_default()
+            .to_string();
+        assert_eq!(v["tool"]["schema_version"], 2, "{}", v["tool"]);
+        // IANA releases are a year and a letter.
+        assert!(
+            t.len() == 5
+                && t[..4].parse::<u32>().is_ok_and(|y| y >= 2020)
+                && t.as_bytes()[4].is_ascii_lowercase(),
+            "{t}"
+        );
+        t
+    };
+    let mut seen = Vec::new();
+    for (cmd, extra) in [
+        ("analyze", &["--placebo", "0", "--bootstrap", "0"][..]),
+        ("rank", &[][..]),
+        ("tune", &["--pre", "0..15/15", "--post", "0..30/30"][..]),
+        ("check", &[][..]),
+    ] {
+        let o = common::demo(cmd)
+            .arg("--json")
+            .args(extra)
+            .output()
+            .unwrap();
+        let v: Value = serde_json::from_slice(&o.stdout).unwrap_or_else(|e| panic!("{cmd}: {e}"));
+        seen.push(tzdb(&v));
+    }
+    let r = common::root();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .arg("schedule")
+        .arg("--calendar")
+        .arg(r.join("calendars/demo-usd.ics"))
+        .args([
+            "--currencies",
+            "USD",
+            "--from",
+            "2024-03-01",
+            "--to",
+            "2024-03-08",
+        ])
+        .args(["--format", "json"])
+        .output()
+        .unwrap();
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    seen.push(tzdb(&v));
+    seen.dedup();
+    assert_eq!(seen.len(), 1, "{seen:?}");
+}
