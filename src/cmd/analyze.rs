@@ -17,6 +17,7 @@ use std::path::PathBuf;
 ///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
 ///     --calendar-tz Europe/Berlin --instrument-map US500=USD --out demo/out
 #[derive(Debug, Args)]
+#[command(verbatim_doc_comment)]
 pub struct AnalyzeArgs {
     #[command(flatten)]
     pub input: InputArgs,

@@ -16,8 +16,10 @@ use std::collections::BTreeMap;
 ///
 /// Example:
 ///   eventfence check --trades demo/trades.csv --trades-tz America/New_York+07:00 \
-///     --calendar calendars/demo-usd.ics calendars/demo-europe.csv --instrument-map US500=USD
+///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
+///     --calendar-tz Europe/Berlin --instrument-map US500=USD
 #[derive(Debug, Args)]
+#[command(verbatim_doc_comment)]
 pub struct CheckArgs {
     #[command(flatten)]
     pub input: InputArgs,

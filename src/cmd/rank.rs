@@ -18,6 +18,7 @@ use std::path::PathBuf;
 ///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
 ///     --calendar-tz Europe/Berlin --instrument-map US500=USD --by sharpe --top 20
 #[derive(Debug, Args)]
+#[command(verbatim_doc_comment)]
 pub struct RankArgs {
     #[command(flatten)]
     pub input: InputArgs,

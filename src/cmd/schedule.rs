@@ -16,6 +16,7 @@ use std::path::PathBuf;
 ///     --calendar-tz Europe/Berlin --instruments EURUSD,US500 --instrument-map US500=USD \
 ///     --from 2024-03-01 --to 2024-03-31 --tz America/New_York+07:00 --format ics --output march.ics
 #[derive(Debug, Args)]
+#[command(verbatim_doc_comment)]
 pub struct ScheduleArgs {
     #[command(flatten)]
     pub calendar: CalendarArgs,

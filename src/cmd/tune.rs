@@ -17,6 +17,7 @@ use std::path::PathBuf;
 ///     --calendar calendars/demo-usd.ics calendars/demo-eur.csv calendars/demo-gbp-jpy.ics \
 ///     --calendar-tz Europe/Berlin --instrument-map US500=USD --pre 0..60/15 --post 0..120/30
 #[derive(Debug, Args)]
+#[command(verbatim_doc_comment)]
 pub struct TuneArgs {
     #[command(flatten)]
     pub input: InputArgs,
