@@ -77,3 +77,25 @@ fn every_help_example_runs_on_the_demo() {
     }
     assert_eq!(ran, 5);
 }
+
+/// A subcommand lists only flags that act there: `schedule` windows
+/// releases but judges no trades, so it has no exposure rule, sizing or
+/// pooling flags; `analyze` and `tune` have `--pool`, `rank` (always per
+/// run) does not.
+#[test]
+fn help_lists_only_flags_that_act() {
+    let help = |sub: &str| {
+        let o = Command::new(env!("CARGO_BIN_EXE_eventfence"))
+            .args([sub, "--help"])
+            .output()
+            .unwrap();
+        String::from_utf8(o.stdout).unwrap()
+    };
+    let schedule = help("schedule");
+    for flag in ["--rule <", "--sizing", "--pool", "--placebo"] {
+        assert!(!schedule.contains(flag), "schedule lists {flag}");
+    }
+    assert!(help("analyze").contains("--rule <RULE>"));
+    assert!(help("tune").contains("--pool"));
+    assert!(!help("rank").contains("--pool"));
+}

@@ -313,11 +313,6 @@ pub struct WindowArgs {
     /// Use all-day releases too; each then covers its whole local day.
     #[arg(long)]
     pub all_day: bool,
-    /// When a trade counts as exposed: overlap (holding period meets the
-    /// window), held (open at the release instant), entered (opened inside
-    /// the window).
-    #[arg(long, value_enum, default_value_t = crate::exposure::ExposureRule::Overlap)]
-    pub rule: crate::exposure::ExposureRule,
 }
 
 impl WindowArgs {
@@ -336,6 +331,11 @@ impl WindowArgs {
 /// Scenario and metric settings.
 #[derive(Debug, Clone, Args)]
 pub struct ScenarioArgs {
+    /// When a trade counts as exposed: overlap (holding period meets the
+    /// window), held (open at the release instant), entered (opened inside
+    /// the window).
+    #[arg(long, value_enum, default_value_t = crate::exposure::ExposureRule::Overlap)]
+    pub rule: crate::exposure::ExposureRule,
     /// P/L sizing: fixed (sum as given) or compounding (needs equity).
     #[arg(long, value_enum, default_value_t = crate::scenarios::Sizing::Fixed)]
     pub sizing: crate::scenarios::Sizing,
@@ -372,7 +372,7 @@ impl ScenarioArgs {
         Ok(crate::analysis::AnalysisSettings {
             calendar_span: None,
             pool: false,
-            exposure_rule: windows.rule,
+            exposure_rule: self.rule,
             windows: windows.settings()?,
             scenario: crate::scenarios::ScenarioSettings {
                 sizing: self.sizing,

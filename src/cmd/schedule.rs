@@ -73,6 +73,9 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     if !args.trades.run.is_empty() && args.trades.trades.is_empty() {
         bail!("--run picks runs of --trades: give the trade list too");
     }
+    if !args.trades.keep.is_empty() {
+        bail!("--keep carries columns into per-trade outputs; schedule writes none");
+    }
     if !args.trades.trades.is_empty() {
         let opts = common::trade_options(&args.trades, &args.rows)?;
         let (trades, _) = common::load_trades(&args.trades, &opts)?;
