@@ -384,7 +384,7 @@ fn main() {
     let fmt = |secs: i64| {
         let utc = chrono::DateTime::from_timestamp(secs, 0).unwrap();
         (utc.with_timezone(&server).naive_local() + shift)
-            .format("%Y.%m.%d %H:%M:%S")
+            .format("%Y-%m-%dT%H:%M:%S")
             .to_string()
     };
     let mut rng = ChaCha8Rng::seed_from_u64(SEED);

@@ -61,7 +61,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     for w in &s.warnings {
         let _ = write!(h, "<p class=\"warn\">{}</p>", esc(w));
     }
-    let _ = write!(h, "<h2>Inputs and settings</h2><table>");
+    let _ = write!(h, "<h2>What was read, and how</h2><table>");
     let t = &s.inputs.trades;
     let c = &s.inputs.calendar;
     let rows = [
@@ -127,14 +127,44 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     }
     let _ = write!(
         h,
-        "<h2>Is it chance?</h2><p>{}</p>",
-        esc(&super::table::chance_text(s)).replace('\n', "<br>")
+        "<h2>Is it chance?</h2><p>Does the result lean on a few outsized trades (tail concentration above {} — {}), and would releases on other days have caught as much P/L (placebo p-values: small means the real release times matter)? The bootstrap intervals show how far each change could move by chance alone.</p>",
+        s.tail.threshold,
+        esc(s.tail.threshold_source)
     );
+    let _ = write!(
+        h,
+        "<h3>Tail per scenario, {}</h3>{}",
+        match s.tail.tcr_basis {
+            crate::scenarios::TailBasis::Amount => "on P/L amounts",
+            crate::scenarios::TailBasis::Return =>
+                "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known",
+        },
+        table(&super::table::TAIL_HEADER, &super::table::tail_rows(s))
+    );
+    if let Some(p) = &s.placebo {
+        let _ = write!(
+            h,
+            "<h3>Placebo calendars ({}, seed {})</h3>{}",
+            p.placebos,
+            p.seed,
+            table(
+                &super::table::PLACEBO_HEADER,
+                &super::table::placebo_rows(p)
+            )
+        );
+    }
     if let Some(b) = &s.bootstrap {
-        h.push_str(&table(
-            &super::table::BOOTSTRAP_HEADER,
-            &super::table::bootstrap_rows(b),
-        ));
+        let _ = write!(
+            h,
+            "<h3>Bootstrap ({} resamples, seed {}): {:.0} % intervals of removed − baseline</h3>{}",
+            b.resamples,
+            b.seed,
+            b.confidence * 100.0,
+            table(
+                &super::table::BOOTSTRAP_HEADER,
+                &super::table::bootstrap_rows(b)
+            )
+        );
     }
     let _ = write!(h, "<h2>Charts</h2>");
     for f in figures {

@@ -721,6 +721,63 @@ pub fn chance_text(s: &Summary) -> String {
     out
 }
 
+pub const TAIL_HEADER: [&str; 6] = [
+    "scenario",
+    "tail concentration",
+    "above threshold",
+    "top bucket (trades)",
+    "Hill tail index",
+    "Hill k of n",
+];
+
+/// Tail figures per scenario, as text rows (HTML).
+pub fn tail_rows(s: &Summary) -> Vec<Vec<String>> {
+    let t = &s.tail;
+    [
+        ("baseline", &t.baseline),
+        ("removed", &t.removed),
+        ("capped", &t.capped),
+    ]
+    .iter()
+    .map(|(name, l)| {
+        vec![
+            name.to_string(),
+            fmt_opt(l.tcr, 2),
+            match l.above_threshold {
+                Some(true) => "yes".into(),
+                Some(false) => "no".into(),
+                None => "—".into(),
+            },
+            if l.too_few {
+                format!("{} (too few to judge)", l.top_bucket)
+            } else {
+                l.top_bucket.to_string()
+            },
+            l.hill.map_or("—".into(), |h| format!("{:.2}", h.alpha)),
+            l.hill.map_or("—".into(), |h| format!("{} of {}", h.k, h.n)),
+        ]
+    })
+    .collect()
+}
+
+pub const PLACEBO_HEADER: [&str; 3] = ["statistic", "observed", "p-value"];
+
+/// The placebo test's two statistics, as text rows (HTML).
+pub fn placebo_rows(p: &crate::stats::PlaceboResult) -> Vec<Vec<String>> {
+    vec![
+        vec![
+            "exposed share of net".into(),
+            pct(p.observed_share),
+            fmt_opt(p.p_share, 4),
+        ],
+        vec![
+            "mean exposed − mean unexposed P/L".into(),
+            fmt_opt(p.observed_mean_diff, 2),
+            fmt_opt(p.p_mean_diff, 4),
+        ],
+    ]
+}
+
 pub const BOOTSTRAP_HEADER: [&str; 4] = ["figure", "change", "low", "high"];
 
 /// The bootstrap intervals as text rows (terminal and HTML).
