@@ -583,7 +583,7 @@ mod tests {
     /// Red Rock Capital "Sortino: A 'Sharper' Ratio" worked example
     /// (REFERENCES.md §4.2): annual returns, target 0 → 4.417261042993862.
     #[test]
-    fn red_rock_sortino() {
+    fn sortino_and_sharpe_match_a_published_worked_example() {
         let r = [0.17, 0.15, 0.23, -0.05, 0.12, 0.09, 0.13, -0.04];
         assert!(close(sortino(&r, 1.0).unwrap(), 4.417261042993862));
         assert!(close(sharpe(&r, 1.0).unwrap(), 1.0160946695958604));
@@ -592,7 +592,7 @@ mod tests {
     }
 
     #[test]
-    fn tcr_spec_cases() {
+    fn tcr_of_equal_and_single_outsized_trades() {
         assert_eq!(tcr(&[5.0; 37], 1.0), Some(1.0));
         // One huge trade among n: k = 1 at 1 % for n ≤ 100.
         let mut v = vec![1.0; 99];

@@ -222,7 +222,7 @@ mod tests {
         assert!(r[1].currencies.is_empty());
         assert!(parse_instrument_map(&["X=ABC".into()]).is_err());
         assert_eq!(
-            parse_instrument_map(&["DAX=EUR/USD".into()]).unwrap()["DAX"],
+            parse_instrument_map(&["IDX2=EUR/USD".into()]).unwrap()["IDX2"],
             vec!["EUR", "USD"]
         );
     }

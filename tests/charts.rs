@@ -69,12 +69,12 @@ fn every_chart_renders_with_its_series() {
     }
     assert!(t.iter().any(|x| x.starts_with("Sorted |P/L|: TCR")));
     // Two curves (plus their legend swatches) in the scenario colours.
-    assert!(count(&tail, "polyline", "#1B4F8A") >= 1 && count(&tail, "polyline", "#1A9E77") >= 1);
+    assert!(count(&tail, "polyline", "#1B4F8A") >= 1 && count(&tail, "polyline", "#23947C") >= 1);
     let eq = svg(&out.join("chart-equity.svg"));
     for (label, colour) in [
         ("baseline", "#1B4F8A"),
-        ("removed", "#1A9E77"),
-        ("capped", "#A84C9A"),
+        ("removed", "#23947C"),
+        ("capped", "#A34F95"),
     ] {
         assert!(
             texts(&eq).iter().any(|x| x == label),
@@ -89,7 +89,7 @@ fn every_chart_renders_with_its_series() {
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     let cats = summary["attribution"]["by_category"].as_object().unwrap();
     let bars = svg(&out.join("chart-by-category.svg"));
-    let bar_count = count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#6A3D9A");
+    let bar_count = count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#70438F");
     assert_eq!(bar_count, cats.len(), "one bar per category");
     for k in cats.keys() {
         assert!(texts(&bars).iter().any(|x| x == k), "bar label {k}");
@@ -97,7 +97,7 @@ fn every_chart_renders_with_its_series() {
     let curs = summary["attribution"]["by_currency"].as_object().unwrap();
     let bars = svg(&out.join("chart-by-currency.svg"));
     assert_eq!(
-        count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#6A3D9A"),
+        count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#70438F"),
         curs.len()
     );
     let sc = svg(&out.join("chart-scatter.svg"));
@@ -145,7 +145,7 @@ fn every_chart_renders_with_its_series() {
         .count();
     assert!(frontier > 0);
     assert_eq!(
-        count(&hm, "rect", "#E09B1F"),
+        count(&hm, "rect", "#DC9A26"),
         frontier,
         "frontier cells outlined"
     );

@@ -4,18 +4,58 @@
 
 use plotters::prelude::*;
 
-/// Scenario colours: dark blue, bluish green, reddish purple; exposed
-/// trades in amber; release ticks in grey. Chosen to stay distinct under
-/// the common colour-vision deficiencies; tiers are never colour-coded
-/// red/orange/yellow.
+/// Our palette, named by us: harbour (baseline), kelp (removed), heather
+/// (capped), marigold (exposed trades), plum (negative bars), and grey
+/// release ticks. The hues are spread so that the three scenarios stay
+/// apart under the common colour-vision deficiencies (checked by eye in a
+/// deuteranopia/protanopia simulation, not against a published palette);
+/// each scenario also has its own line pattern, so charts read in
+/// greyscale. Tiers are never colour-coded.
 pub const BASELINE: RGBColor = RGBColor(0x1b, 0x4f, 0x8a);
-pub const REMOVED: RGBColor = RGBColor(0x1a, 0x9e, 0x77);
-pub const CAPPED: RGBColor = RGBColor(0xa8, 0x4c, 0x9a);
-pub const EXPOSED: RGBColor = RGBColor(0xe0, 0x9b, 0x1f);
+pub const REMOVED: RGBColor = RGBColor(0x23, 0x94, 0x7c);
+pub const CAPPED: RGBColor = RGBColor(0xa3, 0x4f, 0x95);
+pub const EXPOSED: RGBColor = RGBColor(0xdc, 0x9a, 0x26);
 pub const TICK: RGBColor = RGBColor(0xbb, 0xbb, 0xbb);
-pub const NEGATIVE: RGBColor = RGBColor(0x6a, 0x3d, 0x9a);
+pub const NEGATIVE: RGBColor = RGBColor(0x70, 0x43, 0x8f);
 
 const SIZE: (u32, u32) = (760, 420);
+
+/// Dash and gap (pixels) of each scenario's line: baseline solid, removed
+/// dashed, capped dotted.
+const PATTERN: [(u32, u32); 3] = [(0, 0), (9, 5), (2, 4)];
+
+/// Draws one scenario's line (i: 0 baseline, 1 removed, 2 capped) in its
+/// colour and pattern, with a matching legend entry.
+fn scenario_line<'a, DB, X, Y>(
+    c: &mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
+    i: usize,
+    name: &str,
+    pts: Vec<(f64, f64)>,
+) -> Result<(), ChartError>
+where
+    DB: DrawingBackend + 'a,
+    X: plotters::coord::ranged1d::Ranged<ValueType = f64>,
+    Y: plotters::coord::ranged1d::Ranged<ValueType = f64>,
+{
+    let col = [BASELINE, REMOVED, CAPPED][i % 3];
+    let style = col.stroke_width(2);
+    let (dash, gap) = PATTERN[i % 3];
+    let anno = if dash == 0 {
+        c.draw_series(LineSeries::new(pts, style)).map_err(err)?
+    } else {
+        c.draw_series(DashedLineSeries::new(pts, dash, gap, style))
+            .map_err(err)?
+    };
+    anno.label(name).legend(move |(x, y)| {
+        if dash == 0 {
+            PathElement::new(vec![(x, y), (x + 18, y)], style).into_dyn()
+        } else {
+            plotters::element::DashedPathElement::new(vec![(x, y), (x + 18, y)], dash, gap, style)
+                .into_dyn()
+        }
+    });
+    Ok(())
+}
 const FONT: &str = "sans-serif";
 
 /// A chart that could not be drawn or rasterised (the drawing library's
@@ -108,25 +148,13 @@ pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> R
             .enumerate()
             .map(|(i, x)| ((i + 1) as f64, x.0))
             .collect();
-        c.draw_series(LineSeries::new(
-            thin_head(&pts, 400, 1500),
-            BASELINE.stroke_width(2),
-        ))
-        .map_err(err)?
-        .label("baseline")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BASELINE.stroke_width(2)));
+        scenario_line(&mut c, 0, "baseline", thin_head(&pts, 400, 1500))?;
         let rem: Vec<(f64, f64)> = removed
             .iter()
             .enumerate()
             .map(|(i, v)| ((i + 1) as f64, *v))
             .collect();
-        c.draw_series(LineSeries::new(
-            thin_head(&rem, 400, 1500),
-            REMOVED.stroke_width(2),
-        ))
-        .map_err(err)?
-        .label("removed")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], REMOVED.stroke_width(2)));
+        scenario_line(&mut c, 1, "removed", thin_head(&rem, 400, 1500))?;
         let exposed: Vec<(f64, f64)> = baseline
             .iter()
             .enumerate()
@@ -188,13 +216,7 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
         .label("top-tier release")
         .legend(|(x, y)| PathElement::new(vec![(x + 9, y - 6), (x + 9, y + 6)], TICK));
         for (i, (name, pts)) in curves.iter().enumerate() {
-            let col = [BASELINE, REMOVED, CAPPED][i % 3];
-            c.draw_series(LineSeries::new(thin(pts, 1500), col.stroke_width(2)))
-                .map_err(err)?
-                .label(*name)
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 18, y)], col.stroke_width(2))
-                });
+            scenario_line(&mut c, i, name, thin(pts, 1500))?;
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperLeft)
