@@ -20,6 +20,39 @@ pub const NEGATIVE: RGBColor = RGBColor(0x70, 0x43, 0x8f);
 
 const SIZE: (u32, u32) = (760, 420);
 
+/// An axis label: grouped thousands without a needless decimal (2,500,
+/// -12,000), one decimal under 100 when it is not whole, three under 1.
+pub fn axis_number(v: &f64) -> String {
+    let a = v.abs();
+    let trim = |t: String| {
+        if t.contains('.') {
+            t.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            t
+        }
+    };
+    let text = if a >= 100.0 {
+        let digits = (a.round() as u64).to_string();
+        let mut grouped = String::new();
+        for (i, ch) in digits.chars().enumerate() {
+            if i > 0 && (digits.len() - i).is_multiple_of(3) {
+                grouped.push(',');
+            }
+            grouped.push(ch);
+        }
+        grouped
+    } else if a >= 1.0 {
+        trim(format!("{a:.1}"))
+    } else {
+        trim(format!("{a:.3}"))
+    };
+    if *v < 0.0 && text != "0" {
+        format!("-{text}")
+    } else {
+        text
+    }
+}
+
 /// Dash and gap (pixels) of each scenario's line: baseline solid, removed
 /// dashed, capped dotted.
 const PATTERN: [(u32, u32); 3] = [(0, 0), (9, 5), (2, 4)];
@@ -140,6 +173,7 @@ pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> R
         c.configure_mesh()
             .x_desc("rank by |P/L| (1 = largest, log scale)")
             .y_desc("|P/L|")
+            .y_label_formatter(&axis_number)
             .light_line_style(WHITE)
             .draw()
             .map_err(err)?;
@@ -203,6 +237,7 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
         c.configure_mesh()
             .x_desc("days since first open")
             .y_desc("cumulative P/L")
+            .y_label_formatter(&axis_number)
             .light_line_style(WHITE)
             .draw()
             .map_err(err)?;
@@ -253,6 +288,7 @@ pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
                 _ => String::new(),
             })
             .x_desc("attributed P/L")
+            .x_label_formatter(&axis_number)
             .light_line_style(WHITE)
             .draw()
             .map_err(err)?;
@@ -302,6 +338,7 @@ pub fn scatter(
         c.configure_mesh()
             .x_desc("minutes from nearest release to the open")
             .y_desc("P/L")
+            .y_label_formatter(&axis_number)
             .light_line_style(WHITE)
             .draw()
             .map_err(err)?;
@@ -585,6 +622,25 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, Ch
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn axis_labels_group_thousands_without_needless_decimals() {
+        let cases = [
+            (2500.0, "2,500"),
+            (-12000.0, "-12,000"),
+            (1234567.4, "1,234,567"),
+            (250.0, "250"),
+            (12.5, "12.5"),
+            (40.0, "40"),
+            (0.125, "0.125"),
+            (0.1, "0.1"),
+            (0.0, "0"),
+            (-0.5, "-0.5"),
+        ];
+        for (v, want) in cases {
+            assert_eq!(axis_number(&v), want, "{v}");
+        }
+    }
 
     #[test]
     fn thinning_keeps_ends_and_bounds() {
