@@ -236,6 +236,7 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
             .map_err(err)?;
         c.configure_mesh()
             .x_desc("days since first open")
+            .x_label_formatter(&axis_number)
             .y_desc("cumulative P/L")
             .y_label_formatter(&axis_number)
             .light_line_style(WHITE)
