@@ -369,8 +369,23 @@ fn overall_of(
     (o, tail)
 }
 
+/// First open and last close of the trades `idx` (a run's span), or
+/// `whole` for none.
+pub fn span_of(idx: &[u32], trades: &Trades, whole: (i64, i64)) -> (i64, i64) {
+    (
+        idx.iter()
+            .map(|&i| trades.opened[i as usize])
+            .min()
+            .unwrap_or(whole.0),
+        idx.iter()
+            .map(|&i| trades.closed[i as usize])
+            .max()
+            .unwrap_or(whole.1),
+    )
+}
+
 /// Each run's trade indices in close order, from the overall close order.
-fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
+pub fn split_by_run(order: &[u32], trades: &Trades) -> Vec<Vec<u32>> {
     // Sized exactly first: grown by doubling they would hold up to twice
     // the trade count.
     let mut count = vec![0usize; trades.runs.len()];
@@ -398,16 +413,7 @@ fn runs_of(
         .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
             let sc = scenarios::build_in_order(idx, trades, exposed, &settings.scenario)?;
             let idx = &sc.baseline.trade;
-            let run_span = (
-                idx.iter()
-                    .map(|&i| trades.opened[i as usize])
-                    .min()
-                    .unwrap_or(ctx.span.0),
-                idx.iter()
-                    .map(|&i| trades.closed[i as usize])
-                    .max()
-                    .unwrap_or(ctx.span.1),
-            );
+            let run_span = span_of(idx, trades, ctx.span);
             let ctx = Context {
                 span: run_span,
                 initial_equity: sc.initial_equity,

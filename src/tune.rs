@@ -140,23 +140,10 @@ pub fn tune(
     // Per run (alternative accounts): each run's trades in close order,
     // its span, and its baseline TCR and Sharpe, computed once.
     let per_run: Vec<RunBase> = if account_figures == AccountFigures::PerRun {
-        let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); trades.runs.len()];
-        for &i in &order {
-            by_run[trades.run[i as usize] as usize].push(i);
-        }
-        by_run
+        crate::analysis::split_by_run(&order, trades)
             .into_par_iter()
             .map(|idx| -> Result<RunBase, scenarios::ScenarioError> {
-                let span = (
-                    idx.iter()
-                        .map(|&i| trades.opened[i as usize])
-                        .min()
-                        .unwrap_or(span.0),
-                    idx.iter()
-                        .map(|&i| trades.closed[i as usize])
-                        .max()
-                        .unwrap_or(span.1),
-                );
+                let span = crate::analysis::span_of(&idx, trades, span);
                 let sc =
                     scenarios::build(&TradeView::of(&idx, trades, &|_| false), &settings.scenario)?;
                 let ctx = Context {
