@@ -39,7 +39,7 @@ fn main() -> ExitCode {
             use clap::CommandFactory;
             let mut buf = Vec::new();
             clap_complete::generate(shell, &mut Cli::command(), "eventfence", &mut buf);
-            eventfence::output::stdout(&buf)
+            eventfence::render::output::stdout(&buf)
                 .map(|_| ExitCode::SUCCESS)
                 .map_err(anyhow::Error::from)
         }

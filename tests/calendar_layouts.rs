@@ -11,7 +11,7 @@
 
 mod common;
 
-use eventfence::calendar::{self, CalendarOptions, Tier, csv::Layout};
+use eventfence::import::calendar::{self, CalendarOptions, Tier, csv::Layout};
 use serde_json::Value;
 
 fn utc(s: &str) -> i64 {

@@ -5,14 +5,14 @@
 //! - Placebo p-values are roughly uniform when exposure carries no effect,
 //!   and small when an effect is planted.
 
-use eventfence::calendar::{Release, Tier};
-use eventfence::exposure::{Engine, ExposureRule, used_windows};
-use eventfence::metrics::Context;
-use eventfence::scenarios::{CapRule, ScenarioSettings, Sizing};
-use eventfence::stats::{self, PlaceboSettings};
-use eventfence::trades::Trades;
-use eventfence::windows::WindowSettings;
-use eventfence::zones::{DAY_MS, MINUTE_MS, Zone};
+use eventfence::analysis::evidence::{self, PlaceboSettings};
+use eventfence::analysis::metrics::Context;
+use eventfence::analysis::scenarios::{CapRule, ScenarioSettings, Sizing};
+use eventfence::engine::exposure::{Engine, ExposureRule, used_windows};
+use eventfence::engine::windows::WindowSettings;
+use eventfence::import::calendar::{Release, Tier};
+use eventfence::import::trades::Trades;
+use eventfence::import::zones::{DAY_MS, MINUTE_MS, Zone};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
@@ -73,7 +73,7 @@ fn bootstrap_percentiles_match_numpy() {
         initial_equity: None,
         tcr_p: f["tcr_p"].as_f64().unwrap(),
     };
-    let got = stats::bootstrap_drawn(
+    let got = evidence::bootstrap_drawn(
         sets.len(),
         &|r| sets[r].clone(),
         &t,
@@ -161,7 +161,7 @@ fn placebo_p(seed: u64, effect: f64, n: usize) -> f64 {
     let exp =
         Engine::new(&rel, &w, ExposureRule::Overlap).run(&t.opened, &t.closed, &t.instrument, &cur);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
-    let r = stats::placebo(
+    let r = evidence::placebo(
         &t,
         &rel,
         &used_windows(&rel, &w),

@@ -3,10 +3,10 @@
 //! indexing, on random trades and calendars (zero-length trades, trades
 //! spanning many releases, releases exactly at window edges).
 
-use eventfence::attribution::per_release;
-use eventfence::calendar::{Release, Tier};
-use eventfence::exposure::{Engine, ExposureRule};
-use eventfence::windows::{Window, WindowSettings};
+use eventfence::analysis::attribution::per_release;
+use eventfence::engine::exposure::{Engine, ExposureRule};
+use eventfence::engine::windows::{Window, WindowSettings};
+use eventfence::import::calendar::{Release, Tier};
 use proptest::prelude::*;
 
 const MIN: i64 = 60_000;

@@ -9,7 +9,7 @@
 
 mod common;
 
-use eventfence::calendar::{self, CalendarOptions};
+use eventfence::import::calendar::{self, CalendarOptions};
 use std::collections::BTreeMap;
 
 const FROM: i64 = 1_704_067_200_000; // 2024-01-01T00:00:00Z
@@ -49,7 +49,7 @@ fn corpus_expands_as_the_outside_expander_does() {
             .releases
             .iter()
             .filter(|r| (FROM..TO).contains(&r.at))
-            .map(|r| (eventfence::zones::format_utc(r.at), r.title.clone()))
+            .map(|r| (eventfence::import::zones::format_utc(r.at), r.title.clone()))
             .collect();
         got.sort();
         assert_eq!(got, expected[&file], "{file}");
@@ -111,7 +111,7 @@ fn what_was_read_leniently_is_said() {
     ));
     // 07:00 Tokyo = 22:00Z the day before.
     assert_eq!(
-        eventfence::zones::format_utc(cal.releases[0].at),
+        eventfence::import::zones::format_utc(cal.releases[0].at),
         "2024-03-18T22:00:00Z"
     );
 }

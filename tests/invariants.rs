@@ -10,14 +10,14 @@
 //!
 //! Each property runs 1 000 random cases or more.
 
-use eventfence::analysis::{self, Analysis, AnalysisSettings};
-use eventfence::calendar::{Release, Tier};
-use eventfence::exposure::ExposureRule;
-use eventfence::relevance::{self, Unmapped};
-use eventfence::scenarios::{CapRule, ScenarioSettings, Sizing};
-use eventfence::trades::{self, TradeOptions, TradeSummary, Trades};
-use eventfence::windows::WindowSettings;
-use eventfence::zones::{LocalPolicy, Zone};
+use eventfence::analysis::run::{self, Analysis, AnalysisSettings};
+use eventfence::analysis::scenarios::{CapRule, ScenarioSettings, Sizing};
+use eventfence::engine::exposure::ExposureRule;
+use eventfence::engine::relevance::{self, Unmapped};
+use eventfence::engine::windows::WindowSettings;
+use eventfence::import::calendar::{Release, Tier};
+use eventfence::import::trades::{self, TradeOptions, TradeSummary, Trades};
+use eventfence::import::zones::{LocalPolicy, Zone};
 use proptest::prelude::*;
 use serde_json::Value;
 use std::collections::{BTreeSet, HashMap};
@@ -177,15 +177,15 @@ fn ranked(t: &Trades, rel: &[Release]) -> Value {
     let cur = relevance::resolve(&t.instruments, &HashMap::new(), Unmapped::Error, &[]).unwrap();
     let lists: Vec<Vec<String>> = cur.iter().map(|c| c.currencies.clone()).collect();
     let s = settings();
-    let windows = eventfence::exposure::used_windows(rel, &s.windows);
-    let placebo = eventfence::stats::PlaceboSettings { n: 19, seed: 7 };
-    let mut rows = eventfence::rank::rank(
+    let windows = eventfence::engine::exposure::used_windows(rel, &s.windows);
+    let placebo = eventfence::analysis::evidence::PlaceboSettings { n: 19, seed: 7 };
+    let mut rows = eventfence::analysis::rank::rank(
         t,
         rel,
         &windows,
         &lists,
         &s,
-        eventfence::rank::RankBy::Net,
+        eventfence::analysis::rank::RankBy::Net,
         placebo,
         &|| {},
     )
@@ -235,11 +235,7 @@ fn analyse(t: &Trades, rel: &[Release]) -> Option<Analysis> {
         return None;
     }
     let cur = relevance::resolve(&t.instruments, &HashMap::new(), Unmapped::Error, &[]).unwrap();
-    Some(
-        analysis::analyze(t, rel, &cur, &settings(), false)
-            .unwrap()
-            .0,
-    )
+    Some(run::analyze(t, rel, &cur, &settings(), false).unwrap().0)
 }
 
 /// Equal JSON, numbers to 1e-9 relative (summation order may differ).

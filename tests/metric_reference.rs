@@ -3,10 +3,10 @@
 //! scipy 1.17.1 and empyrical-reloaded 0.7.1 (versions recorded in the
 //! fixture). The trade sets are read through the real importer.
 
-use eventfence::metrics::{self, Context, Curve};
-use eventfence::scenarios::close_order;
-use eventfence::trades::{self, TradeOptions};
-use eventfence::zones::Zone;
+use eventfence::analysis::metrics::{self, Context, Curve};
+use eventfence::analysis::scenarios::close_order;
+use eventfence::import::trades::{self, TradeOptions};
+use eventfence::import::zones::Zone;
 use std::path::PathBuf;
 
 fn fixture(p: &str) -> PathBuf {

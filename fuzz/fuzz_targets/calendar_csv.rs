@@ -1,6 +1,6 @@
 //! Calendar CSV importer: no input panics; rows are imported or rejected.
 #![no_main]
-use eventfence::calendar::{self, CalendarOptions};
+use eventfence::import::calendar::{self, CalendarOptions};
 use libfuzzer_sys::fuzz_target;
 
 #[path = "../common.rs"]

@@ -1,7 +1,7 @@
 //! ICS importer: any bytes give releases or an error, never a panic or a
 //! hang; what was read is accounted for.
 #![no_main]
-use eventfence::calendar::{CalendarOptions, CalendarSummary, ics};
+use eventfence::import::calendar::{CalendarOptions, CalendarSummary, ics};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {

@@ -1,7 +1,7 @@
 //! Time stamps: any text with any format gives a stamp or an error.
 #![no_main]
-use eventfence::timefmt::{TimeFormat, parse_stamp};
-use eventfence::zones::{LocalPolicy, Zone};
+use eventfence::import::timefmt::{TimeFormat, parse_stamp};
+use eventfence::import::zones::{LocalPolicy, Zone};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {

@@ -1,7 +1,7 @@
 //! Trade CSV importer: every data row is imported or rejected, never lost;
 //! no input panics.
 #![no_main]
-use eventfence::trades::{self, TradeOptions};
+use eventfence::import::trades::{self, TradeOptions};
 use libfuzzer_sys::fuzz_target;
 
 #[path = "../common.rs"]

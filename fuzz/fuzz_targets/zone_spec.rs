@@ -1,7 +1,7 @@
 //! Zone specifications: any text parses to a zone or an error; a zone
 //! converts any instant both ways without panicking.
 #![no_main]
-use eventfence::zones::{LocalPolicy, Zone};
+use eventfence::import::zones::{LocalPolicy, Zone};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {

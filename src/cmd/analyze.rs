@@ -2,9 +2,9 @@
 //! and metrics, shown as a table, JSON, or a folder of files.
 
 use super::common::{self, ChanceArgs, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
-use crate::analysis;
-use crate::output::OutDir;
-use crate::report::{Inputs, Summary};
+use crate::analysis::run as analysis;
+use crate::render::output::OutDir;
+use crate::report::summary::{Inputs, Summary};
 use anyhow::Result;
 use clap::Args;
 use std::path::PathBuf;
@@ -93,7 +93,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     );
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
-    crate::phases::mark("summary");
+    crate::import::phases::mark("summary");
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
@@ -128,7 +128,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             .releases
             .iter()
             .filter(|r| {
-                r.tier == crate::calendar::Tier::High
+                r.tier == crate::import::calendar::Tier::High
                     && summary.settings.windows.window_for(r).is_some()
             })
             .map(|r| r.at)
@@ -162,9 +162,9 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         out.write("summary.json", json.as_bytes())?;
     }
     if args.json {
-        crate::output::stdout(format!("{json}\n").as_bytes())?;
+        crate::render::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        crate::output::stdout(
+        crate::render::output::stdout(
             crate::render::term::emphasise(
                 &crate::render::table::analyze(&summary),
                 crate::render::term::use_colour(),
@@ -177,7 +177,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             } else {
                 "parquet"
             };
-            crate::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
+            crate::render::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
         }
     }
     Ok(common::exit_status(&summary.warnings))
@@ -186,22 +186,22 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
 /// Placebo test and bootstrap intervals, with progress bars.
 fn chance(
     args: &AnalyzeArgs,
-    trades: &crate::trades::Trades,
-    releases: &[crate::calendar::Release],
-    currencies: &[crate::relevance::InstrumentCurrencies],
-    settings: &crate::analysis::AnalysisSettings,
-    exposure: &crate::exposure::Exposure,
+    trades: &crate::import::trades::Trades,
+    releases: &[crate::import::calendar::Release],
+    currencies: &[crate::engine::relevance::InstrumentCurrencies],
+    settings: &crate::analysis::run::AnalysisSettings,
+    exposure: &crate::engine::exposure::Exposure,
     initial_equity: Option<f64>,
 ) -> (
-    Option<crate::stats::PlaceboResult>,
-    Option<crate::stats::BootstrapResult>,
+    Option<crate::analysis::evidence::PlaceboResult>,
+    Option<crate::analysis::evidence::BootstrapResult>,
 ) {
-    use crate::stats;
+    use crate::analysis::evidence as stats;
     let flags: Vec<bool> = exposure.k.iter().map(|&k| k > 0).collect();
     let c = &args.chance;
     let placebo = (c.placebo > 0).then(|| {
         let pb = common::progress_bar(&args.terminal, c.placebo as u64, "placebo");
-        let windows = crate::exposure::used_windows(releases, &settings.windows);
+        let windows = crate::engine::exposure::used_windows(releases, &settings.windows);
         let cur: Vec<Vec<String>> = currencies.iter().map(|x| x.currencies.clone()).collect();
         let r = stats::placebo(
             trades,
@@ -221,7 +221,7 @@ fn chance(
     });
     let bootstrap = (c.bootstrap > 0).then(|| {
         let pb = common::progress_bar(&args.terminal, c.bootstrap as u64, "bootstrap");
-        let ctx = crate::metrics::Context {
+        let ctx = crate::analysis::metrics::Context {
             span: trades.span().expect("analysis checked trades exist"),
             report_zone: settings.report_tz,
             initial_equity,
@@ -242,8 +242,8 @@ fn chance(
         pb.finish_and_clear();
         // Runs read as alternatives: the pooled trades make no account
         // path, so only the figures that are sums or shares are kept.
-        if crate::analysis::AccountFigures::of(trades, settings.pool)
-            == crate::analysis::AccountFigures::PerRun
+        if crate::analysis::run::AccountFigures::of(trades, settings.pool)
+            == crate::analysis::run::AccountFigures::PerRun
         {
             intervals.retain(|name, _| !stats::ACCOUNT_PATH_FIGURES.contains(name));
         }

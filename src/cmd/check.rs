@@ -2,14 +2,13 @@
 //! understood, so a user can fix mappings and zones before analysing.
 
 use super::common::{self, InputArgs, InstrumentArgs, RowArgs};
-use crate::calendar::{CalendarSummary, Tier};
-use crate::relevance::{InstrumentCurrencies, RelevanceError, Source, Unmapped};
-use crate::report::{CAUTION, ToolInfo};
-use crate::trades::TradeSummary;
-use crate::zones::{Zone, format_utc};
+use crate::engine::relevance::{RelevanceError, Source, Unmapped};
+use crate::import::calendar::Tier;
+use crate::import::zones::format_utc;
+use crate::report::check::{CalendarOverview, CheckReport, InstrumentLine, TradesOverview};
+use crate::report::summary::{CAUTION, ToolInfo};
 use anyhow::{Result, bail};
 use clap::Args;
-use serde::Serialize;
 use std::collections::BTreeMap;
 
 /// Show what eventfence understood of the inputs.
@@ -26,45 +25,6 @@ pub struct CheckArgs {
     /// Print JSON instead of tables.
     #[arg(long)]
     pub json: bool,
-}
-
-/// Overview of imported trades.
-#[derive(Debug, Serialize)]
-pub struct TradesOverview {
-    pub import: TradeSummary,
-    pub input_zone: Zone,
-    /// First open and last close, UTC and in the input zone.
-    pub span_utc: Option<[String; 2]>,
-    pub span_input_zone: Option<[String; 2]>,
-    pub runs: usize,
-    pub instruments: Vec<InstrumentLine>,
-}
-
-#[derive(Debug, Serialize)]
-pub struct InstrumentLine {
-    #[serde(flatten)]
-    pub currencies: InstrumentCurrencies,
-    pub trades: usize,
-}
-
-/// Overview of the merged calendar.
-#[derive(Debug, Serialize)]
-pub struct CalendarOverview {
-    pub import: CalendarSummary,
-    pub span_utc: Option<[String; 2]>,
-    /// currency → tier → count (all-day releases counted under their tier).
-    pub releases_by_currency: BTreeMap<String, BTreeMap<Tier, usize>>,
-    pub all_day_releases: usize,
-}
-
-#[derive(Debug, Serialize)]
-pub struct CheckReport {
-    pub tool: ToolInfo,
-    pub trades: Option<TradesOverview>,
-    pub calendar: Option<CalendarOverview>,
-    /// Unmapped instruments (when --unmapped error), reported rather than fatal here.
-    pub problems: Vec<String>,
-    pub caution: &'static str,
 }
 
 /// Exit status 0 when every row imported and every instrument resolved.
@@ -103,7 +63,7 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
 
     let mut trades = None;
     if let Some((t, import)) = loaded {
-        let counts = crate::relevance::trades_per_instrument(&t.instrument, &t.instruments);
+        let counts = crate::engine::relevance::trades_per_instrument(&t.instrument, &t.instruments);
         // Unmapped instruments are listed as a problem here, not fatal.
         let strict = args.input.instruments.unmapped == Unmapped::Error;
         let policy = InstrumentArgs {
@@ -129,16 +89,16 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
         // window flags).
         if let Some(c) = &cal {
             let lists: Vec<Vec<String>> = resolved.iter().map(|r| r.currencies.clone()).collect();
-            let defaults = crate::windows::WindowSettings::default();
-            let coverage = crate::exposure::coverage_at(
+            let defaults = crate::engine::windows::WindowSettings::default();
+            let coverage = crate::engine::exposure::coverage_at(
                 &c.releases,
                 &t,
                 &lists,
                 &defaults,
-                crate::exposure::ExposureRule::Overlap,
+                crate::engine::exposure::ExposureRule::Overlap,
                 args.input.calendar.stated_span()?,
             );
-            problems.extend(crate::report::coverage_warnings(&coverage));
+            problems.extend(crate::report::summary::coverage_warnings(&coverage));
         }
         let zone = trade_opts.zone;
         trades = Some(TradesOverview {
@@ -183,9 +143,11 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
         caution: CAUTION,
     };
     if args.json {
-        crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
+        crate::render::output::stdout(
+            format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes(),
+        )?;
     } else {
-        crate::output::stdout(crate::render::table::check(&report).as_bytes())?;
+        crate::render::output::stdout(crate::render::table::check(&report).as_bytes())?;
     }
     let rejected = report.trades.as_ref().map_or(0, |t| t.import.rows_rejected)
         + report

@@ -2,11 +2,11 @@
 //! subcommand's arguments, and their resolution into typed settings before
 //! any data is read (so a bad flag fails at once).
 
-use crate::calendar::{self, Calendar, CalendarOptions, rules::TitleRules};
-use crate::relevance::{self, InstrumentCurrencies, Unmapped};
-use crate::timefmt::TimeFormat;
-use crate::trades::{self, TradeOptions, TradeSummary, Trades};
-use crate::zones::{DAY_MS, LocalPolicy, Zone};
+use crate::engine::relevance::{self, InstrumentCurrencies, Unmapped};
+use crate::import::calendar::{self, Calendar, CalendarOptions, rules::TitleRules};
+use crate::import::timefmt::TimeFormat;
+use crate::import::trades::{self, TradeOptions, TradeSummary, Trades};
+use crate::import::zones::{DAY_MS, LocalPolicy, Zone};
 use anyhow::{Context, Result, bail};
 use clap::Args;
 use std::collections::HashMap;
@@ -192,7 +192,7 @@ pub fn trade_options(t: &TradeArgs, rows: &RowArgs) -> Result<TradeOptions> {
 fn parse_day(flag: &str, s: &str) -> Result<i64> {
     let d = chrono::NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d")
         .with_context(|| format!("--{flag} '{s}' is not YYYY-MM-DD"))?;
-    Ok(crate::zones::naive_to_ms(
+    Ok(crate::import::zones::naive_to_ms(
         &d.and_time(chrono::NaiveTime::MIN),
     ))
 }
@@ -250,9 +250,9 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
     let limit = t
         .max_memory
         .as_deref()
-        .map(crate::budget::parse_size)
+        .map(crate::import::budget::parse_size)
         .transpose()?;
-    crate::budget::check(&paths, limit)?;
+    crate::import::budget::check(&paths, limit)?;
     let (trades, mut summary) = trades::load(&paths, opts)?;
     if t.run.is_empty() {
         return Ok((trades, summary));
@@ -316,8 +316,8 @@ pub struct WindowArgs {
 }
 
 impl WindowArgs {
-    pub fn settings(&self) -> Result<crate::windows::WindowSettings> {
-        crate::windows::WindowSettings::from_flags(
+    pub fn settings(&self) -> Result<crate::engine::windows::WindowSettings> {
+        crate::engine::windows::WindowSettings::from_flags(
             &self.window,
             &self.window_category,
             &self.window_title,
@@ -334,11 +334,11 @@ pub struct ScenarioArgs {
     /// When a trade counts as exposed: overlap (holding period meets the
     /// window), held (open at the release instant), entered (opened inside
     /// the window).
-    #[arg(long, value_enum, default_value_t = crate::exposure::ExposureRule::Overlap)]
-    pub rule: crate::exposure::ExposureRule,
+    #[arg(long, value_enum, default_value_t = crate::engine::exposure::ExposureRule::Overlap)]
+    pub rule: crate::engine::exposure::ExposureRule,
     /// P/L sizing: fixed (sum as given) or compounding (needs equity).
-    #[arg(long, value_enum, default_value_t = crate::scenarios::Sizing::Fixed)]
-    pub sizing: crate::scenarios::Sizing,
+    #[arg(long, value_enum, default_value_t = crate::analysis::scenarios::Sizing::Fixed)]
+    pub sizing: crate::analysis::scenarios::Sizing,
     /// Cap for the capped scenario: q0.99 (quantile of unexposed |P/L|),
     /// median*3, amount:500, or equity:1.5 (% of equity).
     #[arg(long, value_name = "RULE", default_value = "q0.99")]
@@ -360,7 +360,7 @@ pub struct ScenarioArgs {
 }
 
 impl ScenarioArgs {
-    pub fn settings(&self, windows: &WindowArgs) -> Result<crate::analysis::AnalysisSettings> {
+    pub fn settings(&self, windows: &WindowArgs) -> Result<crate::analysis::run::AnalysisSettings> {
         if !(self.tcr_p > 0.0 && self.tcr_p <= 100.0) {
             bail!("--tcr-p {} must be in (0, 100]", self.tcr_p);
         }
@@ -369,14 +369,14 @@ impl ScenarioArgs {
         {
             bail!("--initial-equity {e} must be a positive amount");
         }
-        Ok(crate::analysis::AnalysisSettings {
+        Ok(crate::analysis::run::AnalysisSettings {
             calendar_span: None,
             pool: false,
             exposure_rule: self.rule,
             windows: windows.settings()?,
-            scenario: crate::scenarios::ScenarioSettings {
+            scenario: crate::analysis::scenarios::ScenarioSettings {
                 sizing: self.sizing,
-                cap: crate::scenarios::CapRule::parse(&self.cap)?,
+                cap: crate::analysis::scenarios::CapRule::parse(&self.cap)?,
                 initial_equity: self.initial_equity,
             },
             report_tz: zone_flag("report-tz", &self.report_tz)?,
@@ -474,10 +474,10 @@ impl Loaded {
     pub fn warnings(
         &self,
         input: &InputArgs,
-        settings: &crate::analysis::AnalysisSettings,
+        settings: &crate::analysis::run::AnalysisSettings,
     ) -> Vec<String> {
         let cur = self.currency_lists();
-        let coverage = crate::exposure::coverage_at(
+        let coverage = crate::engine::exposure::coverage_at(
             &self.calendar.releases,
             &self.trades,
             &cur,
@@ -485,13 +485,13 @@ impl Loaded {
             settings.exposure_rule,
             settings.calendar_span,
         );
-        let inputs = crate::report::Inputs::new(
+        let inputs = crate::report::summary::Inputs::new(
             &self.trade_summary,
             input.trades.trades_tz.clone(),
             &self.calendar.summary,
             input.calendar.calendar_tz().to_string(),
         );
-        crate::report::input_warnings(&inputs, &coverage)
+        crate::report::summary::input_warnings(&inputs, &coverage)
     }
 }
 
@@ -514,7 +514,7 @@ impl InputArgs {
         }
         let trade_opts = trade_options(&self.trades, &self.rows)?;
         let spin = spinner(terminal, "reading trades");
-        crate::phases::mark("start");
+        crate::import::phases::mark("start");
         // Only iCalendar files need the trades' span (to bound open-ended
         // recurrences); other calendars are read alongside the trades.
         // Errors keep their order: the trades' first.
@@ -531,7 +531,7 @@ impl InputArgs {
             (t, Some(c))
         };
         let (trades, trade_summary) = trades?;
-        crate::phases::mark("trades");
+        crate::import::phases::mark("trades");
         spin.finish_and_clear();
         let calendar = match early {
             Some(c) => c?,
@@ -582,7 +582,7 @@ pub struct ChartArgs {
 
 /// Writes `chart-ID.svg` (and `.png` when asked) into the output folder.
 pub fn write_chart(
-    out: &crate::output::OutDir,
+    out: &crate::render::output::OutDir,
     id: &str,
     svg: &str,
     charts: &ChartArgs,

@@ -2,12 +2,12 @@
 //! once the release-exposed trades are removed.
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
-use crate::output::OutDir;
-use crate::rank::{self, RankBy, RunRow};
-use crate::report::{CAUTION, ToolInfo};
+use crate::analysis::rank::{self, RankBy};
+use crate::render::output::OutDir;
+use crate::report::rank::RankReport;
+use crate::report::summary::{CAUTION, ToolInfo};
 use anyhow::{Result, bail};
 use clap::Args;
-use serde::Serialize;
 use std::path::PathBuf;
 
 /// Rank parameter sets (a run column, or one file per run) before and after
@@ -67,22 +67,6 @@ pub enum SortBy {
     Run,
 }
 
-#[derive(Debug, Serialize)]
-pub struct RankReport {
-    pub tool: ToolInfo,
-    pub by: RankBy,
-    pub settings: crate::analysis::AnalysisSettings,
-    pub runs_total: usize,
-    /// What needs attention (coverage, skipped rows); also exit status 3.
-    pub warnings: Vec<String>,
-    /// How each trade's P/L was formed from the input columns.
-    pub pnl_formed_as: String,
-    /// `amount` or `return`: what tcr_baseline / tcr_removed are measured on.
-    pub tcr_basis: crate::scenarios::TailBasis,
-    pub runs: Vec<RunRow>,
-    pub caution: &'static str,
-}
-
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
@@ -95,9 +79,9 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     }
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
-    let windows = crate::exposure::used_windows(&cal.releases, &settings.windows);
+    let windows = crate::engine::exposure::used_windows(&cal.releases, &settings.windows);
     let pb = common::progress_bar(&args.terminal, trades.runs.len() as u64, "runs");
-    let placebo = crate::stats::PlaceboSettings {
+    let placebo = crate::analysis::evidence::PlaceboSettings {
         n: args.placebo,
         seed: args.seed,
     };
@@ -120,7 +104,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         SortBy::RankRemoved => rows.sort_by_key(|r| r.rank_removed),
         SortBy::RankBaseline => rows.sort_by_key(|r| r.rank_baseline),
         SortBy::Shift => rows.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed)),
-        SortBy::Run => rows.sort_by(|a, b| crate::trades::run_order(&a.run, &b.run)),
+        SortBy::Run => rows.sort_by(|a, b| crate::import::trades::run_order(&a.run, &b.run)),
     }
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
@@ -170,9 +154,11 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         caution: CAUTION,
     };
     if args.json {
-        crate::output::stdout(format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes())?;
+        crate::render::output::stdout(
+            format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes(),
+        )?;
     } else {
-        crate::output::stdout(
+        crate::render::output::stdout(
             crate::render::table::rank(&report, crate::render::term::width()).as_bytes(),
         )?;
     }

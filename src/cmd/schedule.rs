@@ -2,8 +2,8 @@
 //! as CSV, JSON, ICS, or a terminal view of the coming days.
 
 use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, WindowArgs};
-use crate::schedule::{self, ScheduleSettings};
-use crate::zones::{DAY_MS, naive_to_ms};
+use crate::analysis::schedule::{self, ScheduleSettings};
+use crate::import::zones::{DAY_MS, naive_to_ms};
 use anyhow::{Context, Result, bail};
 use clap::Args;
 use std::path::PathBuf;
@@ -100,8 +100,9 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
         if !(1..=3660).contains(&days) {
             bail!("--next {days}: give 1 to 3660 days");
         }
-        args.calendar.from = Some(crate::zones::format_utc(now)[..10].to_string());
-        args.calendar.to = Some(crate::zones::format_utc(now + days * DAY_MS)[..10].to_string());
+        args.calendar.from = Some(crate::import::zones::format_utc(now)[..10].to_string());
+        args.calendar.to =
+            Some(crate::import::zones::format_utc(now + days * DAY_MS)[..10].to_string());
         (now, now + days * DAY_MS)
     } else {
         let (Some(f), Some(t)) = (&args.calendar.from, &args.calendar.to) else {
@@ -129,7 +130,7 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
     }
     for c in &args.currencies {
         let c = c.trim().to_ascii_uppercase();
-        if !crate::calendar::is_currency(&c) {
+        if !crate::import::calendar::is_currency(&c) {
             bail!("--currencies: '{c}' is not an ISO 4217 code");
         }
         pairs.push((c.clone(), vec![c]));
@@ -170,11 +171,12 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
                 .context("--output needs a file name")?
                 .to_string_lossy()
                 .into_owned();
-            crate::output::OutDir::new(&dir, &args.calendar.calendar)?.write(&name, &bytes)?;
+            crate::render::output::OutDir::new(&dir, &args.calendar.calendar)?
+                .write(&name, &bytes)?;
             eprintln!("wrote {} window(s) to {}", list.len(), path.display());
         }
         None => {
-            crate::output::stdout(&bytes)?;
+            crate::render::output::stdout(&bytes)?;
         }
     }
     Ok(common::exit_status(&warnings))
@@ -184,7 +186,7 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
 /// does not cover (per currency: its first to last release, or the stated
 /// `--calendar-span`), high-tier all-day releases left out, skipped rows.
 fn schedule_warnings(
-    cal: &crate::calendar::Calendar,
+    cal: &crate::import::calendar::Calendar,
     pairs: &[(String, Vec<String>)],
     range: (i64, i64),
     stated: Option<(i64, i64)>,
@@ -194,7 +196,7 @@ fn schedule_warnings(
     let mut currencies: Vec<&String> = pairs.iter().flat_map(|p| &p.1).collect();
     currencies.sort();
     currencies.dedup();
-    let day = |ms: i64| crate::zones::format_utc(ms)[..10].to_string();
+    let day = |ms: i64| crate::import::zones::format_utc(ms)[..10].to_string();
     for c in currencies {
         let of: Vec<i64> = cal
             .releases
@@ -236,7 +238,7 @@ fn schedule_warnings(
             .iter()
             .filter(|r| {
                 r.all_day
-                    && r.tier == crate::calendar::Tier::High
+                    && r.tier == crate::import::calendar::Tier::High
                     && r.end > range.0
                     && r.at < range.1
                     && wanted.contains(&&r.currency)

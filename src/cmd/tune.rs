@@ -2,12 +2,12 @@
 //! that remove the damage at least cost.
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
-use crate::calendar::Tier;
-use crate::output::OutDir;
-use crate::report::{CAUTION, ToolInfo};
+use crate::import::calendar::Tier;
+use crate::render::output::OutDir;
+use crate::report::summary::{CAUTION, ToolInfo};
+use crate::report::tune::TuneReport;
 use anyhow::Result;
 use clap::Args;
-use serde::Serialize;
 use std::path::PathBuf;
 
 /// Sweep window lengths over a grid; mark the cost/benefit frontier.
@@ -56,22 +56,11 @@ pub struct TuneArgs {
     pub out: Option<PathBuf>,
 }
 
-#[derive(Serialize)]
-pub struct TuneReport {
-    pub tool: ToolInfo,
-    pub settings: crate::analysis::AnalysisSettings,
-    /// What needs attention (coverage, skipped rows); also exit status 3.
-    pub warnings: Vec<String>,
-    /// How each trade's P/L was formed from the input columns.
-    pub pnl_formed_as: String,
-    #[serde(flatten)]
-    pub result: crate::tune::TuneResult,
-    pub caution: &'static str,
-}
-
 pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
-    let pre = crate::tune::parse_range(&args.pre).map_err(|e| anyhow::anyhow!("--pre {e}"))?;
-    let post = crate::tune::parse_range(&args.post).map_err(|e| anyhow::anyhow!("--post {e}"))?;
+    let pre =
+        crate::analysis::tune::parse_range(&args.pre).map_err(|e| anyhow::anyhow!("--pre {e}"))?;
+    let post = crate::analysis::tune::parse_range(&args.post)
+        .map_err(|e| anyhow::anyhow!("--post {e}"))?;
     let tier = match &args.tier {
         None => None,
         Some(t) => Some(
@@ -87,7 +76,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
     let cal = &loaded.calendar;
     let cur = loaded.currency_lists();
     let pb = common::progress_bar(&args.terminal, (pre.len() * post.len()) as u64, "cells");
-    let result = crate::tune::tune(
+    let result = crate::analysis::tune::tune(
         trades,
         &cal.releases,
         &cur,
@@ -133,7 +122,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
                 res.pre.len(),
                 res.post.len(),
                 report.pnl_formed_as,
-                if res.account_figures == crate::analysis::AccountFigures::PerRun {
+                if res.account_figures == crate::analysis::run::AccountFigures::PerRun {
                     format!(
                         "; runs are alternative accounts: each cell's tail figure is the median over {} runs of each run's own",
                         res.runs
@@ -150,9 +139,11 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         out.write("report.html", page.as_bytes())?;
     }
     if args.json {
-        crate::output::stdout(format!("{json}\n").as_bytes())?;
+        crate::render::output::stdout(format!("{json}\n").as_bytes())?;
     } else {
-        crate::output::stdout(crate::render::table::tune(&report, args.frontier_only).as_bytes())?;
+        crate::render::output::stdout(
+            crate::render::table::tune(&report, args.frontier_only).as_bytes(),
+        )?;
     }
     Ok(common::exit_status(&report.warnings))
 }

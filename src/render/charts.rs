@@ -501,7 +501,7 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
 
 /// Everything the analyze charts draw.
 pub struct AnalyzeCharts<'a> {
-    pub summary: &'a crate::report::Summary,
+    pub summary: &'a crate::report::summary::Summary,
     pub sorted_abs: &'a [(f64, bool)],
     /// The removed scenario's magnitudes on the same basis, largest first.
     pub removed_abs: &'a [f64],
@@ -518,11 +518,11 @@ pub struct AnalyzeCharts<'a> {
 pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, ChartError> {
     use super::html::Figure;
     let s = d.summary;
-    let day = crate::zones::DAY_MS as f64;
+    let day = crate::report::types::DAY_MS as f64;
     let t = &s.tail;
     let what = match t.tcr_basis {
-        crate::scenarios::TailBasis::Amount => "|P/L|",
-        crate::scenarios::TailBasis::Return => "|return|",
+        crate::report::types::TailBasis::Amount => "|P/L|",
+        crate::report::types::TailBasis::Return => "|return|",
     };
     let caption = format!(
         "Sorted {what}: TCR {} → {} (threshold {})",
@@ -561,10 +561,14 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, Ch
         .iter()
         .map(|(k, g)| (k.clone(), g.attributed_pnl))
         .collect();
-    let high = s.settings.windows.high.unwrap_or(crate::windows::Window {
-        pre_min: 0,
-        post_min: 0,
-    });
+    let high = s
+        .settings
+        .windows
+        .high
+        .unwrap_or(crate::report::types::Window {
+            pre_min: 0,
+            post_min: 0,
+        });
     Ok(vec![
         Figure {
             id: "tail",
@@ -575,7 +579,7 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, Ch
         },
         Figure {
             id: "equity",
-            caption: if d.summary.account_figures == crate::analysis::AccountFigures::PerRun {
+            caption: if d.summary.account_figures == crate::report::types::AccountFigures::PerRun {
                 format!(
                     "Cumulative P/L of the three scenarios, summed over all {} runs (alternative parameter sets, so no account anyone held: read it for where in time the exposed P/L sits); grey ticks are top-tier releases.",
                     d.summary.runs.len()
@@ -586,7 +590,7 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, Ch
             svg: equity(
                 &curves,
                 &ticks,
-                if d.summary.account_figures == crate::analysis::AccountFigures::PerRun {
+                if d.summary.account_figures == crate::report::types::AccountFigures::PerRun {
                     "Summed P/L of all runs: baseline, removed, capped"
                 } else {
                     "Equity: baseline, removed, capped"

@@ -1,11 +1,11 @@
 //! File renderers: the annotated trade list (CSV or Parquet) and the
 //! per-release table (CSV).
 
-use crate::attribution::ReleaseLine;
-use crate::calendar::Release;
-use crate::exposure::Exposure;
-use crate::trades::Trades;
-use crate::zones::format_utc;
+use crate::report::types::Exposure;
+use crate::report::types::Release;
+use crate::report::types::ReleaseLine;
+use crate::report::types::Trades;
+use crate::report::types::format_utc;
 use std::fmt::Write;
 
 /// Quotes a CSV field when it needs it (RFC 4180).
@@ -224,10 +224,10 @@ pub fn releases_csv(lines: &[ReleaseLine]) -> Vec<u8> {
 
 /// tail.csv: baseline |P/L| (or |return|, by the tail basis) sorted
 /// descending, with the exposed flag.
-pub fn tail_csv(sorted: &[(f64, bool)], basis: crate::scenarios::TailBasis) -> Vec<u8> {
+pub fn tail_csv(sorted: &[(f64, bool)], basis: crate::report::types::TailBasis) -> Vec<u8> {
     let mut s = String::from(match basis {
-        crate::scenarios::TailBasis::Amount => "rank,abs_pnl,exposed\n",
-        crate::scenarios::TailBasis::Return => "rank,abs_return,exposed\n",
+        crate::report::types::TailBasis::Amount => "rank,abs_pnl,exposed\n",
+        crate::report::types::TailBasis::Return => "rank,abs_return,exposed\n",
     });
     for (i, (v, e)) in sorted.iter().enumerate() {
         let _ = writeln!(s, "{},{},{}", i + 1, v, e);
@@ -267,7 +267,7 @@ fn opt(v: Option<f64>) -> String {
 }
 
 /// runs.csv: one row per run, columns as `RUN_COLUMNS`.
-pub fn runs_csv(rows: &[crate::rank::RunRow]) -> Vec<u8> {
+pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
     let mut s = RUN_COLUMNS.join(",");
     s.push('\n');
     for r in rows {
@@ -302,9 +302,11 @@ pub fn runs_csv(rows: &[crate::rank::RunRow]) -> Vec<u8> {
 }
 
 /// runs.parquet: the same columns.
-pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
+pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> anyhow::Result<Vec<u8>> {
     use polars::prelude::*;
-    let f = |g: fn(&crate::rank::RunRow) -> Option<f64>| rows.iter().map(g).collect::<Vec<_>>();
+    let f = |g: fn(&crate::report::types::RunRow) -> Option<f64>| {
+        rows.iter().map(g).collect::<Vec<_>>()
+    };
     let mut df = DataFrame::new(
         rows.len(),
         vec![
@@ -374,7 +376,7 @@ pub fn runs_parquet(rows: &[crate::rank::RunRow]) -> anyhow::Result<Vec<u8>> {
 }
 
 /// grid.csv: one row per tune cell (heat-map data).
-pub fn grid_csv(cells: &[crate::tune::Cell]) -> Vec<u8> {
+pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
     let mut s = String::from(
         "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,runs_tcr_reduced,runs_sharpe_improved,blocked_share,frontier\n",
     );

@@ -2,7 +2,7 @@
 //! network. Sections: inputs and settings, the headline answer, scenario
 //! table, chance tests, charts, top releases, rejected rows, caution.
 
-use crate::report::Summary;
+use crate::report::summary::Summary;
 use std::fmt::Write;
 
 /// Escapes text for HTML.
@@ -101,7 +101,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     }
     let _ = write!(h, "</table>");
     let _ = write!(h, "<h2>Scenarios</h2>{}", super::table::scenario_html(s));
-    if s.account_figures == crate::analysis::AccountFigures::PerRun {
+    if s.account_figures == crate::report::types::AccountFigures::PerRun {
         let _ = write!(
             h,
             "<p>The table pools the trades of {} alternative runs. Sharpe, Sortino, drawdowns, return/drawdown, t and time in market describe one account, so they are given per run, as their spread across runs (--pool reads all runs as one account).</p>",
@@ -135,8 +135,8 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         h,
         "<h3>Tail per scenario, {}</h3>{}",
         match s.tail.tcr_basis {
-            crate::scenarios::TailBasis::Amount => "on P/L amounts",
-            crate::scenarios::TailBasis::Return =>
+            crate::report::types::TailBasis::Amount => "on P/L amounts",
+            crate::report::types::TailBasis::Return =>
                 "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known",
         },
         table(&super::table::TAIL_HEADER, &super::table::tail_rows(s))
@@ -271,7 +271,7 @@ pub fn charts_page(
 
 /// The rank report's per-run table: every run, the largest rank shifts
 /// first (as given), with the ranking figure and both ranks.
-pub fn rank_table(rows: &[crate::rank::RunRow], by: &str) -> String {
+pub fn rank_table(rows: &[crate::report::types::RunRow], by: &str) -> String {
     use super::table::{fmt_opt, pct};
     let header = [
         "run",

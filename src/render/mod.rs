@@ -1,9 +1,10 @@
 //! Renderers: turn result structs into bytes (terminal tables, CSV,
-//! Parquet). No computation happens here; `crate::output` owns the paths.
+//! Parquet). No computation happens here; `output` owns the paths and atomic writes.
 
 pub mod charts;
 pub mod files;
 pub mod html;
+pub mod output;
 pub mod png;
 pub mod schedule;
 pub mod table;
@@ -19,8 +20,8 @@ pub fn label<T: serde::Serialize>(v: &T) -> String {
 }
 
 /// Tier windows as "high 15/30, medium 5/10, low off".
-pub fn windows_text(w: &crate::windows::WindowSettings) -> String {
-    let f = |x: Option<crate::windows::Window>| {
+pub fn windows_text(w: &crate::report::types::WindowSettings) -> String {
+    let f = |x: Option<crate::report::types::Window>| {
         x.map_or("off".to_string(), |w| {
             format!("{}/{}", w.pre_min, w.post_min)
         })

@@ -1,9 +1,9 @@
 //! Blackout schedule renderers: CSV, JSON, RFC 5545 ICS, and the terminal
 //! view. Times are shown in the zone the user names, with its UTC offset.
 
-use crate::report::{CAUTION, ToolInfo};
-use crate::schedule::Blackout;
-use crate::zones::{Zone, format_offset, format_utc};
+use crate::report::summary::{CAUTION, ToolInfo};
+use crate::report::types::Blackout;
+use crate::report::types::{Zone, format_offset, format_utc};
 use serde::Serialize;
 use std::fmt::Write;
 
@@ -151,7 +151,7 @@ fn fold(line: &str, out: &mut String) {
 }
 
 fn ics_utc(ms: i64) -> String {
-    crate::zones::ms_to_naive(ms)
+    crate::report::types::ms_to_naive(ms)
         .format("%Y%m%dT%H%M%SZ")
         .to_string()
 }

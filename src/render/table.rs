@@ -1,9 +1,9 @@
 //! Terminal tables (comfy-table). Plain text, no colour codes, so output is
 //! the same on a terminal, in a pipe, and under NO_COLOR.
 
-use crate::analysis::AccountFigures;
-use crate::calendar::Tier;
-use crate::cmd::check::CheckReport;
+use crate::report::check::CheckReport;
+use crate::report::types::AccountFigures;
+use crate::report::types::Tier;
 use comfy_table::{
     Cell, CellAlignment, ContentArrangement, ContentLineStyle, LineStyle, Table, TableStyle,
 };
@@ -165,8 +165,8 @@ fn rejections(
     }
 }
 
-use crate::metrics::Metrics;
-use crate::report::Summary;
+use crate::report::summary::Summary;
+use crate::report::types::Metrics;
 
 /// Formats an optional figure; `—` for null.
 pub fn fmt_opt(v: Option<f64>, decimals: usize) -> String {
@@ -226,7 +226,7 @@ const METRIC_ROWS: &[Row] = &[
 /// Which releases the answer speaks of, when the user narrowed or
 /// reshaped them (`--tiers`, `--window-category`, `--window-title`,
 /// `--all-day`); empty for the defaults.
-fn release_scope(w: &crate::windows::WindowSettings) -> String {
+fn release_scope(w: &crate::report::types::WindowSettings) -> String {
     let mut parts = Vec::new();
     if w.tiers.len() < 3 {
         parts.push(format!(
@@ -238,7 +238,7 @@ fn release_scope(w: &crate::windows::WindowSettings) -> String {
                 .join(", ")
         ));
     }
-    let shown = |win: &Option<crate::windows::Window>| {
+    let shown = |win: &Option<crate::report::types::Window>| {
         win.map_or("off".to_string(), |x| {
             format!("{}/{}", x.pre_min, x.post_min)
         })
@@ -359,7 +359,7 @@ pub fn analyze(s: &Summary) -> String {
         let _ = writeln!(out, "{}", grid(&BOOTSTRAP_HEADER, &bootstrap_rows(b)));
     }
     let _ = writeln!(out);
-    let mut top: Vec<&crate::attribution::ReleaseLine> = s
+    let mut top: Vec<&crate::report::types::ReleaseLine> = s
         .attribution
         .by_release
         .iter()
@@ -450,7 +450,7 @@ fn across_runs_text(s: &Summary) -> String {
 /// is wider than the terminal, whole columns are left out (placebo p, then
 /// the tail columns, then trades), said in a line, and the rest stays
 /// whole; all columns are in --json and runs.csv.
-pub fn rank(r: &crate::cmd::rank::RankReport, width: Option<usize>) -> String {
+pub fn rank(r: &crate::report::rank::RankReport, width: Option<usize>) -> String {
     let mut out = String::new();
     let by = super::label(&r.by);
     for warning in &r.warnings {
@@ -578,15 +578,15 @@ pub fn wrap(text: &str, width: usize) -> String {
 }
 
 /// The tail basis in a few words.
-fn basis_words(b: crate::scenarios::TailBasis) -> &'static str {
+fn basis_words(b: crate::report::types::TailBasis) -> &'static str {
     match b {
-        crate::scenarios::TailBasis::Amount => "on P/L amounts",
-        crate::scenarios::TailBasis::Return => "on per-trade returns",
+        crate::report::types::TailBasis::Amount => "on P/L amounts",
+        crate::report::types::TailBasis::Return => "on per-trade returns",
     }
 }
 
 /// The tune grid as a table (one row per cell), frontier cells marked.
-pub fn tune(r: &crate::cmd::tune::TuneReport, frontier_only: bool) -> String {
+pub fn tune(r: &crate::report::tune::TuneReport, frontier_only: bool) -> String {
     let mut out = String::new();
     for warning in &r.warnings {
         let _ = writeln!(out, "WARNING {warning}");
@@ -658,8 +658,8 @@ pub fn chance_text(s: &Summary) -> String {
     let mut out = String::new();
     let tail = &s.tail;
     let (what, basis) = match tail.tcr_basis {
-        crate::scenarios::TailBasis::Amount => ("|P/L|", "on P/L amounts"),
-        crate::scenarios::TailBasis::Return => (
+        crate::report::types::TailBasis::Amount => ("|P/L|", "on P/L amounts"),
+        crate::report::types::TailBasis::Return => (
             "|return|",
             "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known",
         ),
@@ -763,7 +763,7 @@ pub fn tail_rows(s: &Summary) -> Vec<Vec<String>> {
 pub const PLACEBO_HEADER: [&str; 3] = ["statistic", "observed", "p-value"];
 
 /// The placebo test's two statistics, as text rows (HTML).
-pub fn placebo_rows(p: &crate::stats::PlaceboResult) -> Vec<Vec<String>> {
+pub fn placebo_rows(p: &crate::report::types::PlaceboResult) -> Vec<Vec<String>> {
     vec![
         vec![
             "exposed share of net".into(),
@@ -781,7 +781,7 @@ pub fn placebo_rows(p: &crate::stats::PlaceboResult) -> Vec<Vec<String>> {
 pub const BOOTSTRAP_HEADER: [&str; 4] = ["figure", "change", "low", "high"];
 
 /// The bootstrap intervals as text rows (terminal and HTML).
-pub fn bootstrap_rows(b: &crate::stats::BootstrapResult) -> Vec<Vec<String>> {
+pub fn bootstrap_rows(b: &crate::report::types::BootstrapResult) -> Vec<Vec<String>> {
     b.intervals
         .iter()
         .map(|(name, i)| {
@@ -847,7 +847,7 @@ pub const RUNS_HEADER: [&str; 9] = [
 
 /// The first `top` runs by baseline net, as text rows.
 pub fn runs_rows(s: &Summary, top: usize) -> Vec<Vec<String>> {
-    let mut runs: Vec<&crate::analysis::RunResult> = s.runs.iter().collect();
+    let mut runs: Vec<&crate::report::types::RunResult> = s.runs.iter().collect();
     runs.sort_by(|a, b| {
         b.scenarios
             .baseline
@@ -888,7 +888,7 @@ pub const ACROSS_HEADER: [&str; 11] = [
 ];
 
 /// The spread of each account-path figure across runs, as text rows.
-pub fn across_rows(d: &crate::analysis::RunDistribution) -> Vec<Vec<String>> {
+pub fn across_rows(d: &crate::report::types::RunDistribution) -> Vec<Vec<String>> {
     d.figures
         .iter()
         .map(|f| {

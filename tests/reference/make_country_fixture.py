@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Which currency each country used on given dates, from the Unicode CLDR
 territory-currency data as shipped by babel, to check eventfence's
-country table (src/calendar/countries.rs).
+country table (src/import/calendar/countries.rs).
 
     pip install babel==2.19.0
     python3 tests/reference/make_country_fixture.py

@@ -2,14 +2,14 @@
 //! into a columnar [`Trades`] table of UTC instants (docs/method.md §1).
 //!
 //! Columns are mapped by the user (`--map field=Column`, or a JSON mapping
-//! file); times are parsed by [`crate::timefmt`] and resolved in the trades'
+//! file); times are parsed by [`crate::import::timefmt`] and resolved in the trades'
 //! zone. Invariant: every data row is imported or rejected with its file,
 //! row, field and reason — `rows_read = rows_imported + rows_rejected`.
 
-use crate::csvchunks::{self, Parsed, Record, ScanError};
-use crate::table::{Cell, ColumnSource, Table};
-use crate::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
-use crate::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
+use crate::import::csvchunks::{self, Parsed, Record, ScanError};
+use crate::import::table::{Cell, ColumnSource, Table};
+use crate::import::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
+use crate::import::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
@@ -402,7 +402,7 @@ pub fn expand_paths(specs: &[String]) -> Result<Vec<PathBuf>, TradeError> {
 
 /// Reads all trade files. With several files and no `run` column, each file
 /// becomes one run named by its file stem. CSV files are read in blocks on
-/// every core ([`crate::csvchunks`]); Parquet through polars.
+/// every core ([`crate::import::csvchunks`]); Parquet through polars.
 pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSummary), TradeError> {
     let mut sink = Sink::default();
     let run_per_file = paths.len() > 1;
@@ -414,7 +414,7 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
                 .unwrap_or_default()
         });
         sink.start_file(fi as u16, path, file_run);
-        if crate::table::is_parquet(path) {
+        if crate::import::table::is_parquet(path) {
             read_parquet(path, opts, &mut sink)?;
         } else {
             read_csv(path, opts, &mut sink)?;
@@ -680,7 +680,7 @@ fn parse_row<'a>(
             row_err(
                 field,
                 "bad_time",
-                format!("{what} is {}", crate::zones::YEARS_MESSAGE),
+                format!("{what} is {}", crate::import::zones::YEARS_MESSAGE),
             )
         };
         let local = |ndt: chrono::NaiveDateTime, cache: &mut DayOffsetCache| {
@@ -698,10 +698,10 @@ fn parse_row<'a>(
             Cell::Null => return Err(row_err(field, "missing_value", "empty")),
             Cell::Instant(ms) => ms,
             Cell::Local(wall) => {
-                if !crate::zones::in_accepted_years(wall) {
+                if !crate::import::zones::in_accepted_years(wall) {
                     return Err(out_of_range(format!("timestamp {wall} ms")));
                 }
-                local(crate::zones::ms_to_naive(wall), cache)?
+                local(crate::import::zones::ms_to_naive(wall), cache)?
             }
             Cell::Date(_) => {
                 return Err(row_err(
@@ -711,7 +711,7 @@ fn parse_row<'a>(
                 ));
             }
             Cell::Num(v) => match opts.time_format {
-                TimeFormat::EpochSeconds => crate::timefmt::epoch_seconds_to_ms(v)
+                TimeFormat::EpochSeconds => crate::import::timefmt::epoch_seconds_to_ms(v)
                     .ok_or_else(|| out_of_range(format!("epoch seconds {v}")))?,
                 TimeFormat::EpochMillis if v.is_finite() && v.fract() == 0.0 => v as i64,
                 TimeFormat::EpochMillis => {
@@ -740,7 +740,7 @@ fn parse_row<'a>(
                 }
             }
         };
-        if !crate::zones::in_accepted_years(ms) {
+        if !crate::import::zones::in_accepted_years(ms) {
             return Err(out_of_range(format!("{ms} ms since 1970")));
         }
         Ok(ms)
@@ -753,8 +753,8 @@ fn parse_row<'a>(
             "closed_before_opened",
             format!(
                 "closes at {} before it opens at {}",
-                crate::zones::format_utc(closed),
-                crate::zones::format_utc(opened)
+                crate::import::zones::format_utc(closed),
+                crate::import::zones::format_utc(opened)
             ),
         ));
     }
@@ -774,7 +774,7 @@ fn parse_row<'a>(
                 "bad_number",
                 "a time where a number was expected",
             )),
-            Cell::Str(s) => match crate::number::parse_number(s, decimal_comma) {
+            Cell::Str(s) => match crate::import::number::parse_number(s, decimal_comma) {
                 Some(v) if v.is_finite() => Ok(v),
                 Some(_) => Err(row_err(
                     field,
@@ -801,7 +801,7 @@ fn parse_row<'a>(
         pnl += match extra(j)? {
             Cell::Null => 0.0,
             Cell::Num(v) if v.is_finite() => v,
-            Cell::Str(s) => crate::number::parse_number(s, decimal_comma)
+            Cell::Str(s) => crate::import::number::parse_number(s, decimal_comma)
                 .filter(|v| v.is_finite())
                 .ok_or_else(|| {
                     row_err(
@@ -867,7 +867,7 @@ fn parse_row<'a>(
         .map(|j| match extra(j) {
             Ok(Cell::Str(s)) => s.to_string(),
             Ok(Cell::Num(v)) => v.to_string(),
-            Ok(Cell::Instant(ms)) => crate::zones::format_utc(ms),
+            Ok(Cell::Instant(ms)) => crate::import::zones::format_utc(ms),
             _ => String::new(),
         })
         .collect();
@@ -1154,7 +1154,7 @@ fn read_parquet(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(),
         path: path.to_path_buf(),
         message,
     };
-    let groups = crate::table::parquet_row_groups(path).map_err(|e| err(e.to_string()))?;
+    let groups = crate::import::table::parquet_row_groups(path).map_err(|e| err(e.to_string()))?;
     sink.trades.reserve(groups.iter().map(|g| g.1).sum());
     // A file without row groups still has a schema: one empty read checks
     // the column mapping.
@@ -1268,7 +1268,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
     // Room for the whole file (the memory budget's row estimate): the
     // columns then grow once instead of doubling (which can leave up to half
     // of each column as unused capacity on a large input).
-    if let Ok(rows) = crate::budget::estimate_rows(path) {
+    if let Ok(rows) = crate::import::budget::estimate_rows(path) {
         sink.trades.reserve((rows as f64 * 1.02) as usize);
     }
     let names = &header.names;
@@ -1570,9 +1570,9 @@ fn format_run_number(v: f64) -> String {
     }
 }
 
-/// A number by the rule of [`crate::number`], in a comma-delimited file.
+/// A number by the rule of [`crate::import::number`], in a comma-delimited file.
 pub fn parse_number(s: &str) -> Option<f64> {
-    crate::number::parse_number(s, false)
+    crate::import::number::parse_number(s, false)
 }
 
 /// long/buy/1 → +1, short/sell/-1 → −1.
@@ -1640,16 +1640,16 @@ mod tests {
         let mut fast = 0;
         for t in &texts {
             let std = t.parse::<f64>().ok();
-            let ours = crate::number::parse_simple_decimal(t.as_bytes());
+            let ours = crate::import::number::parse_simple_decimal(t.as_bytes());
             if let Some(v) = ours {
                 fast += 1;
                 assert_eq!(Some(v.to_bits()), std.map(f64::to_bits), "{t}");
             }
         }
         assert!(fast > 150_000, "{fast}");
-        assert_eq!(crate::timefmt::trim_fast(" a "), "a");
-        assert_eq!(crate::timefmt::trim_fast("a\u{a0}"), "a");
-        assert_eq!(crate::timefmt::trim_fast("ab"), "ab");
+        assert_eq!(crate::import::timefmt::trim_fast(" a "), "a");
+        assert_eq!(crate::import::timefmt::trim_fast("a\u{a0}"), "a");
+        assert_eq!(crate::import::timefmt::trim_fast("ab"), "ab");
     }
 
     #[test]

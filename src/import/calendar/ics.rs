@@ -16,8 +16,8 @@ use super::vtimezone::{CustomZone, IcsProblem, Observance, expand_local};
 use super::{
     CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency,
 };
-use crate::timefmt::{scan_date, scan_time};
-use crate::zones::{DAY_MS, LocalPolicy, Zone, ms_to_naive, naive_to_ms};
+use crate::import::timefmt::{scan_date, scan_time};
+use crate::import::zones::{DAY_MS, LocalPolicy, Zone, ms_to_naive, naive_to_ms};
 use chrono::{NaiveDate, NaiveDateTime, NaiveTime};
 use std::collections::HashMap;
 use std::path::Path;
@@ -506,13 +506,14 @@ fn apply_override(
                         later.at += shift;
                         later.end += shift;
                         if let Some((base, _)) = later.id.rsplit_once('/') {
-                            later.id = format!("{base}/{}", crate::zones::format_utc(later.at));
+                            later.id =
+                                format!("{base}/{}", crate::import::zones::format_utc(later.at));
                         }
                     }
                 }
             }
             let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ov.line));
-            r.id = format!("{base}/{}", crate::zones::format_utc(r.at));
+            r.id = format!("{base}/{}", crate::import::zones::format_utc(r.at));
             series.push((uid.clone(), r));
             true
         }
@@ -806,7 +807,7 @@ fn event_releases(
         };
         let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ev.line));
         let id = if recurring {
-            format!("{base}/{}", crate::zones::format_utc(at))
+            format!("{base}/{}", crate::import::zones::format_utc(at))
         } else {
             base
         };

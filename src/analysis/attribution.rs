@@ -5,8 +5,8 @@
 //! Invariant, checked on every run: baseline net = exposed + unexposed P/L,
 //! and the per-release amounts add up to the exposed P/L.
 
-use crate::calendar::Release;
-use crate::exposure::Exposure;
+use crate::engine::exposure::Exposure;
+use crate::import::calendar::Release;
 use serde::Serialize;
 use std::collections::BTreeMap;
 
@@ -159,7 +159,7 @@ pub fn attribute(
         }
         a.by_release.push(ReleaseLine {
             id: r.id.clone(),
-            released_at: crate::zones::format_utc(r.at),
+            released_at: crate::import::zones::format_utc(r.at),
             title: r.title.clone(),
             currency: r.currency.clone(),
             tier: r.tier.as_str(),

@@ -9,7 +9,7 @@
 //! counterfactual equity before it × r. The baseline is replayed the same
 //! way so the three scenarios are comparable.
 
-use crate::metrics::quantile_type7_unsorted;
+use crate::analysis::metrics::quantile_type7_unsorted;
 use serde::Serialize;
 
 /// Starting value of the equity index when only `pnl_pct` is known.
@@ -42,7 +42,7 @@ pub enum CapRule {
 
 impl CapRule {
     /// `q0.99`, `median*3`, `amount:500`, `equity:1.5` (percent).
-    pub fn parse(s: &str) -> Result<CapRule, crate::setting::BadSetting> {
+    pub fn parse(s: &str) -> Result<CapRule, crate::import::setting::BadSetting> {
         let bad = || {
             format!(
                 "--cap '{s}': use q0.99 (quantile), median*3, amount:500 or equity:1.5 (% of equity)"
@@ -128,8 +128,12 @@ pub struct SeriesView<'a> {
 
 impl<'a> SeriesView<'a> {
     /// The metrics' view, times from the input columns.
-    pub fn curve(self, opened: &'a [i64], closed: &'a [i64]) -> crate::metrics::Curve<'a> {
-        crate::metrics::Curve {
+    pub fn curve(
+        self,
+        opened: &'a [i64],
+        closed: &'a [i64],
+    ) -> crate::analysis::metrics::Curve<'a> {
+        crate::analysis::metrics::Curve {
             pnl: self.pnl,
             trade: self.trade,
             opened,
@@ -169,7 +173,7 @@ impl Scenarios {
 
     /// Baseline |P/L| (or |return|, see [`TailBasis`]) sorted descending
     /// with the exposed flag.
-    pub fn sorted_abs(&self, exp: &crate::exposure::Exposure) -> Vec<(f64, bool)> {
+    pub fn sorted_abs(&self, exp: &crate::engine::exposure::Exposure) -> Vec<(f64, bool)> {
         let b = &self.baseline;
         let mut v: Vec<(f64, bool)> = b
             .view()
@@ -257,7 +261,7 @@ impl<'a> TradeView<'a> {
     /// A view of imported trades in the given order.
     pub fn of(
         order: &'a [u32],
-        t: &'a crate::trades::Trades,
+        t: &'a crate::import::trades::Trades,
         exposed: &'a (dyn Fn(usize) -> bool + Sync),
     ) -> TradeView<'a> {
         TradeView {
@@ -356,7 +360,7 @@ pub fn build(v: &TradeView, s: &ScenarioSettings) -> Result<Scenarios, ScenarioE
 /// the indices are held once.
 pub fn build_in_order(
     order: Vec<u32>,
-    t: &crate::trades::Trades,
+    t: &crate::import::trades::Trades,
     exposed: &(dyn Fn(usize) -> bool + Sync),
     s: &ScenarioSettings,
 ) -> Result<Scenarios, ScenarioError> {

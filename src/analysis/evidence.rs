@@ -5,12 +5,12 @@
 //! bootstrap replicates run in parallel (rayon) and report progress through
 //! a callback so the engine never touches the terminal.
 
-use crate::calendar::{Release, normalise_title};
-use crate::exposure::{Engine, ExposureRule, UsedWindow};
-use crate::metrics::{self, Context, quantile_type7};
-use crate::scenarios::{self, ScenarioSettings, TradeView};
-use crate::trades::Trades;
-use crate::zones::DAY_MS;
+use crate::analysis::metrics::{self, Context, quantile_type7};
+use crate::analysis::scenarios::{self, ScenarioSettings, TradeView};
+use crate::engine::exposure::{Engine, ExposureRule, UsedWindow};
+use crate::import::calendar::{Release, normalise_title};
+use crate::import::trades::Trades;
+use crate::import::zones::DAY_MS;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
@@ -57,7 +57,7 @@ pub fn hill_of_abs(pnl: &[f64], k: usize) -> Option<HillEstimate> {
         return None;
     }
     // More than k positive values: the k + 1 largest |pnl| are all positive.
-    hill_of_top(&crate::metrics::top_abs_of(pnl, k + 1), k, n)
+    hill_of_top(&crate::analysis::metrics::top_abs_of(pnl, k + 1), k, n)
 }
 
 /// H_k and α̂ from the k + 1 largest values, largest first (the top k summed
@@ -187,7 +187,10 @@ pub fn placebo(
         .iter()
         .map(|w| {
             let day = w.at.div_euclid(DAY_MS);
-            (crate::zones::weekday_index(day), w.at - day * DAY_MS)
+            (
+                crate::import::zones::weekday_index(day),
+                w.at - day * DAY_MS,
+            )
         })
         .collect();
     let real_of: Vec<&[i64]> = windows
@@ -213,7 +216,7 @@ pub fn placebo(
             let mut dropped = 0;
             for ((w, &(idx, tod)), real) in windows.iter().zip(&wd).zip(&real_of) {
                 let new_idx = w0 + (idx - w0 + d).rem_euclid(span);
-                let new_at = crate::zones::day_of_weekday_index(new_idx) * DAY_MS + tod;
+                let new_at = crate::import::zones::day_of_weekday_index(new_idx) * DAY_MS + tod;
                 let p = real.partition_point(|&t| t < new_at - DAY_MS);
                 if real.get(p).is_some_and(|&t| t <= new_at + DAY_MS) {
                     dropped += 1;
@@ -443,7 +446,7 @@ mod tests {
 
     #[test]
     fn weekday_arithmetic_round_trips() {
-        use crate::zones::{day_of_weekday_index, weekday_index};
+        use crate::import::zones::{day_of_weekday_index, weekday_index};
         let days = |d: NaiveDate| (d - NaiveDate::from_ymd_opt(1970, 1, 1).unwrap()).num_days();
         let fri = days(NaiveDate::from_ymd_opt(2024, 3, 8).unwrap());
         let w = weekday_index(fri);

@@ -12,9 +12,9 @@
 //! releases satisfying the rule (checked against a plain O(n·m) loop in the
 //! property tests).
 
-use crate::calendar::Release;
-use crate::windows::WindowSettings;
-use crate::zones::{DAY_MS, MINUTE_MS};
+use crate::engine::windows::WindowSettings;
+use crate::import::calendar::Release;
+use crate::import::zones::{DAY_MS, MINUTE_MS};
 use rayon::prelude::*;
 use serde::Serialize;
 use std::collections::HashMap;
@@ -367,9 +367,9 @@ pub struct CoverageLine {
 /// exposure counts (for commands that do not run the analysis).
 pub fn coverage_at(
     releases: &[Release],
-    trades: &crate::trades::Trades,
+    trades: &crate::import::trades::Trades,
     instrument_currencies: &[Vec<String>],
-    windows: &crate::windows::WindowSettings,
+    windows: &crate::engine::windows::WindowSettings,
     rule: ExposureRule,
     stated: Option<(i64, i64)>,
 ) -> Vec<CoverageLine> {
@@ -387,7 +387,7 @@ pub fn coverage_at(
 /// say exactly which.
 pub fn coverage(
     releases: &[Release],
-    trades: &crate::trades::Trades,
+    trades: &crate::import::trades::Trades,
     instrument_currencies: &[Vec<String>],
     k: &[u32],
     stated: Option<(i64, i64)>,
@@ -455,8 +455,9 @@ pub fn coverage(
         .zip(outside)
         .map(|((cur, d), o)| CoverageLine {
             currency: (*cur).clone(),
-            calendar_from: d.map(|d| crate::zones::format_utc(d.0)[..10].to_string()),
-            calendar_to: d.map(|d| crate::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
+            calendar_from: d.map(|d| crate::import::zones::format_utc(d.0)[..10].to_string()),
+            calendar_to: d
+                .map(|d| crate::import::zones::format_utc(d.1 - DAY_MS)[..10].to_string()),
             coverage_from: if stated.is_some() {
                 "--calendar-span"
             } else {
@@ -499,7 +500,7 @@ mod tests {
         }
         assert_eq!(partition_point_near(&[] as &[i64], 3, |&x| x < 1), 0);
     }
-    use crate::calendar::Tier;
+    use crate::import::calendar::Tier;
 
     fn rel(at_min: i64, cur: &str, tier: Tier) -> Release {
         Release {

@@ -1,15 +1,15 @@
 //! The main job as one pure computation: exposure → attribution →
 //! scenarios → metrics, overall and per run. No I/O here.
 
-use crate::attribution::{self, Attribution, ConservationError};
-use crate::calendar::Release;
-use crate::exposure::{self, CoverageLine, Engine, Exposure, ExposureRule};
-use crate::metrics::{self, Context, Metrics};
-use crate::relevance::InstrumentCurrencies;
-use crate::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios};
-use crate::trades::Trades;
-use crate::windows::WindowSettings;
-use crate::zones::Zone;
+use crate::analysis::attribution::{self, Attribution, ConservationError};
+use crate::analysis::metrics::{self, Context, Metrics};
+use crate::analysis::scenarios::{self, ScenarioError, ScenarioSettings, Scenarios};
+use crate::engine::exposure::{self, CoverageLine, Engine, Exposure, ExposureRule};
+use crate::engine::relevance::InstrumentCurrencies;
+use crate::engine::windows::WindowSettings;
+use crate::import::calendar::Release;
+use crate::import::trades::Trades;
+use crate::import::zones::Zone;
 use rayon::prelude::*;
 use serde::Serialize;
 
@@ -103,7 +103,7 @@ pub struct TailLine {
     pub too_few: bool,
     pub above_threshold: Option<bool>,
     /// Hill (1975) tail index of |P/L|, k = ⌊√n⌋ upper order statistics.
-    pub hill: Option<crate::stats::HillEstimate>,
+    pub hill: Option<crate::analysis::evidence::HillEstimate>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -130,7 +130,10 @@ fn tail_line(pnl: &[f64], tcr: Option<f64>, p: f64, threshold: f64) -> TailLine 
         top_bucket: k,
         too_few: k < 10,
         above_threshold: tcr.map(|t| t > threshold),
-        hill: crate::stats::hill_of_abs(pnl, crate::stats::default_hill_k(pnl.len())),
+        hill: crate::analysis::evidence::hill_of_abs(
+            pnl,
+            crate::analysis::evidence::default_hill_k(pnl.len()),
+        ),
     }
 }
 
@@ -446,7 +449,7 @@ pub fn analyze(
     files: bool,
 ) -> Result<(Analysis, Exposure), AnalysisError> {
     let span = trades.span().ok_or(AnalysisError::NoTrades)?;
-    crate::phases::mark("start analysis");
+    crate::import::phases::mark("start analysis");
     // Exposure beside the close-order sort and the coverage (independent
     // passes).
     let cur: Vec<Vec<String>> = currencies.iter().map(|c| c.currencies.clone()).collect();
@@ -468,7 +471,7 @@ pub fn analyze(
         },
     );
     let coverage = exposure::coverage(releases, trades, &cur, &exp.k, settings.calendar_span);
-    crate::phases::mark("exposure, close order");
+    crate::import::phases::mark("exposure, close order");
     let exposed = |i: usize| exp.k[i] > 0;
     let base_ctx = Context {
         span,
@@ -491,7 +494,7 @@ pub fn analyze(
                         ..base_ctx
                     };
                     let (metrics, tail) = overall_of(&all, trades, &ctx, settings);
-                    crate::phases::mark("(overall)");
+                    crate::import::phases::mark("(overall)");
                     Ok((all, metrics, tail))
                 },
             )
@@ -505,10 +508,10 @@ pub fn analyze(
     let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
     let mut runs = runs?;
     // Listed by name, whatever the row order.
-    runs.sort_by(|a, b| crate::trades::run_order(&a.run, &b.run));
+    runs.sort_by(|a, b| crate::import::trades::run_order(&a.run, &b.run));
     // The series feed only the output files; without them they go now.
     let series = if files { all } else { Scenarios::default() };
-    crate::phases::mark("attribution, scenarios, runs");
+    crate::import::phases::mark("attribution, scenarios, runs");
     let summary = ExposureSummary {
         trades: trades.len(),
         exposed_trades: exp.exposed_count(),

@@ -6,13 +6,13 @@
 //! annotations live only while its row is computed, so memory does not grow
 //! with runs × trades beyond the input itself.
 
-use crate::analysis::AnalysisSettings;
-use crate::calendar::Release;
-use crate::exposure::{Engine, UsedWindow};
-use crate::metrics::{self, Context, Metrics};
-use crate::scenarios::{self, TradeView};
-use crate::stats::{self, PlaceboSettings};
-use crate::trades::Trades;
+use crate::analysis::evidence::{self, PlaceboSettings};
+use crate::analysis::metrics::{self, Context, Metrics};
+use crate::analysis::run::AnalysisSettings;
+use crate::analysis::scenarios::{self, TradeView};
+use crate::engine::exposure::{Engine, UsedWindow};
+use crate::import::calendar::Release;
+use crate::import::trades::Trades;
 use rayon::prelude::*;
 use serde::Serialize;
 
@@ -175,8 +175,8 @@ fn run_row(
     let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
     let name = all.runs.get(r).cloned().unwrap_or_else(|| "all".into());
     let placebo_p = (placebo.n > 0).then(|| {
-        let seed = crate::trades::run_seed(placebo.seed, &name);
-        stats::placebo(
+        let seed = crate::import::trades::run_seed(placebo.seed, &name);
+        evidence::placebo(
             &t,
             releases,
             windows,
@@ -217,10 +217,10 @@ fn run_row(
 }
 
 /// Ranks 1..n by the figure; ties and undefined values (ranked last) in
-/// the natural order of run names ([`crate::trades::run_order`]).
+/// the natural order of run names ([`crate::import::trades::run_order`]).
 fn ranks(values: &[Option<f64>], names: &[&str], higher_is_better: bool) -> Vec<usize> {
     let mut idx: Vec<usize> = (0..values.len()).collect();
-    let by_name = |a: usize, b: usize| crate::trades::run_order(names[a], names[b]);
+    let by_name = |a: usize, b: usize| crate::import::trades::run_order(names[a], names[b]);
     idx.sort_by(|&a, &b| match (values[a], values[b]) {
         (Some(x), Some(y)) => {
             let o = if higher_is_better {

@@ -5,7 +5,7 @@
 //! better authority for named zones, and many files ship truncated
 //! VTIMEZONEs (RFC 5545's own §4 example covers only 1998–1999).
 
-use crate::zones::{DAY_MS, ms_to_naive, naive_to_ms};
+use crate::import::zones::{DAY_MS, ms_to_naive, naive_to_ms};
 
 /// Why a part of an iCalendar file (a time, a VTIMEZONE, an event's zone)
 /// cannot be used; the caller turns it into a rejected event or a file

@@ -13,7 +13,7 @@
 //!
 //! A figure that cannot be computed is `None` (JSON `null`), never invented.
 
-use crate::zones::{DAY_MS, Zone};
+use crate::import::zones::{DAY_MS, Zone};
 use serde::Serialize;
 
 /// Trading days per year used to annualise daily ratios (empyrical's
@@ -295,7 +295,7 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
 /// One pass over the closes in order: the daily series (see
 /// [`daily_series`]) and the longest peak-to-recovery time in days.
 fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
-    use crate::zones::{LocalDayCursor, local_day, weekday_index};
+    use crate::import::zones::{LocalDayCursor, local_day, weekday_index};
     let z = &ctx.report_zone;
     let first = weekday_index(local_day(z, ctx.span.0));
     let last = weekday_index(local_day(z, ctx.span.1));

@@ -5,7 +5,7 @@
 //! lower-case letters). Anything else needs a user mapping; an instrument
 //! left without currencies is an error unless the user says `all` or `none`.
 
-use crate::calendar::is_currency;
+use crate::import::calendar::is_currency;
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
 use std::path::Path;

@@ -11,7 +11,7 @@ pub mod ics;
 pub mod rules;
 pub mod vtimezone;
 
-use crate::zones::{LocalPolicy, Zone};
+use crate::import::zones::{LocalPolicy, Zone};
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};

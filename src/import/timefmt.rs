@@ -8,7 +8,7 @@
 //! A stamp with `Z` or an offset is an instant; one without is local time
 //! that the caller resolves in the input zone.
 
-use crate::zones::{LocalPolicy, Zone, ZoneError, naive_to_ms};
+use crate::import::zones::{LocalPolicy, Zone, ZoneError, naive_to_ms};
 use chrono::{NaiveDate, NaiveDateTime, NaiveTime};
 
 /// How time columns are written.
@@ -26,7 +26,7 @@ pub enum TimeFormat {
 
 impl TimeFormat {
     /// `auto`, `epoch-s`, `epoch-ms`, or a strftime pattern containing `%`.
-    pub fn parse(spec: &str) -> Result<Self, crate::setting::BadSetting> {
+    pub fn parse(spec: &str) -> Result<Self, crate::import::setting::BadSetting> {
         match spec {
             "auto" | "iso" => Ok(TimeFormat::Auto),
             "epoch-s" | "epoch_s" | "unix" => Ok(TimeFormat::EpochSeconds),
@@ -87,8 +87,8 @@ pub fn trim_fast(s: &str) -> &str {
 pub fn epoch_seconds_to_ms(v: f64) -> Option<i64> {
     let ms = (v * 1000.0).round();
     (ms.is_finite()
-        && ms >= crate::zones::EARLIEST_MS as f64
-        && ms <= crate::zones::LATEST_MS as f64)
+        && ms >= crate::import::zones::EARLIEST_MS as f64
+        && ms <= crate::import::zones::LATEST_MS as f64)
         .then_some(ms as i64)
 }
 
@@ -101,14 +101,14 @@ pub fn parse_stamp(text: &str, fmt: &TimeFormat) -> Result<Stamp, TimeError> {
             let v: f64 = t.parse().map_err(|_| err(t, "expected epoch seconds"))?;
             epoch_seconds_to_ms(v)
                 .map(Stamp::Instant)
-                .ok_or_else(|| err(t, crate::zones::YEARS_MESSAGE))
+                .ok_or_else(|| err(t, crate::import::zones::YEARS_MESSAGE))
         }
         TimeFormat::EpochMillis => {
             let v: i64 = t
                 .parse()
                 .map_err(|_| err(t, "expected integer epoch milliseconds"))?;
-            if !crate::zones::in_accepted_years(v) {
-                return Err(err(t, crate::zones::YEARS_MESSAGE));
+            if !crate::import::zones::in_accepted_years(v) {
+                return Err(err(t, crate::import::zones::YEARS_MESSAGE));
             }
             Ok(Stamp::Instant(v))
         }
@@ -264,7 +264,7 @@ fn scan_auto(t: &str) -> Option<Stamp> {
     if rest == "Z" || rest == "z" || rest.eq_ignore_ascii_case("utc") {
         return Some(Stamp::Instant(naive_to_ms(&local)));
     }
-    let off = crate::zones::parse_offset(rest)?;
+    let off = crate::import::zones::parse_offset(rest)?;
     if off.abs() > 18 * 3600 {
         return None;
     }

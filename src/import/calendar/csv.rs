@@ -11,9 +11,9 @@ use super::{
     CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, countries,
     is_currency,
 };
-use crate::table::{Cell, ColumnSource, Table};
-use crate::timefmt::{Stamp, TimeFormat, parse_stamp, scan_date, scan_time};
-use crate::zones::{LocalPolicy, naive_to_ms};
+use crate::import::table::{Cell, ColumnSource, Table};
+use crate::import::timefmt::{Stamp, TimeFormat, parse_stamp, scan_date, scan_time};
+use crate::import::zones::{LocalPolicy, naive_to_ms};
 use chrono::NaiveTime;
 use std::path::Path;
 
@@ -50,7 +50,7 @@ impl Layout {
     /// `,` or `=`: words, digits, stars).
     pub fn parse_tier_map(
         specs: &[String],
-    ) -> Result<Vec<(String, Tier)>, crate::setting::BadSetting> {
+    ) -> Result<Vec<(String, Tier)>, crate::import::setting::BadSetting> {
         let mut out = Vec::new();
         for spec in specs {
             for pair in spec.split(',').filter(|p| !p.trim().is_empty()) {
@@ -268,24 +268,26 @@ fn resolve_time(
     opts: &CalendarOptions,
 ) -> Result<(i64, i64, bool), RowErr> {
     let zone_err = |field: &'static str| {
-        move |e: crate::zones::ZoneError| (field, zone_reason(&e), e.to_string())
+        move |e: crate::import::zones::ZoneError| (field, zone_reason(&e), e.to_string())
     };
     let day_bounds = |d: chrono::NaiveDate| local_day(d, opts).map_err(zone_err("date"));
     if let Some(rc) = released {
         match rc.get(i) {
-            Cell::Instant(ms) if crate::zones::in_accepted_years(ms) => return Ok((ms, ms, false)),
+            Cell::Instant(ms) if crate::import::zones::in_accepted_years(ms) => {
+                return Ok((ms, ms, false));
+            }
             Cell::Instant(_) | Cell::Local(_) => {
                 let wall = match rc.get(i) {
-                    Cell::Local(w) if crate::zones::in_accepted_years(w) => w,
+                    Cell::Local(w) if crate::import::zones::in_accepted_years(w) => w,
                     _ => {
                         return Err((
                             "released_at",
                             "bad_time",
-                            format!("a timestamp {}", crate::zones::YEARS_MESSAGE),
+                            format!("a timestamp {}", crate::import::zones::YEARS_MESSAGE),
                         ));
                     }
                 };
-                let ndt = crate::zones::ms_to_naive(wall);
+                let ndt = crate::import::zones::ms_to_naive(wall);
                 if all_day {
                     return day_bounds(ndt.date());
                 }
@@ -389,8 +391,12 @@ fn resolve_time(
                 ));
             }
         },
-        Cell::Instant(ms) if crate::zones::in_accepted_years(ms) => opts.zone.local_date(ms),
-        Cell::Local(w) if crate::zones::in_accepted_years(w) => crate::zones::ms_to_naive(w).date(),
+        Cell::Instant(ms) if crate::import::zones::in_accepted_years(ms) => {
+            opts.zone.local_date(ms)
+        }
+        Cell::Local(w) if crate::import::zones::in_accepted_years(w) => {
+            crate::import::zones::ms_to_naive(w).date()
+        }
         Cell::Date(days) => {
             chrono::DateTime::UNIX_EPOCH.date_naive() + chrono::TimeDelta::days(days as i64)
         }
@@ -416,7 +422,7 @@ fn resolve_time(
                     } else if rest == "Z" {
                         Some(Stamp::Instant(naive_to_ms(&d.and_time(tm))))
                     } else {
-                        let off = crate::zones::parse_offset(rest).ok_or((
+                        let off = crate::import::zones::parse_offset(rest).ok_or((
                             "time",
                             "bad_time",
                             format!("'{s}' has an unreadable offset"),
@@ -484,7 +490,7 @@ fn by_pattern(
 fn local_day(
     d: chrono::NaiveDate,
     opts: &CalendarOptions,
-) -> Result<(i64, i64, bool), crate::zones::ZoneError> {
+) -> Result<(i64, i64, bool), crate::import::zones::ZoneError> {
     let p = LocalPolicy::Rfc5545;
     let a = opts.zone.to_utc(&d.and_time(NaiveTime::MIN), p)?;
     let b = opts
@@ -494,10 +500,10 @@ fn local_day(
 }
 
 /// The rejection reason of a zone error.
-fn zone_reason(e: &crate::zones::ZoneError) -> &'static str {
+fn zone_reason(e: &crate::import::zones::ZoneError) -> &'static str {
     match e {
-        crate::zones::ZoneError::Gap { .. } => "local_time_gap",
-        crate::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
+        crate::import::zones::ZoneError::Gap { .. } => "local_time_gap",
+        crate::import::zones::ZoneError::Ambiguous { .. } => "local_time_ambiguous",
         _ => "bad_time",
     }
 }

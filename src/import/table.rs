@@ -63,7 +63,7 @@ impl ColumnSource {
     pub fn get(&self, i: usize) -> Cell<'_> {
         match self {
             ColumnSource::Str(c) => match c.get(i) {
-                Some(s) if !crate::timefmt::trim_fast(s).is_empty() => Cell::Str(s),
+                Some(s) if !crate::import::timefmt::trim_fast(s).is_empty() => Cell::Str(s),
                 _ => Cell::Null,
             },
             ColumnSource::Num(c) => c.get(i).map_or(Cell::Null, Cell::Num),
@@ -119,7 +119,7 @@ pub enum TableError {
     #[error("not a readable Parquet file: {0}")]
     Parquet(#[from] polars::error::PolarsError),
     #[error(transparent)]
-    Csv(#[from] crate::csvchunks::ScanError),
+    Csv(#[from] crate::import::csvchunks::ScanError),
     /// The columns read could not be put together as a table.
     #[error("{0}")]
     Frame(polars::error::PolarsError),
@@ -157,7 +157,7 @@ impl Table {
     }
 
     /// Reads a CSV (all columns as text) or Parquet file. CSV records are
-    /// cut by the same RFC 4180 reader as trades ([`crate::csvchunks`]); a
+    /// cut by the same RFC 4180 reader as trades ([`crate::import::csvchunks`]); a
     /// record that is malformed (a wrong field count, text after a closing
     /// quote, bytes that are not UTF-8) keeps its row with empty cells and
     /// is named in [`Table::row_problem`], so the caller rejects that row
@@ -171,7 +171,7 @@ impl Table {
                 problems: Vec::new(),
             });
         }
-        use crate::csvchunks::{self, Parsed, Record, Records, ScanError};
+        use crate::import::csvchunks::{self, Parsed, Record, Records, ScanError};
         let mut bytes = std::fs::read(path)?;
         if bytes.is_empty() {
             return Err(ScanError::Empty.into());

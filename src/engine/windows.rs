@@ -5,9 +5,9 @@
 //! pattern beats a category, which beats the tier. All-day releases are used
 //! only when asked, and then cover their whole local day.
 
-use crate::calendar::{Release, Tier};
-use crate::setting::BadSetting;
-use crate::zones::MINUTE_MS;
+use crate::import::calendar::{Release, Tier};
+use crate::import::setting::BadSetting;
+use crate::import::zones::MINUTE_MS;
 use regex::Regex;
 use serde::Serialize;
 

@@ -6,19 +6,19 @@
 //! The trades are read, sorted into close order and indexed once; a cell
 //! only moves the release windows and re-runs the exposure engine.
 
-use crate::analysis::{AccountFigures, AnalysisSettings};
-use crate::calendar::{Release, Tier};
-use crate::exposure::{Engine, used_windows};
-use crate::metrics::{self, Context};
-use crate::scenarios::{self, TradeView};
-use crate::trades::Trades;
-use crate::windows::{Window, WindowSettings};
-use crate::zones::DAY_MS;
+use crate::analysis::metrics::{self, Context};
+use crate::analysis::run::{AccountFigures, AnalysisSettings};
+use crate::analysis::scenarios::{self, TradeView};
+use crate::engine::exposure::{Engine, used_windows};
+use crate::engine::windows::{Window, WindowSettings};
+use crate::import::calendar::{Release, Tier};
+use crate::import::trades::Trades;
+use crate::import::zones::DAY_MS;
 use rayon::prelude::*;
 use serde::Serialize;
 
 /// `START..END/STEP` minutes, END included.
-pub fn parse_range(s: &str) -> Result<Vec<i64>, crate::setting::BadSetting> {
+pub fn parse_range(s: &str) -> Result<Vec<i64>, crate::import::setting::BadSetting> {
     let bad = || format!("'{s}' is not START..END/STEP minutes, e.g. 0..60/5");
     let (range, step) = s.split_once('/').ok_or_else(bad)?;
     let (a, b) = range.split_once("..").ok_or_else(bad)?;
@@ -121,7 +121,7 @@ pub fn tune(
 ) -> Result<TuneResult, scenarios::ScenarioError> {
     let span = trades.span().unwrap_or((0, 0));
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
-    crate::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    crate::analysis::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
     // The scenarios come from the one builder analyze uses, so a cell's
     // figures follow the sizing (compounding replays the kept trades).
@@ -140,10 +140,10 @@ pub fn tune(
     // Per run (alternative accounts): each run's trades in close order,
     // its span, and its baseline TCR and Sharpe, computed once.
     let per_run: Vec<RunBase> = if account_figures == AccountFigures::PerRun {
-        crate::analysis::split_by_run(&order, trades)
+        crate::analysis::run::split_by_run(&order, trades)
             .into_par_iter()
             .map(|idx| -> Result<RunBase, scenarios::ScenarioError> {
-                let span = crate::analysis::span_of(&idx, trades, span);
+                let span = crate::analysis::run::span_of(&idx, trades, span);
                 let sc =
                     scenarios::build(&TradeView::of(&idx, trades, &|_| false), &settings.scenario)?;
                 let ctx = Context {

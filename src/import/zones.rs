@@ -713,9 +713,9 @@ mod tests {
         assert_eq!(parse_offset("+〲"), None);
         assert!("UTC-\u{7f}〲".parse::<Zone>().is_err());
         assert_eq!(
-            crate::timefmt::parse_stamp(
+            crate::import::timefmt::parse_stamp(
                 "2024-01-08 03:34-\u{7f}〲",
-                &crate::timefmt::TimeFormat::Auto
+                &crate::import::timefmt::TimeFormat::Auto
             )
             .ok(),
             None

@@ -33,11 +33,13 @@ impl ToolInfo {
     }
 }
 
-use crate::analysis::{Analysis, AnalysisSettings, ExposureSummary, RunResult, ScenarioMetrics};
-use crate::attribution::Attribution;
-use crate::calendar::CalendarSummary;
-use crate::exposure::CoverageLine;
-use crate::trades::TradeSummary;
+use crate::analysis::attribution::Attribution;
+use crate::analysis::run::{
+    Analysis, AnalysisSettings, ExposureSummary, RunResult, ScenarioMetrics,
+};
+use crate::engine::exposure::CoverageLine;
+use crate::import::calendar::CalendarSummary;
+use crate::import::trades::TradeSummary;
 use std::collections::BTreeMap;
 
 /// `inputs.trades` (docs/method.md §8).
@@ -52,7 +54,7 @@ pub struct TradeInputs {
     /// How each trade's P/L was formed from the input columns.
     pub pnl_formed_as: String,
     /// How each time column was read (zone rule per file and column).
-    pub time_columns: Vec<crate::trades::TimeColumn>,
+    pub time_columns: Vec<crate::import::trades::TimeColumn>,
     /// Runs kept by `--run` (empty: all).
     pub runs_selected: Vec<String>,
 }
@@ -127,7 +129,7 @@ pub struct Summary {
     pub settings: AnalysisSettings,
     /// `one_account`, `per_run` (account-path figures only in `runs` and
     /// `across_runs`; null in `scenarios`) or `pooled` (`--pool`).
-    pub account_figures: crate::analysis::AccountFigures,
+    pub account_figures: crate::analysis::run::AccountFigures,
     pub exposure: ExposureSummary,
     pub coverage: Vec<CoverageLine>,
     /// The cap C of the capped scenario (amount, or return fraction under
@@ -135,17 +137,17 @@ pub struct Summary {
     pub cap_value: Option<f64>,
     pub initial_equity: Option<f64>,
     pub scenarios: ScenarioMetrics,
-    pub tail: crate::analysis::TailSummary,
+    pub tail: crate::analysis::run::TailSummary,
     /// Placebo-calendar test (docs/method.md §7); null when turned off.
-    pub placebo: Option<crate::stats::PlaceboResult>,
+    pub placebo: Option<crate::analysis::evidence::PlaceboResult>,
     /// Bootstrap intervals of removed − baseline; null when turned off.
-    pub bootstrap: Option<crate::stats::BootstrapResult>,
-    pub headline: crate::attribution::Headline,
+    pub bootstrap: Option<crate::analysis::evidence::BootstrapResult>,
+    pub headline: crate::analysis::attribution::Headline,
     pub attribution: AttributionOut,
     pub runs: Vec<RunResult>,
     /// With several runs (alternative parameter sets, never one account):
     /// the account-path figures as their spread across runs; null otherwise.
-    pub across_runs: Option<crate::analysis::RunDistribution>,
+    pub across_runs: Option<crate::analysis::run::RunDistribution>,
     pub warnings: Vec<String>,
     pub caution: &'static str,
 }
@@ -153,10 +155,10 @@ pub struct Summary {
 /// Attribution tables as written out (headline lifted to the top level).
 #[derive(Debug, Clone, Serialize)]
 pub struct AttributionOut {
-    pub by_release: Vec<crate::attribution::ReleaseLine>,
-    pub by_category: BTreeMap<String, crate::attribution::GroupLine>,
-    pub by_currency: BTreeMap<String, crate::attribution::GroupLine>,
-    pub by_tier: BTreeMap<String, crate::attribution::GroupLine>,
+    pub by_release: Vec<crate::analysis::attribution::ReleaseLine>,
+    pub by_category: BTreeMap<String, crate::analysis::attribution::GroupLine>,
+    pub by_currency: BTreeMap<String, crate::analysis::attribution::GroupLine>,
+    pub by_tier: BTreeMap<String, crate::analysis::attribution::GroupLine>,
 }
 
 impl Summary {
@@ -164,8 +166,8 @@ impl Summary {
         inputs: Inputs,
         settings: AnalysisSettings,
         a: Analysis,
-        placebo: Option<crate::stats::PlaceboResult>,
-        bootstrap: Option<crate::stats::BootstrapResult>,
+        placebo: Option<crate::analysis::evidence::PlaceboResult>,
+        bootstrap: Option<crate::analysis::evidence::BootstrapResult>,
     ) -> Summary {
         let warnings = warnings(&inputs, &a);
         let settings_threshold = settings.tcr_threshold;
@@ -196,7 +198,7 @@ impl Summary {
                 by_currency,
                 by_tier,
             },
-            across_runs: crate::analysis::across_runs(&a.runs, settings_threshold),
+            across_runs: crate::analysis::run::across_runs(&a.runs, settings_threshold),
             runs: a.runs,
             warnings,
             caution: CAUTION,
@@ -212,7 +214,10 @@ fn warnings(inputs: &Inputs, a: &Analysis) -> Vec<String> {
 
 /// The warnings every command shows (terminal, JSON, HTML) and that make
 /// it exit with status 3: trades the calendar cannot judge, skipped rows.
-pub fn input_warnings(inputs: &Inputs, coverage: &[crate::exposure::CoverageLine]) -> Vec<String> {
+pub fn input_warnings(
+    inputs: &Inputs,
+    coverage: &[crate::engine::exposure::CoverageLine],
+) -> Vec<String> {
     let mut w = Vec::new();
     w.extend(coverage_warnings(coverage));
     if inputs.trades.rows_rejected > 0 {
@@ -236,7 +241,7 @@ pub fn input_warnings(inputs: &Inputs, coverage: &[crate::exposure::CoverageLine
 /// how many trades (of which instruments) fall outside, how many of them
 /// were exposed on another currency all the same, and how many count as
 /// unexposed without being judged.
-pub fn coverage_warnings(lines: &[crate::exposure::CoverageLine]) -> Vec<String> {
+pub fn coverage_warnings(lines: &[crate::engine::exposure::CoverageLine]) -> Vec<String> {
     lines
         .iter()
         .filter(|c| c.trades_outside > 0)

@@ -5,9 +5,9 @@
 //! Invariant: every relevant used release in the range lies inside exactly
 //! one merged window of each instrument it is relevant to.
 
-use crate::calendar::Release;
-use crate::windows::WindowSettings;
-use crate::zones::MINUTE_MS;
+use crate::engine::windows::WindowSettings;
+use crate::import::calendar::Release;
+use crate::import::zones::MINUTE_MS;
 use serde::Serialize;
 
 /// One release behind a blackout window.
@@ -44,7 +44,7 @@ impl Blackout {
         format!(
             "{}-{}@eventfence",
             inst,
-            crate::zones::format_utc(first).replace([':', '-'], "")
+            crate::import::zones::format_utc(first).replace([':', '-'], "")
         )
     }
 }
@@ -116,7 +116,7 @@ pub fn build(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::calendar::Tier;
+    use crate::import::calendar::Tier;
 
     fn rel(id: &str, at_min: i64, cur: &str, tier: Tier) -> Release {
         Release {

@@ -25,7 +25,7 @@
 //! locale up front and accept forms this rule refuses (any grouping width),
 //! while the rule here is one short function tied to the file's delimiter.
 
-use crate::timefmt::trim_fast;
+use crate::import::timefmt::trim_fast;
 
 /// Reads `s` by the rule above. `comma_decimal_allowed`: the file is not
 /// delimited by commas, so a comma may be the decimal mark.
