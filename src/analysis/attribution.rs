@@ -97,22 +97,39 @@ fn cent_tolerance(scale: f64) -> f64 {
 /// of the exposed trades, and Σ|P/L| (the tolerance's scale). Without
 /// branches (a win or an exposure is a coin flip to the predictor): adding
 /// 0.0 for the other side leaves each sum as it was.
-fn headline_sums(exp: &Exposure, pnl: &[f64]) -> (Headline, f64, f64, f64, f64, f64) {
-    let mut h = Headline::default();
-    let (mut gp, mut gl, mut egp, mut egl, mut scale) = (0.0, 0.0, 0.0, 0.0, 0.0);
+fn headline_sums(exp: &Exposure, pnl: &[f64]) -> HeadlineSums {
+    let mut s = HeadlineSums::default();
+    let h = &mut s.headline;
     for (&p, &k) in pnl.iter().zip(&exp.k) {
         let exposed = k > 0;
-        scale += p.abs();
+        s.abs_total += p.abs();
         h.net += p;
         h.exposed_pnl += if exposed { p } else { 0.0 };
         h.unexposed_pnl += if exposed { 0.0 } else { p };
         let (win, loss) = (p.max(0.0), p.min(0.0));
-        gp += win;
-        gl += loss;
-        egp += if exposed { win } else { 0.0 };
-        egl += if exposed { loss } else { 0.0 };
+        s.gross_profit += win;
+        s.gross_loss += loss;
+        s.exposed_gross_profit += if exposed { win } else { 0.0 };
+        s.exposed_gross_loss += if exposed { loss } else { 0.0 };
     }
-    (h, gp, gl, egp, egl, scale)
+    s
+}
+
+/// The one-pass sums behind the headline shares.
+#[derive(Default)]
+struct HeadlineSums {
+    /// Net, exposed and unexposed P/L (shares still empty).
+    headline: Headline,
+    /// Σ max(P/L, 0) over all trades.
+    gross_profit: f64,
+    /// Σ min(P/L, 0) over all trades.
+    gross_loss: f64,
+    /// Σ max(P/L, 0) over the exposed trades.
+    exposed_gross_profit: f64,
+    /// Σ min(P/L, 0) over the exposed trades.
+    exposed_gross_loss: f64,
+    /// Σ|P/L|: the scale of the conservation tolerance.
+    abs_total: f64,
 }
 
 /// Builds the attribution tables and checks conservation.
@@ -123,21 +140,21 @@ pub fn attribute(
     used: &[bool],
 ) -> Result<Attribution, ConservationError> {
     // The per-release split beside the headline sums (independent passes).
-    let ((touched, amount), (headline, gp, gl, egp, egl, scale)) = rayon::join(
+    let ((touched, amount), sums) = rayon::join(
         || per_release(exp, pnl, releases.len()),
         || headline_sums(exp, pnl),
     );
     let mut a = Attribution {
-        headline,
+        headline: sums.headline,
         ..Default::default()
     };
     let h = &mut a.headline;
     let ratio = |x: f64, y: f64| (y != 0.0).then(|| x / y);
     h.share_of_net = ratio(h.exposed_pnl, h.net);
-    h.share_of_gross_profit = ratio(egp, gp);
-    h.share_of_gross_loss = ratio(egl, gl);
+    h.share_of_gross_profit = ratio(sums.exposed_gross_profit, sums.gross_profit);
+    h.share_of_gross_loss = ratio(sums.exposed_gross_loss, sums.gross_loss);
     h.share_of_count = ratio(exp.exposed_count() as f64, pnl.len() as f64);
-    let tol = cent_tolerance(scale);
+    let tol = cent_tolerance(sums.abs_total);
     if (h.net - (h.exposed_pnl + h.unexposed_pnl)).abs() > tol {
         return Err(ConservationError {
             what: "baseline net vs exposed + unexposed",

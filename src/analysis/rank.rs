@@ -17,7 +17,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 /// The figure runs are ranked by (higher is better; max drawdown: lower).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RankBy {
     Net,

@@ -472,7 +472,7 @@ pub fn analyze(
     );
     let coverage = exposure::coverage(releases, trades, &cur, &exp.k, settings.calendar_span);
     crate::import::phases::mark("exposure, close order");
-    let exposed = |i: usize| exp.k[i] > 0;
+    let exposed = |i: usize| exp.is_exposed(i);
     let base_ctx = Context {
         span,
         report_zone: settings.report_tz,

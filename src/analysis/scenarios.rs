@@ -16,7 +16,7 @@ use serde::Serialize;
 pub const INDEX_START: f64 = 100.0;
 
 /// How P/L adds up.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Sizing {
     /// Sum P/L as given.
@@ -180,7 +180,7 @@ impl Scenarios {
             .tail_values()
             .iter()
             .zip(&b.trade)
-            .map(|(p, &i)| (p.abs(), exp.k[i as usize] > 0))
+            .map(|(p, &i)| (p.abs(), exp.is_exposed(i as usize)))
             .collect();
         v.sort_by(|a, b| b.0.total_cmp(&a.0));
         v

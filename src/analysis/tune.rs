@@ -203,10 +203,10 @@ pub fn tune(
             let exposed_pnl: f64 = order
                 .iter()
                 .map(|&i| i as usize)
-                .filter(|&i| exp.k[i] > 0)
+                .filter(|&i| exp.is_exposed(i))
                 .map(|i| trades.pnl[i])
                 .sum();
-            let is_exposed = |i: usize| exp.k[i] > 0;
+            let is_exposed = |i: usize| exp.is_exposed(i);
             let after = if per_run.is_empty() {
                 let sc = build(&is_exposed)?;
                 let m = metrics::compute(

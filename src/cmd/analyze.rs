@@ -3,6 +3,7 @@
 
 use super::common::{self, ChanceArgs, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use crate::analysis::run as analysis;
+use crate::import::table::TableFormat;
 use crate::render::output::OutDir;
 use crate::report::summary::{Inputs, Summary};
 use anyhow::Result;
@@ -45,14 +46,8 @@ pub struct AnalyzeArgs {
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Format of the annotated trade file in --out.
-    #[arg(long, value_enum, default_value_t = TradesFormat::Csv)]
-    pub trades_format: TradesFormat,
-}
-
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-pub enum TradesFormat {
-    Csv,
-    Parquet,
+    #[arg(long, value_enum, default_value_t = TableFormat::Csv)]
+    pub trades_format: TableFormat,
 }
 
 pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
@@ -113,8 +108,8 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             &trade_summary.files,
         );
         match args.trades_format {
-            TradesFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
-            TradesFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
+            TableFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
+            TableFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
         };
         out.write(
             "releases.csv",
@@ -138,7 +133,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
                 (
                     exposure.minutes_from_nearest[i],
                     trades.pnl[i],
-                    exposure.k[i] > 0,
+                    exposure.is_exposed(i),
                 )
             })
             .collect();
@@ -172,11 +167,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             .as_bytes(),
         )?;
         if let Some(dir) = &args.out {
-            let ext = if args.trades_format == TradesFormat::Csv {
-                "csv"
-            } else {
-                "parquet"
-            };
+            let ext = args.trades_format.extension();
             crate::render::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
         }
     }

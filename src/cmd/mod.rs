@@ -6,3 +6,4 @@ pub mod common;
 pub mod rank;
 pub mod schedule;
 pub mod tune;
+mod values;

@@ -3,6 +3,7 @@
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use crate::analysis::rank::{self, RankBy};
+use crate::import::table::TableFormat;
 use crate::render::output::OutDir;
 use crate::report::rank::RankReport;
 use crate::report::summary::{CAUTION, ToolInfo};
@@ -54,8 +55,8 @@ pub struct RankArgs {
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Format of the runs file in --out.
-    #[arg(long, value_enum, default_value_t = super::analyze::TradesFormat::Csv)]
-    pub runs_format: super::analyze::TradesFormat,
+    #[arg(long, value_enum, default_value_t = TableFormat::Csv)]
+    pub runs_format: TableFormat,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
@@ -109,10 +110,8 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
         match args.runs_format {
-            super::analyze::TradesFormat::Csv => {
-                out.write("runs.csv", &crate::render::files::runs_csv(&rows))?
-            }
-            super::analyze::TradesFormat::Parquet => {
+            TableFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
+            TableFormat::Parquet => {
                 out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?
             }
         };

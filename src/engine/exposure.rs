@@ -20,7 +20,7 @@ use serde::Serialize;
 use std::collections::HashMap;
 
 /// Which trades count as exposed to a release.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum ExposureRule {
     /// The holding period overlaps the window: open ≤ t + post and close ≥ t − pre.
@@ -108,6 +108,11 @@ pub struct Exposure {
 }
 
 impl Exposure {
+    /// Whether trade `i` (input order) overlaps at least one used release.
+    pub fn is_exposed(&self, i: usize) -> bool {
+        self.k[i] > 0
+    }
+
     /// Each trade's matched releases, in trade order (no per-trade offsets
     /// are stored: the lists are cut by k as they are walked).
     pub fn match_lists(&self) -> impl Iterator<Item = &[u32]> + '_ {

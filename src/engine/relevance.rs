@@ -11,7 +11,7 @@ use std::collections::{BTreeMap, HashMap};
 use std::path::Path;
 
 /// What to do with instruments that have no currencies.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Unmapped {
     /// Stop and list them.

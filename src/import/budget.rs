@@ -136,7 +136,9 @@ pub fn estimate_rows(path: &Path) -> Result<u64, BudgetError> {
     let size = std::fs::metadata(path)
         .map_err(|e| err(e.to_string()))?
         .len();
-    if crate::import::table::is_parquet(path) {
+    if crate::import::table::TableFormat::of_path(path)
+        == crate::import::table::TableFormat::Parquet
+    {
         // Parquet compresses; its footer holds the row count.
         use polars::prelude::*;
         let file = std::fs::File::open(path).map_err(|e| err(e.to_string()))?;

@@ -99,15 +99,36 @@ impl ColumnSource {
     }
 }
 
-/// Parquet by extension (`.parquet`, `.pq`); anything else is read as CSV.
-pub fn is_parquet(path: &Path) -> bool {
-    matches!(
-        path.extension()
+/// The two table formats the tool reads and writes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TableFormat {
+    /// RFC 4180 text.
+    Csv,
+    /// Apache Parquet.
+    Parquet,
+}
+
+impl TableFormat {
+    /// Parquet by extension (`.parquet`, `.pq`); anything else is read as CSV.
+    pub fn of_path(path: &Path) -> TableFormat {
+        match path
+            .extension()
             .and_then(|e| e.to_str())
             .map(|e| e.to_ascii_lowercase())
-            .as_deref(),
-        Some("parquet" | "pq")
-    )
+            .as_deref()
+        {
+            Some("parquet" | "pq") => TableFormat::Parquet,
+            _ => TableFormat::Csv,
+        }
+    }
+
+    /// The extension written for this format (`csv`, `parquet`).
+    pub fn extension(self) -> &'static str {
+        match self {
+            TableFormat::Csv => "csv",
+            TableFormat::Parquet => "parquet",
+        }
+    }
 }
 
 /// A table file that cannot be read as a whole (the caller names the
@@ -163,7 +184,7 @@ impl Table {
     /// is named in [`Table::row_problem`], so the caller rejects that row
     /// alone.
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, TableError> {
-        if is_parquet(path) {
+        if TableFormat::of_path(path) == TableFormat::Parquet {
             let file = std::fs::File::open(path)?;
             let df = ParquetReader::new(file).finish()?;
             return Ok(Table {

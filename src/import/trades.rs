@@ -414,7 +414,9 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
                 .unwrap_or_default()
         });
         sink.start_file(fi as u16, path, file_run);
-        if crate::import::table::is_parquet(path) {
+        if crate::import::table::TableFormat::of_path(path)
+            == crate::import::table::TableFormat::Parquet
+        {
             read_parquet(path, opts, &mut sink)?;
         } else {
             read_csv(path, opts, &mut sink)?;

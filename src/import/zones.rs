@@ -39,7 +39,7 @@ pub enum ZoneError {
 }
 
 /// What to do with a local time that falls in a DST gap or overlap.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum LocalPolicy {
     /// Refuse: the row is rejected naming the time.

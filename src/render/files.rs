@@ -95,7 +95,7 @@ impl AnnotatedTrades<'_> {
                 format_utc(t.closed[i]),
                 csv_field(&t.instruments[t.instrument[i] as usize]),
                 t.pnl[i],
-                self.exposure.k[i] > 0,
+                self.exposure.is_exposed(i),
                 self.exposure.k[i],
                 csv_field(near.map(|r| r.id.as_str()).unwrap_or("")),
                 csv_field(near.map(|r| r.title.as_str()).unwrap_or("")),
