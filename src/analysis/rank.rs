@@ -7,9 +7,10 @@
 //! with runs × trades beyond the input itself.
 
 use crate::analysis::evidence::{self, PlaceboSettings};
-use crate::analysis::metrics::{self, Context, Metrics};
+use crate::analysis::metrics::{Context, Metrics};
 use crate::analysis::run::AnalysisSettings;
-use crate::analysis::scenarios::{self, TradeView};
+use crate::analysis::run::{run_result, split_by_run};
+use crate::analysis::scenarios;
 use crate::engine::exposure::{Engine, UsedWindow};
 use crate::import::calendar::Release;
 use crate::import::trades::Trades;
@@ -97,15 +98,15 @@ pub fn rank(
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<RunRow>, scenarios::ScenarioError> {
     let engine = Engine::from_windows(windows, settings.exposure_rule, releases.len());
-    let n_runs = trades.runs.len().max(1);
     // Each run's trades in close order, so that every per-run sum runs in
     // an order that does not depend on the input's row order.
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
     scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-    let mut by_run: Vec<Vec<u32>> = vec![Vec::new(); n_runs];
-    for &i in &order {
-        by_run[trades.run[i as usize] as usize].push(i);
-    }
+    let by_run = if trades.runs.is_empty() {
+        vec![order]
+    } else {
+        split_by_run(&order, trades)
+    };
     let mut rows = by_run
         .par_iter()
         .enumerate()
@@ -158,22 +159,27 @@ fn run_row(
     let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, currencies);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
     drop(exp);
-    let mut order: Vec<u32> = (0..t.len() as u32).collect();
-    scenarios::close_order(&mut order, &t.opened, &t.closed);
-    let is_exposed = |i: usize| flags[i];
-    let view = TradeView::of(&order, &t, &is_exposed);
-    let sc = scenarios::build(&view, &settings.scenario)?;
-    let span = t.span().unwrap_or((0, 0));
+    let name = all.runs.get(r).cloned().unwrap_or_else(|| "all".into());
+    // The subset is in close order already (picked from the overall close
+    // order), so its own order is 0..n.
     let ctx = Context {
-        span,
+        span: (0, 0),
         report_zone: settings.report_tz,
-        initial_equity: sc.initial_equity,
+        initial_equity: None,
         tcr_p: settings.tcr_p,
     };
-    let m = |s: &scenarios::Series| metrics::compute(&s.view().curve(&t.opened, &t.closed), &ctx);
-    let (b, rm) = (m(&sc.baseline), m(&sc.removed));
-    let exposed_pnl: f64 = t.pnl.iter().zip(&flags).filter(|x| *x.1).map(|x| x.0).sum();
-    let name = all.runs.get(r).cloned().unwrap_or_else(|| "all".into());
+    let is_exposed = |i: usize| flags[i];
+    let result = run_result(
+        name,
+        (0..t.len() as u32).collect(),
+        &t,
+        &is_exposed,
+        &ctx,
+        settings,
+    )?;
+    let (b, rm) = (&result.scenarios.baseline, &result.scenarios.removed);
+    let exposed_pnl = result.exposed_pnl;
+    let name = result.run.clone();
     let placebo_p = (placebo.n > 0).then(|| {
         let seed = crate::import::trades::run_seed(placebo.seed, &name);
         evidence::placebo(
@@ -191,10 +197,10 @@ fn run_row(
     Ok(RunRow {
         run: name,
         trades: t.len(),
-        exposed_trades: flags.iter().filter(|&&f| f).count(),
+        exposed_trades: result.exposed_trades,
         exposed_pnl,
         exposed_share_of_trades: (!t.is_empty())
-            .then(|| flags.iter().filter(|&&f| f).count() as f64 / t.len() as f64),
+            .then(|| result.exposed_trades as f64 / t.len() as f64),
         exposed_share_of_net: (b.net != 0.0).then(|| exposed_pnl / b.net),
         net_baseline: b.net,
         net_removed: rm.net,
@@ -206,13 +212,13 @@ fn run_row(
         max_drawdown_removed: rm.max_drawdown,
         tcr_baseline: b.tcr,
         tcr_removed: rm.tcr,
-        by_baseline: by.value(&b),
-        by_removed: by.value(&rm),
+        by_baseline: by.value(b),
+        by_removed: by.value(rm),
         rank_baseline: 0,
         rank_removed: 0,
         rank_shift: 0,
         placebo_p: placebo_p.flatten(),
-        tcr_basis: sc.tail_basis,
+        tcr_basis: result.tail_basis,
     })
 }
 

@@ -177,6 +177,9 @@ pub struct RunResult {
     /// The cap C used for this run's `capped` scenario.
     pub cap_value: Option<f64>,
     pub scenarios: ScenarioMetrics,
+    /// What the run's tail figures were measured on.
+    #[serde(skip)]
+    pub tail_basis: scenarios::TailBasis,
 }
 
 /// One figure across runs: each run is an alternative account, so the
@@ -413,29 +416,51 @@ fn runs_of(
     by_run
         .into_par_iter()
         .enumerate()
-        .map(|(r, idx)| -> Result<RunResult, AnalysisError> {
-            let sc = scenarios::build_in_order(idx, trades, exposed, &settings.scenario)?;
-            let idx = &sc.baseline.trade;
-            let run_span = span_of(idx, trades, ctx.span);
-            let ctx = Context {
-                span: run_span,
-                initial_equity: sc.initial_equity,
-                ..*ctx
-            };
-            Ok(RunResult {
-                run: trades.runs[r].clone(),
-                trades: idx.len(),
-                exposed_trades: idx.iter().filter(|&&i| exposed(i as usize)).count(),
-                exposed_pnl: idx
-                    .iter()
-                    .filter(|&&i| exposed(i as usize))
-                    .map(|&i| trades.pnl[i as usize])
-                    .sum(),
-                cap_value: sc.cap_value,
-                scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
-            })
+        .map(|(r, idx)| {
+            Ok(run_result(
+                trades.runs[r].clone(),
+                idx,
+                trades,
+                exposed,
+                ctx,
+                settings,
+            )?)
         })
         .collect()
+}
+
+/// One run's scenarios and their figures: the one per-run routine, used by
+/// `analyze`'s run table and by `rank`'s rows. `idx`: the run's trades in
+/// close order; `ctx.span` stands in when the run is empty.
+pub fn run_result(
+    run: String,
+    idx: Vec<u32>,
+    trades: &Trades,
+    exposed: &(dyn Fn(usize) -> bool + Sync),
+    ctx: &Context,
+    settings: &AnalysisSettings,
+) -> Result<RunResult, ScenarioError> {
+    let sc = scenarios::build_in_order(idx, trades, exposed, &settings.scenario)?;
+    let idx = &sc.baseline.trade;
+    let run_span = span_of(idx, trades, ctx.span);
+    let ctx = Context {
+        span: run_span,
+        initial_equity: sc.initial_equity,
+        ..*ctx
+    };
+    Ok(RunResult {
+        run,
+        trades: idx.len(),
+        exposed_trades: idx.iter().filter(|&&i| exposed(i as usize)).count(),
+        exposed_pnl: idx
+            .iter()
+            .filter(|&&i| exposed(i as usize))
+            .map(|&i| trades.pnl[i as usize])
+            .sum(),
+        cap_value: sc.cap_value,
+        scenarios: metrics_of(&sc, &trades.opened, &trades.closed, &ctx),
+        tail_basis: sc.tail_basis,
+    })
 }
 
 /// The whole analysis. `files`: also compute what only the output files
