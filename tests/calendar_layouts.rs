@@ -111,7 +111,7 @@ fn own_layout_read_by_the_flags() {
             ),
         ]
     );
-    let r = &cal.summary.rejections[0];
+    let r = &cal.summary.log.rejections[0];
     assert_eq!((r.row, r.reason), (7, "unmapped_tier"));
     assert_eq!(
         r.message,
@@ -182,9 +182,9 @@ fn untimed_words_are_the_files_own() {
         ..Default::default()
     };
     let cal = calendar::load(&[p], &opts).unwrap();
-    assert_eq!(cal.summary.rows_rejected, 1);
+    assert_eq!(cal.summary.log.rows_rejected, 1);
     assert_eq!(
-        cal.summary.rejections[0].message,
+        cal.summary.log.rejections[0].message,
         "'Tentative' is not a time HH:MM[:SS]"
     );
     assert!(cal.releases.iter().all(|r| r.all_day));

@@ -41,9 +41,9 @@ fn corpus_expands_as_the_outside_expander_does() {
         let cal =
             calendar::load(&[dir.join(&file)], &opts).unwrap_or_else(|e| panic!("{file}: {e}"));
         assert_eq!(
-            cal.summary.rows_rejected, 0,
+            cal.summary.log.rows_rejected, 0,
             "{file}: {:?}",
-            cal.summary.rejections
+            cal.summary.log.rejections
         );
         let mut got: Vec<(String, String)> = cal
             .releases

@@ -295,12 +295,12 @@ proptest! {
         let dir = tempfile::tempdir().unwrap();
         let (t, s) = import(&csv_text(&c, &c.order, &Zone::Utc), &Zone::Utc, dir.path());
         prop_assert_eq!(s.rows_read, c.trades.len());
-        prop_assert_eq!(s.rows_read, s.rows_imported + s.rows_rejected);
+        prop_assert_eq!(s.rows_read, s.rows_imported + s.log.rows_rejected);
         prop_assert_eq!(t.len(), s.rows_imported);
         let damaged: BTreeSet<usize> = c.order.iter().enumerate().filter(|(_, i)| c.trades[**i].damage != 0).map(|(pos, _)| pos + 1).collect();
-        let rejected: BTreeSet<usize> = s.rejections.iter().map(|r| r.row).collect();
+        let rejected: BTreeSet<usize> = s.log.rejections.iter().map(|r| r.row).collect();
         prop_assert_eq!(rejected, damaged);
-        prop_assert_eq!(s.rejected_by_reason.values().sum::<usize>(), s.rows_rejected);
+        prop_assert_eq!(s.log.rejected_by_reason.values().sum::<usize>(), s.log.rows_rejected);
     }
 
     /// Shuffled input rows give the same summary (rows with the same open
@@ -332,8 +332,8 @@ proptest! {
         let order: Vec<usize> = (0..c.trades.len()).collect();
         let (t1, s1) = import(&csv_text(&c, &order, &Zone::Utc), &Zone::Utc, dir.path());
         let (t2, s2) = import(&csv_text(&c, &order, &zone), &zone, dir.path());
-        prop_assert_eq!(s1.rows_rejected, 0);
-        prop_assert_eq!(s2.rows_rejected, 0);
+        prop_assert_eq!(s1.log.rows_rejected, 0);
+        prop_assert_eq!(s2.log.rows_rejected, 0);
         prop_assert_eq!(&t1.opened, &t2.opened);
         prop_assert_eq!(&t1.closed, &t2.closed);
         let rel = releases(&c);

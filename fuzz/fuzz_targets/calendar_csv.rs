@@ -11,7 +11,7 @@ fuzz_target!(|data: &[u8]| {
     let opts = CalendarOptions { skip_bad_rows: true, zone: "Europe/London".parse().unwrap(), ..CalendarOptions::default() };
     if let Ok(cal) = calendar::load(std::slice::from_ref(&path), &opts) {
         let s = &cal.summary;
-        assert!(s.rows_rejected <= s.rows_read);
-        assert_eq!(s.releases + s.duplicates_merged, s.rows_read - s.rows_rejected);
+        assert!(s.log.rows_rejected <= s.rows_read);
+        assert_eq!(s.releases + s.duplicates_merged, s.rows_read - s.log.rows_rejected);
     }
 });

@@ -11,7 +11,7 @@ fuzz_target!(|data: &[u8]| {
     let path = common::scratch("csv", data);
     let opts = TradeOptions { skip_bad_rows: true, zone: "America/New_York".parse().unwrap(), ..TradeOptions::default() };
     if let Ok((t, s)) = trades::load(std::slice::from_ref(&path), &opts) {
-        assert_eq!(s.rows_read, s.rows_imported + s.rows_rejected);
+        assert_eq!(s.rows_read, s.rows_imported + s.log.rows_rejected);
         assert_eq!(t.len(), s.rows_imported);
         assert_eq!(t.opened.len(), t.closed.len());
         assert!(t.pnl.iter().all(|v| v.is_finite()));

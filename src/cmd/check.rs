@@ -149,11 +149,14 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
     } else {
         crate::render::output::stdout(crate::render::table::check(&report).as_bytes())?;
     }
-    let rejected = report.trades.as_ref().map_or(0, |t| t.import.rows_rejected)
+    let rejected = report
+        .trades
+        .as_ref()
+        .map_or(0, |t| t.import.log.rows_rejected)
         + report
             .calendar
             .as_ref()
-            .map_or(0, |c| c.import.rows_rejected);
+            .map_or(0, |c| c.import.log.rows_rejected);
     Ok(if rejected > 0 || !report.problems.is_empty() {
         std::process::ExitCode::from(3)
     } else {

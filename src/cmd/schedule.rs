@@ -248,10 +248,10 @@ fn schedule_warnings(
             w.push(format!("{left} high-tier all-day release(s) in the range are left out (no fixed time); --all-day blocks their whole local day"));
         }
     }
-    if cal.summary.rows_rejected > 0 {
+    if cal.summary.log.rows_rejected > 0 {
         w.push(format!(
             "SKIPPED: {} calendar row(s) rejected and left out",
-            cal.summary.rows_rejected
+            cal.summary.log.rows_rejected
         ));
     }
     w

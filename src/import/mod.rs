@@ -9,6 +9,7 @@
 pub mod budget;
 pub mod calendar;
 pub mod csvchunks;
+pub mod log;
 pub mod number;
 pub mod phases;
 pub mod setting;

@@ -198,16 +198,8 @@ impl Trades {
     }
 }
 
-/// One rejected input row.
-#[derive(Debug, Clone, Serialize)]
-pub struct Rejection {
-    pub file: String,
-    /// Data row, counting from 1 (the header is not counted).
-    pub row: usize,
-    pub field: String,
-    pub reason: &'static str,
-    pub message: String,
-}
+pub use crate::import::log::Rejection;
+use crate::import::log::{ImportLog, KEEP_REJECTIONS, RowError};
 
 /// What the import read, kept, and rejected.
 #[derive(Debug, Clone, Default, Serialize)]
@@ -215,10 +207,9 @@ pub struct TradeSummary {
     pub files: Vec<String>,
     pub rows_read: usize,
     pub rows_imported: usize,
-    pub rows_rejected: usize,
-    pub rejected_by_reason: BTreeMap<String, usize>,
-    /// The first rejections (at most 1000), in input order.
-    pub rejections: Vec<Rejection>,
+    /// Rows rejected: counts by reason and the first ones kept.
+    #[serde(flatten)]
+    pub log: ImportLog,
     /// How each file's time columns were read (which zone rule applied).
     pub time_columns: Vec<TimeColumn>,
     /// How each trade's P/L was formed from the columns, in words
@@ -435,8 +426,9 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
         trades.kept = vec![Vec::new(); opts.keep.len()];
     }
     summary.pnl_formed_as = pnl_formation(opts, trades.fees.is_some());
-    if summary.rows_rejected > 0 && !opts.skip_bad_rows {
+    if summary.log.rows_rejected > 0 && !opts.skip_bad_rows {
         let examples = summary
+            .log
             .rejections
             .iter()
             .take(20)
@@ -444,7 +436,7 @@ pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSumm
             .collect::<Vec<_>>()
             .join("\n");
         return Err(TradeError::Rejected {
-            count: summary.rows_rejected,
+            count: summary.log.rows_rejected,
             examples,
         });
     }
@@ -630,18 +622,8 @@ fn pnl_formation(opts: &TradeOptions, fees_present: bool) -> String {
     s
 }
 
-struct RowError {
-    field: &'static str,
-    reason: &'static str,
-    message: String,
-}
-
 fn row_err(field: &'static str, reason: &'static str, message: impl Into<String>) -> RowError {
-    RowError {
-        field,
-        reason,
-        message: message.into(),
-    }
+    RowError::new(field, reason, message.into())
 }
 
 /// One valid row; names borrow from the source until interned.
@@ -1016,9 +998,6 @@ impl Part {
     }
 }
 
-/// How many rejections a summary keeps verbatim.
-const KEEP_REJECTIONS: usize = 1000;
-
 /// The growing result of a load: parts are merged into it in file order.
 #[derive(Default)]
 struct Sink {
@@ -1116,21 +1095,20 @@ impl Sink {
         let s = &mut self.summary;
         s.rows_read += part.rows_read;
         s.rows_imported += n;
-        s.rows_rejected += part.rejected;
+        s.log.rows_rejected += part.rejected;
         for (reason, c) in std::mem::take(&mut part.by_reason) {
-            *s.rejected_by_reason.entry(reason.to_string()).or_default() += c;
+            *s.log
+                .rejected_by_reason
+                .entry(reason.to_string())
+                .or_default() += c;
         }
         for (index, e) in part.rejections.drain(..) {
-            if s.rejections.len() >= KEEP_REJECTIONS {
+            if s.log.rejections.len() >= KEEP_REJECTIONS {
                 break;
             }
-            s.rejections.push(Rejection {
-                file: self.file_name.clone(),
-                row: base + index + 1,
-                field: e.field.to_string(),
-                reason: e.reason,
-                message: e.message,
-            });
+            s.log
+                .rejections
+                .push(e.at(&self.file_name, base + index + 1));
         }
         self.file_rows += part.rows_read;
         part.clear();

@@ -38,7 +38,7 @@ pub fn check(r: &CheckReport) -> String {
         let _ = writeln!(
             out,
             "  rows read {}, imported {}, rejected {}",
-            i.rows_read, i.rows_imported, i.rows_rejected
+            i.rows_read, i.rows_imported, i.log.rows_rejected
         );
         let _ = writeln!(out, "  P/L per trade = {}", i.pnl_formed_as);
         if let (Some(u), Some(z)) = (&t.span_utc, &t.span_input_zone) {
@@ -79,8 +79,9 @@ pub fn check(r: &CheckReport) -> String {
         let _ = writeln!(out, "{tab}");
         rejections(
             &mut out,
-            &i.rejected_by_reason,
-            i.rejections
+            &i.log.rejected_by_reason,
+            i.log
+                .rejections
                 .iter()
                 .map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)),
         );
@@ -91,7 +92,11 @@ pub fn check(r: &CheckReport) -> String {
         let _ = writeln!(
             out,
             "  rows/events read {}, releases {} ({} from recurrence), duplicates merged {}, rejected {}",
-            i.rows_read, i.releases, i.recurrences_expanded, i.duplicates_merged, i.rows_rejected
+            i.rows_read,
+            i.releases,
+            i.recurrences_expanded,
+            i.duplicates_merged,
+            i.log.rows_rejected
         );
         if let Some(s) = &c.span_utc {
             let _ = writeln!(out, "  span (UTC)  {} → {}", s[0], s[1]);
@@ -134,8 +139,9 @@ pub fn check(r: &CheckReport) -> String {
         }
         rejections(
             &mut out,
-            &i.rejected_by_reason,
-            i.rejections
+            &i.log.rejected_by_reason,
+            i.log
+                .rejections
                 .iter()
                 .map(|r| format!("{} row {}: {}: {}", r.file, r.row, r.field, r.message)),
         );

@@ -8,9 +8,10 @@
 
 use super::rules::Draft;
 use super::{
-    CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, countries,
+    CalendarError, CalendarOptions, CalendarSummary, Rejection, Release, Tier, countries,
     is_currency,
 };
+use crate::import::log::RowError;
 use crate::import::table::{Cell, ColumnSource, Table};
 use crate::import::timefmt::{Stamp, TimeFormat, parse_stamp, scan_date, scan_time};
 use crate::import::zones::{LocalPolicy, naive_to_ms};
@@ -79,7 +80,8 @@ impl Layout {
     /// The tier a row's value names.
     fn tier(&self, value: &str) -> Result<Tier, RowErr> {
         if self.tier_map.is_empty() {
-            return Tier::parse(value).ok_or(("tier", "bad_tier", format!("'{value}' is not high, medium or low; map the file's own values with --tier-map")));
+            return Tier::parse(value).ok_or(RowError::new(
+"tier", "bad_tier", format!("'{value}' is not high, medium or low; map the file's own values with --tier-map")));
         }
         let key = value.trim().to_lowercase();
         self.tier_map
@@ -88,7 +90,7 @@ impl Layout {
             .map(|(_, t)| *t)
             .ok_or_else(|| {
                 let known: Vec<&str> = self.tier_map.iter().map(|(v, _)| v.as_str()).collect();
-                (
+                RowError::new(
                     "tier",
                     "unmapped_tier",
                     format!(
@@ -152,7 +154,7 @@ pub fn read(
     for i in 0..table.height() {
         summary.rows_read += 1;
         if let Some(p) = table.row_problem(i) {
-            summary.reject(CalendarRejection {
+            summary.reject(Rejection {
                 file: file.clone(),
                 row: i + 1,
                 field: p.column.clone().unwrap_or_else(|| "row".into()),
@@ -161,18 +163,22 @@ pub fn read(
             });
             continue;
         }
-        let row = (|| -> Result<Release, (&'static str, &'static str, String)> {
-            let t = text(Some(&title), i).filter(|s| !s.is_empty()).ok_or((
-                "title",
-                "missing_value",
-                "empty".to_string(),
-            ))?;
+        let row = (|| -> Result<Release, RowErr> {
+            let t = text(Some(&title), i)
+                .filter(|s| !s.is_empty())
+                .ok_or(RowError::new("title", "missing_value", "empty".to_string()))?;
             let flagged_all_day = match text(all_day.as_ref(), i).map(|s| s.to_ascii_lowercase()) {
                 None => false,
                 Some(s) => match s.as_str() {
                     "true" | "1" | "yes" | "y" => true,
                     "false" | "0" | "no" | "n" | "" => false,
-                    _ => return Err(("all_day", "bad_value", format!("'{s}' is not true/false"))),
+                    _ => {
+                        return Err(RowError::new(
+                            "all_day",
+                            "bad_value",
+                            format!("'{s}' is not true/false"),
+                        ));
+                    }
                 },
             };
             // The instant, or the local day for an all-day release.
@@ -184,7 +190,7 @@ pub fn read(
             let country = cur.as_deref().and_then(countries::code_of);
             if let Some(code) = country {
                 let day = opts.zone.local_date(at);
-                let found = countries::currency_on(code, day).ok_or((
+                let found = countries::currency_on(code, day).ok_or(RowError::new(
                     "currency",
                     "bad_currency",
                     format!("country '{code}' had no currency in the table on {day}"),
@@ -207,20 +213,20 @@ pub fn read(
                 tier: &mut tr,
                 category: &mut cat,
             });
-            let cur = cur.ok_or((
+            let cur = cur.ok_or(RowError::new(
                 "currency",
                 "missing_currency",
                 "empty; add a currency or a title rule".to_string(),
             ))?;
             if !is_currency(&cur) && !countries::FORMER.contains(&cur.to_ascii_uppercase().as_str())
             {
-                return Err((
+                return Err(RowError::new(
                     "currency",
                     "bad_currency",
                     format!("'{cur}' is not an ISO 4217 code or a known ISO 3166 country code"),
                 ));
             }
-            let tr = tr.ok_or((
+            let tr = tr.ok_or(RowError::new(
                 "tier",
                 "missing_value",
                 "empty; give high, medium or low (or a title rule)".to_string(),
@@ -241,23 +247,19 @@ pub fn read(
         })();
         match row {
             Ok(r) => out.push(r),
-            Err((field, reason, message)) => summary.reject(CalendarRejection {
-                file: file.clone(),
-                row: i + 1,
-                field: opts
-                    .columns
-                    .get(field)
-                    .cloned()
-                    .unwrap_or_else(|| field.to_string()),
-                reason,
-                message: message.to_string(),
-            }),
+            Err(mut e) => {
+                // Named as the file names it (a mapped column's own heading).
+                if let Some(own) = opts.columns.get(e.field.as_ref()) {
+                    e.field = own.clone().into();
+                }
+                summary.reject(e.at(&file, i + 1))
+            }
         }
     }
     Ok(())
 }
 
-type RowErr = (&'static str, &'static str, String);
+type RowErr = RowError;
 
 fn resolve_time(
     released: &Option<ColumnSource>,
@@ -268,7 +270,9 @@ fn resolve_time(
     opts: &CalendarOptions,
 ) -> Result<(i64, i64, bool), RowErr> {
     let zone_err = |field: &'static str| {
-        move |e: crate::import::zones::ZoneError| (field, zone_reason(&e), e.to_string())
+        move |e: crate::import::zones::ZoneError| {
+            RowError::new(field, zone_reason(&e), e.to_string())
+        }
     };
     let day_bounds = |d: chrono::NaiveDate| local_day(d, opts).map_err(zone_err("date"));
     if let Some(rc) = released {
@@ -280,7 +284,7 @@ fn resolve_time(
                 let wall = match rc.get(i) {
                     Cell::Local(w) if crate::import::zones::in_accepted_years(w) => w,
                     _ => {
-                        return Err((
+                        return Err(RowError::new(
                             "released_at",
                             "bad_time",
                             format!("a timestamp {}", crate::import::zones::YEARS_MESSAGE),
@@ -306,7 +310,7 @@ fn resolve_time(
                 return resolve_time(&None, date, &None, i, true, opts);
             }
             Cell::Str(s) if opts.layout.is_untimed(s) => {
-                return Err((
+                return Err(RowError::new(
                     "released_at",
                     "missing_value",
                     format!(
@@ -318,7 +322,7 @@ fn resolve_time(
             Cell::Str(s) if opts.layout.time_format.is_some() => {
                 let pattern = opts.layout.time_format.as_deref().unwrap_or_default();
                 return by_pattern(s.trim(), pattern, all_day, opts)
-                    .map_err(|(r, m)| ("released_at", r, m));
+                    .map_err(|(r, m)| RowError::new("released_at", r, m));
             }
             Cell::Str(s) => {
                 let s = s.trim();
@@ -328,7 +332,7 @@ fn resolve_time(
                     return day_bounds(d);
                 }
                 let stamp = parse_stamp(s, &TimeFormat::Auto)
-                    .map_err(|e| ("released_at", "bad_time", e.to_string()))?;
+                    .map_err(|e| RowError::new("released_at", "bad_time", e.to_string()))?;
                 if all_day {
                     let d = match stamp {
                         Stamp::Local(l) => l.date(),
@@ -342,27 +346,33 @@ fn resolve_time(
                 return Ok((ms, ms, false));
             }
             Cell::Num(_) => {
-                return Err((
+                return Err(RowError::new(
                     "released_at",
                     "bad_time",
                     "a number where a time was expected".into(),
                 ));
             }
             Cell::Null if date.is_none() => {
-                return Err(("released_at", "missing_value", "empty".into()));
+                return Err(RowError::new(
+                    "released_at",
+                    "missing_value",
+                    "empty".into(),
+                ));
             }
             Cell::Null => {}
         }
     }
-    let dc = date
-        .as_ref()
-        .ok_or(("released_at", "missing_value", "empty".to_string()))?;
+    let dc = date.as_ref().ok_or(RowError::new(
+        "released_at",
+        "missing_value",
+        "empty".to_string(),
+    ))?;
     if let Some(pattern) = opts.layout.time_format.as_deref() {
         let day_text = match dc.get(i) {
             Cell::Str(s) => s.trim(),
-            Cell::Null => return Err(("date", "missing_value", "empty".into())),
+            Cell::Null => return Err(RowError::new("date", "missing_value", "empty".into())),
             _ => {
-                return Err((
+                return Err(RowError::new(
                     "date",
                     "bad_time",
                     "not text that --calendar-time-format can read".into(),
@@ -377,14 +387,15 @@ fn resolve_time(
             Some(t) => format!("{day_text} {t}"),
             None => day_text.to_string(),
         };
-        return by_pattern(&joined, pattern, all_day || time_text.is_none(), opts)
-            .map_err(|(r, m)| (if time_text.is_some() { "time" } else { "date" }, r, m));
+        return by_pattern(&joined, pattern, all_day || time_text.is_none(), opts).map_err(
+            |(r, m)| RowError::new(if time_text.is_some() { "time" } else { "date" }, r, m),
+        );
     }
     let d = match dc.get(i) {
         Cell::Str(s) => match scan_date(s.trim().as_bytes()) {
             Some((d, n)) if n == s.trim().len() => d,
             _ => {
-                return Err((
+                return Err(RowError::new(
                     "date",
                     "bad_time",
                     format!("'{s}' is not a date YYYY-MM-DD"),
@@ -400,8 +411,8 @@ fn resolve_time(
         Cell::Date(days) => {
             chrono::DateTime::UNIX_EPOCH.date_naive() + chrono::TimeDelta::days(days as i64)
         }
-        Cell::Null => return Err(("date", "missing_value", "empty".into())),
-        _ => return Err(("date", "bad_time", "not a date".into())),
+        Cell::Null => return Err(RowError::new("date", "missing_value", "empty".into())),
+        _ => return Err(RowError::new("date", "bad_time", "not a date".into())),
     };
     let t = match time.as_ref().map(|c| c.get(i)) {
         None | Some(Cell::Null) => None,
@@ -411,7 +422,7 @@ fn resolve_time(
                 "" => None,
                 _ if opts.layout.is_untimed(s) => None,
                 _ => {
-                    let (tm, used) = scan_time(s.as_bytes()).ok_or((
+                    let (tm, used) = scan_time(s.as_bytes()).ok_or(RowError::new(
                         "time",
                         "bad_time",
                         format!("'{s}' is not a time HH:MM[:SS]"),
@@ -422,7 +433,7 @@ fn resolve_time(
                     } else if rest == "Z" {
                         Some(Stamp::Instant(naive_to_ms(&d.and_time(tm))))
                     } else {
-                        let off = crate::import::zones::parse_offset(rest).ok_or((
+                        let off = crate::import::zones::parse_offset(rest).ok_or(RowError::new(
                             "time",
                             "bad_time",
                             format!("'{s}' has an unreadable offset"),
@@ -434,7 +445,13 @@ fn resolve_time(
                 }
             }
         }
-        Some(_) => return Err(("time", "bad_time", "not a time HH:MM[:SS]".into())),
+        Some(_) => {
+            return Err(RowError::new(
+                "time",
+                "bad_time",
+                "not a time HH:MM[:SS]".into(),
+            ));
+        }
     };
     match t {
         None => day_bounds(d),
@@ -539,7 +556,7 @@ mod tests {
             ..Default::default()
         };
         let (rs, s) = load(csv, &opts);
-        assert_eq!(s.rows_rejected, 0);
+        assert_eq!(s.log.rows_rejected, 0);
         assert_eq!(rs[0].at, utc("2025-10-24 12:30"));
         assert_eq!(rs[0].category.as_deref(), Some("inflation"));
         assert!(
@@ -566,8 +583,9 @@ mod tests {
         };
         let (rs, s) = load(csv, &opts);
         assert!(rs.is_empty());
-        assert_eq!(s.rows_rejected, 4);
+        assert_eq!(s.log.rows_rejected, 4);
         let reasons: Vec<_> = s
+            .log
             .rejections
             .iter()
             .map(|r| (r.row, r.field.as_str(), r.reason))

@@ -14,8 +14,9 @@ use super::contentline::{ContentLine, parse_lines_each, split_text_list, unescap
 use super::rules::Draft;
 use super::vtimezone::{CustomZone, IcsProblem, Observance, expand_local};
 use super::{
-    CalendarError, CalendarOptions, CalendarRejection, CalendarSummary, Release, Tier, is_currency,
+    CalendarError, CalendarOptions, CalendarSummary, Rejection, Release, Tier, is_currency,
 };
+use crate::import::log::RowError;
 use crate::import::timefmt::{scan_date, scan_time};
 use crate::import::zones::{DAY_MS, LocalPolicy, Zone, ms_to_naive, naive_to_ms};
 use chrono::{NaiveDate, NaiveDateTime, NaiveTime};
@@ -352,20 +353,14 @@ pub fn read_bytes(
                 summary.recurrences_expanded += rs.len().saturating_sub(1);
                 series.extend(rs.into_iter().map(|r| (uid_of(ev), r)));
             }
-            Ok(EventOutcome::Cancelled) => summary.reject(CalendarRejection {
+            Ok(EventOutcome::Cancelled) => summary.reject(Rejection {
                 file: file.into(),
                 row: ev.line,
                 field: "STATUS".into(),
                 reason: "cancelled",
                 message: "STATUS:CANCELLED; not a release".into(),
             }),
-            Err((field, reason, message)) => summary.reject(CalendarRejection {
-                file: file.into(),
-                row: ev.line,
-                field,
-                reason,
-                message,
-            }),
+            Err(e) => summary.reject(e.at(file, ev.line)),
         }
     }
     let mut ordered: Vec<&Component> = overrides.iter().collect();
@@ -398,13 +393,7 @@ pub fn read_bytes(
                     summary.occurrences_cancelled += 1;
                 }
             }
-            Err((field, reason, message)) => summary.reject(CalendarRejection {
-                file: file.into(),
-                row: ov.line,
-                field,
-                reason,
-                message,
-            }),
+            Err(e) => summary.reject(e.at(file, ov.line)),
         }
     }
     summary
@@ -575,10 +564,14 @@ enum EventOutcome {
     Cancelled,
 }
 
-type Reject = (String, &'static str, String);
+type Reject = RowError;
 
 fn reject(field: &str, reason: &'static str, message: impl Into<String>) -> Reject {
-    (field.to_string(), reason, message.into())
+    RowError {
+        field: field.to_string().into(),
+        reason,
+        message: message.into(),
+    }
 }
 
 fn event_releases(
@@ -881,7 +874,7 @@ BEGIN:VEVENT\r\nUID:c\r\nSUMMARY:C\r\nCATEGORIES:USD\r\nDTSTART;TZID=America/New
             ..Default::default()
         };
         let (rs, s) = read_str(&cal(body), &opts);
-        assert_eq!(s.rows_rejected, 0);
+        assert_eq!(s.log.rows_rejected, 0);
         assert!(rs.iter().all(|r| r.at == utc("1997-07-14 17:30")), "{rs:?}");
     }
 
@@ -945,7 +938,7 @@ BEGIN:VEVENT\r\nUID:z\r\nSUMMARY:Minor\r\nPRIORITY:7\r\nCATEGORIES:GBP,housing\r
         // Without a span an endless rule is refused, not expanded forever.
         let (rs, s) = read_str(&cal(body), &CalendarOptions::default());
         assert!(rs.is_empty());
-        assert_eq!(s.rejected_by_reason.get("unbounded_rule"), Some(&1));
+        assert_eq!(s.log.rejected_by_reason.get("unbounded_rule"), Some(&1));
     }
 
     #[test]
@@ -962,7 +955,7 @@ BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102
         };
         let (rs, s) = read_str(&cal(body), &opts);
         assert_eq!(s.rows_read, 6);
-        assert_eq!(s.rows_rejected, 5);
+        assert_eq!(s.log.rows_rejected, 5);
         for reason in [
             "missing_currency",
             "bad_time",
@@ -970,7 +963,7 @@ BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102
             "unknown_zone",
             "cancelled",
         ] {
-            assert_eq!(s.rejected_by_reason.get(reason), Some(&1), "{reason}");
+            assert_eq!(s.log.rejected_by_reason.get(reason), Some(&1), "{reason}");
         }
         assert_eq!(rs.len(), 1);
         assert!(rs[0].all_day);
@@ -978,7 +971,7 @@ BEGIN:VEVENT\r\nSUMMARY:All day\r\nCATEGORIES:JPY\r\nDTSTART;VALUE=DATE:20240102
             (rs[0].at, rs[0].end),
             (utc("2024-01-01 15:00"), utc("2024-01-02 15:00"))
         );
-        assert_eq!(s.rejections[0].row, 4);
+        assert_eq!(s.log.rejections[0].row, 4);
     }
 
     #[test]

@@ -13,7 +13,7 @@ pub mod vtimezone;
 
 use crate::import::zones::{LocalPolicy, Zone};
 use serde::Serialize;
-use std::collections::{BTreeMap, HashMap};
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 /// Release importance (RFC 5545's three-level PRIORITY scheme).
@@ -74,16 +74,10 @@ pub struct Release {
     pub region: Option<String>,
 }
 
-/// A calendar row or event that was not imported.
-#[derive(Debug, Clone, Serialize)]
-pub struct CalendarRejection {
-    pub file: String,
-    /// Row (CSV data row, from 1) or physical line (ICS) of the problem.
-    pub row: usize,
-    pub field: String,
-    pub reason: &'static str,
-    pub message: String,
-}
+use crate::import::log::ImportLog;
+/// A calendar row or event that was not imported (the shared import log's
+/// rejection, one type for trades and calendars).
+pub use crate::import::log::Rejection;
 
 /// What was read from the calendar files.
 #[derive(Debug, Clone, Default, Serialize)]
@@ -96,10 +90,9 @@ pub struct CalendarSummary {
     /// Occurrences added by RRULE expansion beyond the first.
     pub recurrences_expanded: usize,
     pub duplicates_merged: usize,
-    pub rows_rejected: usize,
-    pub rejected_by_reason: BTreeMap<String, usize>,
-    /// The first rejections (at most [`KEEP_REJECTIONS`]), in file order.
-    pub rejections: Vec<CalendarRejection>,
+    /// Rows and events rejected: counts by reason and the first ones kept.
+    #[serde(flatten)]
+    pub log: ImportLog,
     /// ICS components not used (VTODO, VJOURNAL, VALARM, X- components…),
     /// passed over whatever they hold.
     pub components_skipped: usize,
@@ -111,19 +104,9 @@ pub struct CalendarSummary {
     pub notes: Vec<String>,
 }
 
-/// How many rejections a summary keeps verbatim.
-pub const KEEP_REJECTIONS: usize = 1000;
-
 impl CalendarSummary {
-    pub(crate) fn reject(&mut self, r: CalendarRejection) {
-        self.rows_rejected += 1;
-        *self
-            .rejected_by_reason
-            .entry(r.reason.to_string())
-            .or_default() += 1;
-        if self.rejections.len() < KEEP_REJECTIONS {
-            self.rejections.push(r);
-        }
+    pub(crate) fn reject(&mut self, r: Rejection) {
+        self.log.reject(r);
     }
 }
 
@@ -230,8 +213,9 @@ pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, Calen
             csv::read(path, opts, &mut releases, &mut summary)?;
         }
     }
-    if summary.rows_rejected > 0 && !opts.skip_bad_rows {
+    if summary.log.rows_rejected > 0 && !opts.skip_bad_rows {
         let examples = summary
+            .log
             .rejections
             .iter()
             .take(20)
@@ -239,7 +223,7 @@ pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, Calen
             .collect::<Vec<_>>()
             .join("\n");
         return Err(CalendarError::Rejected {
-            count: summary.rows_rejected,
+            count: summary.log.rows_rejected,
             examples,
         });
     }
