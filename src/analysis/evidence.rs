@@ -474,3 +474,108 @@ mod tests {
         assert_eq!(placebo_p(None, &[Some(0.1)]), None);
     }
 }
+
+/// How many replicates each chance test draws.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ChanceSettings {
+    /// Placebo calendars for the p-value (0: no placebo test).
+    pub placebo: usize,
+    /// Bootstrap resamples for the intervals (0: no intervals).
+    pub bootstrap: usize,
+    /// Seed of the placebo shifts and the bootstrap resamples.
+    pub seed: u64,
+}
+
+/// Where a long test reports how far it is: the command line draws a bar,
+/// a library caller may pass [`NoProgress`].
+pub trait Progress: Sync {
+    /// A test of `total` steps named `what` starts.
+    fn begin(&self, what: &'static str, total: u64);
+    /// One step of the current test is done (called from any thread).
+    fn step(&self);
+    /// The current test is over.
+    fn end(&self);
+}
+
+/// Progress reported nowhere.
+pub struct NoProgress;
+
+impl Progress for NoProgress {
+    fn begin(&self, _: &'static str, _: u64) {}
+    fn step(&self) {}
+    fn end(&self) {}
+}
+
+/// The chance tests of `analyze`: the placebo p-value and the bootstrap
+/// intervals, each when asked for. `initial_equity`: the analysis' own
+/// (compounding sizing). With runs read as alternatives the pooled trades
+/// make no account path, so only the figures that are sums or shares keep
+/// an interval.
+#[allow(clippy::too_many_arguments)]
+pub fn chance(
+    trades: &Trades,
+    releases: &[Release],
+    currencies: &[crate::engine::relevance::InstrumentCurrencies],
+    settings: &crate::analysis::run::AnalysisSettings,
+    exposure: &crate::engine::exposure::Exposure,
+    initial_equity: Option<f64>,
+    c: ChanceSettings,
+    progress: &dyn Progress,
+) -> (Option<PlaceboResult>, Option<BootstrapResult>) {
+    let flags: Vec<bool> = (0..trades.len()).map(|i| exposure.is_exposed(i)).collect();
+    let placebo_result = (c.placebo > 0).then(|| {
+        progress.begin("placebo", c.placebo as u64);
+        let windows = crate::engine::exposure::used_windows(releases, &settings.windows);
+        let cur: Vec<Vec<String>> = currencies.iter().map(|x| x.currencies.clone()).collect();
+        let r = placebo(
+            trades,
+            releases,
+            &windows,
+            &cur,
+            settings.exposure_rule,
+            &flags,
+            PlaceboSettings {
+                n: c.placebo,
+                seed: c.seed,
+            },
+            &|| progress.step(),
+        );
+        progress.end();
+        r
+    });
+    let bootstrap = (c.bootstrap > 0).then(|| {
+        progress.begin("bootstrap", c.bootstrap as u64);
+        let ctx = Context {
+            span: trades.span().unwrap_or((0, 0)),
+            report_zone: settings.report_tz,
+            initial_equity,
+            tcr_p: settings.tcr_p,
+        };
+        let n = trades.len();
+        let draw = |r: usize| resample(n, c.seed, r);
+        let mut intervals = bootstrap_drawn(
+            c.bootstrap,
+            &draw,
+            trades,
+            &flags,
+            &settings.scenario,
+            &ctx,
+            0.95,
+            &|| progress.step(),
+        );
+        progress.end();
+        if crate::analysis::run::AccountFigures::of(trades, settings.pool)
+            == crate::analysis::run::AccountFigures::PerRun
+        {
+            intervals.retain(|name, _| !ACCOUNT_PATH_FIGURES.contains(name));
+        }
+        BootstrapResult {
+            resamples: c.bootstrap,
+            seed: c.seed,
+            confidence: 0.95,
+            method: BOOTSTRAP_METHOD,
+            intervals,
+        }
+    });
+    (placebo_result, bootstrap)
+}

@@ -71,14 +71,19 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     )?;
     // The scenario series (filled only for --out) go to the files below.
     let series = std::mem::take(&mut result.series);
-    let (placebo, bootstrap) = chance(
-        &args,
+    let (placebo, bootstrap) = crate::analysis::evidence::chance(
         trades,
         &cal.releases,
         currencies,
         &settings,
         &exposure,
         result.initial_equity,
+        crate::analysis::evidence::ChanceSettings {
+            placebo: args.chance.placebo,
+            bootstrap: args.chance.bootstrap,
+            seed: args.chance.seed,
+        },
+        &common::Bars::new(&args.terminal),
     );
     let inputs = Inputs::new(
         trade_summary,
@@ -172,79 +177,4 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         }
     }
     Ok(common::exit_status(&summary.warnings))
-}
-
-/// Placebo test and bootstrap intervals, with progress bars.
-fn chance(
-    args: &AnalyzeArgs,
-    trades: &crate::import::trades::Trades,
-    releases: &[crate::import::calendar::Release],
-    currencies: &[crate::engine::relevance::InstrumentCurrencies],
-    settings: &crate::analysis::run::AnalysisSettings,
-    exposure: &crate::engine::exposure::Exposure,
-    initial_equity: Option<f64>,
-) -> (
-    Option<crate::analysis::evidence::PlaceboResult>,
-    Option<crate::analysis::evidence::BootstrapResult>,
-) {
-    use crate::analysis::evidence as stats;
-    let flags: Vec<bool> = exposure.k.iter().map(|&k| k > 0).collect();
-    let c = &args.chance;
-    let placebo = (c.placebo > 0).then(|| {
-        let pb = common::progress_bar(&args.terminal, c.placebo as u64, "placebo");
-        let windows = crate::engine::exposure::used_windows(releases, &settings.windows);
-        let cur: Vec<Vec<String>> = currencies.iter().map(|x| x.currencies.clone()).collect();
-        let r = stats::placebo(
-            trades,
-            releases,
-            &windows,
-            &cur,
-            settings.exposure_rule,
-            &flags,
-            stats::PlaceboSettings {
-                n: c.placebo,
-                seed: c.seed,
-            },
-            &|| pb.inc(1),
-        );
-        pb.finish_and_clear();
-        r
-    });
-    let bootstrap = (c.bootstrap > 0).then(|| {
-        let pb = common::progress_bar(&args.terminal, c.bootstrap as u64, "bootstrap");
-        let ctx = crate::analysis::metrics::Context {
-            span: trades.span().expect("analysis checked trades exist"),
-            report_zone: settings.report_tz,
-            initial_equity,
-            tcr_p: settings.tcr_p,
-        };
-        let n = trades.len();
-        let draw = |r: usize| stats::resample(n, c.seed, r);
-        let mut intervals = stats::bootstrap_drawn(
-            c.bootstrap,
-            &draw,
-            trades,
-            &flags,
-            &settings.scenario,
-            &ctx,
-            0.95,
-            &|| pb.inc(1),
-        );
-        pb.finish_and_clear();
-        // Runs read as alternatives: the pooled trades make no account
-        // path, so only the figures that are sums or shares are kept.
-        if crate::analysis::run::AccountFigures::of(trades, settings.pool)
-            == crate::analysis::run::AccountFigures::PerRun
-        {
-            intervals.retain(|name, _| !stats::ACCOUNT_PATH_FIGURES.contains(name));
-        }
-        stats::BootstrapResult {
-            resamples: c.bootstrap,
-            seed: c.seed,
-            confidence: 0.95,
-            method: stats::BOOTSTRAP_METHOD,
-            intervals,
-        }
-    });
-    (placebo, bootstrap)
 }

@@ -438,6 +438,45 @@ pub fn progress_bar(t: &TerminalArgs, len: u64, what: &str) -> indicatif::Progre
     pb
 }
 
+/// A library test's progress drawn as one bar per test on stderr (hidden
+/// under --quiet or off a terminal).
+pub struct Bars {
+    terminal: TerminalArgs,
+    bar: std::sync::Mutex<Option<indicatif::ProgressBar>>,
+}
+
+impl Bars {
+    pub fn new(t: &TerminalArgs) -> Bars {
+        Bars {
+            terminal: t.clone(),
+            bar: std::sync::Mutex::new(None),
+        }
+    }
+
+    fn current(&self) -> Option<indicatif::ProgressBar> {
+        self.bar.lock().map(|b| b.clone()).unwrap_or(None)
+    }
+}
+
+impl crate::analysis::evidence::Progress for Bars {
+    fn begin(&self, what: &'static str, total: u64) {
+        let pb = progress_bar(&self.terminal, total, what);
+        if let Ok(mut b) = self.bar.lock() {
+            *b = Some(pb);
+        }
+    }
+    fn step(&self) {
+        if let Some(pb) = self.current() {
+            pb.inc(1);
+        }
+    }
+    fn end(&self) {
+        if let Some(pb) = self.current() {
+            pb.finish_and_clear();
+        }
+    }
+}
+
 /// Trades, calendar, instrument mapping and row handling: the inputs of
 /// every analysing subcommand.
 #[derive(Debug, Clone, Args)]
