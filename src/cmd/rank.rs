@@ -123,7 +123,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         by_shift.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed));
         let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
         common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
-        let fig = crate::render::html::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
+        let fig = crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
         let page = crate::render::html::charts_page(
             "Parameter sets with and without release trades",
             &format!(

@@ -114,7 +114,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
             "Tail reduction by window (frontier outlined)",
         )?;
         common::write_chart(&out, "tune", &svg, &args.charts)?;
-        let fig = crate::render::html::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
+        let fig = crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
         let page = crate::render::html::charts_page(
             "Window tuning",
             &format!(

@@ -515,8 +515,8 @@ pub struct AnalyzeCharts<'a> {
 }
 
 /// The analyze figures, in report order.
-pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, ChartError> {
-    use super::html::Figure;
+pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::Figure>, ChartError> {
+    use super::Figure;
     let s = d.summary;
     let day = crate::report::types::DAY_MS as f64;
     let t = &s.tail;
@@ -526,8 +526,8 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::html::Figure>, Ch
     };
     let caption = format!(
         "Sorted {what}: TCR {} → {} (threshold {})",
-        super::table::fmt_opt(t.baseline.tcr, 1),
-        super::table::fmt_opt(t.removed.tcr, 1),
+        super::text::fmt_opt(t.baseline.tcr, 1),
+        super::text::fmt_opt(t.removed.tcr, 1),
         t.threshold
     );
     let eq = |c: &[(i64, f64)]| {

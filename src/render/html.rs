@@ -2,6 +2,7 @@
 //! network. Sections: inputs and settings, the headline answer, scenario
 //! table, chance tests, charts, top releases, rejected rows, caution.
 
+use super::text::{SCENARIO_HEADER, scenario_rows};
 use crate::report::summary::Summary;
 use std::fmt::Write;
 
@@ -40,11 +41,7 @@ pub fn table(header: &[&str], rows: &[Vec<String>]) -> String {
     h
 }
 
-pub struct Figure {
-    pub id: &'static str,
-    pub caption: String,
-    pub svg: String,
-}
+use super::Figure;
 
 pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     let mut h = String::new();
@@ -56,7 +53,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
     let _ = write!(
         h,
         "<p class=\"answer\">{}</p>",
-        esc(&super::table::headline_sentence(s))
+        esc(&super::text::headline_sentence(s))
     );
     for w in &s.warnings {
         let _ = write!(h, "<p class=\"warn\">{}</p>", esc(w));
@@ -92,7 +89,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         ("sizing", super::label(&s.settings.scenario.sizing)),
         (
             "cap for capped scenario",
-            super::table::fmt_opt(s.cap_value, 4),
+            super::text::fmt_opt(s.cap_value, 4),
         ),
         ("report zone for days", s.settings.report_tz.to_string()),
     ];
@@ -100,7 +97,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         let _ = write!(h, "<tr><td>{}</td><td>{}</td></tr>", esc(k), esc(&v));
     }
     let _ = write!(h, "</table>");
-    let _ = write!(h, "<h2>Scenarios</h2>{}", super::table::scenario_html(s));
+    let _ = write!(h, "<h2>Scenarios</h2>{}", scenario_html(s));
     if s.account_figures == crate::report::types::AccountFigures::PerRun {
         let _ = write!(
             h,
@@ -112,9 +109,9 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
         let _ = write!(
             h,
             "<h2>Across runs</h2>{}<p>Runs above the tail threshold: {} with all trades, {} without the exposed ones.</p>",
-            table(&super::table::ACROSS_HEADER, &super::table::across_rows(d)),
-            super::table::pct(d.share_above_tcr_threshold_baseline),
-            super::table::pct(d.share_above_tcr_threshold_removed)
+            table(&super::text::ACROSS_HEADER, &super::text::across_rows(d)),
+            super::text::pct(d.share_above_tcr_threshold_baseline),
+            super::text::pct(d.share_above_tcr_threshold_removed)
         );
     }
     if !s.runs.is_empty() {
@@ -122,7 +119,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             h,
             "<h2>Runs</h2><p>The top 10 of {} runs by baseline net; every run is in summary.json.</p>{}",
             s.runs.len(),
-            table(&super::table::RUNS_HEADER, &super::table::runs_rows(s, 10))
+            table(&super::text::RUNS_HEADER, &super::text::runs_rows(s, 10))
         );
     }
     let _ = write!(
@@ -139,7 +136,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             crate::report::types::TailBasis::Return =>
                 "on per-trade returns (P/L ÷ equity before the trade), since every trade's return is known",
         },
-        table(&super::table::TAIL_HEADER, &super::table::tail_rows(s))
+        table(&super::text::TAIL_HEADER, &super::text::tail_rows(s))
     );
     if let Some(p) = &s.placebo {
         let _ = write!(
@@ -147,10 +144,7 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             "<h3>Placebo calendars ({}, seed {})</h3>{}",
             p.placebos,
             p.seed,
-            table(
-                &super::table::PLACEBO_HEADER,
-                &super::table::placebo_rows(p)
-            )
+            table(&super::text::PLACEBO_HEADER, &super::text::placebo_rows(p))
         );
     }
     if let Some(b) = &s.bootstrap {
@@ -161,8 +155,8 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             b.seed,
             b.confidence * 100.0,
             table(
-                &super::table::BOOTSTRAP_HEADER,
-                &super::table::bootstrap_rows(b)
+                &super::text::BOOTSTRAP_HEADER,
+                &super::text::bootstrap_rows(b)
             )
         );
     }
@@ -272,7 +266,7 @@ pub fn charts_page(
 /// The rank report's per-run table: every run, the largest rank shifts
 /// first (as given), with the ranking figure and both ranks.
 pub fn rank_table(rows: &[crate::report::types::RunRow], by: &str) -> String {
-    use super::table::{fmt_opt, pct};
+    use super::text::{fmt_opt, pct};
     let header = [
         "run",
         "trades",
@@ -311,4 +305,9 @@ pub fn rank_table(rows: &[crate::report::types::RunRow], by: &str) -> String {
         "<h2>Runs</h2><p>Every run, the largest rank shifts first; a positive shift means the run moves up once the exposed trades are removed.</p>{}",
         table(&header, &body)
     )
+}
+
+/// The scenario table as HTML.
+pub fn scenario_html(s: &Summary) -> String {
+    table(&SCENARIO_HEADER, &scenario_rows(s).0)
 }

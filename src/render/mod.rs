@@ -9,6 +9,7 @@ pub mod png;
 pub mod schedule;
 pub mod table;
 pub mod term;
+pub mod text;
 
 /// The snake_case name an enum has in JSON (`overlap`, `fixed`, `sharpe`),
 /// so terminal, HTML and JSON use the same words.
@@ -32,4 +33,15 @@ pub fn windows_text(w: &crate::report::types::WindowSettings) -> String {
         f(w.medium),
         f(w.low)
     )
+}
+
+/// A drawn chart with its caption: what the chart renderer hands the HTML
+/// report.
+pub struct Figure {
+    /// File stem and anchor (`chart-ID.svg`).
+    pub id: &'static str,
+    /// One sentence under the chart.
+    pub caption: String,
+    /// The SVG document.
+    pub svg: String,
 }
