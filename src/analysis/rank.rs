@@ -21,17 +21,26 @@ use serde::Serialize;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RankBy {
+    /// Net P/L.
     Net,
+    /// Gross profit ÷ |gross loss|.
     ProfitFactor,
+    /// Annualised Sharpe ratio of the daily series.
     Sharpe,
+    /// Annualised Sortino ratio of the daily series.
     Sortino,
+    /// Net ÷ maximum drawdown.
     ReturnToDrawdown,
+    /// Mean P/L per trade.
     Expectancy,
+    /// t-statistic of the mean daily P/L.
     TStat,
+    /// Maximum drawdown (lower is better).
     MaxDrawdown,
 }
 
 impl RankBy {
+    /// The figure this ranking reads from a scenario's metrics.
     pub fn value(self, m: &Metrics) -> Option<f64> {
         match self {
             RankBy::Net => Some(m.net),
@@ -52,29 +61,45 @@ impl RankBy {
 /// One parameter set.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunRow {
+    /// Run name.
     pub run: String,
+    /// Trades of the run.
     pub trades: usize,
+    /// Of them exposed.
     pub exposed_trades: usize,
+    /// Σ P/L of the exposed trades.
     pub exposed_pnl: f64,
     /// Exposed trades ÷ trades.
     pub exposed_share_of_trades: Option<f64>,
     /// Exposed P/L ÷ net P/L.
     pub exposed_share_of_net: Option<f64>,
+    /// Net P/L with every trade.
     pub net_baseline: f64,
+    /// Net P/L without the exposed trades.
     pub net_removed: f64,
+    /// Profit factor with every trade.
     pub profit_factor_baseline: Option<f64>,
+    /// Profit factor without the exposed trades.
     pub profit_factor_removed: Option<f64>,
+    /// Sharpe ratio with every trade.
     pub sharpe_baseline: Option<f64>,
+    /// Sharpe ratio without the exposed trades.
     pub sharpe_removed: Option<f64>,
+    /// Maximum drawdown with every trade.
     pub max_drawdown_baseline: Option<f64>,
+    /// Maximum drawdown without the exposed trades.
     pub max_drawdown_removed: Option<f64>,
+    /// Tail concentration ratio with every trade.
     pub tcr_baseline: Option<f64>,
+    /// Tail concentration ratio without the exposed trades.
     pub tcr_removed: Option<f64>,
     /// The ranking figure in each scenario.
     pub by_baseline: Option<f64>,
+    /// The ranking figure without the exposed trades.
     pub by_removed: Option<f64>,
     /// 1 = best; runs whose figure is undefined rank last.
     pub rank_baseline: usize,
+    /// Rank without the exposed trades.
     pub rank_removed: usize,
     /// rank_baseline − rank_removed: positive means the run moved up.
     pub rank_shift: i64,

@@ -16,10 +16,14 @@ use serde::Serialize;
 /// Everything that shapes the numbers.
 #[derive(Debug, Clone, Serialize)]
 pub struct AnalysisSettings {
+    /// Which trades count as exposed to a release window.
     pub exposure_rule: ExposureRule,
+    /// The release windows per tier, category and title.
     pub windows: WindowSettings,
+    /// Sizing, cap rule and starting equity of the scenarios.
     #[serde(flatten)]
     pub scenario: ScenarioSettings,
+    /// Zone whose calendar days make the daily series (Sharpe, Sortino).
     pub report_tz: Zone,
     /// p of the tail concentration ratio, in percent.
     pub tcr_p: f64,
@@ -33,6 +37,30 @@ pub struct AnalysisSettings {
     /// `--pool`: read every run's trades as one account (runs that really
     /// are one account split by strategy).
     pub pool: bool,
+}
+
+impl Default for AnalysisSettings {
+    /// The command line's defaults (a test in `cmd::settings` holds the two
+    /// together): overlap rule, windows high 15/30 and medium 5/10 minutes,
+    /// fixed sizing, cap at the unexposed trades' 99th |P/L| percentile,
+    /// days in UTC, tail concentration at 1 % with 12 as "leans on a
+    /// handful of trades", runs read as alternatives.
+    fn default() -> Self {
+        AnalysisSettings {
+            exposure_rule: ExposureRule::Overlap,
+            windows: WindowSettings::default(),
+            scenario: ScenarioSettings {
+                sizing: scenarios::Sizing::Fixed,
+                cap: scenarios::CapRule::Quantile(0.99),
+                initial_equity: None,
+            },
+            report_tz: crate::import::zones::Zone::Utc,
+            tcr_p: 1.0,
+            tcr_threshold: 12.0,
+            calendar_span: None,
+            pool: false,
+        }
+    }
 }
 
 /// How the overall account-path figures (Sharpe, Sortino, drawdowns,
@@ -51,6 +79,7 @@ pub enum AccountFigures {
 }
 
 impl AccountFigures {
+    /// How the account-path figures of these trades are read: per run when there are several runs and `pool` is off.
     pub fn of(trades: &Trades, pool: bool) -> AccountFigures {
         // One run, alone or picked with --run, is one account.
         if trades.runs.len() < 2 {
@@ -96,25 +125,34 @@ pub const TCR_THRESHOLD_SOURCE: &str =
 /// Tail figures of one scenario (docs/method.md §6).
 #[derive(Debug, Clone, Serialize)]
 pub struct TailLine {
+    /// Tail concentration ratio: mean of the top p % of |P/L| ÷ mean of all |P/L|.
     pub tcr: Option<f64>,
     /// Trades in the top bucket (k).
     pub top_bucket: usize,
     /// Fewer than 10 trades in the top bucket: too few to judge.
     pub too_few: bool,
+    /// Whether the ratio is above the threshold (`None` when undefined).
     pub above_threshold: Option<bool>,
     /// Hill (1975) tail index of |P/L|, k = ⌊√n⌋ upper order statistics.
     pub hill: Option<crate::analysis::evidence::HillEstimate>,
 }
 
+/// The tail figures of the three scenarios and the settings they use.
 #[derive(Debug, Clone, Serialize)]
 pub struct TailSummary {
     /// `amount`: tail figures on P/L; `return`: on per-trade returns.
     pub tcr_basis: scenarios::TailBasis,
+    /// p of the top bucket, in percent.
     pub p: f64,
+    /// Ratio above which the result "leans on a handful of trades".
     pub threshold: f64,
+    /// Where that threshold comes from.
     pub threshold_source: &'static str,
+    /// All trades.
     pub baseline: TailLine,
+    /// Without the exposed trades.
     pub removed: TailLine,
+    /// Exposed trades capped at the cap value.
     pub capped: TailLine,
 }
 
@@ -137,12 +175,16 @@ fn tail_line(pnl: &[f64], tcr: Option<f64>, p: f64, threshold: f64) -> TailLine 
     }
 }
 
+/// Why an analysis could not be made.
 #[derive(Debug, thiserror::Error)]
 pub enum AnalysisError {
+    /// Attribution did not add up to the exposed P/L (a defect; reported, never hidden).
     #[error(transparent)]
     Conservation(#[from] ConservationError),
+    /// The scenarios need equity that the input lacks.
     #[error(transparent)]
     Scenario(#[from] ScenarioError),
+    /// No trades were left to analyse.
     #[error("no trades to analyse")]
     NoTrades,
 }
@@ -150,32 +192,45 @@ pub enum AnalysisError {
 /// The `exposure` block of the summary (docs/method.md §8).
 #[derive(Debug, Clone, Serialize)]
 pub struct ExposureSummary {
+    /// Trades analysed.
     pub trades: usize,
+    /// Trades exposed to at least one used release.
     pub exposed_trades: usize,
+    /// Σ P/L of the exposed trades.
     pub exposed_pnl: f64,
     /// Trade–release matches (Σ k).
     pub matches: usize,
+    /// Releases whose tier and window make them count.
     pub releases_used: usize,
+    /// Used releases that at least one trade was exposed to.
     pub releases_touched: usize,
 }
 
 /// Metrics of the three scenarios.
 #[derive(Debug, Clone, Serialize)]
 pub struct ScenarioMetrics {
+    /// Figures with every trade.
     pub baseline: Metrics,
+    /// Figures without the exposed trades.
     pub removed: Metrics,
+    /// Figures with the exposed trades capped.
     pub capped: Metrics,
 }
 
 /// One parameter set.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunResult {
+    /// Run name.
     pub run: String,
+    /// Trades of the run.
     pub trades: usize,
+    /// Of them exposed.
     pub exposed_trades: usize,
+    /// Σ P/L of the run's exposed trades.
     pub exposed_pnl: f64,
     /// The cap C used for this run's `capped` scenario.
     pub cap_value: Option<f64>,
+    /// The run's figures in the three scenarios.
     pub scenarios: ScenarioMetrics,
     /// What the run's tail figures were measured on.
     #[serde(skip)]
@@ -187,10 +242,13 @@ pub struct RunResult {
 /// runs rather than from the pooled trades.
 #[derive(Debug, Clone, Serialize)]
 pub struct AcrossRuns {
+    /// Figure name (as in `Metrics`).
     pub metric: &'static str,
     /// Runs where the figure is defined in both scenarios.
     pub runs: usize,
+    /// Spread of the figure over runs with every trade.
     pub baseline: Spread,
+    /// Spread without the exposed trades.
     pub removed: Spread,
     /// Share of those runs whose figure is better without the exposed
     /// trades (higher; for drawdowns lower).
@@ -201,10 +259,15 @@ pub struct AcrossRuns {
 /// figure's direction.
 #[derive(Debug, Clone, Serialize)]
 pub struct Spread {
+    /// Median over runs.
     pub median: Option<f64>,
+    /// First quartile.
     pub q1: Option<f64>,
+    /// Third quartile.
     pub q3: Option<f64>,
+    /// Best run's value.
     pub best: Option<f64>,
+    /// Worst run's value.
     pub worst: Option<f64>,
 }
 
@@ -212,8 +275,11 @@ pub struct Spread {
 /// tail threshold with all trades and without the exposed ones.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunDistribution {
+    /// One line per account-path figure.
     pub figures: Vec<AcrossRuns>,
+    /// Share of runs whose tail ratio is above the threshold, all trades.
     pub share_above_tcr_threshold_baseline: Option<f64>,
+    /// The same without the exposed trades.
     pub share_above_tcr_threshold_removed: Option<f64>,
 }
 
@@ -279,16 +345,26 @@ pub fn across_runs(runs: &[RunResult], tcr_threshold: f64) -> Option<RunDistribu
     })
 }
 
+/// The result of [`analyze`]: every figure of the summary, no text.
 #[derive(Debug, Clone, Serialize)]
 pub struct Analysis {
+    /// Whether account-path figures are of one account or per run.
     pub account_figures: AccountFigures,
+    /// Counts and P/L of the exposure.
     pub exposure: ExposureSummary,
+    /// Per currency: trades outside the calendar's span.
     pub coverage: Vec<CoverageLine>,
+    /// The cap C of the capped scenario.
     pub cap_value: Option<f64>,
+    /// Starting equity used by compounding sizing.
     pub initial_equity: Option<f64>,
+    /// Figures of the three scenarios over all trades.
     pub scenarios: ScenarioMetrics,
+    /// Tail concentration and Hill index per scenario.
     pub tail: TailSummary,
+    /// P/L attributed to releases, categories, currencies and tiers.
     pub attribution: Attribution,
+    /// Per-run figures (runs listed by name).
     pub runs: Vec<RunResult>,
     /// The three scenarios' trades in close order (for charts and
     /// tail.csv; not part of summary.json); empty unless asked for.

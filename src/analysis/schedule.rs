@@ -13,9 +13,13 @@ use serde::Serialize;
 /// One release behind a blackout window.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct WindowRelease {
+    /// Release id (file's UID or a derived one).
     pub id: String,
+    /// Release title.
     pub title: String,
+    /// ISO 4217 currency.
     pub currency: String,
+    /// Tier (`high`, `medium`, `low`).
     pub tier: &'static str,
     /// Release instant, ms UTC.
     pub at: i64,
@@ -25,9 +29,13 @@ pub struct WindowRelease {
 /// both inclusive (the trade rule `overlap` treats window edges as inside).
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct Blackout {
+    /// Instrument the window applies to.
     pub instrument: String,
+    /// First blocked instant.
     pub start: i64,
+    /// Last blocked instant.
     pub end: i64,
+    /// The releases merged into this window.
     pub releases: Vec<WindowRelease>,
 }
 
@@ -52,6 +60,7 @@ impl Blackout {
 /// How windows are formed.
 #[derive(Debug, Clone)]
 pub struct ScheduleSettings {
+    /// Windows per tier, category and title.
     pub windows: WindowSettings,
     /// Merge windows whose gap is at most this many minutes.
     pub merge_gap_min: i64,

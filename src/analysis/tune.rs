@@ -40,20 +40,26 @@ pub fn parse_range(s: &str) -> Result<Vec<i64>, crate::import::setting::BadSetti
 /// One grid cell.
 #[derive(Debug, Clone, Serialize)]
 pub struct Cell {
+    /// Minutes before each release.
     pub pre_min: i64,
+    /// Minutes after each release.
     pub post_min: i64,
     /// Trades the windows remove (exposed trades).
     pub trades_removed: usize,
     /// Exposed P/L ÷ net P/L.
     pub share_of_net_removed: Option<f64>,
+    /// Tail concentration ratio without the exposed trades.
     pub tcr_after: Option<f64>,
     /// Baseline TCR − TCR after removal.
     pub tcr_reduction: Option<f64>,
+    /// Sharpe ratio without the exposed trades.
     pub sharpe_after: Option<f64>,
+    /// Maximum drawdown without the exposed trades.
     pub max_drawdown_after: Option<f64>,
     /// With alternative runs: share of runs whose tail concentration falls
     /// without the exposed trades, and share whose Sharpe rises.
     pub runs_tcr_reduced: Option<f64>,
+    /// Share of runs whose Sharpe ratio rises.
     pub runs_sharpe_improved: Option<f64>,
     /// Union of the windows (of the traded currencies) ÷ weekday time in
     /// the trades' span.
@@ -63,6 +69,7 @@ pub struct Cell {
     pub frontier: bool,
 }
 
+/// The window grid of [`tune`]: one cell per (pre, post).
 #[derive(Debug, Clone, Serialize)]
 pub struct TuneResult {
     /// `per_run`: each cell's tail, Sharpe and drawdown figures are medians
@@ -73,11 +80,15 @@ pub struct TuneResult {
     pub runs: usize,
     /// `None`: every used tier gets the cell's window; else only this tier.
     pub tier: Option<Tier>,
+    /// Pre-release minutes of the grid's rows.
     pub pre: Vec<i64>,
+    /// Post-release minutes of the grid's columns.
     pub post: Vec<i64>,
+    /// Tail concentration ratio with every trade.
     pub tcr_baseline: Option<f64>,
     /// `amount` or `return`: what the cells' tail figures are measured on.
     pub tcr_basis: scenarios::TailBasis,
+    /// The cells, row after row.
     pub cells: Vec<Cell>,
 }
 

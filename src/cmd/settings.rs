@@ -164,3 +164,28 @@ impl ScenarioArgs {
         })
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use clap::Parser;
+
+    /// The shared flags of `analyze`, parsed alone.
+    #[derive(Parser)]
+    struct Flags {
+        #[command(flatten)]
+        scenario: super::ScenarioArgs,
+        #[command(flatten)]
+        windows: super::WindowArgs,
+    }
+
+    #[test]
+    fn library_defaults_are_the_command_lines() {
+        let f = Flags::parse_from(["eventfence"]);
+        let cli = f.scenario.settings(&f.windows).unwrap();
+        let lib = crate::analysis::run::AnalysisSettings::default();
+        assert_eq!(
+            serde_json::to_value(&cli).unwrap(),
+            serde_json::to_value(&lib).unwrap()
+        );
+    }
+}

@@ -27,27 +27,36 @@ pub enum Unmapped {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Source {
+    /// From a six-letter currency pair's code.
     Pair,
+    /// From the user's instrument map.
     Mapped,
+    /// Unmapped, read as exposed to every calendar currency (`--unmapped all`).
     AllCurrencies,
+    /// Unmapped, read as exposed to none (`--unmapped none`).
     NoCurrencies,
 }
 
 /// One instrument's resolved currencies.
 #[derive(Debug, Clone, Serialize)]
 pub struct InstrumentCurrencies {
+    /// Instrument name as in the trades.
     pub instrument: String,
     /// Sorted ISO codes; empty for `none`; every calendar currency for `all`.
     pub currencies: Vec<String>,
+    /// Where the currencies came from.
     pub source: Source,
 }
 
+/// Why instruments could not be given currencies.
 #[derive(Debug, thiserror::Error)]
 pub enum RelevanceError {
     #[error(
         "no currencies known for instrument(s) {0}; map them with --instrument-map CODE=USD (several: CODE=USD/EUR) or an --instrument-map-file, or choose --unmapped all|none"
     )]
+    /// Instruments without currencies, listed.
     Unmapped(String),
+    /// The mapping itself is unusable.
     #[error("instrument mapping: {0}")]
     Mapping(String),
 }

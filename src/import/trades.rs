@@ -38,9 +38,11 @@ const REQUIRED: &[&str] = &["opened_at", "closed_at", "instrument", "pnl"];
 pub struct Trades {
     /// Open and close instants, ms since epoch UTC.
     pub opened: Vec<i64>,
+    /// Close instants, ms since epoch UTC.
     pub closed: Vec<i64>,
     /// Index into `instruments`.
     pub instrument: Vec<u32>,
+    /// Instrument names, numbered in order of first appearance.
     pub instruments: Vec<String>,
     /// P/L in account currency, after costs.
     pub pnl: Vec<f64>,
@@ -50,9 +52,13 @@ pub struct Trades {
     pub runs: Vec<String>,
     /// +1 long, −1 short, 0 unknown; `None` when the column is absent.
     pub side: Option<Vec<i8>>,
+    /// Position size, when mapped.
     pub size: Option<Vec<f64>>,
+    /// Entry price, when mapped.
     pub entry_price: Option<Vec<f64>>,
+    /// Exit price, when mapped.
     pub exit_price: Option<Vec<f64>>,
+    /// Fees as written (already inside `pnl` when mapped into it).
     pub fees: Option<Vec<f64>>,
     /// Account equity when the trade opened.
     pub equity_before: Option<Vec<f64>>,
@@ -60,19 +66,24 @@ pub struct Trades {
     pub pnl_pct: Option<Vec<f64>>,
     /// Source file index (into `summary.files`) and data row (from 1).
     pub file: Vec<u16>,
+    /// Data row in its file, from 1.
     pub row: Vec<u32>,
     /// Columns named by `--keep`, as written, one vector per column.
     pub kept_names: Vec<String>,
+    /// The `--keep` columns' values, one vector per column.
     pub kept: Vec<Vec<String>>,
 }
 
 impl Trades {
+    /// Number of trades.
     pub fn len(&self) -> usize {
         self.pnl.len()
     }
+    /// Whether there are no trades.
     pub fn is_empty(&self) -> bool {
         self.pnl.is_empty()
     }
+    /// Whether the trades carry run names (an optimisation export).
     pub fn has_runs(&self) -> bool {
         !self.runs.is_empty()
     }
@@ -204,8 +215,11 @@ use crate::import::log::{ImportLog, KEEP_REJECTIONS, RowError};
 /// What the import read, kept, and rejected.
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct TradeSummary {
+    /// The files read, in order.
     pub files: Vec<String>,
+    /// Data rows read (headers not counted).
     pub rows_read: usize,
+    /// Rows imported as trades.
     pub rows_imported: usize,
     /// Rows rejected: counts by reason and the first ones kept.
     #[serde(flatten)]
@@ -223,8 +237,11 @@ pub struct TradeSummary {
 /// How one file's time column was read.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct TimeColumn {
+    /// The file.
     pub file: String,
+    /// The trade field (`opened_at` or `closed_at`).
     pub field: &'static str,
+    /// The file's column that fed it.
     pub column: String,
     /// In words: text, zoned or naive timestamps, or epoch numbers, and the
     /// zone that applied.
@@ -233,9 +250,12 @@ pub struct TimeColumn {
 
 /// Errors that stop a trade import.
 #[derive(Debug, thiserror::Error)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum TradeError {
+    /// A file could not be read.
     #[error("trades {path}: {message}")]
     Read { path: PathBuf, message: String },
+    /// Required or mapped columns are absent.
     #[error("trades {path}: no column {missing} (columns: {available}){hint}")]
     MissingColumns {
         path: PathBuf,
@@ -246,9 +266,12 @@ pub enum TradeError {
     #[error(
         "{count} trade row(s) rejected, for example:\n{examples}\n(rerun with --skip-bad-rows to continue without them; reports then state what was skipped)"
     )]
+    /// Rows were rejected and skipping them was not asked for.
     Rejected { count: usize, examples: String },
+    /// A path pattern matched no file.
     #[error("no trade files match '{0}'")]
     NoFiles(String),
+    /// The column mapping cannot be used.
     #[error("mapping: {0}")]
     Mapping(String),
 }
@@ -256,12 +279,17 @@ pub enum TradeError {
 /// Settings for reading trades.
 #[derive(Debug, Clone)]
 pub struct TradeOptions {
+    /// Zone of timestamps without an offset.
     pub zone: Zone,
+    /// What to do with local times in a DST gap or overlap.
     pub policy: LocalPolicy,
+    /// How time text is read (`Auto` recognises the common forms).
     pub time_format: TimeFormat,
     /// field → column name; unmapped fields use their own name.
     pub columns: HashMap<String, String>,
+    /// Field separator; `None`: detected, and the guess is shown.
     pub delimiter: Option<u8>,
+    /// Import the good rows and report the bad ones instead of stopping.
     pub skip_bad_rows: bool,
     /// The user's own columns carried unchanged into the per-trade outputs
     /// (`--keep`).
@@ -284,9 +312,12 @@ impl Default for TradeOptions {
 
 /// `--run` named a run the input does not have.
 #[derive(Debug, thiserror::Error)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum RunSelectionError {
+    /// A run was asked for but the trades have no runs.
     #[error("--run {name}: the trades have no runs (map a run column, or give one file per run)")]
     NoRuns { name: String },
+    /// The named run is not among the trades' runs.
     #[error("--run {name}: no such run; runs are {runs}")]
     NoSuchRun { name: String, runs: String },
 }
@@ -294,25 +325,31 @@ pub enum RunSelectionError {
 /// A column mapping (`--map`, `--map-file`, `--calendar-map`) that cannot
 /// be used.
 #[derive(Debug, thiserror::Error)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum MappingError {
+    /// A mapping entry that is not `field=column`.
     #[error("'{0}' is not field=column")]
     NotAPair(String),
+    /// A mapping names a field the tool does not know.
     #[error("unknown field '{field}' in '{pair}'; fields are {fields}")]
     UnknownField {
         field: String,
         pair: String,
         fields: String,
     },
+    /// A mapping file could not be read.
     #[error("{}: {source}", path.display())]
     Read {
         path: PathBuf,
         source: std::io::Error,
     },
+    /// A mapping file is not a JSON object of strings.
     #[error("{}: {source} (expected {{\"field\": \"column\"}})", path.display())]
     Json {
         path: PathBuf,
         source: serde_json::Error,
     },
+    /// A mapping file names a field the tool does not know.
     #[error("{}: unknown field '{field}'; fields are {fields}", path.display())]
     UnknownFieldInFile {
         path: PathBuf,

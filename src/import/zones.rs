@@ -17,24 +17,30 @@ use std::str::FromStr;
 
 /// Milliseconds in one minute and one day.
 pub const MINUTE_MS: i64 = 60_000;
+/// Milliseconds in a day.
 pub const DAY_MS: i64 = 86_400_000;
 
 /// Errors from parsing a zone spec or converting a local time.
 #[derive(Debug, thiserror::Error, PartialEq)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum ZoneError {
     #[error(
         "unknown time zone '{0}': use UTC, an IANA name such as Europe/Berlin, an offset such as +02:00 or UTC-05:00, or a shifted zone such as America/New_York+07:00"
     )]
+    /// Not a zone spec the tool knows.
     Unknown(String),
+    /// An offset beyond ±18:00.
     #[error("offset '{0}' is out of range (at most ±18:00)")]
     OffsetRange(String),
     #[error(
         "local time {local} does not exist in {zone} (clocks jump forward); choose --local-policy earlier or later"
     )]
+    /// A local time that does not exist (clocks jump forward).
     Gap { local: NaiveDateTime, zone: String },
     #[error(
         "local time {local} happens twice in {zone} (clocks fall back); choose --local-policy earlier or later"
     )]
+    /// A local time that happens twice (clocks fall back).
     Ambiguous { local: NaiveDateTime, zone: String },
 }
 
@@ -57,8 +63,11 @@ pub enum LocalPolicy {
 /// A parsed zone spec.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Zone {
+    /// Coordinated Universal Time.
     Utc,
+    /// A fixed offset from UTC.
     Fixed(FixedOffset),
+    /// An IANA time zone, DST included.
     Iana(Tz),
     /// An IANA zone's wall clock moved by a fixed number of seconds.
     Shifted(Tz, i32),
@@ -377,6 +386,7 @@ pub struct LocalDayCursor<'a> {
 }
 
 impl<'a> LocalDayCursor<'a> {
+    /// A cursor over `zone`'s local days.
     pub fn new(zone: &'a Zone) -> Self {
         LocalDayCursor {
             zone,
@@ -386,6 +396,7 @@ impl<'a> LocalDayCursor<'a> {
         }
     }
 
+    /// The local day (days since 1970-01-01) of instant `ms`.
     pub fn day(&mut self, ms: i64) -> i64 {
         if self.lo <= ms && ms < self.hi {
             return self.day;
