@@ -96,16 +96,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     crate::import::phases::mark("summary");
     if let Some(dir) = &args.out {
         let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        let (sorted_abs, curves) = (series.sorted_abs(&exposure), series.curves(&trades.closed));
-        let mut removed_abs: Vec<f64> = series
-            .removed
-            .view()
-            .tail_values()
-            .iter()
-            .map(|v| v.abs())
-            .collect();
-        removed_abs.sort_by(|a, b| b.total_cmp(a));
-        drop(series);
+        let sorted_abs = series.sorted_abs(&exposure);
         let annotated = crate::render::files::annotated_trades(
             trades,
             &exposure,
@@ -124,34 +115,15 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             "tail.csv",
             &crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis),
         )?;
-        let high_releases = cal
-            .releases
-            .iter()
-            .filter(|r| {
-                r.tier == crate::import::calendar::Tier::High
-                    && summary.settings.windows.window_for(r).is_some()
-            })
-            .map(|r| r.at)
-            .collect();
-        let scatter = (0..trades.len())
-            .map(|i| {
-                (
-                    exposure.minutes_from_nearest[i],
-                    trades.pnl[i],
-                    exposure.is_exposed(i),
-                )
-            })
-            .collect();
-        let data = crate::render::charts::AnalyzeCharts {
-            summary: &summary,
-            sorted_abs: &sorted_abs,
-            removed_abs: &removed_abs,
-            curves: &curves,
-            span_start: trades.span().map_or(0, |s| s.0),
-            high_releases,
-            scatter,
-        };
-        let figures = crate::render::charts::analyze_figures(&data)?;
+        let figures = figures(
+            &summary,
+            trades,
+            &exposure,
+            &cal.releases,
+            &series,
+            &sorted_abs,
+        )?;
+        drop(series);
         for f in &figures {
             common::write_chart(&out, f.id, &f.svg, &args.charts)?;
         }
@@ -177,4 +149,65 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         }
     }
     Ok(common::exit_status(&summary.warnings))
+}
+
+/// The charts of the report (SVG), drawn from the summary and the scenario
+/// series; none in a build without the `charts` feature.
+#[cfg(feature = "charts")]
+fn figures(
+    summary: &Summary,
+    trades: &crate::import::trades::Trades,
+    exposure: &crate::engine::exposure::Exposure,
+    releases: &[crate::import::calendar::Release],
+    series: &crate::analysis::scenarios::Scenarios,
+    sorted_abs: &[(f64, bool)],
+) -> Result<Vec<crate::render::Figure>> {
+    let curves = series.curves(&trades.closed);
+    let mut removed_abs: Vec<f64> = series
+        .removed
+        .view()
+        .tail_values()
+        .iter()
+        .map(|v| v.abs())
+        .collect();
+    removed_abs.sort_by(|a, b| b.total_cmp(a));
+    let high_releases = releases
+        .iter()
+        .filter(|r| {
+            r.tier == crate::import::calendar::Tier::High
+                && summary.settings.windows.window_for(r).is_some()
+        })
+        .map(|r| r.at)
+        .collect();
+    let scatter = (0..trades.len())
+        .map(|i| {
+            (
+                exposure.minutes_from_nearest[i],
+                trades.pnl[i],
+                exposure.is_exposed(i),
+            )
+        })
+        .collect();
+    let data = crate::render::charts::AnalyzeCharts {
+        summary,
+        sorted_abs,
+        removed_abs: &removed_abs,
+        curves: &curves,
+        span_start: trades.span().map_or(0, |s| s.0),
+        high_releases,
+        scatter,
+    };
+    Ok(crate::render::charts::analyze_figures(&data)?)
+}
+
+#[cfg(not(feature = "charts"))]
+fn figures(
+    _: &Summary,
+    _: &crate::import::trades::Trades,
+    _: &crate::engine::exposure::Exposure,
+    _: &[crate::import::calendar::Release],
+    _: &crate::analysis::scenarios::Scenarios,
+    _: &[(f64, bool)],
+) -> Result<Vec<crate::render::Figure>> {
+    Ok(Vec::new())
 }

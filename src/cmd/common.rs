@@ -18,6 +18,7 @@ pub fn exit_status(warnings: &[String]) -> std::process::ExitCode {
     }
 }
 
+#[cfg(feature = "charts")]
 /// Writes `chart-ID.svg` (and `.png` when asked) into the output folder.
 pub fn write_chart(
     out: &crate::render::output::OutDir,
@@ -35,5 +36,16 @@ pub fn write_chart(
             &crate::render::png::svg_to_png(svg)?,
         )?;
     }
+    Ok(())
+}
+
+/// Without the `charts` feature there is no chart to write.
+#[cfg(not(feature = "charts"))]
+pub fn write_chart(
+    _: &crate::render::output::OutDir,
+    _: &str,
+    _: &str,
+    _: &ChartArgs,
+) -> Result<()> {
     Ok(())
 }

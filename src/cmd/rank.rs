@@ -115,15 +115,21 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
                 out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?
             }
         };
-        let pts: Vec<(usize, usize, String)> = rows
-            .iter()
-            .map(|r| (r.rank_baseline, r.rank_removed, r.run.clone()))
-            .collect();
         let mut by_shift = rows.clone();
         by_shift.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed));
-        let svg = crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
-        common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
-        let fig = crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg };
+        #[cfg(feature = "charts")]
+        let figures = {
+            let pts: Vec<(usize, usize, String)> = rows
+                .iter()
+                .map(|r| (r.rank_baseline, r.rank_removed, r.run.clone()))
+                .collect();
+            let svg =
+                crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
+            common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
+            vec![crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg }]
+        };
+        #[cfg(not(feature = "charts"))]
+        let figures: Vec<crate::render::Figure> = Vec::new();
         let page = crate::render::html::charts_page(
             "Parameter sets with and without release trades",
             &format!(
@@ -132,7 +138,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
                 loaded.trade_summary.pnl_formed_as
             ),
             &warnings,
-            &[fig],
+            &figures,
             &crate::render::html::rank_table(&by_shift, &crate::render::label(&args.by)),
             CAUTION,
         );

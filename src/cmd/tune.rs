@@ -105,16 +105,21 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         )?;
         out.write("tune.json", json.as_bytes())?;
         let res = &report.result;
-        let cell = |a: usize, b: usize| &res.cells[a * res.post.len() + b];
-        let svg = crate::render::charts::heatmap(
-            &res.pre,
-            &res.post,
-            &|a, b| cell(a, b).tcr_reduction,
-            &|a, b| cell(a, b).frontier,
-            "Tail reduction by window (frontier outlined)",
-        )?;
-        common::write_chart(&out, "tune", &svg, &args.charts)?;
-        let fig = crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg };
+        #[cfg(feature = "charts")]
+        let figures = {
+            let cell = |a: usize, b: usize| &res.cells[a * res.post.len() + b];
+            let svg = crate::render::charts::heatmap(
+                &res.pre,
+                &res.post,
+                &|a, b| cell(a, b).tcr_reduction,
+                &|a, b| cell(a, b).frontier,
+                "Tail reduction by window (frontier outlined)",
+            )?;
+            common::write_chart(&out, "tune", &svg, &args.charts)?;
+            vec![crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg }]
+        };
+        #[cfg(not(feature = "charts"))]
+        let figures: Vec<crate::render::Figure> = Vec::new();
         let page = crate::render::html::charts_page(
             "Window tuning",
             &format!(
@@ -132,7 +137,7 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
                 }
             ),
             &report.warnings,
-            &[fig],
+            &figures,
             "",
             CAUTION,
         );

@@ -140,12 +140,9 @@ pub fn estimate_rows(path: &Path) -> Result<u64, BudgetError> {
         == crate::import::table::TableFormat::Parquet
     {
         // Parquet compresses; its footer holds the row count.
-        use polars::prelude::*;
-        let file = std::fs::File::open(path).map_err(|e| err(e.to_string()))?;
-        return ParquetReader::new(file)
-            .num_rows()
+        return crate::import::table::parquet_row_count(path)
             .map(|n| n as u64)
-            .map_err(|e| err(format!("not a readable Parquet file: {e}")));
+            .map_err(|e| err(e.to_string()));
     }
     let mut head = Vec::with_capacity(256 * 1024);
     std::fs::File::open(path)

@@ -144,33 +144,85 @@ pub enum TableError {
     /// The columns read could not be put together as a table.
     #[error("{0}")]
     Frame(polars::error::PolarsError),
+    /// A Parquet file given to a build without the `parquet` feature.
+    #[error(
+        "{0}: this build reads no Parquet (built without the `parquet` feature); convert the file to CSV"
+    )]
+    NoParquet(String),
 }
 
 /// The rows of a Parquet file as (first row, rows) per row group, so that a
 /// large file can be read one group at a time.
 pub fn parquet_row_groups(path: &Path) -> Result<Vec<(usize, usize)>, TableError> {
-    let file = std::fs::File::open(path)?;
-    let mut reader = ParquetReader::new(file);
-    let meta = reader.get_metadata()?;
-    let mut first = 0;
-    Ok(meta
-        .row_groups
-        .iter()
-        .map(|g| {
-            let span = (first, g.num_rows());
-            first += g.num_rows();
-            span
-        })
-        .collect())
+    parquet::row_groups(path)
+}
+
+/// Rows of a Parquet file from its footer (nothing decoded).
+pub fn parquet_row_count(path: &Path) -> Result<usize, TableError> {
+    parquet::row_count(path)
+}
+
+/// Every Parquet read, in one place: behind the `parquet` feature, which
+/// the command line enables by default; without it each read says so.
+#[cfg(feature = "parquet")]
+mod parquet {
+    use super::TableError;
+    use polars::prelude::*;
+    use std::path::Path;
+
+    pub fn row_groups(path: &Path) -> Result<Vec<(usize, usize)>, TableError> {
+        let file = std::fs::File::open(path)?;
+        let mut reader = ParquetReader::new(file);
+        let meta = reader.get_metadata()?;
+        let mut first = 0;
+        Ok(meta
+            .row_groups
+            .iter()
+            .map(|g| {
+                let span = (first, g.num_rows());
+                first += g.num_rows();
+                span
+            })
+            .collect())
+    }
+
+    pub fn row_count(path: &Path) -> Result<usize, TableError> {
+        let file = std::fs::File::open(path)?;
+        Ok(ParquetReader::new(file).num_rows()?)
+    }
+
+    /// The whole file, or `rows` rows from `first`.
+    pub fn frame(path: &Path, slice: Option<(usize, usize)>) -> Result<DataFrame, TableError> {
+        let file = std::fs::File::open(path)?;
+        let mut reader = ParquetReader::new(file);
+        if let Some((first, rows)) = slice {
+            reader = reader.with_slice(Some((first, rows)));
+        }
+        Ok(reader.finish()?)
+    }
+}
+
+#[cfg(not(feature = "parquet"))]
+mod parquet {
+    use super::TableError;
+    use polars::prelude::DataFrame;
+    use std::path::Path;
+
+    pub fn row_groups(path: &Path) -> Result<Vec<(usize, usize)>, TableError> {
+        Err(TableError::NoParquet(path.display().to_string()))
+    }
+    pub fn row_count(path: &Path) -> Result<usize, TableError> {
+        Err(TableError::NoParquet(path.display().to_string()))
+    }
+    pub fn frame(path: &Path, _: Option<(usize, usize)>) -> Result<DataFrame, TableError> {
+        Err(TableError::NoParquet(path.display().to_string()))
+    }
 }
 
 impl Table {
     /// Rows `first..first + rows` of a Parquet file.
     pub fn read_parquet_rows(path: &Path, first: usize, rows: usize) -> Result<Table, TableError> {
-        let file = std::fs::File::open(path)?;
-        let df = ParquetReader::new(file)
-            .with_slice(Some((first, rows)))
-            .finish()?;
+        let df = parquet::frame(path, Some((first, rows)))?;
         Ok(Table {
             df,
             problems: Vec::new(),
@@ -185,8 +237,7 @@ impl Table {
     /// alone.
     pub fn read(path: &Path, delimiter: Option<u8>) -> Result<Table, TableError> {
         if TableFormat::of_path(path) == TableFormat::Parquet {
-            let file = std::fs::File::open(path)?;
-            let df = ParquetReader::new(file).finish()?;
+            let df = parquet::frame(path, None)?;
             return Ok(Table {
                 df,
                 problems: Vec::new(),

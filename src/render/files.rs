@@ -185,9 +185,7 @@ impl AnnotatedTrades<'_> {
         for (name, values) in t.kept_names.iter().zip(&t.kept) {
             df.with_column(Column::new(name.as_str().into(), values.clone()))?;
         }
-        let mut buf = Vec::new();
-        ParquetWriter::new(&mut buf).finish(&mut df)?;
-        Ok(buf)
+        parquet_bytes(&mut df)
     }
 }
 
@@ -370,9 +368,7 @@ pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> anyhow::Result<Vec
             Column::new("placebo_p".into(), f(|r| r.placebo_p)),
         ],
     )?;
-    let mut buf = Vec::new();
-    ParquetWriter::new(&mut buf).finish(&mut df)?;
-    Ok(buf)
+    parquet_bytes(&mut df)
 }
 
 /// grid.csv: one row per tune cell (heat-map data).
@@ -399,4 +395,22 @@ pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
         );
     }
     s.into_bytes()
+}
+
+/// A frame as Parquet bytes: behind the `parquet` feature, which the
+/// command line enables by default.
+fn parquet_bytes(df: &mut polars::prelude::DataFrame) -> anyhow::Result<Vec<u8>> {
+    #[cfg(feature = "parquet")]
+    {
+        let mut buf = Vec::new();
+        polars::prelude::ParquetWriter::new(&mut buf).finish(df)?;
+        Ok(buf)
+    }
+    #[cfg(not(feature = "parquet"))]
+    {
+        let _ = df;
+        anyhow::bail!(
+            "this build writes no Parquet (built without the `parquet` feature); choose csv"
+        )
+    }
 }

@@ -1,10 +1,12 @@
 //! Renderers: turn result structs into bytes (terminal tables, CSV,
 //! Parquet). No computation happens here; `output` owns the paths and atomic writes.
 
+#[cfg(feature = "charts")]
 pub mod charts;
 pub mod files;
 pub mod html;
 pub mod output;
+#[cfg(feature = "charts")]
 pub mod png;
 pub mod schedule;
 pub mod table;
