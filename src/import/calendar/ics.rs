@@ -587,6 +587,83 @@ fn event_releases(
     if prop("STATUS").is_some_and(|p| p.value.trim().eq_ignore_ascii_case("CANCELLED")) {
         return Ok(EventOutcome::Cancelled);
     }
+    let Labels {
+        title,
+        currency,
+        tier,
+        category,
+        region,
+    } = event_labels(ev, opts)?;
+    let dt =
+        prop("DTSTART").ok_or_else(|| reject("DTSTART", "missing_time", "event has no DTSTART"))?;
+    let start = parse_ics_time(&dt.value, dt.param("VALUE"))
+        .map_err(|m| reject("DTSTART", "bad_time", m))?;
+    let zone = match (start, dt.param("TZID")) {
+        (IcsTime::Utc(_), Some(_)) => {
+            return Err(reject(
+                "DTSTART",
+                "bad_time",
+                "TZID must not be used with a UTC (Z) time (RFC 5545 §3.3.5)",
+            ));
+        }
+        (IcsTime::Local(_), Some(tzid)) => resolve_tzid(tzid, zones_raw, custom, until)
+            .map_err(|m| reject("DTSTART", "unknown_zone", m))?,
+        _ => EventZone::Named(opts.zone),
+    };
+    let (starts, has_rules) = event_starts(
+        ev,
+        start,
+        dt.param("TZID").is_some(),
+        &zone,
+        opts,
+        until,
+        notes,
+    )?;
+    let excluded = excluded_starts(ev)?;
+    let uid = prop("UID")
+        .map(|p| p.value.trim().to_string())
+        .filter(|s| !s.is_empty());
+    let recurring = starts.len() > 1 || has_rules;
+    let mut out = Vec::with_capacity(starts.len());
+    for s in starts {
+        if excluded.contains(&s) {
+            continue;
+        }
+        let (at, end, all_day) = instant_of(s, &zone, opts);
+        let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ev.line));
+        let id = if recurring {
+            format!("{base}/{}", crate::import::zones::format_utc(at))
+        } else {
+            base
+        };
+        out.push(Release {
+            id,
+            at,
+            end,
+            all_day,
+            title: title.clone(),
+            currency: currency.clone(),
+            tier,
+            category: category.clone(),
+            region: region.clone(),
+        });
+    }
+    Ok(EventOutcome::Releases(out))
+}
+
+/// What an event says about itself: title, currency, tier, category and
+/// region, from SUMMARY, PRIORITY, CATEGORIES, the X- properties and the
+/// title rules (in that order of strength).
+struct Labels {
+    title: String,
+    currency: String,
+    tier: Tier,
+    category: Option<String>,
+    region: Option<String>,
+}
+
+fn event_labels(ev: &Component, opts: &CalendarOptions) -> Result<Labels, Reject> {
+    let prop = |name: &str| ev.props.iter().find(|p| p.name == name);
     let title = prop("SUMMARY")
         .map(|p| unescape_text(&p.value))
         .unwrap_or_default();
@@ -669,22 +746,27 @@ fn event_releases(
     })?;
     let tier = tier.unwrap_or(Tier::Medium);
 
-    let dt =
-        prop("DTSTART").ok_or_else(|| reject("DTSTART", "missing_time", "event has no DTSTART"))?;
-    let start = parse_ics_time(&dt.value, dt.param("VALUE"))
-        .map_err(|m| reject("DTSTART", "bad_time", m))?;
-    let zone = match (start, dt.param("TZID")) {
-        (IcsTime::Utc(_), Some(_)) => {
-            return Err(reject(
-                "DTSTART",
-                "bad_time",
-                "TZID must not be used with a UTC (Z) time (RFC 5545 §3.3.5)",
-            ));
-        }
-        (IcsTime::Local(_), Some(tzid)) => resolve_tzid(tzid, zones_raw, custom, until)
-            .map_err(|m| reject("DTSTART", "unknown_zone", m))?,
-        _ => EventZone::Named(opts.zone),
-    };
+    Ok(Labels {
+        title,
+        currency,
+        tier,
+        category,
+        region,
+    })
+}
+
+/// The event's occurrence starts: DTSTART alone, or the union of its
+/// RRULE expansions over the span, plus its RDATEs; and whether it has
+/// rules at all.
+fn event_starts(
+    ev: &Component,
+    start: IcsTime,
+    has_tzid: bool,
+    zone: &EventZone,
+    opts: &CalendarOptions,
+    until: NaiveDateTime,
+    notes: &mut Vec<String>,
+) -> Result<(Vec<IcsTime>, bool), Reject> {
     // Occurrences as (local or UTC) start values: the union of every RRULE
     // (RFC 5545 deprecates more than one, but software still writes them).
     let rrules: Vec<String> = ev
@@ -720,9 +802,8 @@ fn event_releases(
             IcsTime::Date(d) => d.and_time(NaiveTime::MIN),
             IcsTime::Utc(t) | IcsTime::Local(t) => t,
         };
-        let Some(expandable) =
-            rule_for_expander(rule, start, dt.param("TZID").is_some(), &zone, notes)
-                .map_err(|m| reject("RRULE", "bad_rule", m))?
+        let Some(expandable) = rule_for_expander(rule, start, has_tzid, zone, notes)
+            .map_err(|m| reject("RRULE", "bad_rule", m))?
         else {
             continue;
         };
@@ -759,7 +840,12 @@ fn event_releases(
             starts.push(parse_ics_time(v, kind).map_err(|m| reject("RDATE", "bad_time", m))?);
         }
     }
-    // A set: a rule's 50 000 occurrences against as many EXDATEs stay linear.
+    Ok((starts, !rrules.is_empty()))
+}
+
+/// The EXDATE values, as a set: a rule's 50 000 occurrences against as
+/// many exclusions stay linear.
+fn excluded_starts(ev: &Component) -> Result<std::collections::HashSet<IcsTime>, Reject> {
     let mut excluded = std::collections::HashSet::new();
     for p in ev.props.iter().filter(|p| p.name == "EXDATE") {
         for v in p.value.split(',') {
@@ -768,55 +854,33 @@ fn event_releases(
             );
         }
     }
-    let uid = prop("UID")
-        .map(|p| p.value.trim().to_string())
-        .filter(|s| !s.is_empty());
-    let recurring = starts.len() > 1 || !rrules.is_empty();
-    let mut out = Vec::with_capacity(starts.len());
-    for s in starts {
-        if excluded.contains(&s) {
-            continue;
+    Ok(excluded)
+}
+
+/// An occurrence's instant, end and all-day flag: a date covers its local
+/// day in the calendar's zone (RFC 5545 §3.3.5 for gaps and overlaps).
+fn instant_of(s: IcsTime, zone: &EventZone, opts: &CalendarOptions) -> (i64, i64, bool) {
+    match s {
+        IcsTime::Date(d) => {
+            let a = opts
+                .zone
+                .to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545)
+                .expect("RFC policy");
+            let e = opts
+                .zone
+                .to_utc(
+                    &(d + chrono::Days::new(1)).and_time(NaiveTime::MIN),
+                    LocalPolicy::Rfc5545,
+                )
+                .expect("RFC policy");
+            (a, e, true)
         }
-        let (at, end, all_day) = match s {
-            IcsTime::Date(d) => {
-                let a = opts
-                    .zone
-                    .to_utc(&d.and_time(NaiveTime::MIN), LocalPolicy::Rfc5545)
-                    .expect("RFC policy");
-                let e = opts
-                    .zone
-                    .to_utc(
-                        &(d + chrono::Days::new(1)).and_time(NaiveTime::MIN),
-                        LocalPolicy::Rfc5545,
-                    )
-                    .expect("RFC policy");
-                (a, e, true)
-            }
-            IcsTime::Utc(t) => (naive_to_ms(&t), naive_to_ms(&t), false),
-            IcsTime::Local(t) => {
-                let a = zone.to_utc(&t);
-                (a, a, false)
-            }
-        };
-        let base = uid.clone().unwrap_or_else(|| format!("{file}:{}", ev.line));
-        let id = if recurring {
-            format!("{base}/{}", crate::import::zones::format_utc(at))
-        } else {
-            base
-        };
-        out.push(Release {
-            id,
-            at,
-            end,
-            all_day,
-            title: title.clone(),
-            currency: currency.clone(),
-            tier,
-            category: category.clone(),
-            region: region.clone(),
-        });
+        IcsTime::Utc(t) => (naive_to_ms(&t), naive_to_ms(&t), false),
+        IcsTime::Local(t) => {
+            let a = zone.to_utc(&t);
+            (a, a, false)
+        }
     }
-    Ok(EventOutcome::Releases(out))
 }
 
 fn resolve_tzid<'a>(
