@@ -1289,23 +1289,52 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         sink.trades.reserve((rows as f64 * 1.02) as usize);
     }
     let names = &header.names;
-    if let [only] = names.as_slice()
+    one_column_header(names, sep).map_err(err)?;
+    let (columns, extra) = slots(names, path, opts, |name| {
+        names.iter().position(|n| n == name)
+    })?;
+    let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
+    record_time_columns(sink, names, &columns, opts);
+    parse_in_batches(
+        &mut reader,
+        first,
+        sep,
+        names,
+        &columns,
+        &extra,
+        &present,
+        opts,
+        sink,
+    )
+    .map_err(err)
+}
+
+/// A header that is one column holding another common delimiter: the
+/// file's separator was guessed wrong, said so with the flag to give.
+fn one_column_header(names: &[String], sep: u8) -> Result<(), String> {
+    if let [only] = names
         && let Some(d) = [b',', b';', b'\t', b'|']
             .into_iter()
             .find(|&d| d != sep && only.as_bytes().contains(&d))
     {
-        return Err(err(format!(
+        return Err(format!(
             "the header is one column '{}' when split at '{}'; it looks delimited by '{}': give --delimiter '{}'",
             truncate(only),
             (sep as char).escape_default(),
             (d as char).escape_default(),
             (d as char).escape_default()
-        )));
+        ));
     }
-    let (columns, extra) = slots(names, path, opts, |name| {
-        names.iter().position(|n| n == name)
-    })?;
-    let present: [bool; 12] = std::array::from_fn(|k| columns[k].is_some());
+    Ok(())
+}
+
+/// How each time column is read, in words, for the import summary.
+fn record_time_columns(
+    sink: &mut Sink,
+    names: &[String],
+    columns: &Slots<usize>,
+    opts: &TradeOptions,
+) {
     for k in [OPENED, CLOSED] {
         let read_as = match &opts.time_format {
             TimeFormat::Auto => format!(
@@ -1326,6 +1355,22 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
             read_as,
         });
     }
+}
+
+/// The blocks after the header, a batch (two per core) at a time, parsed in
+/// parallel and absorbed in file order; buffers are reused across batches.
+#[allow(clippy::too_many_arguments)]
+fn parse_in_batches(
+    reader: &mut csvchunks::BlockReader,
+    first: Vec<u8>,
+    sep: u8,
+    names: &[String],
+    columns: &Slots<usize>,
+    extra: &[usize],
+    present: &[bool; 12],
+    opts: &TradeOptions,
+    sink: &mut Sink,
+) -> Result<(), String> {
     let width = names.len();
     let batch = rayon::current_num_threads().max(1) * 2;
     let mut pending = vec![first];
@@ -1337,13 +1382,13 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                 Ok(Some(b)) => pending.push(b),
                 Ok(None) => break,
                 Err(ScanError::RecordTooLong { mib, .. }) => {
-                    return Err(err(ScanError::RecordTooLong {
+                    return Err(ScanError::RecordTooLong {
                         row: sink.file_rows,
                         mib,
                     }
-                    .to_string()));
+                    .to_string());
                 }
-                Err(e) => return Err(err(e.to_string())),
+                Err(e) => return Err(e.to_string()),
             }
         }
         if pending.is_empty() {
@@ -1364,9 +1409,9 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                     part,
                     sep,
                     width,
-                    &columns,
-                    &extra,
-                    &present,
+                    columns,
+                    extra,
+                    present,
                     opts,
                     last_batch && b + 1 == n_blocks,
                 )
@@ -1376,7 +1421,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         for p in parts {
             match p {
                 Ok(mut part) => {
-                    sink.absorb(&mut part, &present);
+                    sink.absorb(&mut part, present);
                     spare_parts.push(part);
                 }
                 Err((rows_before, column)) => {
@@ -1384,11 +1429,11 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
                     let name = names
                         .get(column - 1)
                         .map_or(String::new(), |n| format!(" ({n})"));
-                    return Err(err(ScanError::UnclosedQuote {
+                    return Err(ScanError::UnclosedQuote {
                         row,
                         column: format!("{column}{name}"),
                     }
-                    .to_string()));
+                    .to_string());
                 }
             }
         }

@@ -175,6 +175,41 @@ fn rejections(
 
 pub fn analyze(s: &Summary) -> String {
     let mut out = String::new();
+    analyze_header(s, &mut out);
+    let _ = writeln!(out, "\n{}\n", headline_sentence(s));
+    let h = &s.headline;
+    let _ = writeln!(
+        out,
+        "Exposed trades: {} of net, {} of gross profit, {} of gross loss, {} of trades. Cap for 'capped': {}.\n",
+        pct(h.share_of_net),
+        pct(h.share_of_gross_profit),
+        pct(h.share_of_gross_loss),
+        pct(h.share_of_count),
+        fmt_opt(s.cap_value, 4)
+    );
+    scenario_table(s, &mut out);
+    out.push_str(&across_runs_text(s));
+    let _ = writeln!(out, "{}", chance_text(s));
+    if let Some(b) = &s.bootstrap {
+        let _ = writeln!(out, "{}", grid(&BOOTSTRAP_HEADER, &bootstrap_rows(b)));
+    }
+    let _ = writeln!(out);
+    attribution_tables(s, &mut out);
+    if !s.runs.is_empty() {
+        let _ = writeln!(
+            out,
+            "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):",
+            s.runs.len()
+        );
+        let _ = writeln!(out, "{}", grid(&RUNS_HEADER, &runs_rows(s, 10)));
+    }
+    let _ = writeln!(out, "{}", s.caution);
+    out
+}
+
+/// The first lines of `analyze`: input counts and settings, how P/L was
+/// formed, and the warnings.
+fn analyze_header(s: &Summary, out: &mut String) {
     let _ = writeln!(
         out,
         "eventfence analyze: {} trades{} · {} releases ({} used) · rule {} · windows (min) {} · sizing {} · days in {}",
@@ -195,17 +230,10 @@ pub fn analyze(s: &Summary) -> String {
     for warning in &s.warnings {
         let _ = writeln!(out, "WARNING {warning}");
     }
-    let _ = writeln!(out, "\n{}\n", headline_sentence(s));
-    let h = &s.headline;
-    let _ = writeln!(
-        out,
-        "Exposed trades: {} of net, {} of gross profit, {} of gross loss, {} of trades. Cap for 'capped': {}.\n",
-        pct(h.share_of_net),
-        pct(h.share_of_gross_profit),
-        pct(h.share_of_gross_loss),
-        pct(h.share_of_count),
-        fmt_opt(s.cap_value, 4)
-    );
+}
+
+/// The scenario table, with what it leaves to the per-run section.
+fn scenario_table(s: &Summary, out: &mut String) {
     let (rows, left_out) = scenario_rows(s);
     let t = grid(&SCENARIO_HEADER, &rows);
     let _ = writeln!(out, "{t}");
@@ -221,12 +249,11 @@ pub fn analyze(s: &Summary) -> String {
             "max drawdown % needs the account's equity: --initial-equity, or an equity or return column."
         );
     }
-    out.push_str(&across_runs_text(s));
-    let _ = writeln!(out, "{}", chance_text(s));
-    if let Some(b) = &s.bootstrap {
-        let _ = writeln!(out, "{}", grid(&BOOTSTRAP_HEADER, &bootstrap_rows(b)));
-    }
-    let _ = writeln!(out);
+}
+
+/// The releases with the largest attributed P/L, then the attribution by
+/// category, currency and tier.
+fn attribution_tables(s: &Summary, out: &mut String) {
     let mut top: Vec<&crate::report::types::ReleaseLine> = s
         .attribution
         .by_release
@@ -273,16 +300,6 @@ pub fn analyze(s: &Summary) -> String {
         }
         let _ = writeln!(out, "{t}");
     }
-    if !s.runs.is_empty() {
-        let _ = writeln!(
-            out,
-            "Runs (top 10 of {} by baseline net; all runs in --json / summary.json):",
-            s.runs.len()
-        );
-        let _ = writeln!(out, "{}", grid(&RUNS_HEADER, &runs_rows(s, 10)));
-    }
-    let _ = writeln!(out, "{}", s.caution);
-    out
 }
 
 /// The account-path figures as their spread across runs (with runs).
