@@ -46,6 +46,14 @@ pub enum ScanError {
         "after row {row}: a record runs over {mib} MiB without ending; a quote is probably never closed"
     )]
     RecordTooLong { row: usize, mib: usize },
+    #[error(
+        "the header is one column '{header}' when split at '{used}'; it looks delimited by '{likely}': give --delimiter '{likely}'"
+    )]
+    OneColumnHeader {
+        header: String,
+        used: String,
+        likely: String,
+    },
 }
 
 /// One record's fields as byte ranges of its block; quoted fields keep a

@@ -1289,7 +1289,7 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         sink.trades.reserve((rows as f64 * 1.02) as usize);
     }
     let names = &header.names;
-    one_column_header(names, sep).map_err(err)?;
+    one_column_header(names, sep).map_err(|e| err(e.to_string()))?;
     let (columns, extra) = slots(names, path, opts, |name| {
         names.iter().position(|n| n == name)
     })?;
@@ -1306,24 +1306,22 @@ fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), Tra
         opts,
         sink,
     )
-    .map_err(err)
+    .map_err(|e| err(e.to_string()))
 }
 
 /// A header that is one column holding another common delimiter: the
 /// file's separator was guessed wrong, said so with the flag to give.
-fn one_column_header(names: &[String], sep: u8) -> Result<(), String> {
+fn one_column_header(names: &[String], sep: u8) -> Result<(), ScanError> {
     if let [only] = names
         && let Some(d) = [b',', b';', b'\t', b'|']
             .into_iter()
             .find(|&d| d != sep && only.as_bytes().contains(&d))
     {
-        return Err(format!(
-            "the header is one column '{}' when split at '{}'; it looks delimited by '{}': give --delimiter '{}'",
-            truncate(only),
-            (sep as char).escape_default(),
-            (d as char).escape_default(),
-            (d as char).escape_default()
-        ));
+        return Err(ScanError::OneColumnHeader {
+            header: truncate(only).to_string(),
+            used: (sep as char).escape_default().to_string(),
+            likely: (d as char).escape_default().to_string(),
+        });
     }
     Ok(())
 }
@@ -1370,7 +1368,7 @@ fn parse_in_batches(
     present: &[bool; 12],
     opts: &TradeOptions,
     sink: &mut Sink,
-) -> Result<(), String> {
+) -> Result<(), ScanError> {
     let width = names.len();
     let batch = rayon::current_num_threads().max(1) * 2;
     let mut pending = vec![first];
@@ -1385,10 +1383,9 @@ fn parse_in_batches(
                     return Err(ScanError::RecordTooLong {
                         row: sink.file_rows,
                         mib,
-                    }
-                    .to_string());
+                    });
                 }
-                Err(e) => return Err(e.to_string()),
+                Err(e) => return Err(e),
             }
         }
         if pending.is_empty() {
@@ -1432,8 +1429,7 @@ fn parse_in_batches(
                     return Err(ScanError::UnclosedQuote {
                         row,
                         column: format!("{column}{name}"),
-                    }
-                    .to_string());
+                    });
                 }
             }
         }
