@@ -114,7 +114,7 @@ impl AnnotatedTrades<'_> {
         s.into_bytes()
     }
 
-    pub fn to_parquet(&self) -> anyhow::Result<Vec<u8>> {
+    pub fn to_parquet(&self) -> Result<Vec<u8>, FileError> {
         use polars::prelude::*;
         let t = self.trades;
         let n = t.len();
@@ -300,7 +300,7 @@ pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
 }
 
 /// runs.parquet: the same columns.
-pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> anyhow::Result<Vec<u8>> {
+pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> Result<Vec<u8>, FileError> {
     use polars::prelude::*;
     let f = |g: fn(&crate::report::types::RunRow) -> Option<f64>| {
         rows.iter().map(g).collect::<Vec<_>>()
@@ -397,9 +397,20 @@ pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
     s.into_bytes()
 }
 
+/// Why a file renderer could not produce its bytes.
+#[derive(Debug, thiserror::Error)]
+pub enum FileError {
+    /// polars could not build or write the frame.
+    #[error(transparent)]
+    Frame(#[from] polars::error::PolarsError),
+    /// Parquet output asked of a build without the `parquet` feature.
+    #[error("this build writes no Parquet (built without the `parquet` feature); choose csv")]
+    NoParquet,
+}
+
 /// A frame as Parquet bytes: behind the `parquet` feature, which the
 /// command line enables by default.
-fn parquet_bytes(df: &mut polars::prelude::DataFrame) -> anyhow::Result<Vec<u8>> {
+fn parquet_bytes(df: &mut polars::prelude::DataFrame) -> Result<Vec<u8>, FileError> {
     #[cfg(feature = "parquet")]
     {
         let mut buf = Vec::new();
@@ -409,8 +420,6 @@ fn parquet_bytes(df: &mut polars::prelude::DataFrame) -> anyhow::Result<Vec<u8>>
     #[cfg(not(feature = "parquet"))]
     {
         let _ = df;
-        anyhow::bail!(
-            "this build writes no Parquet (built without the `parquet` feature); choose csv"
-        )
+        Err(FileError::NoParquet)
     }
 }
