@@ -23,8 +23,11 @@ pub const DAYS_PER_YEAR: f64 = 252.0;
 /// Every docs/method.md §5 figure for one scenario.
 #[derive(Debug, Clone, Default, Serialize, PartialEq)]
 pub struct Metrics {
+    /// Trades in the scenario.
     pub trades: usize,
+    /// Trades with P/L > 0.
     pub wins: usize,
+    /// Trades with P/L < 0.
     pub losses: usize,
     /// Sum of P/L (account currency).
     pub net: f64,
@@ -36,6 +39,7 @@ pub struct Metrics {
     pub win_rate: Option<f64>,
     /// gross profit ÷ |gross loss|; null without losses.
     pub profit_factor: Option<f64>,
+    /// Mean P/L of the winning trades.
     pub avg_win: Option<f64>,
     /// Mean losing P/L (negative).
     pub avg_loss: Option<f64>,
@@ -43,7 +47,9 @@ pub struct Metrics {
     pub payoff_ratio: Option<f64>,
     /// Mean P/L per trade.
     pub expectancy: Option<f64>,
+    /// Largest single win.
     pub largest_win: Option<f64>,
+    /// Largest single loss (negative).
     pub largest_loss: Option<f64>,
     /// Largest peak-to-trough fall of the closed-trade equity curve (≥ 0).
     pub max_drawdown: Option<f64>,
@@ -70,6 +76,7 @@ pub struct Metrics {
 pub struct Context {
     /// First open and last close of the whole input (ms).
     pub span: (i64, i64),
+    /// Zone whose calendar days make the daily series.
     pub report_zone: Zone,
     /// Starting equity, if known (makes daily figures returns and adds
     /// drawdown %).
@@ -85,7 +92,9 @@ pub struct Curve<'a> {
     /// Input index of each kept trade; its times are `opened[trade[j]]` and
     /// `closed[trade[j]]` (the input's columns, not copies per scenario).
     pub trade: &'a [u32],
+    /// Open instants of the input, ms UTC (indexed through `trade`).
     pub opened: &'a [i64],
+    /// Close instants of the input, ms UTC (indexed through `trade`).
     pub closed: &'a [i64],
     /// The values the tail concentration is measured on (per-trade returns,
     /// see `scenarios::TailBasis`); empty: the P/L itself.

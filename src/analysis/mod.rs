@@ -9,7 +9,6 @@
 pub mod attribution;
 #[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod evidence;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod metrics;
 pub mod rank;
 pub mod run;

@@ -54,12 +54,17 @@ struct CurrencyIndex {
 /// A used release's window, as the engine needs it.
 #[derive(Debug, Clone)]
 pub struct UsedWindow {
+    /// Index of the release in the calendar.
     pub release: u32,
+    /// The release's currency.
     pub currency: String,
     /// Window start and end (inclusive), and the release instant, ms.
     pub start: i64,
+    /// Window end (inclusive), ms.
     pub end: i64,
+    /// Release instant, ms.
     pub at: i64,
+    /// A release with a date but no time (its window is the local day).
     pub all_day: bool,
 }
 
@@ -123,6 +128,7 @@ impl Exposure {
             here
         })
     }
+    /// Trades exposed to at least one used release.
     pub fn exposed_count(&self) -> usize {
         self.k.iter().filter(|&&k| k > 0).count()
     }
@@ -348,21 +354,25 @@ pub fn partition_point_near<T>(slice: &[T], hint: usize, pred: impl Fn(&T) -> bo
 /// cannot judge on that currency.
 #[derive(Debug, Clone, Serialize)]
 pub struct CoverageLine {
+    /// ISO 4217 code.
     pub currency: String,
     /// First and last UTC day covered (whole days, inclusive): the stated
     /// `--calendar-span`, else the days of this currency's first and last
     /// release; `None` when the calendar has no release of it.
     pub calendar_from: Option<String>,
+    /// Last UTC day covered (see `calendar_from`).
     pub calendar_to: Option<String>,
     /// `releases` (first to last release) or `--calendar-span`.
     pub coverage_from: &'static str,
     /// Trades of an instrument with this currency that open before the
     /// first day or close after the last day.
     pub trades_outside: usize,
+    /// Σ P/L of those trades.
     pub pnl_outside: f64,
     /// Of those, the trades exposed all the same (on the instrument's other
     /// currency), and their P/L; the rest count as unexposed unjudged.
     pub exposed_outside: usize,
+    /// Σ P/L of the exposed ones among them.
     pub exposed_pnl_outside: f64,
     /// Trades outside, per instrument (instrument, trades).
     pub by_instrument: Vec<(String, usize)>,

@@ -14,15 +14,20 @@ use serde::Serialize;
 /// Minutes before and after a release.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub struct Window {
+    /// Minutes before the release.
     pub pre_min: i64,
+    /// Minutes after the release.
     pub post_min: i64,
 }
 
 /// Window settings, resolved from flags.
 #[derive(Debug, Clone, Serialize)]
 pub struct WindowSettings {
+    /// Window of high-tier releases (`None`: off).
     pub high: Option<Window>,
+    /// Window of medium-tier releases (`None`: off).
     pub medium: Option<Window>,
+    /// Window of low-tier releases (`None`: off).
     pub low: Option<Window>,
     /// category (lower case) → window; `None` turns the category off.
     pub by_category: Vec<(String, Option<Window>)>,
@@ -31,6 +36,7 @@ pub struct WindowSettings {
     pub by_title: Vec<(Regex, Option<Window>)>,
     /// Tiers to use at all (others are ignored even with a window).
     pub tiers: Vec<Tier>,
+    /// Whether all-day releases count (their window is their local day).
     pub include_all_day: bool,
 }
 

@@ -18,7 +18,6 @@ pub mod phases;
 pub mod setting;
 #[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod table;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod timefmt;
 pub mod trades;
 pub mod zones;

@@ -43,7 +43,9 @@ impl TimeFormat {
 /// A stamp as written: with its own offset (an instant) or without (local).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Stamp {
+    /// With its own offset or Z: ms since epoch UTC.
     Instant(i64),
+    /// Without an offset: a local wall-clock time.
     Local(NaiveDateTime),
 }
 
@@ -61,7 +63,9 @@ impl Stamp {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error("'{text}' is not a time: {expected}")]
 pub struct TimeError {
+    /// The text as written.
     pub text: String,
+    /// The forms that were expected.
     pub expected: &'static str,
 }
 

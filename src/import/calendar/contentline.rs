@@ -34,7 +34,9 @@ impl ContentLine {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error("line {line}: {message}")]
 pub struct LineError {
+    /// Physical line where the problem starts, from 1.
     pub line: usize,
+    /// What is wrong.
     pub message: String,
 }
 

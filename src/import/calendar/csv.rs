@@ -18,6 +18,7 @@ use crate::import::zones::{LocalPolicy, naive_to_ms};
 use chrono::NaiveTime;
 use std::path::Path;
 
+/// The calendar CSV fields (columns mappable with --calendar-map).
 pub const FIELDS: &[&str] = &[
     "released_at",
     "date",
@@ -102,6 +103,7 @@ impl Layout {
     }
 }
 
+/// Reads one calendar CSV file into `out`, counting every row in `summary`.
 pub fn read(
     path: &Path,
     opts: &CalendarOptions,

@@ -25,8 +25,11 @@ use std::path::Path;
 
 /// Our own iCalendar extension properties (documented in calendars/README.md).
 pub const X_CURRENCY: &str = "X-EVENTFENCE-CURRENCY";
+/// Our tier property (high, medium, low).
 pub const X_TIER: &str = "X-EVENTFENCE-TIER";
+/// Our category property.
 pub const X_CATEGORY: &str = "X-EVENTFENCE-CATEGORY";
+/// Our region property.
 pub const X_REGION: &str = "X-EVENTFENCE-REGION";
 
 /// A DTSTART/RDATE/EXDATE value as written.

@@ -4,12 +4,9 @@
 //! Invariant: every calendar row or VEVENT read is either a release (possibly
 //! expanded into many by RRULE), a merged duplicate, or a counted rejection.
 
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod contentline;
 pub mod countries;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod csv;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod ics;
 #[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod rules;
