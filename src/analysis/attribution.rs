@@ -13,11 +13,17 @@ use std::collections::BTreeMap;
 /// One used release and what it touched.
 #[derive(Debug, Clone, Serialize)]
 pub struct ReleaseLine {
+    /// Release id.
     pub id: String,
+    /// Release instant, ISO 8601 UTC.
     pub released_at: String,
+    /// Release title.
     pub title: String,
+    /// ISO 4217 currency.
     pub currency: String,
+    /// Tier (`high`, `medium`, `low`).
     pub tier: &'static str,
+    /// Category, when the calendar gives one.
     pub category: Option<String>,
     /// Trades that matched this release.
     pub trades_touched: usize,
@@ -28,18 +34,24 @@ pub struct ReleaseLine {
 /// A group of releases (a category, currency or tier).
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct GroupLine {
+    /// Releases of the group that count (tier and window).
     pub releases_used: usize,
+    /// Of them, releases at least one trade was exposed to.
     pub releases_touched: usize,
     /// Trade–release matches in the group.
     pub matches: usize,
+    /// P/L attributed to the group's releases.
     pub attributed_pnl: f64,
 }
 
 /// Headline shares.
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct Headline {
+    /// Σ P/L of all trades.
     pub net: f64,
+    /// Σ P/L of the exposed trades.
     pub exposed_pnl: f64,
+    /// Σ P/L of the other trades.
     pub unexposed_pnl: f64,
     /// exposed P/L ÷ net P/L.
     pub share_of_net: Option<f64>,
@@ -51,13 +63,18 @@ pub struct Headline {
     pub share_of_count: Option<f64>,
 }
 
+/// Every attribution table of one analysis (docs/method.md §3).
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct Attribution {
     /// Used releases in time order.
     pub by_release: Vec<ReleaseLine>,
+    /// By release category.
     pub by_category: BTreeMap<String, GroupLine>,
+    /// By currency.
     pub by_currency: BTreeMap<String, GroupLine>,
+    /// By tier.
     pub by_tier: BTreeMap<String, GroupLine>,
+    /// Net, exposed and unexposed P/L and the exposed shares.
     pub headline: Headline,
 }
 
@@ -65,9 +82,13 @@ pub struct Attribution {
 #[error(
     "internal error: P/L not conserved ({what}: {left} vs {right}); please report this with your inputs"
 )]
+/// Two sums that must agree to the cent did not: a defect, reported rather than hidden.
 pub struct ConservationError {
+    /// Which sums.
     pub what: &'static str,
+    /// The first sum.
     pub left: f64,
+    /// The second sum.
     pub right: f64,
 }
 

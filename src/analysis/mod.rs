@@ -5,14 +5,12 @@
 //! per-run and per-window views, `schedule` the blackout windows for live
 //! trading. Depends only on `engine` and `import`.
 
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod attribution;
 #[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod evidence;
 pub mod metrics;
 pub mod rank;
 pub mod run;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod scenarios;
 pub mod schedule;
 pub mod tune;

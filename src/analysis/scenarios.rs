@@ -74,19 +74,26 @@ impl CapRule {
     }
 }
 
+/// How the scenarios are built from the trades.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct ScenarioSettings {
+    /// How P/L adds up.
     pub sizing: Sizing,
+    /// How the capped scenario limits exposed trades.
     pub cap: CapRule,
+    /// Starting equity (needed by compounding without an equity column).
     pub initial_equity: Option<f64>,
 }
 
+/// Why the scenarios could not be built.
 #[derive(Debug, thiserror::Error)]
 pub enum ScenarioError {
     #[error(
         "compounding needs each trade's equity: map an equity_before or pnl_pct column, or give --initial-equity"
     )]
+    /// Compounding without any equity to compound.
     NoEquity,
+    /// An equity cap without any equity.
     #[error("--cap equity:… needs equity: map an equity_before column or give --initial-equity")]
     NoEquityForCap,
 }
@@ -112,15 +119,19 @@ pub struct Series {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum TailBasis {
+    /// On P/L amounts.
     #[default]
     Amount,
+    /// On per-trade returns (P/L ÷ equity before the trade).
     Return,
 }
 
 /// One scenario's kept trades, borrowed.
 #[derive(Debug, Clone, Copy)]
 pub struct SeriesView<'a> {
+    /// P/L of the kept trades.
     pub pnl: &'a [f64],
+    /// Input index of each kept trade.
     pub trade: &'a [u32],
     /// Returns of the kept trades, or empty (amount basis).
     pub ret: &'a [f64],
@@ -212,6 +223,7 @@ impl Scenarios {
 }
 
 impl Series {
+    /// The series, borrowed.
     pub fn view(&self) -> SeriesView<'_> {
         SeriesView {
             pnl: &self.pnl,
@@ -229,7 +241,9 @@ impl Series {
 /// The three scenarios of one trade set.
 #[derive(Debug, Clone, Default)]
 pub struct Scenarios {
+    /// Every trade as given.
     pub baseline: Series,
+    /// Without the exposed trades.
     pub removed: Series,
     /// Only `pnl` is filled: the capped scenario keeps exactly the
     /// baseline's trades in the same order, so its times and trade indices
@@ -249,11 +263,17 @@ pub struct Scenarios {
 pub struct TradeView<'a> {
     /// Trade indices in close order (ties by open, then input order).
     pub order: &'a [u32],
+    /// P/L per trade (input order).
     pub pnl: &'a [f64],
+    /// Open instants, ms UTC (input order).
     pub opened: &'a [i64],
+    /// Close instants, ms UTC (input order).
     pub closed: &'a [i64],
+    /// Whether trade i (input order) is exposed.
     pub exposed: &'a (dyn Fn(usize) -> bool + Sync),
+    /// Equity before each trade, when known.
     pub equity_before: Option<&'a [f64]>,
+    /// P/L as a percentage of equity at open, when known.
     pub pnl_pct: Option<&'a [f64]>,
 }
 
