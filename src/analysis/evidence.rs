@@ -24,6 +24,7 @@ pub struct HillEstimate {
     pub alpha: f64,
     /// Number of upper order statistics used.
     pub k: usize,
+    /// Sample size.
     pub n: usize,
 }
 
@@ -93,19 +94,24 @@ pub fn default_hill_k(n: usize) -> usize {
 pub struct PlaceboSettings {
     /// Number of placebo calendars (0 = off).
     pub n: usize,
+    /// Seed of the placebo shifts.
     pub seed: u64,
 }
 
 /// Result of the placebo test (docs/method.md §7).
 #[derive(Debug, Clone, Serialize)]
 pub struct PlaceboResult {
+    /// Placebo calendars drawn.
     pub placebos: usize,
+    /// Seed of the shifts.
     pub seed: u64,
     /// Observed exposed P/L ÷ net P/L, and its p-value.
     pub observed_share: Option<f64>,
+    /// p-value of the share: (1 + placebos at least as high) ÷ (N + 1), see [`placebo_p`].
     pub p_share: Option<f64>,
     /// Observed mean exposed P/L − mean unexposed P/L, and its p-value.
     pub observed_mean_diff: Option<f64>,
+    /// p-value of the mean difference, by the same rule.
     pub p_mean_diff: Option<f64>,
     /// Shifted releases dropped because they landed within a day of a real
     /// release of the same series, summed over placebos.
@@ -114,6 +120,7 @@ pub struct PlaceboResult {
     pub method: &'static str,
 }
 
+/// How the placebo calendars are made, in words (shown with the result).
 pub const PLACEBO_METHOD: &str = "every used release moved by the same random whole number of weekdays (time of day kept, wrapping within the calendar's weekday span); a moved release within 1 day of a real release of the same series is dropped; p = (1 + #placebo >= observed) / (N + 1)";
 
 /// The two statistics of docs/method.md §7 for a set of exposure flags.
@@ -256,6 +263,7 @@ pub fn placebo(
 pub struct BootstrapSettings {
     /// Resamples (0 = off).
     pub n: usize,
+    /// Seed of the resamples.
     pub seed: u64,
     /// Confidence level, e.g. 0.95.
     pub confidence: f64,
@@ -266,17 +274,24 @@ pub struct BootstrapSettings {
 pub struct Interval {
     /// removed − baseline on the data as given.
     pub observed: Option<f64>,
+    /// Lower end of the interval.
     pub low: Option<f64>,
+    /// Upper end of the interval.
     pub high: Option<f64>,
     /// Replicates where the change was defined.
     pub replicates: usize,
 }
 
+/// Result of the bootstrap (docs/method.md §7).
 #[derive(Debug, Clone, Serialize)]
 pub struct BootstrapResult {
+    /// Resamples drawn.
     pub resamples: usize,
+    /// Seed of the resamples.
     pub seed: u64,
+    /// Confidence level of the intervals.
     pub confidence: f64,
+    /// The method in words.
     pub method: &'static str,
     /// Figure → interval of its change removed − baseline.
     pub intervals: BTreeMap<&'static str, Interval>,
@@ -399,6 +414,7 @@ pub fn bootstrap_drawn(
         .collect()
 }
 
+/// The bootstrap method in words (shown with the result).
 pub const BOOTSTRAP_METHOD: &str = "trades resampled with replacement, keeping their exposure; percentile interval of removed - baseline (linear interpolation, numpy's default)";
 
 #[cfg(test)]

@@ -6,7 +6,6 @@
 //! trading. Depends only on `engine` and `import`.
 
 pub mod attribution;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod evidence;
 pub mod metrics;
 pub mod rank;
