@@ -17,11 +17,14 @@ pub const BYTES_PER_TRADE: u64 = 112;
 /// calendar, read blocks).
 pub const FIXED_BYTES: u64 = 96 << 20;
 
+/// Why a trade input is refused before it is read.
 #[derive(Debug, thiserror::Error)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum BudgetError {
     #[error(
         "trades {path}: about {rows} rows need about {need} of memory, more than the {limit} {basis}; split the file (by run or by date), or raise --max-memory if the machine has the room"
     )]
+    /// The estimate is over the limit.
     TooLarge {
         path: String,
         rows: u64,
@@ -29,8 +32,10 @@ pub enum BudgetError {
         limit: String,
         basis: &'static str,
     },
+    /// A --max-memory value that is not a size.
     #[error("--max-memory '{0}': expected a size such as 512M, 8G or 8GiB")]
     BadSize(String),
+    /// The file could not be measured.
     #[error("trades {path}: {message}")]
     Read { path: PathBuf, message: String },
 }

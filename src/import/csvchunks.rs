@@ -23,16 +23,21 @@ pub const BLOCK_BYTES: usize = 8 << 20;
 /// Why a file could not be read as delimited text (file-level errors; the
 /// caller names the file).
 #[derive(Debug, thiserror::Error)]
+#[allow(missing_docs)] // variant fields are named in each message
 pub enum ScanError {
+    /// The file could not be read.
     #[error("{0}")]
     Io(#[from] std::io::Error),
+    /// No header row.
     #[error("the file is empty (expected a header row)")]
     Empty,
+    /// A header row that is not UTF-8.
     #[error("the header row is not UTF-8 text; save the file as UTF-8")]
     HeaderEncoding,
     #[error(
         "column '{name}' appears twice in the header (columns {first} and {second}); rename one"
     )]
+    /// A column name that appears twice.
     DuplicateColumn {
         name: String,
         first: usize,
@@ -41,14 +46,17 @@ pub enum ScanError {
     #[error(
         "row {row}: a quote opened in column {column} is never closed, so the rest of the file would be one field; fix the quoting"
     )]
+    /// A quote that is never closed.
     UnclosedQuote { row: usize, column: String },
     #[error(
         "after row {row}: a record runs over {mib} MiB without ending; a quote is probably never closed"
     )]
+    /// A record longer than a block can hold.
     RecordTooLong { row: usize, mib: usize },
     #[error(
         "the header is one column '{header}' when split at '{used}'; it looks delimited by '{likely}': give --delimiter '{likely}'"
     )]
+    /// The header is one column holding another delimiter.
     OneColumnHeader {
         header: String,
         used: String,
@@ -70,9 +78,11 @@ pub struct Record {
 }
 
 impl Record {
+    /// Fields in the record.
     pub fn len(&self) -> usize {
         self.spans.len()
     }
+    /// Whether the record has no fields.
     pub fn is_empty(&self) -> bool {
         self.spans.is_empty()
     }
@@ -114,6 +124,7 @@ impl Record {
 }
 
 /// Outcome of parsing one record.
+#[allow(missing_docs)] // `next`: the offset after the record; `column`: from 1
 pub enum Parsed {
     /// A record ends before `next`.
     Record { next: usize },
@@ -208,6 +219,7 @@ pub struct Records<'a> {
 }
 
 impl<'a> Records<'a> {
+    /// Records of one block cut at record boundaries.
     pub fn new(block: &'a [u8], delim: u8) -> Records<'a> {
         let plain = delim != b'\r' && memchr(b'"', block).is_none();
         Records {
@@ -291,6 +303,7 @@ pub struct BlockReader {
 }
 
 impl BlockReader {
+    /// Opens a file to read in blocks.
     pub fn open(path: &Path, delim: u8) -> std::io::Result<BlockReader> {
         Ok(BlockReader {
             file: File::open(path)?,
@@ -374,6 +387,7 @@ fn last_boundary(buf: &[u8], delim: u8) -> Option<usize> {
 
 /// The header row: cleaned column names and where the data starts.
 pub struct Header {
+    /// Column names, trimmed.
     pub names: Vec<String>,
 }
 

@@ -6,17 +6,14 @@
 //! (`setting`) and the opt-in phase timer (`phases`). Depends on nothing
 //! else in the crate.
 
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod budget;
 pub mod calendar;
 pub mod columns;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod csvchunks;
 pub mod log;
 pub mod number;
 pub mod phases;
 pub mod setting;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod table;
 pub mod timefmt;
 pub mod trades;

@@ -20,15 +20,20 @@ pub struct Table {
 pub struct RowProblem {
     /// The column at fault, when one is.
     pub column: Option<String>,
+    /// Reason code (snake case).
     pub reason: &'static str,
+    /// What is wrong.
     pub message: String,
 }
 
 /// One cell, borrowed from a column.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Cell<'a> {
+    /// Empty.
     Null,
+    /// Text.
     Str(&'a str),
+    /// A number.
     Num(f64),
     /// A zoned timestamp column's value, ms since epoch UTC.
     Instant(i64),
@@ -41,7 +46,9 @@ pub enum Cell<'a> {
 
 /// A column ready for row access.
 pub enum ColumnSource {
+    /// Text column.
     Str(StringChunked),
+    /// Number column.
     Num(Float64Chunked),
     /// Physical i64 values and the divisor that turns them into ms; zoned
     /// columns hold instants, naive ones wall-clock readings.
@@ -60,6 +67,7 @@ pub enum TimeKind {
 }
 
 impl ColumnSource {
+    /// Cell of row i.
     pub fn get(&self, i: usize) -> Cell<'_> {
         match self {
             ColumnSource::Str(c) => match c.get(i) {
@@ -135,10 +143,13 @@ impl TableFormat {
 /// file); row-level problems are [`RowProblem`]s instead.
 #[derive(Debug, thiserror::Error)]
 pub enum TableError {
+    /// The file could not be read.
     #[error("{0}")]
     Io(#[from] std::io::Error),
+    /// polars could not read the Parquet file.
     #[error("not a readable Parquet file: {0}")]
     Parquet(#[from] polars::error::PolarsError),
+    /// The CSV file could not be scanned.
     #[error(transparent)]
     Csv(#[from] crate::import::csvchunks::ScanError),
     /// The columns read could not be put together as a table.
@@ -339,6 +350,7 @@ impl Table {
             .map(|k| &self.problems[k].1)
     }
 
+    /// Rows in the table.
     pub fn height(&self) -> usize {
         self.df.height()
     }

@@ -8,9 +8,7 @@ pub mod contentline;
 pub mod countries;
 pub mod csv;
 pub mod ics;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod rules;
-#[allow(missing_docs)] // not yet documented item by item (issue 17)
 pub mod vtimezone;
 
 use crate::import::zones::{LocalPolicy, Zone};

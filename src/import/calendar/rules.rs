@@ -13,18 +13,26 @@ use super::{CalendarError, Tier};
 use regex::Regex;
 use std::path::Path;
 
+/// One title rule: a pattern, optional conditions, and what it fills in.
 #[derive(Debug, Clone)]
 pub struct TitleRule {
+    /// Pattern matched against the title.
     pub pattern: Regex,
     /// Conditions on the release's own currency, country and region.
     pub if_currency: Option<String>,
+    /// Condition on the country (ISO 3166 alpha-2).
     pub if_country: Option<String>,
+    /// Condition on the region.
     pub if_region: Option<Regex>,
+    /// Currency to fill in when the release has none.
     pub currency: Option<String>,
+    /// Tier to fill in when the release has none.
     pub tier: Option<Tier>,
+    /// Category to fill in when the release has none.
     pub category: Option<String>,
 }
 
+/// The rules of one file, tried in order.
 #[derive(Debug, Clone, Default)]
 pub struct TitleRules(pub Vec<TitleRule>);
 
@@ -47,16 +55,22 @@ fn any_title() -> String {
 
 /// Fields of a release that rules may fill.
 pub struct Draft<'a> {
+    /// The release's title.
     pub title: &'a str,
     /// The country the currency column named (ISO 3166 alpha-2), if any.
     pub country: Option<&'a str>,
+    /// The region, as written.
     pub region: Option<&'a str>,
+    /// Currency so far; a rule fills it when empty.
     pub currency: &'a mut Option<String>,
+    /// Tier so far; a rule fills it when empty.
     pub tier: &'a mut Option<Tier>,
+    /// Category so far; a rule fills it when empty.
     pub category: &'a mut Option<String>,
 }
 
 impl TitleRules {
+    /// Reads a rules file (JSON).
     pub fn load(path: &Path) -> Result<Self, CalendarError> {
         let fail = |message: String| CalendarError::Rules {
             path: path.to_path_buf(),

@@ -123,16 +123,22 @@ fn skip_ahead(dtstart: NaiveDateTime, rule: &str, from: NaiveDateTime) -> NaiveD
 /// One observance (STANDARD or DAYLIGHT) of a VTIMEZONE.
 #[derive(Debug, Clone, Default)]
 pub struct Observance {
+    /// DTSTART: first local onset.
     pub dtstart: Option<NaiveDateTime>,
+    /// TZOFFSETFROM in seconds.
     pub offset_from: Option<i32>,
+    /// TZOFFSETTO in seconds.
     pub offset_to: Option<i32>,
+    /// RRULE of the onsets, as written.
     pub rrule: Option<String>,
+    /// RDATE onsets.
     pub rdates: Vec<NaiveDateTime>,
 }
 
 /// A zone built from a VTIMEZONE's transitions.
 #[derive(Debug, Clone)]
 pub struct CustomZone {
+    /// The file's TZID.
     pub tzid: String,
     /// (UTC instant ms, offset in seconds from then on), sorted.
     transitions: Vec<(i64, i32)>,
