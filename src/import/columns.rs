@@ -5,7 +5,6 @@
 //! a caller's arrays are not a user's file to skip rows of.
 
 use crate::import::trades::Trades;
-use std::collections::HashMap;
 
 /// Why columns could not become [`Trades`].
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -115,20 +114,13 @@ impl TradeColumns {
     }
 }
 
-/// Each name's number in order of first appearance, and the names.
+/// Each name's number in order of first appearance, and the names: the
+/// file importer's interner.
 fn numbered(names: &[String]) -> (Vec<u32>, Vec<String>) {
-    let mut index: HashMap<&str, u32> = HashMap::new();
-    let mut order = Vec::new();
-    let ids = names
-        .iter()
-        .map(|s| {
-            *index.entry(s.as_str()).or_insert_with(|| {
-                order.push(s.clone());
-                order.len() as u32 - 1
-            })
-        })
-        .collect();
-    (ids, order)
+    use crate::import::trades::{Interner, intern, names_in_order};
+    let mut map = Interner::default();
+    let ids = names.iter().map(|s| intern(&mut map, s)).collect();
+    (ids, names_in_order(map))
 }
 
 #[cfg(test)]

@@ -542,7 +542,7 @@ pub fn run_seed(seed: u64, run: &str) -> u64 {
     z ^ (z >> 31)
 }
 
-fn names_in_order(map: Interner) -> Vec<String> {
+pub(crate) fn names_in_order(map: Interner) -> Vec<String> {
     let mut v: Vec<(String, u32)> = map.into_iter().collect();
     v.sort_by_key(|x| x.1);
     v.into_iter().map(|x| x.0).collect()
@@ -1593,9 +1593,9 @@ impl std::hash::Hasher for Fnv {
     }
 }
 
-type Interner = HashMap<String, u32, std::hash::BuildHasherDefault<Fnv>>;
+pub(crate) type Interner = HashMap<String, u32, std::hash::BuildHasherDefault<Fnv>>;
 
-fn intern(map: &mut Interner, s: &str) -> u32 {
+pub(crate) fn intern(map: &mut Interner, s: &str) -> u32 {
     if let Some(&i) = map.get(s) {
         return i;
     }
