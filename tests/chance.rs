@@ -73,9 +73,8 @@ fn bootstrap_percentiles_match_numpy() {
         initial_equity: None,
         tcr_p: f["tcr_p"].as_f64().unwrap(),
     };
-    let got = evidence::bootstrap_drawn(
-        sets.len(),
-        &|r| sets[r].clone(),
+    let got = evidence::bootstrap_intervals(
+        evidence::Resamples::Given(&sets),
         &t,
         &exposed,
         &settings,

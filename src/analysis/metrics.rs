@@ -304,24 +304,12 @@ pub fn daily_series(c: &Curve, ctx: &Context) -> Vec<f64> {
 /// One pass over the closes in order: the daily series (see
 /// [`daily_series`]) and the longest peak-to-recovery time in days.
 fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
-    use crate::import::zones::{LocalDayCursor, local_day, weekday_index};
-    let z = &ctx.report_zone;
-    let first = weekday_index(local_day(z, ctx.span.0));
-    let last = weekday_index(local_day(z, ctx.span.1));
-    let n = (last - first + 1).max(0) as usize;
-    let mut pnl = vec![0.0; n];
-    let mut days = LocalDayCursor::new(z);
-    // Closes come in order, so the slot changes only when the day does.
-    let (mut day, mut slot) = (i64::MIN, 0usize);
+    let mut slots = DaySlots::new(ctx);
+    let mut pnl = vec![0.0; slots.len()];
     let (mut eq, mut peak, mut peak_t, mut longest) = (0.0f64, 0.0f64, ctx.span.0, 0i64);
     let mut under = false;
     for (&p, cl) in c.pnl.iter().zip(c.closes()) {
-        let d = days.day(cl);
-        if d != day {
-            day = d;
-            slot = (weekday_index(d) - first).clamp(0, n as i64 - 1) as usize;
-        }
-        if let Some(s) = pnl.get_mut(slot) {
+        if let Some(s) = pnl.get_mut(slots.slot(cl)) {
             *s += p;
         }
         eq += p;
@@ -339,11 +327,21 @@ fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
     if under {
         longest = longest.max(ctx.span.1 - peak_t);
     }
-    let daily = match ctx.initial_equity {
-        None => pnl,
+    (
+        daily_values(pnl, ctx.initial_equity),
+        longest as f64 / DAY_MS as f64,
+    )
+}
+
+/// The daily series from the P/L summed per day: the sums themselves, or
+/// with a starting equity each day's return on the equity before it.
+pub fn daily_values(day_pnl: Vec<f64>, initial_equity: Option<f64>) -> Vec<f64> {
+    match initial_equity {
+        None => day_pnl,
         Some(e0) => {
             let mut eq = e0;
-            pnl.iter()
+            day_pnl
+                .iter()
                 .map(|&p| {
                     let r = if eq != 0.0 { p / eq } else { f64::NAN };
                     eq += p;
@@ -351,8 +349,57 @@ fn walk_closes(c: &Curve, ctx: &Context) -> (Vec<f64>, f64) {
                 })
                 .collect()
         }
-    };
-    (daily, longest as f64 / DAY_MS as f64)
+    }
+}
+
+/// The slot of the daily series each close counts in: the weekdays of the
+/// context's span in the report zone, a weekend close on the next weekday
+/// (clamped to the span). Fed closes in order, the zone is consulted only
+/// when the day changes.
+pub struct DaySlots<'a> {
+    days: crate::import::zones::LocalDayCursor<'a>,
+    first: i64,
+    len: usize,
+    day: i64,
+    slot: usize,
+}
+
+impl<'a> DaySlots<'a> {
+    /// The slots of `ctx`'s span.
+    pub fn new(ctx: &'a Context) -> Self {
+        use crate::import::zones::{LocalDayCursor, local_day, weekday_index};
+        let z = &ctx.report_zone;
+        let first = weekday_index(local_day(z, ctx.span.0));
+        let last = weekday_index(local_day(z, ctx.span.1));
+        DaySlots {
+            days: LocalDayCursor::new(z),
+            first,
+            len: (last - first + 1).max(0) as usize,
+            day: i64::MIN,
+            slot: 0,
+        }
+    }
+
+    /// Number of weekdays in the span.
+    pub fn len(&self) -> usize {
+        self.len
+    }
+
+    /// Whether the span holds no weekday.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+
+    /// The slot of a close instant (ms UTC).
+    pub fn slot(&mut self, close: i64) -> usize {
+        let d = self.days.day(close);
+        if d != self.day {
+            self.day = d;
+            self.slot = (crate::import::zones::weekday_index(d) - self.first)
+                .clamp(0, self.len as i64 - 1) as usize;
+        }
+        self.slot
+    }
 }
 
 /// Union length of [open, close] intervals given in close order (as every

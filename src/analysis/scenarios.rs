@@ -530,6 +530,15 @@ fn build_fixed(
     Ok(out)
 }
 
+/// [`recorded_equity`] over all of `t`'s trades: when `Some`, every trade
+/// set drawn from `t` measures its tail on returns ([`TailBasis::Return`])
+/// on this equity; when `None` and `t` has neither an `equity_before` nor a
+/// `pnl_pct` column, every set measures it on amounts.
+pub fn recorded_equity_of(t: &crate::import::trades::Trades) -> Option<Vec<f64>> {
+    let all: Vec<u32> = (0..t.len() as u32).collect();
+    recorded_equity(&TradeView::of(&all, t, &|_| false))
+}
+
 /// Equity before each trade (by input position) as the input records it:
 /// the `equity_before` column, else the equity a `pnl_pct` implies
 /// (pnl ÷ pct × 100); `None` unless every trade of the view has a finite,

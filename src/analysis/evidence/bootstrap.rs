@@ -1,0 +1,753 @@
+//! Bootstrap intervals of removed − baseline (docs/method.md §7).
+
+use crate::analysis::metrics::{self, Context, quantile_type7};
+use crate::analysis::scenarios::{self, ScenarioSettings, TradeView};
+use crate::import::trades::Trades;
+use rand::{Rng, RngExt, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rayon::prelude::*;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// Bootstrap settings.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct BootstrapSettings {
+    /// Resamples (0 = off).
+    pub n: usize,
+    /// Seed of the resamples.
+    pub seed: u64,
+    /// Confidence level, e.g. 0.95.
+    pub confidence: f64,
+}
+
+/// A percentile interval of removed − baseline.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Interval {
+    /// removed − baseline on the data as given.
+    pub observed: Option<f64>,
+    /// Lower end of the interval.
+    pub low: Option<f64>,
+    /// Upper end of the interval.
+    pub high: Option<f64>,
+    /// Replicates where the change was defined.
+    pub replicates: usize,
+}
+
+/// Result of the bootstrap (docs/method.md §7).
+#[derive(Debug, Clone, Serialize)]
+pub struct BootstrapResult {
+    /// Resamples drawn.
+    pub resamples: usize,
+    /// Seed of the resamples.
+    pub seed: u64,
+    /// Confidence level of the intervals.
+    pub confidence: f64,
+    /// The method in words.
+    pub method: &'static str,
+    /// Figure → interval of its change removed − baseline.
+    pub intervals: BTreeMap<&'static str, Interval>,
+}
+
+/// Of [`BOOTSTRAP_FIGURES`], those that follow one account's path through
+/// time (left out when runs are alternative accounts).
+pub const ACCOUNT_PATH_FIGURES: [&str; 2] = ["sharpe", "max_drawdown"];
+
+/// The figures whose change is bootstrapped.
+pub const BOOTSTRAP_FIGURES: [&str; 5] = ["net", "profit_factor", "sharpe", "max_drawdown", "tcr"];
+
+fn figure(m: &metrics::Metrics, name: &str) -> Option<f64> {
+    match name {
+        "net" => Some(m.net),
+        "profit_factor" => m.profit_factor,
+        "sharpe" => m.sharpe,
+        "max_drawdown" => m.max_drawdown,
+        "tcr" => m.tcr,
+        _ => None,
+    }
+}
+
+/// removed − baseline of each figure for one set of trade indices (a
+/// resample may repeat indices).
+pub fn changes(
+    idx: &[u32],
+    trades: &Trades,
+    exposed: &[bool],
+    settings: &ScenarioSettings,
+    ctx: &Context,
+) -> [Option<f64>; 5] {
+    let mut order = idx.to_vec();
+    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    let is_exposed = |i: usize| exposed[i];
+    let view = TradeView::of(&order, trades, &is_exposed);
+    let Ok(sc) = scenarios::build(&view, settings) else {
+        return [None; 5];
+    };
+    let ctx = Context {
+        initial_equity: sc.initial_equity,
+        ..*ctx
+    };
+    let m = |s: &scenarios::Series| {
+        metrics::compute(&s.view().curve(&trades.opened, &trades.closed), &ctx)
+    };
+    let (b, r) = (m(&sc.baseline), m(&sc.removed));
+    BOOTSTRAP_FIGURES.map(|f| match (figure(&b, f), figure(&r, f)) {
+        (Some(x), Some(y)) => Some(y - x),
+        _ => None,
+    })
+}
+
+/// Percentile interval (numpy's linear method) of the defined replicates.
+pub fn percentile_interval(
+    replicates: &[Option<f64>],
+    confidence: f64,
+) -> (Option<f64>, Option<f64>, usize) {
+    let mut v: Vec<f64> = replicates
+        .iter()
+        .flatten()
+        .copied()
+        .filter(|x| x.is_finite())
+        .collect();
+    v.sort_by(f64::total_cmp);
+    let a = (1.0 - confidence) / 2.0;
+    (quantile_type7(&v, a), quantile_type7(&v, 1.0 - a), v.len())
+}
+
+/// Resample `r` of a seeded bootstrap: n indices drawn with replacement
+/// from ChaCha8 stream `r` of `seed`, so each resample is drawn on its own
+/// (in any order, on any thread) and only the ones being evaluated are held
+/// in memory — 2 000 resamples of 10 million trades would otherwise take
+/// 80 GB.
+pub fn resample(n: usize, seed: u64, r: usize) -> Vec<u32> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    rng.set_stream(r as u64);
+    (0..n).map(|_| rng.random_range(0..n as u32)).collect()
+}
+
+/// The resamples a bootstrap evaluates.
+#[derive(Debug, Clone, Copy)]
+pub enum Resamples<'a> {
+    /// `count` resamples of all trades, resample r as [`resample`] draws it.
+    Seeded {
+        /// Number of resamples.
+        count: usize,
+        /// Seed of the resamples.
+        seed: u64,
+    },
+    /// Index sets drawn elsewhere (e.g. by a reference computation).
+    Given(&'a [Vec<u32>]),
+}
+
+impl Resamples<'_> {
+    /// Number of resamples.
+    pub fn len(&self) -> usize {
+        match self {
+            Resamples::Seeded { count, .. } => *count,
+            Resamples::Given(sets) => sets.len(),
+        }
+    }
+
+    /// Whether there are none.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The trade indices of resample `r` out of `n` trades.
+    pub fn indices(&self, n: usize, r: usize) -> Vec<u32> {
+        match self {
+            Resamples::Seeded { seed, .. } => resample(n, *seed, r),
+            Resamples::Given(sets) => sets[r].clone(),
+        }
+    }
+}
+
+/// Bootstrap intervals of removed − baseline over `resamples`.
+///
+/// Under fixed sizing each resample is evaluated by [`Weighted`]: one pass
+/// over the trades in close order weighted by how often the resample drew
+/// each, bit-identical to [`changes`] on the same indices. Compounding
+/// sizing replays equity per resample and goes through [`changes`].
+#[allow(clippy::too_many_arguments)]
+pub fn bootstrap_intervals(
+    resamples: Resamples,
+    trades: &Trades,
+    exposed: &[bool],
+    settings: &ScenarioSettings,
+    ctx: &Context,
+    confidence: f64,
+    progress: &(dyn Fn() + Sync),
+) -> BTreeMap<&'static str, Interval> {
+    let n = trades.len();
+    let all: Vec<u32> = (0..n as u32).collect();
+    let observed = changes(&all, trades, exposed, settings, ctx);
+    drop(all);
+    let slow = |r: usize| changes(&resamples.indices(n, r), trades, exposed, settings, ctx);
+    let count = resamples.len();
+    let fixed = settings.sizing == scenarios::Sizing::Fixed;
+    let reps: Vec<[Option<f64>; 5]> = if fixed && observed[0].is_none() {
+        // The scenarios cannot be built (a cap needs equity the input does
+        // not have); no resample of the same trades can build them either.
+        (0..count).for_each(|_| progress());
+        vec![[None; 5]; count]
+    } else if let Some(w) = Weighted::new(trades, exposed, settings, ctx) {
+        let pool = std::sync::Mutex::new(Vec::new());
+        (0..count)
+            .into_par_iter()
+            .map(|r| {
+                let popped = pool.lock().expect("scratch pool").pop();
+                let mut scratch = popped.unwrap_or_else(|| w.scratch());
+                let c = w
+                    .changes(&mut scratch, &resamples, r)
+                    .unwrap_or_else(|| slow(r));
+                pool.lock().expect("scratch pool").push(scratch);
+                progress();
+                c
+            })
+            .collect()
+    } else {
+        (0..count)
+            .into_par_iter()
+            .map(|r| {
+                let c = slow(r);
+                progress();
+                c
+            })
+            .collect()
+    };
+    BOOTSTRAP_FIGURES
+        .iter()
+        .enumerate()
+        .map(|(f, &name)| {
+            let col: Vec<Option<f64>> = reps.iter().map(|r| r[f]).collect();
+            let (low, high, replicates) = percentile_interval(&col, confidence);
+            (
+                name,
+                Interval {
+                    observed: observed[f],
+                    low,
+                    high,
+                    replicates,
+                },
+            )
+        })
+        .collect()
+}
+
+/// ChaCha8 stream `r` of `seed`, read a block of words at a time: the same
+/// words, in the same order, as `next_u32` gives (tested), at two thirds of
+/// the cost.
+struct Words {
+    rng: ChaCha8Rng,
+    buf: [u8; 4096],
+    at: usize,
+}
+
+impl Words {
+    fn new(seed: u64, stream: u64) -> Words {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        rng.set_stream(stream);
+        Words {
+            rng,
+            buf: [0; 4096],
+            at: 4096,
+        }
+    }
+
+    fn next_word(&mut self) -> u32 {
+        if self.at == self.buf.len() {
+            self.rng.fill_bytes(&mut self.buf);
+            self.at = 0;
+        }
+        let w = u32::from_le_bytes(self.buf[self.at..self.at + 4].try_into().expect("4 bytes"));
+        self.at += 4;
+        w
+    }
+
+    /// A draw from 0..n exactly as rand 0.10's `random_range(0..n)` makes
+    /// it for u32 (`UniformInt::sample_single_inclusive`, its default biased
+    /// variant of Canon's method): the high word of w·n, corrected by a
+    /// second word when the low word is within n of overflowing. Written out
+    /// so that the words can come from a block; [`resample`] is the
+    /// reference and a test holds the two equal.
+    #[inline]
+    fn index(&mut self, n: u32) -> u32 {
+        let m = self.next_word() as u64 * n as u64;
+        let (hi, lo) = ((m >> 32) as u32, m as u32);
+        if lo > n.wrapping_neg() {
+            let hi2 = ((self.next_word() as u64 * n as u64) >> 32) as u32;
+            if lo.checked_add(hi2).is_none() {
+                return hi + 1;
+            }
+        }
+        hi
+    }
+}
+
+/// The trades laid out once in close order (ties by open, then input
+/// order, as [`changes`] orders a resample), so that a resample is a count
+/// per trade and every figure one pass over the drawn copies: no gather of
+/// the resample's columns and no sort per resample (SPEC §7). Each sum runs
+/// over the copies one by one in the order [`changes`] adds them, so every
+/// figure is bit-identical to it (tested on random data).
+///
+/// Only for fixed sizing, and only when every resample measures its tail
+/// on the same basis as the whole input (amounts when no equity is
+/// recorded, returns when every trade's is).
+struct Weighted {
+    /// Position in close order → input index.
+    order: Vec<u32>,
+    /// By position: P/L, exposed, daily slot.
+    pnl: Vec<f64>,
+    exposed: Vec<bool>,
+    slot: Vec<u32>,
+    /// By position, |return| when the tail is measured on returns; `None`:
+    /// on |P/L|.
+    tail: Option<Vec<f64>>,
+    /// Positions by |tail value|, largest first: the whole order, or
+    /// (`ranked_all` false) a prefix of it deep enough for the top-k walk of
+    /// any likely resample (a resample that runs past it takes the slow path).
+    by_tail: Vec<u32>,
+    ranked_all: bool,
+    days: usize,
+    start: f64,
+    initial_equity: Option<f64>,
+    tcr_p: f64,
+}
+
+/// Per-thread buffers of [`Weighted::changes`].
+struct Scratch {
+    counts: Vec<u8>,
+    copies: Vec<u32>,
+    daily: [Vec<f64>; 2],
+}
+
+/// The running sums of one scenario over the drawn copies.
+struct Sums {
+    n: usize,
+    net: f64,
+    gross_profit: f64,
+    gross_loss: f64,
+    losses: usize,
+    equity: f64,
+    peak: f64,
+    drawdown: f64,
+    abs_tail: f64,
+}
+
+impl Sums {
+    fn new(start: f64) -> Sums {
+        Sums {
+            n: 0,
+            net: 0.0,
+            gross_profit: 0.0,
+            gross_loss: 0.0,
+            losses: 0,
+            equity: start,
+            peak: start,
+            drawdown: 0.0,
+            abs_tail: 0.0,
+        }
+    }
+
+    /// One copy, with the sums of `metrics::compute`, `max_drawdown` and
+    /// `tcr` in their order. The maxima are plain comparisons: on finite
+    /// values that are never −0.0 (no sum here starts at or can reach −0.0)
+    /// they pick what `f64::max` picks, and adding a clipped 0.0 where the
+    /// original adds ±0.0 leaves a sum that is never −0.0 unchanged.
+    #[inline(always)]
+    fn add(&mut self, p: f64, t: f64) {
+        self.net += p;
+        self.gross_profit += if p > 0.0 { p } else { 0.0 };
+        self.gross_loss += if p < 0.0 { p } else { 0.0 };
+        self.losses += (p < 0.0) as usize;
+        self.equity += p;
+        if self.equity > self.peak {
+            self.peak = self.equity;
+        }
+        let fall = self.peak - self.equity;
+        if fall > self.drawdown {
+            self.drawdown = fall;
+        }
+        self.abs_tail += t;
+    }
+}
+
+impl Weighted {
+    fn new(
+        trades: &Trades,
+        exposed: &[bool],
+        settings: &ScenarioSettings,
+        ctx: &Context,
+    ) -> Option<Weighted> {
+        let n = trades.len();
+        if settings.sizing != scenarios::Sizing::Fixed || n == 0 || n >= u32::MAX as usize {
+            return None;
+        }
+        let equity = scenarios::recorded_equity_of(trades);
+        if equity.is_none() && (trades.equity_before.is_some() || trades.pnl_pct.is_some()) {
+            // Some trades' equity is unknown: a resample without them would
+            // measure its tail on returns, one with them on amounts.
+            return None;
+        }
+        let mut slots = metrics::DaySlots::new(ctx);
+        let start = settings.initial_equity.unwrap_or(0.0);
+        if slots.is_empty()
+            || (start == 0.0 && start.is_sign_negative())
+            || !start.is_finite()
+            || trades.pnl.iter().any(|p| !p.is_finite())
+        {
+            // Sums that may be −0.0 or not finite: see `Sums::add`.
+            return None;
+        }
+        let mut order: Vec<u32> = (0..n as u32).collect();
+        scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+        let by_pos = |f: &dyn Fn(usize) -> f64| -> Vec<f64> {
+            order.iter().map(|&i| f(i as usize)).collect()
+        };
+        let pnl = by_pos(&|i| trades.pnl[i]);
+        let tail = equity.map(|eq| by_pos(&|i| (trades.pnl[i] / eq[i]).abs()));
+        if tail
+            .as_ref()
+            .is_some_and(|t| t.iter().any(|v| !v.is_finite()))
+        {
+            return None;
+        }
+        let slot = order
+            .iter()
+            .map(|&i| slots.slot(trades.closed[i as usize]) as u32)
+            .collect();
+        let exposed = order.iter().map(|&i| exposed[i as usize]).collect();
+        let tail_of = |j: u32| match &tail {
+            Some(t) => t[j as usize],
+            None => pnl[j as usize].abs(),
+        };
+        // A resample's k largest copies come from the whole input's largest
+        // trades; four times k deep (plus a margin) covers any resample but
+        // one that missed most of them.
+        let depth = n.min(metrics::tcr_k(n, ctx.tcr_p).saturating_mul(4) + 1024);
+        let mut by_tail: Vec<u32> = (0..n as u32).collect();
+        let desc = |a: &u32, b: &u32| tail_of(*b).total_cmp(&tail_of(*a));
+        if depth < n {
+            by_tail.select_nth_unstable_by(depth - 1, desc);
+            by_tail.truncate(depth);
+        }
+        by_tail.sort_unstable_by(desc);
+        Some(Weighted {
+            order,
+            pnl,
+            exposed,
+            slot,
+            tail,
+            ranked_all: depth == n,
+            by_tail,
+            days: slots.len(),
+            start,
+            initial_equity: settings.initial_equity,
+            tcr_p: ctx.tcr_p,
+        })
+    }
+
+    fn scratch(&self) -> Scratch {
+        Scratch {
+            counts: vec![0; self.pnl.len()],
+            copies: Vec::new(),
+            daily: [vec![0.0; self.days], vec![0.0; self.days]],
+        }
+    }
+
+    fn tail_at(&self, j: usize) -> f64 {
+        match &self.tail {
+            Some(t) => t[j],
+            None => self.pnl[j].abs(),
+        }
+    }
+
+    /// [`changes`] of resample `r`, or `None` when this resample needs the
+    /// slow path (a trade drawn over 255 times, an empty set, or a top-k walk
+    /// past the ranked prefix).
+    fn changes(
+        &self,
+        sc: &mut Scratch,
+        resamples: &Resamples,
+        r: usize,
+    ) -> Option<[Option<f64>; 5]> {
+        let n = self.pnl.len();
+        sc.counts.fill(0);
+        let mut overflow = false;
+        let counts = &mut sc.counts;
+        // Counted by input index: the counts (one byte a trade) are the only
+        // memory touched at random; a lookup of each draw's position would
+        // be a second random read, from memory four times larger.
+        let mut draw = |i: u32| {
+            let c = &mut counts[i as usize];
+            *c = c.wrapping_add(1);
+            overflow |= *c == 0;
+        };
+        let m = match resamples {
+            Resamples::Seeded { seed, .. } => {
+                let mut words = Words::new(*seed, r as u64);
+                for _ in 0..n {
+                    draw(words.index(n as u32));
+                }
+                n
+            }
+            Resamples::Given(sets) => {
+                sets[r].iter().for_each(|&i| draw(i));
+                sets[r].len()
+            }
+        };
+        if overflow || m == 0 {
+            return None;
+        }
+        // The copies in close order: position j written count[j] times
+        // (three unconditional writes cover almost every count).
+        sc.copies.resize(m + 3, 0);
+        let copies = &mut sc.copies;
+        let mut w = 0;
+        for (j, &i) in self.order.iter().enumerate() {
+            let (j, c) = (j as u32, sc.counts[i as usize] as usize);
+            if c <= 3 {
+                copies[w..w + 3].fill(j);
+            } else {
+                copies[w..w + c].fill(j);
+            }
+            w += c;
+        }
+        let (base, kept) = self.walk(&copies[..m], &mut sc.daily);
+        let figures = |s: &Sums, daily: &[f64], drop_exposed: bool| -> Option<[Option<f64>; 5]> {
+            let sharpe = metrics::sharpe(
+                &metrics::daily_values(daily.to_vec(), self.initial_equity),
+                metrics::DAYS_PER_YEAR,
+            );
+            let tcr = if s.n == 0 || s.abs_tail <= 0.0 {
+                None
+            } else {
+                let k = metrics::tcr_k(s.n, self.tcr_p);
+                let top = self.top_sum(&sc.counts, k, drop_exposed)?;
+                Some((top / k as f64) / (s.abs_tail / s.n as f64))
+            };
+            Some([
+                Some(s.net),
+                (s.losses > 0).then(|| s.gross_profit / s.gross_loss.abs()),
+                sharpe,
+                Some(s.drawdown),
+                tcr,
+            ])
+        };
+        let b = figures(&base, &sc.daily[0], false)?;
+        let k = figures(&kept, &sc.daily[1], true)?;
+        Some(std::array::from_fn(|f| match (b[f], k[f]) {
+            (Some(x), Some(y)) => Some(y - x),
+            _ => None,
+        }))
+    }
+
+    /// The baseline's and the removed scenario's sums over the copies (in
+    /// close order), and their P/L per day into `daily`.
+    fn walk(&self, copies: &[u32], daily: &mut [Vec<f64>; 2]) -> (Sums, Sums) {
+        let (mut base, mut kept) = (Sums::new(self.start), Sums::new(self.start));
+        let [day_base, day_kept] = daily;
+        day_base.fill(0.0);
+        day_kept.fill(0.0);
+        let (pnl, slot, exposed) = (&self.pnl[..], &self.slot[..], &self.exposed[..]);
+        let tail = self.tail.as_deref();
+        let mut cur = slot[copies[0] as usize];
+        // A day's sum starts at 0.0 as `walk_closes` starts it; closes come
+        // in order, so each day is one run of copies.
+        let (mut sum_base, mut sum_kept) = (0.0f64, 0.0f64);
+        for &j in copies {
+            let j = j as usize;
+            let (p, s) = (pnl[j], slot[j]);
+            if s != cur {
+                day_base[cur as usize] = sum_base;
+                day_kept[cur as usize] = sum_kept;
+                (sum_base, sum_kept, cur) = (0.0, 0.0, s);
+            }
+            let t = tail.map_or(p.abs(), |t| t[j]);
+            base.add(p, t);
+            sum_base += p;
+            if !exposed[j] {
+                kept.add(p, t);
+                kept.n += 1;
+                sum_kept += p;
+            }
+        }
+        day_base[cur as usize] = sum_base;
+        day_kept[cur as usize] = sum_kept;
+        base.n = copies.len();
+        (base, kept)
+    }
+
+    /// Sum of the k largest tail values among the drawn copies (without the
+    /// exposed ones when asked), largest first as `metrics::tcr` sums them;
+    /// `None` when the ranked prefix runs out first.
+    fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: bool) -> Option<f64> {
+        let (mut left, mut top) = (k, 0.0f64);
+        for &j in &self.by_tail {
+            let j = j as usize;
+            let c = counts[self.order[j] as usize] as usize;
+            if c == 0 || (drop_exposed && self.exposed[j]) {
+                continue;
+            }
+            let v = self.tail_at(j);
+            for _ in 0..c.min(left) {
+                top += v;
+            }
+            left -= c.min(left);
+            if left == 0 {
+                return Some(top);
+            }
+        }
+        self.ranked_all.then_some(top)
+    }
+}
+
+/// The bootstrap method in words (shown with the result).
+pub const BOOTSTRAP_METHOD: &str = "trades resampled with replacement, keeping their exposure; percentile interval of removed - baseline (linear interpolation, numpy's default)";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::scenarios::{CapRule, Sizing};
+    use crate::import::zones::{MINUTE_MS, Zone};
+
+    #[test]
+    fn block_words_draw_the_reference_resample() {
+        for (n, seed, r) in [
+            (1usize, 3u64, 0usize),
+            (7, 3, 1),
+            (1000, 9, 5),
+            (123_457, 1, 1999),
+        ] {
+            let mut w = Words::new(seed, r as u64);
+            let got: Vec<u32> = (0..n).map(|_| w.index(n as u32)).collect();
+            assert_eq!(got, resample(n, seed, r), "n {n} r {r}");
+        }
+    }
+
+    /// Random trades: ties in close (and open) instants, weekend closes,
+    /// P/L of both signs with zeros, a third exposed.
+    fn random_trades(n: usize, seed: u64, equity: bool) -> (Trades, Vec<bool>) {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let t0 = 1_704_067_200_000i64; // 2024-01-01T00:00Z
+        let opened: Vec<i64> = (0..n)
+            .map(|_| t0 + rng.random_range(0..400i64) * 6 * 3_600_000)
+            .collect();
+        let closed: Vec<i64> = opened
+            .iter()
+            .map(|o| o + rng.random_range(0..30i64) * 30 * MINUTE_MS)
+            .collect();
+        let pnl: Vec<f64> = (0..n)
+            .map(|_| match rng.random_range(0..10) {
+                0 => 0.0,
+                1 => rng.random_range(-4000..4000) as f64 / 3.0,
+                _ => rng.random_range(-300..320) as f64 / 7.0,
+            })
+            .collect();
+        let equity_before = equity.then(|| {
+            (0..n)
+                .map(|_| rng.random_range(5_000.0..20_000.0))
+                .collect()
+        });
+        let exposed = (0..n).map(|_| rng.random_range(0..3) == 0).collect();
+        let t = Trades {
+            opened,
+            closed,
+            instrument: vec![0; n],
+            instruments: vec!["EURUSD".into()],
+            pnl,
+            run: vec![0; n],
+            file: vec![0; n],
+            row: (1..=n as u32).collect(),
+            equity_before,
+            ..Default::default()
+        };
+        (t, exposed)
+    }
+
+    fn bits(c: &[Option<f64>; 5]) -> [Option<u64>; 5] {
+        c.map(|v| v.map(f64::to_bits))
+    }
+
+    /// The weighted pass gives every figure of [`changes`] bit for bit:
+    /// seeded and given resamples, amount and return tails, with and
+    /// without a starting equity, in UTC and in a zone with DST.
+    #[test]
+    fn weighted_pass_equals_changes_bitwise() {
+        let zones = [Zone::Utc, "America/New_York".parse::<Zone>().unwrap()];
+        for (case, (equity, initial, zone)) in [
+            (false, None, 0),
+            (true, None, 1),
+            (false, Some(25_000.0), 1),
+            (true, Some(10_000.0), 0),
+        ]
+        .into_iter()
+        .enumerate()
+        {
+            let (t, exposed) = random_trades(3000, 40 + case as u64, equity);
+            let settings = ScenarioSettings {
+                sizing: Sizing::Fixed,
+                cap: CapRule::Quantile(0.99),
+                initial_equity: initial,
+            };
+            let ctx = Context {
+                span: t.span().unwrap(),
+                report_zone: zones[zone],
+                initial_equity: None,
+                tcr_p: 1.0,
+            };
+            let w = Weighted::new(&t, &exposed, &settings, &ctx).expect("fixed sizing");
+            assert_eq!(w.tail.is_some(), equity);
+            let mut sc = w.scratch();
+            let seeded = Resamples::Seeded { count: 20, seed: 5 };
+            // Given sets: a small one with a trade drawn 9 times, and one
+            // drawing a single trade 300 times (past a u8 count).
+            let given = vec![vec![3, 3, 3, 3, 3, 3, 3, 3, 3, 10, 11, 2999], vec![17; 300]];
+            let given = Resamples::Given(&given);
+            for (res, r) in (0..20)
+                .map(|r| (seeded, r))
+                .chain((0..2).map(|r| (given, r)))
+            {
+                let want = changes(&res.indices(3000, r), &t, &exposed, &settings, &ctx);
+                match w.changes(&mut sc, &res, r) {
+                    Some(got) => assert_eq!(bits(&got), bits(&want), "case {case} resample {r}"),
+                    None => assert_eq!(r, 1, "only the 300-fold set takes the slow path"),
+                }
+            }
+        }
+    }
+
+    /// A resample that holds none of the largest trades walks past the
+    /// ranked prefix and is handed to the slow path, with the same result.
+    #[test]
+    fn a_resample_past_the_ranked_prefix_takes_the_slow_path() {
+        let (t, exposed) = random_trades(5000, 77, false);
+        let settings = ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::Quantile(0.99),
+            initial_equity: None,
+        };
+        let ctx = Context {
+            span: t.span().unwrap(),
+            report_zone: Zone::Utc,
+            initial_equity: None,
+            tcr_p: 1.0,
+        };
+        let w = Weighted::new(&t, &exposed, &settings, &ctx).unwrap();
+        assert!(!w.ranked_all, "50 × 4 + 1024 < 5000");
+        let mut small: Vec<u32> = (0..5000).collect();
+        small.sort_by(|&a, &b| t.pnl[a as usize].abs().total_cmp(&t.pnl[b as usize].abs()));
+        small.truncate(3000);
+        let sets = vec![small];
+        let res = Resamples::Given(&sets);
+        assert!(w.changes(&mut w.scratch(), &res, 0).is_none());
+        let got = bootstrap_intervals(res, &t, &exposed, &settings, &ctx, 0.95, &|| {});
+        let want = changes(&sets[0], &t, &exposed, &settings, &ctx);
+        for (f, name) in BOOTSTRAP_FIGURES.iter().enumerate() {
+            assert_eq!(
+                got[name].low.map(f64::to_bits),
+                want[f].map(f64::to_bits),
+                "{name}"
+            );
+        }
+    }
+}
