@@ -132,17 +132,43 @@ pub fn rank(
     } else {
         split_by_run(&order, trades)
     };
-    let mut rows = by_run
+    let rows_and_flags = by_run
         .par_iter()
         .enumerate()
         .map(|(r, idx)| {
-            let row = run_row(
-                trades, idx, r, &engine, releases, windows, currencies, settings, by, placebo,
-            );
+            let row = run_row(trades, idx, r, &engine, currencies, settings, by);
             progress();
             row
         })
         .collect::<Result<Vec<_>, _>>()?;
+    let (mut rows, flags): (Vec<RunRow>, Vec<Vec<bool>>) = rows_and_flags.into_iter().unzip();
+    if placebo.n > 0 {
+        // All runs' placebo calendars at once: each distinct shift is
+        // applied to the trades once and scored for every run that drew it.
+        let groups: Vec<evidence::PlaceboGroup> = rows
+            .iter()
+            .zip(&by_run)
+            .zip(&flags)
+            .map(|((row, idx), f)| evidence::PlaceboGroup {
+                trades: Some(idx),
+                observed_exposed: f,
+                seed: crate::import::trades::run_seed(placebo.seed, &row.run),
+            })
+            .collect();
+        let results = evidence::placebo_groups(
+            trades,
+            releases,
+            windows,
+            currencies,
+            settings.exposure_rule,
+            &groups,
+            placebo.n,
+            &|| {},
+        );
+        for (row, res) in rows.iter_mut().zip(results) {
+            row.placebo_p = res.p_share;
+        }
+    }
     assign_ranks(&mut rows, by);
     Ok(rows)
 }
@@ -167,19 +193,17 @@ fn subset(t: &Trades, idx: &[u32]) -> Trades {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
+/// One run's row (without its placebo p-value) and its trades' exposure
+/// flags in `idx` order.
 fn run_row(
     all: &Trades,
     idx: &[u32],
     r: usize,
     engine: &Engine,
-    releases: &[Release],
-    windows: &[UsedWindow],
     currencies: &[Vec<String>],
     settings: &AnalysisSettings,
     by: RankBy,
-    placebo: PlaceboSettings,
-) -> Result<RunRow, scenarios::ScenarioError> {
+) -> Result<(RunRow, Vec<bool>), scenarios::ScenarioError> {
     let t = subset(all, idx);
     let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, currencies);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
@@ -205,21 +229,7 @@ fn run_row(
     let (b, rm) = (&result.scenarios.baseline, &result.scenarios.removed);
     let exposed_pnl = result.exposed_pnl;
     let name = result.run.clone();
-    let placebo_p = (placebo.n > 0).then(|| {
-        let seed = crate::import::trades::run_seed(placebo.seed, &name);
-        evidence::placebo(
-            &t,
-            releases,
-            windows,
-            currencies,
-            settings.exposure_rule,
-            &flags,
-            PlaceboSettings { seed, ..placebo },
-            &|| {},
-        )
-        .p_share
-    });
-    Ok(RunRow {
+    let row = RunRow {
         run: name,
         trades: t.len(),
         exposed_trades: result.exposed_trades,
@@ -242,9 +252,10 @@ fn run_row(
         rank_baseline: 0,
         rank_removed: 0,
         rank_shift: 0,
-        placebo_p: placebo_p.flatten(),
+        placebo_p: None,
         tcr_basis: result.tail_basis,
-    })
+    };
+    Ok((row, flags))
 }
 
 /// Ranks 1..n by the figure; ties and undefined values (ranked last) in

@@ -9,7 +9,8 @@
 use crate::analysis::metrics::{self, Context};
 use crate::analysis::run::{AccountFigures, AnalysisSettings};
 use crate::analysis::scenarios::{self, TradeView};
-use crate::engine::exposure::{Engine, used_windows};
+use crate::engine::exposure::used_windows;
+use crate::engine::shifted::{Slots, TradeIndex, is_set};
 use crate::engine::windows::{Window, WindowSettings};
 use crate::import::calendar::{Release, Tier};
 use crate::import::trades::Trades;
@@ -188,6 +189,19 @@ pub fn tune(
     drop(base);
     let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
+    // The trades indexed once; each cell marks its windows' slots.
+    let mut calendar_currencies: Vec<String> =
+        releases.iter().map(|r| r.currency.clone()).collect();
+    calendar_currencies.sort();
+    calendar_currencies.dedup();
+    let index = TradeIndex::new(
+        &calendar_currencies,
+        &trades.opened,
+        &trades.closed,
+        &trades.instrument,
+        currencies,
+        settings.exposure_rule,
+    );
     let grid: Vec<(i64, i64)> = pre
         .iter()
         .flat_map(|&a| post.iter().map(move |&b| (a, b)))
@@ -204,20 +218,17 @@ pub fn tune(
                 },
             );
             let used = used_windows(releases, &ws);
-            let engine = Engine::from_windows(&used, settings.exposure_rule, releases.len());
-            let exp = engine.run_matches(
-                &trades.opened,
-                &trades.closed,
-                &trades.instrument,
-                currencies,
-            );
+            let slots = Slots::of_windows(&calendar_currencies, &used, settings.exposure_rule);
+            let mut bits = vec![0u64; index.words()];
+            index.mark(&slots, &mut bits);
+            drop(slots);
             let exposed_pnl: f64 = order
                 .iter()
                 .map(|&i| i as usize)
-                .filter(|&i| exp.is_exposed(i))
+                .filter(|&i| is_set(&bits, i))
                 .map(|i| trades.pnl[i])
                 .sum();
-            let is_exposed = |i: usize| exp.is_exposed(i);
+            let is_exposed = |i: usize| is_set(&bits, i);
             let after = if per_run.is_empty() {
                 let sc = build(&is_exposed)?;
                 let m = metrics::compute(
@@ -246,7 +257,7 @@ pub fn tune(
             Ok(Cell {
                 pre_min: a,
                 post_min: b,
-                trades_removed: exp.exposed_count(),
+                trades_removed: bits.iter().map(|w| w.count_ones() as usize).sum(),
                 share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
                 tcr_after: after.tcr,
                 tcr_reduction: after.tcr_reduction,

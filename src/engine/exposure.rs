@@ -68,6 +68,18 @@ pub struct UsedWindow {
     pub all_day: bool,
 }
 
+impl UsedWindow {
+    /// The interval a trade's query must meet under `rule`: the release
+    /// instant for `held` (the whole window for an all-day release), else
+    /// the window.
+    pub fn slot(&self, rule: ExposureRule) -> (i64, i64) {
+        match rule {
+            ExposureRule::Held if !self.all_day => (self.at, self.at),
+            _ => (self.start, self.end),
+        }
+    }
+}
+
 /// The windows of the releases the settings use, in calendar order.
 pub fn used_windows(releases: &[Release], windows: &WindowSettings) -> Vec<UsedWindow> {
     releases
@@ -152,10 +164,7 @@ impl Engine {
                 index.push(CurrencyIndex::default());
                 index.len() - 1
             });
-            let (start, end) = match rule {
-                ExposureRule::Held if !w.all_day => (w.at, w.at),
-                _ => (w.start, w.end),
-            };
+            let (start, end) = w.slot(rule);
             let ix = &mut index[ci];
             ix.slots.push(Slot {
                 start,

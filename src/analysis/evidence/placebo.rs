@@ -2,15 +2,15 @@
 //! random whole number of weekdays, and how often the moved calendar shows
 //! an effect at least as large as the real one.
 
-use crate::engine::exposure::{Engine, ExposureRule, UsedWindow};
-use crate::import::calendar::{Release, normalise_title};
+use crate::engine::exposure::{ExposureRule, UsedWindow};
+use crate::engine::shifted::{ShiftedCalendar, Slots, TradeIndex};
+use crate::import::calendar::Release;
 use crate::import::trades::Trades;
-use crate::import::zones::DAY_MS;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
-use std::collections::HashMap;
+use std::collections::BTreeMap;
 
 /// Placebo settings.
 #[derive(Debug, Clone, Copy, Serialize)]
@@ -76,7 +76,20 @@ pub fn placebo_p(observed: Option<f64>, placebo: &[Option<f64>]) -> Option<f64> 
     Some((1 + ge) as f64 / (placebo.len() + 1) as f64)
 }
 
-/// Runs N placebo calendars.
+/// One set of trades tested against placebo calendars of its own seed:
+/// all the trades (`analyze`) or one run's (`rank`).
+#[derive(Debug, Clone, Copy)]
+pub struct PlaceboGroup<'a> {
+    /// The group's trades (input indices) in the order its sums run;
+    /// `None`: every trade, in input order.
+    pub trades: Option<&'a [u32]>,
+    /// Observed exposure of the group's trades, in that order.
+    pub observed_exposed: &'a [bool],
+    /// Seed of the group's shifts.
+    pub seed: u64,
+}
+
+/// Runs N placebo calendars over all the trades.
 #[allow(clippy::too_many_arguments)]
 pub fn placebo(
     trades: &Trades,
@@ -88,95 +101,278 @@ pub fn placebo(
     s: PlaceboSettings,
     progress: &(dyn Fn() + Sync),
 ) -> PlaceboResult {
-    let (observed_share, observed_mean_diff) = effect_statistics(&trades.pnl, observed_exposed);
-    let mut result = PlaceboResult {
-        placebos: s.n,
+    let group = PlaceboGroup {
+        trades: None,
+        observed_exposed,
         seed: s.seed,
-        observed_share,
-        p_share: None,
-        observed_mean_diff,
-        p_mean_diff: None,
-        releases_dropped: 0,
-        method: PLACEBO_METHOD,
     };
-    if s.n == 0 || windows.is_empty() {
-        return result;
-    }
-    // Series: currency + normalised title; real instants sorted per series.
-    let series_of = |r: &Release| (r.currency.clone(), normalise_title(&r.title));
-    let mut series: HashMap<(String, String), Vec<i64>> = HashMap::new();
-    for r in releases {
-        series.entry(series_of(r)).or_default().push(r.at);
-    }
-    for v in series.values_mut() {
-        v.sort_unstable();
-    }
-    // Per window, once: its weekday number, time of day, and the sorted
-    // real instants of its series (looked up here, not per placebo).
-    let wd: Vec<(i64, i64)> = windows
+    placebo_groups(
+        trades,
+        releases,
+        windows,
+        currencies,
+        rule,
+        &[group],
+        s.n,
+        progress,
+    )
+    .pop()
+    .expect("one group")
+}
+
+/// Runs `n` placebo calendars for each group (its shifts drawn from its own
+/// seed), one result per group. Each distinct shift is built and applied to
+/// the trades once ([`ShiftedCalendar`], [`TradeIndex`]), then scored for
+/// every group that drew it; `progress` ticks once per group and placebo.
+#[allow(clippy::too_many_arguments)]
+pub fn placebo_groups(
+    trades: &Trades,
+    releases: &[Release],
+    windows: &[UsedWindow],
+    currencies: &[Vec<String>],
+    rule: ExposureRule,
+    groups: &[PlaceboGroup],
+    n: usize,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<PlaceboResult> {
+    let group_pnl = |g: &PlaceboGroup| -> Vec<f64> {
+        match g.trades {
+            Some(idx) => idx.iter().map(|&i| trades.pnl[i as usize]).collect(),
+            None => trades.pnl.clone(),
+        }
+    };
+    let mut results: Vec<PlaceboResult> = groups
         .iter()
-        .map(|w| {
-            let day = w.at.div_euclid(DAY_MS);
-            (
-                crate::import::zones::weekday_index(day),
-                w.at - day * DAY_MS,
-            )
+        .map(|g| {
+            let (observed_share, observed_mean_diff) =
+                effect_statistics(&group_pnl(g), g.observed_exposed);
+            PlaceboResult {
+                placebos: n,
+                seed: g.seed,
+                observed_share,
+                p_share: None,
+                observed_mean_diff,
+                p_mean_diff: None,
+                releases_dropped: 0,
+                method: PLACEBO_METHOD,
+            }
         })
         .collect();
-    let real_of: Vec<&[i64]> = windows
-        .iter()
-        .map(|w| series[&series_of(&releases[w.release as usize])].as_slice())
-        .collect();
-    let w0 = wd.iter().map(|x| x.0).min().expect("non-empty");
-    let span = wd.iter().map(|x| x.0).max().expect("non-empty") - w0 + 1;
-    let mut rng = ChaCha8Rng::seed_from_u64(s.seed);
-    let shifts: Vec<i64> = (0..s.n)
-        .map(|_| {
-            if span > 1 {
+    if n == 0 || windows.is_empty() {
+        return results;
+    }
+    let calendar = ShiftedCalendar::new(releases, windows, rule);
+    let span = calendar.span();
+    // Every group's shifts, then which (group, placebo) drew each shift.
+    let mut drawn: BTreeMap<i64, Vec<(usize, usize)>> = BTreeMap::new();
+    for (g, group) in groups.iter().enumerate() {
+        let mut rng = ChaCha8Rng::seed_from_u64(group.seed);
+        for j in 0..n {
+            let d = if span > 1 {
                 rng.random_range(1..span)
             } else {
                 0
-            }
-        })
+            };
+            drawn.entry(d).or_default().push((g, j));
+        }
+    }
+    let index = TradeIndex::new(
+        calendar.currencies(),
+        &trades.opened,
+        &trades.closed,
+        &trades.instrument,
+        currencies,
+        rule,
+    );
+    // Net P/L of each group, summed in the group's order.
+    let nets: Vec<f64> = groups
+        .iter()
+        .map(|g| group_pnl(g).iter().fold(0.0, |net, p| net + p))
         .collect();
-    let runs: Vec<(Option<f64>, Option<f64>, usize)> = shifts
-        .par_iter()
-        .map(|&d| {
-            let mut moved = Vec::with_capacity(windows.len());
-            let mut dropped = 0;
-            for ((w, &(idx, tod)), real) in windows.iter().zip(&wd).zip(&real_of) {
-                let new_idx = w0 + (idx - w0 + d).rem_euclid(span);
-                let new_at = crate::import::zones::day_of_weekday_index(new_idx) * DAY_MS + tod;
-                let p = real.partition_point(|&t| t < new_at - DAY_MS);
-                if real.get(p).is_some_and(|&t| t <= new_at + DAY_MS) {
-                    dropped += 1;
-                    continue;
+    let drawn: Vec<(i64, Vec<(usize, usize)>)> = drawn.into_iter().collect();
+    // BATCH shifts at a time: marked one after the other, then scored
+    // together, BATCH sums running side by side in one pass over a group.
+    let zero = vec![0u64; index.words()];
+    type Scored = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
+    let scored: Vec<Scored> = drawn
+        .par_chunks(BATCH)
+        .map_init(
+            || (Slots::default(), vec![vec![0u64; index.words()]; BATCH]),
+            |(moved, bits), chunk| {
+                let mut dropped = [0usize; BATCH];
+                let mut by_group: BTreeMap<usize, Vec<(usize, usize)>> = BTreeMap::new();
+                for (k, (d, who)) in chunk.iter().enumerate() {
+                    calendar.shift(*d, moved);
+                    index.mark(moved, &mut bits[k]);
+                    dropped[k] = moved.dropped;
+                    for &(g, j) in who {
+                        by_group.entry(g).or_default().push((k, j));
+                    }
                 }
-                let delta = new_at - w.at;
-                moved.push(UsedWindow {
-                    start: w.start + delta,
-                    end: w.end + delta,
-                    at: new_at,
-                    ..w.clone()
-                });
-            }
-            let engine = Engine::from_windows(&moved, rule, releases.len());
-            let exp = engine.run_matches(
-                &trades.opened,
-                &trades.closed,
-                &trades.instrument,
-                currencies,
-            );
-            let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
-            let (a, b) = effect_statistics(&trades.pnl, &flags);
-            progress();
-            (a, b, dropped)
-        })
+                let mut out = Vec::new();
+                for (g, pairs) in by_group {
+                    for part in pairs.chunks(BATCH) {
+                        let sets: [&[u64]; BATCH] = std::array::from_fn(|b| {
+                            part.get(b)
+                                .map_or(zero.as_slice(), |&(k, _)| bits[k].as_slice())
+                        });
+                        let stats =
+                            flagged_statistics(&trades.pnl, groups[g].trades, sets, nets[g]);
+                        for (&(k, j), (a, b)) in part.iter().zip(stats) {
+                            out.push((g, j, dropped[k], a, b));
+                            progress();
+                        }
+                    }
+                }
+                out
+            },
+        )
         .collect();
-    let shares: Vec<Option<f64>> = runs.iter().map(|r| r.0).collect();
-    let diffs: Vec<Option<f64>> = runs.iter().map(|r| r.1).collect();
-    result.p_share = placebo_p(observed_share, &shares);
-    result.p_mean_diff = placebo_p(observed_mean_diff, &diffs);
-    result.releases_dropped = runs.iter().map(|r| r.2).sum();
-    result
+    let mut shares = vec![vec![None; n]; groups.len()];
+    let mut diffs = vec![vec![None; n]; groups.len()];
+    for (g, j, dropped, a, b) in scored.into_iter().flatten() {
+        shares[g][j] = a;
+        diffs[g][j] = b;
+        results[g].releases_dropped += dropped;
+    }
+    for (g, r) in results.iter_mut().enumerate() {
+        r.p_share = placebo_p(r.observed_share, &shares[g]);
+        r.p_mean_diff = placebo_p(r.observed_mean_diff, &diffs[g]);
+    }
+    results
+}
+
+/// Shifts scored together (see [`flagged_statistics`]).
+const BATCH: usize = 8;
+
+/// [`effect_statistics`] of a group's trades under each of BATCH
+/// [`TradeIndex::mark`] bit sets, `net` being the group's net P/L summed
+/// in the group's order. Bit for bit the same sums: each total adds the
+/// same values in the same order, the others' turn adding +0.0, which
+/// leaves a total unchanged (a total that starts at +0.0 is never −0.0).
+/// The BATCH totals are independent chains, so one pass runs them side by
+/// side instead of waiting on each addition in turn.
+fn flagged_statistics(
+    pnl: &[f64],
+    order: Option<&[u32]>,
+    bits: [&[u64]; BATCH],
+    net: f64,
+) -> [(Option<f64>, Option<f64>); BATCH] {
+    let mut e_sum = [0.0f64; BATCH];
+    let mut u_sum = [0.0f64; BATCH];
+    let mut e_n = [0usize; BATCH];
+    // Adds p to the exposed or the unexposed total of each set: the mask
+    // keeps p's bits or makes +0.0, so there is no branch to mispredict.
+    #[inline(always)]
+    fn add(
+        e_sum: &mut [f64; BATCH],
+        u_sum: &mut [f64; BATCH],
+        words: [u64; BATCH],
+        bit: usize,
+        p: f64,
+    ) {
+        let p = p.to_bits();
+        for b in 0..BATCH {
+            let keep = 0u64.wrapping_sub(words[b] >> bit & 1);
+            e_sum[b] += f64::from_bits(p & keep);
+            u_sum[b] += f64::from_bits(p & !keep);
+        }
+    }
+    let total = match order {
+        Some(idx) => {
+            for &i in idx {
+                let i = i as usize;
+                let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][i / 64]);
+                add(&mut e_sum, &mut u_sum, words, i % 64, pnl[i]);
+                for b in 0..BATCH {
+                    e_n[b] += (words[b] >> (i % 64) & 1) as usize;
+                }
+            }
+            idx.len()
+        }
+        None => {
+            for (w, chunk) in pnl.chunks(64).enumerate() {
+                let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][w]);
+                for (bit, &p) in chunk.iter().enumerate() {
+                    add(&mut e_sum, &mut u_sum, words, bit, p);
+                }
+                for b in 0..BATCH {
+                    e_n[b] += words[b].count_ones() as usize;
+                }
+            }
+            pnl.len()
+        }
+    };
+    std::array::from_fn(|b| {
+        let u_n = total - e_n[b];
+        let share = (net != 0.0).then(|| e_sum[b] / net);
+        let diff =
+            (e_n[b] > 0 && u_n > 0).then(|| e_sum[b] / e_n[b] as f64 - u_sum[b] / u_n as f64);
+        (share, diff)
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The bit-set statistics equal [`effect_statistics`] bit for bit, in
+    /// input order and in a group's own order, with zeros of both signs.
+    #[test]
+    fn flagged_statistics_equal_effect_statistics_bitwise() {
+        let mut x: u64 = 99;
+        let mut next = || {
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            x >> 11
+        };
+        let n: usize = 1000;
+        let pnl: Vec<f64> = (0..n)
+            .map(|i| match i % 9 {
+                0 => 0.0,
+                1 => -0.0,
+                _ => (next() % 200_001) as f64 / 7.0 - 14_285.0,
+            })
+            .collect();
+        let densities = [0, 3, 50, 100, 97, 20, 1, 70];
+        assert!(BATCH <= densities.len());
+        let flag_sets: Vec<Vec<bool>> = densities
+            .iter()
+            .map(|&d| (0..n).map(|_| next() % 100 < d).collect())
+            .collect();
+        let bit_sets: Vec<Vec<u64>> = flag_sets
+            .iter()
+            .map(|flags| {
+                let mut bits = vec![0u64; n.div_ceil(64)];
+                for (i, &f) in flags.iter().enumerate() {
+                    bits[i / 64] |= (f as u64) << (i % 64);
+                }
+                bits
+            })
+            .collect();
+        let sets: [&[u64]; BATCH] = std::array::from_fn(|b| bit_sets[b].as_slice());
+        let net = pnl.iter().fold(0.0, |a, p| a + p);
+        let all = flagged_statistics(&pnl, None, sets, net);
+        let order: Vec<u32> = (0..n as u32).rev().filter(|i| i % 3 == 0).collect();
+        let g_pnl: Vec<f64> = order.iter().map(|&i| pnl[i as usize]).collect();
+        let g_net = g_pnl.iter().fold(0.0, |a, p| a + p);
+        let group = flagged_statistics(&pnl, Some(&order), sets, g_net);
+        for (b, (flags, density)) in flag_sets.iter().zip(densities).take(BATCH).enumerate() {
+            let bitwise =
+                |v: (Option<f64>, Option<f64>)| (v.0.map(f64::to_bits), v.1.map(f64::to_bits));
+            assert_eq!(
+                bitwise(all[b]),
+                bitwise(effect_statistics(&pnl, flags)),
+                "density {density}"
+            );
+            // A group: every third trade, backwards.
+            let g_flags: Vec<bool> = order.iter().map(|&i| flags[i as usize]).collect();
+            assert_eq!(
+                bitwise(group[b]),
+                bitwise(effect_statistics(&g_pnl, &g_flags)),
+                "group, density {density}"
+            );
+        }
+    }
 }

@@ -1,0 +1,473 @@
+//! Exposure flags for many calendars over the same trades: moved copies of
+//! one calendar (the placebo calendars of docs/method.md §7) and the cells
+//! of a window grid (`tune`, [`Slots::of_windows`]).
+//!
+//! [`ShiftedCalendar`] prepares the used windows once: each one's currency,
+//! weekday number, time of day, its slot under the rule as offsets from the
+//! release instant, and the real instants of its series (for the drop test).
+//! [`ShiftedCalendar::shift`] then moves every window by whole weekdays into
+//! per-currency arrays sorted by start. [`TradeIndex`] holds the trades once,
+//! per currency, in classes of similar duration sorted by query start, so a
+//! moved calendar is applied window by window: a window `[s, e]` meets the
+//! trades of a class whose query start lies in `[s − longest, e]` and whose
+//! query end is ≥ s. That is the engine's rule ([`super::exposure`]: a
+//! trade's query interval and a slot intersect), run from the windows'
+//! side, so a calendar costs O(windows × classes + near misses + hits)
+//! instead of a search per trade. Only the flags are kept (no match lists).
+
+use crate::engine::exposure::{ExposureRule, UsedWindow};
+use crate::import::calendar::{Release, normalise_title};
+use crate::import::zones::{DAY_MS, day_of_weekday_index, weekday_index};
+use std::collections::HashMap;
+
+/// One used window, ready to move.
+#[derive(Debug, Clone, Copy)]
+struct Prepared {
+    currency: u32,
+    weekday: i64,
+    time_of_day: i64,
+    /// Slot start and end under the rule, minus the release instant.
+    start_offset: i64,
+    end_offset: i64,
+    /// Index into `ShiftedCalendar::series`.
+    series: u32,
+}
+
+/// The used windows of a calendar, prepared for moving by whole weekdays.
+#[derive(Debug)]
+pub struct ShiftedCalendar {
+    windows: Vec<Prepared>,
+    /// Currencies of the used windows; a window's `currency` indexes this.
+    currencies: Vec<String>,
+    /// Real release instants of each series (currency + normalised title), sorted.
+    series: Vec<Vec<i64>>,
+    /// First weekday number of the used windows.
+    first_weekday: i64,
+    /// Weekdays from the first to the last used window, inclusive.
+    span: i64,
+}
+
+/// The slots of one calendar (moved or not), per currency of a list,
+/// sorted by start; and how many moved windows were dropped. Reused
+/// between shifts.
+#[derive(Debug, Default)]
+pub struct Slots {
+    slots: Vec<Vec<(i64, i64)>>,
+    /// Moved windows dropped because they landed within a day of a real
+    /// release of the same series.
+    pub dropped: usize,
+}
+
+impl Slots {
+    /// The slots of `windows` under `rule`, unmoved, per currency of
+    /// `currencies` (sorted; windows of other currencies are left out).
+    pub fn of_windows(currencies: &[String], windows: &[UsedWindow], rule: ExposureRule) -> Slots {
+        let mut slots = vec![Vec::new(); currencies.len()];
+        for w in windows {
+            if let Ok(c) = currencies.binary_search(&w.currency) {
+                slots[c].push(w.slot(rule));
+            }
+        }
+        for s in &mut slots {
+            s.sort_by_key(|x| x.0);
+        }
+        Slots { slots, dropped: 0 }
+    }
+}
+
+impl ShiftedCalendar {
+    /// Prepares `windows` (used windows of `releases`) under `rule`.
+    pub fn new(
+        releases: &[Release],
+        windows: &[UsedWindow],
+        rule: ExposureRule,
+    ) -> ShiftedCalendar {
+        let mut series_ids: HashMap<(String, String), u32> = HashMap::new();
+        let mut series: Vec<Vec<i64>> = Vec::new();
+        for r in releases {
+            let key = (r.currency.clone(), normalise_title(&r.title));
+            let id = *series_ids.entry(key).or_insert_with(|| {
+                series.push(Vec::new());
+                (series.len() - 1) as u32
+            });
+            series[id as usize].push(r.at);
+        }
+        for s in &mut series {
+            s.sort_unstable();
+        }
+        let mut currencies: Vec<String> = windows.iter().map(|w| w.currency.clone()).collect();
+        currencies.sort();
+        currencies.dedup();
+        let prepared: Vec<Prepared> = windows
+            .iter()
+            .map(|w| {
+                let r = &releases[w.release as usize];
+                let day = w.at.div_euclid(DAY_MS);
+                let (start, end) = w.slot(rule);
+                Prepared {
+                    currency: currencies.binary_search(&w.currency).expect("listed") as u32,
+                    weekday: weekday_index(day),
+                    time_of_day: w.at - day * DAY_MS,
+                    start_offset: start - w.at,
+                    end_offset: end - w.at,
+                    series: series_ids[&(r.currency.clone(), normalise_title(&r.title))],
+                }
+            })
+            .collect();
+        let first_weekday = prepared.iter().map(|w| w.weekday).min().unwrap_or(0);
+        let last = prepared.iter().map(|w| w.weekday).max().unwrap_or(0);
+        ShiftedCalendar {
+            windows: prepared,
+            currencies,
+            series,
+            first_weekday,
+            span: last - first_weekday + 1,
+        }
+    }
+
+    /// Weekdays from the first to the last used window, inclusive (shifts
+    /// are drawn from 1..span).
+    pub fn span(&self) -> i64 {
+        self.span
+    }
+
+    /// The currencies of the used windows, sorted (a [`TradeIndex`]'s list).
+    pub fn currencies(&self) -> &[String] {
+        &self.currencies
+    }
+
+    /// Whether there is no used window.
+    pub fn is_empty(&self) -> bool {
+        self.windows.is_empty()
+    }
+
+    /// Moves every window by `days` weekdays (wrapping within the span,
+    /// time of day kept) into `out`, dropping those within a day of a real
+    /// release of their series.
+    pub fn shift(&self, days: i64, out: &mut Slots) {
+        out.slots.resize_with(self.currencies.len(), Vec::new);
+        for s in &mut out.slots {
+            s.clear();
+        }
+        out.dropped = 0;
+        for w in &self.windows {
+            let weekday =
+                self.first_weekday + (w.weekday - self.first_weekday + days).rem_euclid(self.span);
+            let at = day_of_weekday_index(weekday) * DAY_MS + w.time_of_day;
+            let real = &self.series[w.series as usize];
+            let p = real.partition_point(|&t| t < at - DAY_MS);
+            if real.get(p).is_some_and(|&t| t <= at + DAY_MS) {
+                out.dropped += 1;
+                continue;
+            }
+            out.slots[w.currency as usize].push((at + w.start_offset, at + w.end_offset));
+        }
+        // Nearly sorted already (a rotation): the stable sort merges runs.
+        for s in &mut out.slots {
+            s.sort_by_key(|x| x.0);
+        }
+    }
+}
+
+/// Trades of one currency whose query lasts about as long: sorted by query start.
+#[derive(Debug, Default)]
+struct Class {
+    longest: i64,
+    query_start: Vec<i64>,
+    query_end: Vec<i64>,
+    trade: Vec<u32>,
+}
+
+/// The trades, indexed once per currency of a [`ShiftedCalendar`] for
+/// marking moved calendars.
+#[derive(Debug)]
+pub struct TradeIndex {
+    trades: usize,
+    by_currency: Vec<Vec<Class>>,
+}
+
+impl TradeIndex {
+    /// Indexes the trades under `rule` (query `[open, open]` for `entered`,
+    /// `[open, close]` otherwise) on `currencies` (sorted: the list the
+    /// [`Slots`] to mark are built on).
+    pub fn new(
+        currencies: &[String],
+        opened: &[i64],
+        closed: &[i64],
+        instrument: &[u32],
+        instrument_currencies: &[Vec<String>],
+        rule: ExposureRule,
+    ) -> TradeIndex {
+        let ids: Vec<Vec<usize>> = instrument_currencies
+            .iter()
+            .map(|cs| {
+                let mut v: Vec<usize> = cs
+                    .iter()
+                    .filter_map(|c| currencies.binary_search(c).ok())
+                    .collect();
+                v.sort_unstable();
+                v.dedup();
+                v
+            })
+            .collect();
+        // Classes by duration, a factor of 4 apart: a class's near misses
+        // stay within a small multiple of its hits.
+        let class_of = |len: i64| ((64 - (len.max(0) as u64).leading_zeros()) / 2) as usize;
+        let mut entries: Vec<Vec<Vec<(i64, i64, u32)>>> =
+            (0..currencies.len()).map(|_| Vec::new()).collect();
+        for i in 0..opened.len() {
+            let (qa, qb) = match rule {
+                ExposureRule::Entered => (opened[i], opened[i]),
+                _ => (opened[i], closed[i]),
+            };
+            for &c in &ids[instrument[i] as usize] {
+                let k = class_of(qb - qa);
+                let list = &mut entries[c];
+                if list.len() <= k {
+                    list.resize_with(k + 1, Vec::new);
+                }
+                list[k].push((qa, qb, i as u32));
+            }
+        }
+        let by_currency = entries
+            .into_iter()
+            .map(|classes| {
+                classes
+                    .into_iter()
+                    .filter(|c| !c.is_empty())
+                    .map(|mut c| {
+                        c.sort_unstable_by_key(|x| (x.0, x.2));
+                        Class {
+                            longest: c.iter().map(|x| x.1 - x.0).max().unwrap_or(0).max(0),
+                            query_start: c.iter().map(|x| x.0).collect(),
+                            query_end: c.iter().map(|x| x.1).collect(),
+                            trade: c.iter().map(|x| x.2).collect(),
+                        }
+                    })
+                    .collect()
+            })
+            .collect();
+        TradeIndex {
+            trades: opened.len(),
+            by_currency,
+        }
+    }
+
+    /// Words of a flag set for these trades (bit i of word i / 64 = trade i).
+    pub fn words(&self) -> usize {
+        self.trades.div_ceil(64)
+    }
+
+    /// Sets in `bits` (cleared first; [`TradeIndex::words`] long) the trades
+    /// that meet at least one of the slots.
+    pub fn mark(&self, slots: &Slots, bits: &mut [u64]) {
+        bits.fill(0);
+        for (classes, slots) in self.by_currency.iter().zip(&slots.slots) {
+            for c in classes {
+                let mut hint = 0;
+                for &(s, e) in slots {
+                    let from = first_at_least(&c.query_start, hint, s.saturating_sub(c.longest));
+                    hint = from;
+                    for j in from..c.query_start.len() {
+                        if c.query_start[j] > e {
+                            break;
+                        }
+                        // Without a branch: about half the candidates
+                        // are near misses, in no predictable pattern.
+                        let t = c.trade[j] as usize;
+                        bits[t / 64] |= ((c.query_end[j] >= s) as u64) << (t % 64);
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// The first position at or after `from` whose value is ≥ `lo`, in a
+/// sorted slice, given that none before `from` is (the bounds of one
+/// class's windows only grow): doubling steps forward, then a binary search
+/// of the last step. Written out rather than [`super::exposure::partition_point_near`]
+/// so the comparison inlines; it runs once per window and class.
+fn first_at_least(v: &[i64], from: usize, lo: i64) -> usize {
+    let n = v.len();
+    if from >= n || v[from] >= lo {
+        return from.min(n);
+    }
+    // v[start] < lo: the answer lies in (start, start + step].
+    let (mut start, mut step) = (from, 1);
+    loop {
+        let probe = start + step;
+        if probe >= n {
+            return start + 1 + v[start + 1..].partition_point(|&q| q < lo);
+        }
+        if v[probe] >= lo {
+            return start + 1 + v[start + 1..probe].partition_point(|&q| q < lo);
+        }
+        start = probe;
+        step *= 2;
+    }
+}
+
+/// Whether trade `i` is set in a flag set from [`TradeIndex::mark`].
+pub fn is_set(bits: &[u64], i: usize) -> bool {
+    bits[i / 64] >> (i % 64) & 1 == 1
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn first_at_least_equals_partition_point() {
+        let v: Vec<i64> = (0..300).map(|i| i / 3 * 2).collect();
+        for lo in -3..205 {
+            let want = v.partition_point(|&x| x < lo);
+            for from in [0, 1, 7, 150, 299, 300, 5000] {
+                if from <= want {
+                    assert_eq!(first_at_least(&v, from, lo), want, "lo {lo} from {from}");
+                }
+            }
+        }
+        assert_eq!(first_at_least(&[], 0, 1), 0);
+    }
+    use crate::engine::exposure::Engine;
+    use crate::import::calendar::Tier;
+    use crate::import::zones::MINUTE_MS;
+
+    /// Flags from the moved calendar equal the engine's on the same moved
+    /// windows, for every rule, shift and a mix of trade lengths.
+    #[test]
+    fn marks_equal_the_engine_on_moved_windows() {
+        let day = DAY_MS / MINUTE_MS;
+        let mut releases = Vec::new();
+        for i in 0..60i64 {
+            let cur = ["USD", "EUR", "JPY"][(i % 3) as usize];
+            let at = (20_000 + i * 37 % 40) * day + (i * 211 % 1440);
+            releases.push(Release {
+                id: format!("r{i}"),
+                at: at * MINUTE_MS,
+                end: at * MINUTE_MS,
+                all_day: i % 11 == 0,
+                title: format!("series {}", i % 7),
+                currency: cur.into(),
+                tier: [Tier::High, Tier::Medium, Tier::Low][(i % 3) as usize],
+                category: None,
+                region: None,
+            });
+        }
+        let windows: Vec<UsedWindow> = releases
+            .iter()
+            .enumerate()
+            .map(|(i, r)| {
+                let (pre, post) = if r.all_day {
+                    (0, day - 1)
+                } else {
+                    (15 + i as i64 % 20, 30)
+                };
+                UsedWindow {
+                    release: i as u32,
+                    currency: r.currency.clone(),
+                    start: r.at - pre * MINUTE_MS,
+                    end: r.at + post * MINUTE_MS,
+                    at: r.at,
+                    all_day: r.all_day,
+                }
+            })
+            .collect();
+        let currencies = vec![
+            vec!["EUR".to_string(), "USD".to_string()],
+            vec!["JPY".to_string(), "USD".to_string()],
+            vec!["GBP".to_string()],
+        ];
+        let (mut opened, mut closed, mut instrument) = (Vec::new(), Vec::new(), Vec::new());
+        let mut x: u64 = 7;
+        for i in 0..4000u32 {
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let o = (20_000 * day + (x >> 20) as i64 % (42 * day)) * MINUTE_MS;
+            let len = [0, 1, 5, 60, 600, 3000, 20_000][(x >> 8) as usize % 7] * MINUTE_MS
+                + (x >> 40) as i64 % MINUTE_MS;
+            opened.push(o);
+            closed.push(o + len);
+            instrument.push(i % 3);
+        }
+        for rule in [
+            ExposureRule::Overlap,
+            ExposureRule::Held,
+            ExposureRule::Entered,
+        ] {
+            let cal = ShiftedCalendar::new(&releases, &windows, rule);
+            let index = TradeIndex::new(
+                cal.currencies(),
+                &opened,
+                &closed,
+                &instrument,
+                &currencies,
+                rule,
+            );
+            let mut moved = Slots::default();
+            let mut bits = vec![0; index.words()];
+            let mut exposed_seen = 0;
+            for d in [0, 1, 3, 7, cal.span() - 1] {
+                cal.shift(d, &mut moved);
+                index.mark(&moved, &mut bits);
+                // The same move done window by window, through the engine.
+                let first = windows
+                    .iter()
+                    .map(|w| weekday_index(w.at.div_euclid(DAY_MS)))
+                    .min()
+                    .unwrap();
+                let mut kept = Vec::new();
+                let mut dropped = 0;
+                for w in &windows {
+                    let wd = weekday_index(w.at.div_euclid(DAY_MS));
+                    let new_at =
+                        day_of_weekday_index(first + (wd - first + d).rem_euclid(cal.span()))
+                            * DAY_MS
+                            + w.at.rem_euclid(DAY_MS);
+                    let r = &releases[w.release as usize];
+                    let near = releases.iter().any(|q| {
+                        q.currency == r.currency
+                            && normalise_title(&q.title) == normalise_title(&r.title)
+                            && (q.at - new_at).abs() <= DAY_MS
+                    });
+                    if near {
+                        dropped += 1;
+                        continue;
+                    }
+                    let delta = new_at - w.at;
+                    kept.push(UsedWindow {
+                        start: w.start + delta,
+                        end: w.end + delta,
+                        at: new_at,
+                        ..w.clone()
+                    });
+                }
+                assert_eq!(moved.dropped, dropped, "{rule:?} shift {d}");
+                let want = Engine::from_windows(&kept, rule, releases.len())
+                    .run_matches(&opened, &closed, &instrument, &currencies)
+                    .k;
+                for (i, &k) in want.iter().enumerate() {
+                    assert_eq!(is_set(&bits, i), k > 0, "{rule:?} shift {d} trade {i}");
+                }
+                exposed_seen += want.iter().filter(|&&k| k > 0).count();
+            }
+            // Unmoved, as a window grid cell marks them.
+            index.mark(
+                &Slots::of_windows(cal.currencies(), &windows, rule),
+                &mut bits,
+            );
+            let want = Engine::from_windows(&windows, rule, releases.len())
+                .run_matches(&opened, &closed, &instrument, &currencies)
+                .k;
+            for (i, &k) in want.iter().enumerate() {
+                assert_eq!(is_set(&bits, i), k > 0, "{rule:?} unmoved trade {i}");
+            }
+            assert!(
+                exposed_seen > 100,
+                "{rule:?}: the check needs exposed trades ({exposed_seen})"
+            );
+        }
+    }
+}
