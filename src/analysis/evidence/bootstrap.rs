@@ -415,22 +415,34 @@ impl Weighted {
             .iter()
             .map(|&i| slots.slot(trades.closed[i as usize]) as u32)
             .collect();
-        let exposed = order.iter().map(|&i| exposed[i as usize]).collect();
+        let exposed: Vec<bool> = order.iter().map(|&i| exposed[i as usize]).collect();
         let tail_of = |j: u32| match &tail {
             Some(t) => t[j as usize],
             None => pnl[j as usize].abs(),
         };
         // A resample's k largest copies come from the whole input's largest
         // trades; four times k deep (plus a margin) covers any resample but
-        // one that missed most of them.
-        let depth = n.min(metrics::tcr_k(n, ctx.tcr_p).saturating_mul(4) + 1024);
-        let mut by_tail: Vec<u32> = (0..n as u32).collect();
+        // one that missed most of them. The removed scenario ranks only the
+        // unexposed trades, so the prefix must hold that many of them too:
+        // when the largest trades are mostly exposed (the very case the
+        // tool looks for) it is deepened until it does.
+        let want = n.min(metrics::tcr_k(n, ctx.tcr_p).saturating_mul(4) + 1024);
+        let unexposed_total = exposed.iter().filter(|&&x: &&bool| !x).count();
         let desc = |a: &u32, b: &u32| tail_of(*b).total_cmp(&tail_of(*a));
-        if depth < n {
-            by_tail.select_nth_unstable_by(depth - 1, desc);
-            by_tail.truncate(depth);
-        }
-        by_tail.sort_unstable_by(desc);
+        let mut depth = want;
+        let by_tail = loop {
+            let mut v: Vec<u32> = (0..n as u32).collect();
+            if depth < n {
+                v.select_nth_unstable_by(depth - 1, desc);
+                v.truncate(depth);
+            }
+            let unexposed = v.iter().filter(|&&j| !exposed[j as usize]).count();
+            if depth == n || unexposed >= want.min(unexposed_total) {
+                v.sort_unstable_by(desc);
+                break v;
+            }
+            depth = n.min(depth.saturating_mul(2));
+        };
         Some(Weighted {
             order,
             pnl,
@@ -716,6 +728,47 @@ mod tests {
         }
     }
 
+    /// When the largest trades are all exposed, the ranked prefix is deep
+    /// enough for the removed scenario's top k: resamples stay on the
+    /// weighted pass, with the figures of the rebuild.
+    #[test]
+    fn largest_trades_exposed_keep_the_weighted_pass() {
+        let (t, _) = random_trades(20_000, 91, false);
+        // The 2 000 largest |P/L| exposed, and nothing else: the removed
+        // scenario's top 200 lie past a 4 × 200 + 1024 deep prefix.
+        let mut by_size: Vec<usize> = (0..t.len()).collect();
+        by_size.sort_by(|&a, &b| t.pnl[b].abs().total_cmp(&t.pnl[a].abs()));
+        let mut exposed = vec![false; t.len()];
+        for &i in &by_size[..2000] {
+            exposed[i] = true;
+        }
+        let settings = ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::Quantile(0.99),
+            initial_equity: None,
+        };
+        let ctx = Context {
+            span: t.span().unwrap(),
+            report_zone: Zone::Utc,
+            initial_equity: None,
+            tcr_p: 1.0,
+        };
+        let w = Weighted::new(&t, &exposed, &settings, &ctx).unwrap();
+        assert!(!w.ranked_all);
+        assert!(
+            w.by_tail.len() > 2000 + 1824,
+            "deepened past the exposed: {}",
+            w.by_tail.len()
+        );
+        let mut sc = w.scratch();
+        let res = Resamples::Seeded { count: 5, seed: 8 };
+        for r in 0..5 {
+            let got = w.changes(&mut sc, &res, r).expect("weighted pass");
+            let want = changes(&res.indices(t.len(), r), &t, &exposed, &settings, &ctx);
+            assert_eq!(bits(&got), bits(&want), "resample {r}");
+        }
+    }
+
     /// A resample that holds none of the largest trades walks past the
     /// ranked prefix and is handed to the slow path, with the same result.
     #[test]
@@ -736,7 +789,10 @@ mod tests {
         assert!(!w.ranked_all, "50 × 4 + 1024 < 5000");
         let mut small: Vec<u32> = (0..5000).collect();
         small.sort_by(|&a, &b| t.pnl[a as usize].abs().total_cmp(&t.pnl[b as usize].abs()));
-        small.truncate(3000);
+        // The 2 000 smallest: below the prefix (deepened to 2 448 for the
+        // unexposed two thirds).
+        small.truncate(2000);
+        assert!(w.by_tail.len() <= 3000, "{}", w.by_tail.len());
         let sets = vec![small];
         let res = Resamples::Given(&sets);
         assert!(w.changes(&mut w.scratch(), &res, 0).is_none());
