@@ -173,26 +173,6 @@ pub fn rank(
     Ok(rows)
 }
 
-/// The trades of one run as their own table (so nothing per-trade is kept
-/// for other runs).
-fn subset(t: &Trades, idx: &[u32]) -> Trades {
-    fn pick<T: Copy>(v: &[T], idx: &[u32]) -> Vec<T> {
-        idx.iter().map(|&i| v[i as usize]).collect()
-    }
-    Trades {
-        opened: pick(&t.opened, idx),
-        closed: pick(&t.closed, idx),
-        instrument: pick(&t.instrument, idx),
-        pnl: pick(&t.pnl, idx),
-        run: vec![0; idx.len()],
-        equity_before: t.equity_before.as_deref().map(|v| pick(v, idx)),
-        pnl_pct: t.pnl_pct.as_deref().map(|v| pick(v, idx)),
-        file: vec![0; idx.len()],
-        row: vec![0; idx.len()],
-        ..Default::default()
-    }
-}
-
 /// One run's row (without its placebo p-value) and its trades' exposure
 /// flags in `idx` order.
 fn run_row(
@@ -204,7 +184,7 @@ fn run_row(
     settings: &AnalysisSettings,
     by: RankBy,
 ) -> Result<(RunRow, Vec<bool>), scenarios::ScenarioError> {
-    let t = subset(all, idx);
+    let t = crate::analysis::run::subset(all, idx);
     let exp = engine.run_matches(&t.opened, &t.closed, &t.instrument, currencies);
     let flags: Vec<bool> = exp.k.iter().map(|&k| k > 0).collect();
     drop(exp);

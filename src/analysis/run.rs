@@ -647,3 +647,23 @@ pub fn analyze(
         exp,
     ))
 }
+
+/// The trades of one run as their own table (so nothing per-trade is kept
+/// for other runs).
+pub fn subset(t: &Trades, idx: &[u32]) -> Trades {
+    fn pick<T: Copy>(v: &[T], idx: &[u32]) -> Vec<T> {
+        idx.iter().map(|&i| v[i as usize]).collect()
+    }
+    Trades {
+        opened: pick(&t.opened, idx),
+        closed: pick(&t.closed, idx),
+        instrument: pick(&t.instrument, idx),
+        pnl: pick(&t.pnl, idx),
+        run: vec![0; idx.len()],
+        equity_before: t.equity_before.as_deref().map(|v| pick(v, idx)),
+        pnl_pct: t.pnl_pct.as_deref().map(|v| pick(v, idx)),
+        file: vec![0; idx.len()],
+        row: vec![0; idx.len()],
+        ..Default::default()
+    }
+}

@@ -6,6 +6,7 @@
 //! The trades are read, sorted into close order and indexed once; a cell
 //! only moves the release windows and re-runs the exposure engine.
 
+use crate::analysis::evidence;
 use crate::analysis::metrics::{self, Context};
 use crate::analysis::run::{AccountFigures, AnalysisSettings};
 use crate::analysis::scenarios::{self, TradeView};
@@ -166,17 +167,28 @@ pub fn tune(
                     &sc.baseline.view().curve(&trades.opened, &trades.closed),
                     &ctx,
                 );
+                let pass = evidence::RemovedPass::new(
+                    &crate::analysis::run::subset(trades, &idx),
+                    &settings.scenario,
+                    &ctx,
+                );
                 Ok(RunBase {
                     order: idx,
                     span,
                     tcr: m.tcr,
                     sharpe: m.sharpe,
+                    pass,
                 })
             })
             .collect::<Result<_, _>>()?
     } else {
         Vec::new()
     };
+    // One account: its removed scenario by the weighted pass where it applies.
+    let pooled_pass = per_run
+        .is_empty()
+        .then(|| evidence::RemovedPass::new(trades, &settings.scenario, &ctx_of(&base)))
+        .flatten();
     let tcr_baseline = if per_run.is_empty() {
         metrics::compute(
             &base.baseline.view().curve(&trades.opened, &trades.closed),
@@ -229,7 +241,17 @@ pub fn tune(
                 .map(|i| trades.pnl[i])
                 .sum();
             let is_exposed = |i: usize| is_set(&bits, i);
-            let after = if per_run.is_empty() {
+            let after = if let Some(pass) = &pooled_pass {
+                let f = pass.figures(&is_exposed);
+                After {
+                    tcr: f[4],
+                    tcr_reduction: tcr_baseline.zip(f[4]).map(|(x, y)| x - y),
+                    sharpe: f[2],
+                    max_drawdown: f[3],
+                    runs_tcr_reduced: None,
+                    runs_sharpe_improved: None,
+                }
+            } else if per_run.is_empty() {
                 let sc = build(&is_exposed)?;
                 let m = metrics::compute(
                     &sc.removed.view().curve(&trades.opened, &trades.closed),
@@ -293,6 +315,8 @@ struct RunBase {
     span: (i64, i64),
     tcr: Option<f64>,
     sharpe: Option<f64>,
+    /// Its removed scenario's figures by the weighted pass, where it applies.
+    pass: Option<evidence::RemovedPass>,
 }
 
 /// A cell's figures without the exposed trades.
@@ -325,6 +349,17 @@ fn runs_after(
     let each: Vec<RunAfter> = runs
         .iter()
         .map(|r| -> Result<_, scenarios::ScenarioError> {
+            if let Some(pass) = &r.pass {
+                let f = pass.figures(&|s| exposed(r.order[s] as usize));
+                let (tcr, sharpe) = (f[4], f[2]);
+                return Ok([
+                    tcr,
+                    r.tcr.zip(tcr).map(|(b, a)| b - a),
+                    sharpe,
+                    f[3],
+                    r.sharpe.zip(sharpe).map(|(b, a)| a - b),
+                ]);
+            }
             let sc = scenarios::build(
                 &TradeView::of(&r.order, trades, exposed),
                 &settings.scenario,

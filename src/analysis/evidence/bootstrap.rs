@@ -188,7 +188,7 @@ pub fn bootstrap_intervals(
         // not have); no resample of the same trades can build them either.
         (0..count).for_each(|_| progress());
         vec![[None; 5]; count]
-    } else if let Some(w) = Weighted::new(trades, exposed, settings, ctx) {
+    } else if let Some(w) = Weighted::new(trades, exposed, settings, ctx, false) {
         let pool = std::sync::Mutex::new(Vec::new());
         (0..count)
             .into_par_iter()
@@ -313,6 +313,35 @@ struct Weighted {
     tcr_p: f64,
 }
 
+/// The removed scenario's figures of one set of trades under changing
+/// exposure flags, each a pass over the trades in close order (the
+/// bootstrap's weighted pass, every weight 1): for window grids, where
+/// every cell removes different trades from the same runs.
+pub struct RemovedPass {
+    weighted: Weighted,
+}
+
+impl RemovedPass {
+    /// `None` where the weighted pass does not apply (see [`Weighted`]:
+    /// compounding sizing, partly recorded equity, no trade, a span without
+    /// weekdays, sums that may be −0.0 or not finite): build the scenarios.
+    pub fn new(trades: &Trades, settings: &ScenarioSettings, ctx: &Context) -> Option<RemovedPass> {
+        let none = vec![false; trades.len()];
+        let weighted = Weighted::new(trades, &none, settings, ctx, true)?;
+        Some(RemovedPass { weighted })
+    }
+
+    /// Net, profit factor, Sharpe, max drawdown and TCR of the trades not
+    /// `exposed` (by input index), bit for bit those of the removed
+    /// scenario's metrics.
+    pub fn figures(&self, exposed: &dyn Fn(usize) -> bool) -> [Option<f64>; 5] {
+        let w = &self.weighted;
+        let by_position: Vec<bool> = w.order.iter().map(|&i| exposed(i as usize)).collect();
+        w.removed(&mut w.scratch(), &by_position)
+            .expect("every trade is ranked")
+    }
+}
+
 /// Per-thread buffers of [`Weighted::changes`].
 struct Scratch {
     counts: Vec<u8>,
@@ -372,11 +401,14 @@ impl Sums {
 }
 
 impl Weighted {
+    /// `rank_all`: rank every trade by tail value (for exposure flags that
+    /// change from call to call), else a prefix deep enough for `exposed`.
     fn new(
         trades: &Trades,
         exposed: &[bool],
         settings: &ScenarioSettings,
         ctx: &Context,
+        rank_all: bool,
     ) -> Option<Weighted> {
         let n = trades.len();
         if settings.sizing != scenarios::Sizing::Fixed || n == 0 || n >= u32::MAX as usize {
@@ -429,7 +461,7 @@ impl Weighted {
         let want = n.min(metrics::tcr_k(n, ctx.tcr_p).saturating_mul(4) + 1024);
         let unexposed_total = exposed.iter().filter(|&&x: &&bool| !x).count();
         let desc = |a: &u32, b: &u32| tail_of(*b).total_cmp(&tail_of(*a));
-        let mut depth = want;
+        let mut depth = if rank_all { n } else { want };
         let by_tail = loop {
             let mut v: Vec<u32> = (0..n as u32).collect();
             if depth < n {
@@ -524,43 +556,65 @@ impl Weighted {
             }
             w += c;
         }
-        let (base, kept) = self.walk(&copies[..m], &mut sc.daily);
-        let figures = |s: &Sums, daily: &[f64], drop_exposed: bool| -> Option<[Option<f64>; 5]> {
-            let sharpe = metrics::sharpe(
-                &metrics::daily_values(daily.to_vec(), self.initial_equity),
-                metrics::DAYS_PER_YEAR,
-            );
-            let tcr = if s.n == 0 || s.abs_tail <= 0.0 {
-                None
-            } else {
-                let k = metrics::tcr_k(s.n, self.tcr_p);
-                let top = self.top_sum(&sc.counts, k, drop_exposed)?;
-                Some((top / k as f64) / (s.abs_tail / s.n as f64))
-            };
-            Some([
-                Some(s.net),
-                (s.losses > 0).then(|| s.gross_profit / s.gross_loss.abs()),
-                sharpe,
-                Some(s.drawdown),
-                tcr,
-            ])
-        };
-        let b = figures(&base, &sc.daily[0], false)?;
-        let k = figures(&kept, &sc.daily[1], true)?;
+        let (base, kept) = self.walk(&copies[..m], &mut sc.daily, &self.exposed);
+        let b = self.figures(&base, &sc.daily[0], &sc.counts, None)?;
+        let k = self.figures(&kept, &sc.daily[1], &sc.counts, Some(&self.exposed))?;
         Some(std::array::from_fn(|f| match (b[f], k[f]) {
             (Some(x), Some(y)) => Some(y - x),
             _ => None,
         }))
     }
 
+    /// The five figures of one scenario from its sums and daily P/L: net,
+    /// profit factor, Sharpe, max drawdown, TCR (its top k from the drawn
+    /// `counts`, without the `exposed` ones when given); `None` when the
+    /// ranked prefix runs out.
+    fn figures(
+        &self,
+        s: &Sums,
+        daily: &[f64],
+        counts: &[u8],
+        exposed: Option<&[bool]>,
+    ) -> Option<[Option<f64>; 5]> {
+        let sharpe = metrics::sharpe(
+            &metrics::daily_values(daily.to_vec(), self.initial_equity),
+            metrics::DAYS_PER_YEAR,
+        );
+        let tcr = if s.n == 0 || s.abs_tail <= 0.0 {
+            None
+        } else {
+            let k = metrics::tcr_k(s.n, self.tcr_p);
+            let top = self.top_sum(counts, k, exposed)?;
+            Some((top / k as f64) / (s.abs_tail / s.n as f64))
+        };
+        Some([
+            Some(s.net),
+            (s.losses > 0).then(|| s.gross_profit / s.gross_loss.abs()),
+            sharpe,
+            Some(s.drawdown),
+            tcr,
+        ])
+    }
+
+    /// The removed scenario's five figures (as [`Weighted::figures`]) with
+    /// every trade once and those `exposed` (by position) left out.
+    fn removed(&self, sc: &mut Scratch, exposed: &[bool]) -> Option<[Option<f64>; 5]> {
+        let n = self.pnl.len();
+        sc.counts.fill(1);
+        sc.copies.clear();
+        sc.copies.extend(0..n as u32);
+        let (_, kept) = self.walk(&sc.copies, &mut sc.daily, exposed);
+        self.figures(&kept, &sc.daily[1], &sc.counts, Some(exposed))
+    }
+
     /// The baseline's and the removed scenario's sums over the copies (in
     /// close order), and their P/L per day into `daily`.
-    fn walk(&self, copies: &[u32], daily: &mut [Vec<f64>; 2]) -> (Sums, Sums) {
+    fn walk(&self, copies: &[u32], daily: &mut [Vec<f64>; 2], exposed: &[bool]) -> (Sums, Sums) {
         let (mut base, mut kept) = (Sums::new(self.start), Sums::new(self.start));
         let [day_base, day_kept] = daily;
         day_base.fill(0.0);
         day_kept.fill(0.0);
-        let (pnl, slot, exposed) = (&self.pnl[..], &self.slot[..], &self.exposed[..]);
+        let (pnl, slot) = (&self.pnl[..], &self.slot[..]);
         let tail = self.tail.as_deref();
         let mut cur = slot[copies[0] as usize];
         // A day's sum starts at 0.0 as `walk_closes` starts it; closes come
@@ -592,12 +646,12 @@ impl Weighted {
     /// Sum of the k largest tail values among the drawn copies (without the
     /// exposed ones when asked), largest first as `metrics::tcr` sums them;
     /// `None` when the ranked prefix runs out first.
-    fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: bool) -> Option<f64> {
+    fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: Option<&[bool]>) -> Option<f64> {
         let (mut left, mut top) = (k, 0.0f64);
         for &j in &self.by_tail {
             let j = j as usize;
             let c = counts[self.order[j] as usize] as usize;
-            if c == 0 || (drop_exposed && self.exposed[j]) {
+            if c == 0 || drop_exposed.is_some_and(|e| e[j]) {
                 continue;
             }
             let v = self.tail_at(j);
@@ -707,7 +761,7 @@ mod tests {
                 initial_equity: None,
                 tcr_p: 1.0,
             };
-            let w = Weighted::new(&t, &exposed, &settings, &ctx).expect("fixed sizing");
+            let w = Weighted::new(&t, &exposed, &settings, &ctx, false).expect("fixed sizing");
             assert_eq!(w.tail.is_some(), equity);
             let mut sc = w.scratch();
             let seeded = Resamples::Seeded { count: 20, seed: 5 };
@@ -724,6 +778,46 @@ mod tests {
                     Some(got) => assert_eq!(bits(&got), bits(&want), "case {case} resample {r}"),
                     None => assert_eq!(r, 1, "only the 300-fold set takes the slow path"),
                 }
+            }
+        }
+    }
+
+    /// The removed pass gives the removed scenario's metrics bit for bit,
+    /// whatever the exposure flags of the call.
+    #[test]
+    fn removed_pass_equals_the_removed_scenario() {
+        for (case, equity) in [false, true].into_iter().enumerate() {
+            let (t, _) = random_trades(4000, 60 + case as u64, equity);
+            let settings = ScenarioSettings {
+                sizing: Sizing::Fixed,
+                cap: CapRule::Quantile(0.99),
+                initial_equity: None,
+            };
+            let ctx = Context {
+                span: t.span().unwrap(),
+                report_zone: "America/New_York".parse::<Zone>().unwrap(),
+                initial_equity: None,
+                tcr_p: 1.0,
+            };
+            let pass = RemovedPass::new(&t, &settings, &ctx).expect("fixed sizing");
+            let mut order: Vec<u32> = (0..t.len() as u32).collect();
+            scenarios::close_order(&mut order, &t.opened, &t.closed);
+            for every in [1usize, 3, 7, 4001] {
+                let exposed = |i: usize| i.is_multiple_of(every);
+                let sc = scenarios::build(&TradeView::of(&order, &t, &exposed), &settings).unwrap();
+                let m = metrics::compute(&sc.removed.view().curve(&t.opened, &t.closed), &ctx);
+                let want = [
+                    Some(m.net),
+                    m.profit_factor,
+                    m.sharpe,
+                    m.max_drawdown,
+                    m.tcr,
+                ];
+                assert_eq!(
+                    bits(&pass.figures(&exposed)),
+                    bits(&want),
+                    "case {case}, every {every}"
+                );
             }
         }
     }
@@ -753,7 +847,7 @@ mod tests {
             initial_equity: None,
             tcr_p: 1.0,
         };
-        let w = Weighted::new(&t, &exposed, &settings, &ctx).unwrap();
+        let w = Weighted::new(&t, &exposed, &settings, &ctx, false).unwrap();
         assert!(!w.ranked_all);
         assert!(
             w.by_tail.len() > 2000 + 1824,
@@ -785,7 +879,7 @@ mod tests {
             initial_equity: None,
             tcr_p: 1.0,
         };
-        let w = Weighted::new(&t, &exposed, &settings, &ctx).unwrap();
+        let w = Weighted::new(&t, &exposed, &settings, &ctx, false).unwrap();
         assert!(!w.ranked_all, "50 × 4 + 1024 < 5000");
         let mut small: Vec<u32> = (0..5000).collect();
         small.sort_by(|&a, &b| t.pnl[a as usize].abs().total_cmp(&t.pnl[b as usize].abs()));
