@@ -556,7 +556,7 @@ impl Weighted {
             }
             w += c;
         }
-        let (base, kept) = self.walk(&copies[..m], &mut sc.daily, &self.exposed);
+        let (base, kept) = self.walk::<true>(&copies[..m], &mut sc.daily, &self.exposed);
         let b = self.figures(&base, &sc.daily[0], &sc.counts, None)?;
         let k = self.figures(&kept, &sc.daily[1], &sc.counts, Some(&self.exposed))?;
         Some(std::array::from_fn(|f| match (b[f], k[f]) {
@@ -603,13 +603,20 @@ impl Weighted {
         sc.counts.fill(1);
         sc.copies.clear();
         sc.copies.extend(0..n as u32);
-        let (_, kept) = self.walk(&sc.copies, &mut sc.daily, exposed);
+        let (_, kept) = self.walk::<false>(&sc.copies, &mut sc.daily, exposed);
         self.figures(&kept, &sc.daily[1], &sc.counts, Some(exposed))
     }
 
     /// The baseline's and the removed scenario's sums over the copies (in
     /// close order), and their P/L per day into `daily`.
-    fn walk(&self, copies: &[u32], daily: &mut [Vec<f64>; 2], exposed: &[bool]) -> (Sums, Sums) {
+    /// `BASE` false: the removed scenario only (the baseline's sums and
+    /// days stay at their start).
+    fn walk<const BASE: bool>(
+        &self,
+        copies: &[u32],
+        daily: &mut [Vec<f64>; 2],
+        exposed: &[bool],
+    ) -> (Sums, Sums) {
         let (mut base, mut kept) = (Sums::new(self.start), Sums::new(self.start));
         let [day_base, day_kept] = daily;
         day_base.fill(0.0);
@@ -629,8 +636,10 @@ impl Weighted {
                 (sum_base, sum_kept, cur) = (0.0, 0.0, s);
             }
             let t = tail.map_or(p.abs(), |t| t[j]);
-            base.add(p, t);
-            sum_base += p;
+            if BASE {
+                base.add(p, t);
+                sum_base += p;
+            }
             if !exposed[j] {
                 kept.add(p, t);
                 kept.n += 1;
