@@ -176,52 +176,95 @@ pub fn placebo_groups(
             drawn.entry(d).or_default().push((g, j));
         }
     }
-    let index = TradeIndex::new(
-        calendar.currencies(),
-        &trades.opened,
-        &trades.closed,
-        &trades.instrument,
-        currencies,
-        rule,
-    );
-    // Net P/L of each group, summed in the group's order.
-    let nets: Vec<f64> = groups
-        .iter()
-        .map(|g| group_pnl(g).iter().fold(0.0, |net, p| net + p))
+    // Each group's trades indexed on their own (a run's placebo marks
+    // only its trades), with their P/L in the group's order and its net.
+    struct Group {
+        index: TradeIndex,
+        pnl: Vec<f64>,
+        net: f64,
+    }
+    let prepared: Vec<Group> = groups
+        .par_iter()
+        .map(|g| {
+            let pnl = group_pnl(g);
+            let net = pnl.iter().fold(0.0, |net, p| net + p);
+            let index = match g.trades {
+                None => TradeIndex::new(
+                    calendar.currencies(),
+                    &trades.opened,
+                    &trades.closed,
+                    &trades.instrument,
+                    currencies,
+                    rule,
+                ),
+                Some(idx) => {
+                    let pick =
+                        |v: &[i64]| -> Vec<i64> { idx.iter().map(|&i| v[i as usize]).collect() };
+                    let instrument: Vec<u32> =
+                        idx.iter().map(|&i| trades.instrument[i as usize]).collect();
+                    TradeIndex::new(
+                        calendar.currencies(),
+                        &pick(&trades.opened),
+                        &pick(&trades.closed),
+                        &instrument,
+                        currencies,
+                        rule,
+                    )
+                }
+            };
+            Group { index, pnl, net }
+        })
         .collect();
     let drawn: Vec<(i64, Vec<(usize, usize)>)> = drawn.into_iter().collect();
-    // BATCH shifts at a time: marked one after the other, then scored
-    // together, BATCH sums running side by side in one pass over a group.
-    let zero = vec![0u64; index.words()];
+    // BATCH shifts at a time: each moved once and marked on the trades of
+    // every group that drew it; a group's marked shifts are scored BATCH at
+    // a time, their sums running side by side in one pass over the group.
     type Scored = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
+    // A group's marked shifts waiting to be scored: (dropped, the
+    // group's placebos that drew the shift, bits).
+    type Pending = Vec<(usize, Vec<usize>, Vec<u64>)>;
+    let score = |g: usize, pending: &mut Pending, pool: &mut Vec<Vec<u64>>, out: &mut Scored| {
+        let group = &prepared[g];
+        let zero = vec![0u64; group.index.words()];
+        let sets: [&[u64]; BATCH] =
+            std::array::from_fn(|b| pending.get(b).map_or(zero.as_slice(), |p| p.2.as_slice()));
+        let stats = flagged_statistics(&group.pnl, sets, group.net);
+        for ((dropped, js, bits), (a, b)) in pending.drain(..).zip(stats) {
+            for j in js {
+                out.push((g, j, dropped, a, b));
+                progress();
+            }
+            pool.push(bits);
+        }
+    };
     let scored: Vec<Scored> = drawn
         .par_chunks(BATCH)
         .map_init(
-            || (Slots::default(), vec![vec![0u64; index.words()]; BATCH]),
-            |(moved, bits), chunk| {
-                let mut dropped = [0usize; BATCH];
-                let mut by_group: BTreeMap<usize, Vec<(usize, usize)>> = BTreeMap::new();
-                for (k, (d, who)) in chunk.iter().enumerate() {
+            || (Slots::default(), Vec::<Vec<u64>>::new()),
+            |(moved, pool), chunk| {
+                let mut waiting: BTreeMap<usize, Pending> = BTreeMap::new();
+                let mut out = Vec::new();
+                for (d, who) in chunk {
                     calendar.shift(*d, moved);
-                    index.mark(moved, &mut bits[k]);
-                    dropped[k] = moved.dropped;
-                    for &(g, j) in who {
-                        by_group.entry(g).or_default().push((k, j));
+                    // Marked once per group, however often it drew the shift
+                    // (`who` lists a group's placebos together).
+                    for same in who.chunk_by(|a, b| a.0 == b.0) {
+                        let g = same[0].0;
+                        let index = &prepared[g].index;
+                        let mut bits = pool.pop().unwrap_or_default();
+                        bits.resize(index.words(), 0);
+                        index.mark(moved, &mut bits);
+                        let js = same.iter().map(|&(_, j)| j).collect();
+                        let pending = waiting.entry(g).or_default();
+                        pending.push((moved.dropped, js, bits));
+                        if pending.len() == BATCH {
+                            score(g, pending, pool, &mut out);
+                        }
                     }
                 }
-                let mut out = Vec::new();
-                for (g, pairs) in by_group {
-                    for part in pairs.chunks(BATCH) {
-                        let sets: [&[u64]; BATCH] = std::array::from_fn(|b| {
-                            part.get(b)
-                                .map_or(zero.as_slice(), |&(k, _)| bits[k].as_slice())
-                        });
-                        let stats =
-                            flagged_statistics(&trades.pnl, groups[g].trades, sets, nets[g]);
-                        for (&(k, j), (a, b)) in part.iter().zip(stats) {
-                            out.push((g, j, dropped[k], a, b));
-                            progress();
-                        }
+                for (g, mut pending) in waiting {
+                    if !pending.is_empty() {
+                        score(g, &mut pending, pool, &mut out);
                     }
                 }
                 out
@@ -254,7 +297,6 @@ const BATCH: usize = 8;
 /// side instead of waiting on each addition in turn.
 fn flagged_statistics(
     pnl: &[f64],
-    order: Option<&[u32]>,
     bits: [&[u64]; BATCH],
     net: f64,
 ) -> [(Option<f64>, Option<f64>); BATCH] {
@@ -263,46 +305,21 @@ fn flagged_statistics(
     let mut e_n = [0usize; BATCH];
     // Adds p to the exposed or the unexposed total of each set: the mask
     // keeps p's bits or makes +0.0, so there is no branch to mispredict.
-    #[inline(always)]
-    fn add(
-        e_sum: &mut [f64; BATCH],
-        u_sum: &mut [f64; BATCH],
-        words: [u64; BATCH],
-        bit: usize,
-        p: f64,
-    ) {
-        let p = p.to_bits();
+    for (w, chunk) in pnl.chunks(64).enumerate() {
+        let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][w]);
+        for (bit, &p) in chunk.iter().enumerate() {
+            let p = p.to_bits();
+            for b in 0..BATCH {
+                let keep = 0u64.wrapping_sub(words[b] >> bit & 1);
+                e_sum[b] += f64::from_bits(p & keep);
+                u_sum[b] += f64::from_bits(p & !keep);
+            }
+        }
         for b in 0..BATCH {
-            let keep = 0u64.wrapping_sub(words[b] >> bit & 1);
-            e_sum[b] += f64::from_bits(p & keep);
-            u_sum[b] += f64::from_bits(p & !keep);
+            e_n[b] += words[b].count_ones() as usize;
         }
     }
-    let total = match order {
-        Some(idx) => {
-            for &i in idx {
-                let i = i as usize;
-                let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][i / 64]);
-                add(&mut e_sum, &mut u_sum, words, i % 64, pnl[i]);
-                for b in 0..BATCH {
-                    e_n[b] += (words[b] >> (i % 64) & 1) as usize;
-                }
-            }
-            idx.len()
-        }
-        None => {
-            for (w, chunk) in pnl.chunks(64).enumerate() {
-                let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][w]);
-                for (bit, &p) in chunk.iter().enumerate() {
-                    add(&mut e_sum, &mut u_sum, words, bit, p);
-                }
-                for b in 0..BATCH {
-                    e_n[b] += words[b].count_ones() as usize;
-                }
-            }
-            pnl.len()
-        }
-    };
+    let total = pnl.len();
     std::array::from_fn(|b| {
         let u_n = total - e_n[b];
         let share = (net != 0.0).then(|| e_sum[b] / net);
@@ -353,11 +370,23 @@ mod tests {
             .collect();
         let sets: [&[u64]; BATCH] = std::array::from_fn(|b| bit_sets[b].as_slice());
         let net = pnl.iter().fold(0.0, |a, p| a + p);
-        let all = flagged_statistics(&pnl, None, sets, net);
+        let all = flagged_statistics(&pnl, sets, net);
+        // A group: every third trade, backwards, flagged by group position.
         let order: Vec<u32> = (0..n as u32).rev().filter(|i| i % 3 == 0).collect();
         let g_pnl: Vec<f64> = order.iter().map(|&i| pnl[i as usize]).collect();
         let g_net = g_pnl.iter().fold(0.0, |a, p| a + p);
-        let group = flagged_statistics(&pnl, Some(&order), sets, g_net);
+        let g_bit_sets: Vec<Vec<u64>> = flag_sets
+            .iter()
+            .map(|flags| {
+                let mut bits = vec![0u64; order.len().div_ceil(64)];
+                for (j, &i) in order.iter().enumerate() {
+                    bits[j / 64] |= (flags[i as usize] as u64) << (j % 64);
+                }
+                bits
+            })
+            .collect();
+        let g_sets: [&[u64]; BATCH] = std::array::from_fn(|b| g_bit_sets[b].as_slice());
+        let group = flagged_statistics(&g_pnl, g_sets, g_net);
         for (b, (flags, density)) in flag_sets.iter().zip(densities).take(BATCH).enumerate() {
             let bitwise =
                 |v: (Option<f64>, Option<f64>)| (v.0.map(f64::to_bits), v.1.map(f64::to_bits));
@@ -366,7 +395,6 @@ mod tests {
                 bitwise(effect_statistics(&pnl, flags)),
                 "density {density}"
             );
-            // A group: every third trade, backwards.
             let g_flags: Vec<bool> = order.iter().map(|&i| flags[i as usize]).collect();
             assert_eq!(
                 bitwise(group[b]),
