@@ -530,7 +530,7 @@ fn build_fixed(
     Ok(out)
 }
 
-/// [`recorded_equity`] over all of `t`'s trades: when `Some`, every trade
+/// `recorded_equity` over all of `t`'s trades: when `Some`, every trade
 /// set drawn from `t` measures its tail on returns ([`TailBasis::Return`])
 /// on this equity; when `None` and `t` has neither an `equity_before` nor a
 /// `pnl_pct` column, every set measures it on amounts.

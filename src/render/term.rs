@@ -1,6 +1,6 @@
 //! Terminal emphasis: bold for the one-sentence answer, bold blue for
 //! warnings — only on a terminal and never when NO_COLOR is set
-//! (https://no-color.org convention: any non-empty value).
+//! (<https://no-color.org> convention: any non-empty value).
 
 use std::io::IsTerminal;
 

@@ -162,7 +162,7 @@ impl Resamples<'_> {
 
 /// Bootstrap intervals of removed − baseline over `resamples`.
 ///
-/// Under fixed sizing each resample is evaluated by [`Weighted`]: one pass
+/// Under fixed sizing each resample is evaluated by `Weighted`: one pass
 /// over the trades in close order weighted by how often the resample drew
 /// each, bit-identical to [`changes`] on the same indices. Compounding
 /// sizing replays equity per resample and goes through [`changes`].
@@ -322,7 +322,7 @@ pub struct RemovedPass {
 }
 
 impl RemovedPass {
-    /// `None` where the weighted pass does not apply (see [`Weighted`]:
+    /// `None` where the weighted pass does not apply (see `Weighted`:
     /// compounding sizing, partly recorded equity, no trade, a span without
     /// weekdays, sums that may be −0.0 or not finite): build the scenarios.
     pub fn new(trades: &Trades, settings: &ScenarioSettings, ctx: &Context) -> Option<RemovedPass> {
