@@ -143,8 +143,8 @@ pub fn rank(
         .collect::<Result<Vec<_>, _>>()?;
     let (mut rows, flags): (Vec<RunRow>, Vec<Vec<bool>>) = rows_and_flags.into_iter().unzip();
     if placebo.n > 0 {
-        // All runs' placebo calendars at once: each distinct shift is
-        // applied to the trades once and scored for every run that drew it.
+        // All runs' placebo calendars at once: each distinct shift is moved
+        // once and marked on the trades of every run that drew it.
         let groups: Vec<evidence::PlaceboGroup> = rows
             .iter()
             .zip(&by_run)

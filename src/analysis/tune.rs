@@ -3,8 +3,11 @@
 //! on the cost/benefit frontier (most tail reduction for least time
 //! blocked).
 //!
-//! The trades are read, sorted into close order and indexed once; a cell
-//! only moves the release windows and re-runs the exposure engine.
+//! The trades are read, sorted into close order and indexed once
+//! (`engine::shifted::TradeIndex`); a cell marks its windows on that index
+//! and takes each run's figures without the exposed trades from the
+//! weighted pass (`evidence::RemovedPass`), or from built scenarios where
+//! the pass does not apply.
 
 use crate::analysis::evidence;
 use crate::analysis::metrics::{self, Context};
@@ -241,27 +244,16 @@ pub fn tune(
                 .map(|i| trades.pnl[i])
                 .sum();
             let is_exposed = |i: usize| is_set(&bits, i);
-            let after = if let Some(pass) = &pooled_pass {
-                let f = pass.figures(&is_exposed);
+            let after = if per_run.is_empty() {
+                let [tcr, sharpe, max_drawdown] = match &pooled_pass {
+                    Some(pass) => path_figures(pass.figures(&is_exposed)),
+                    None => removed_by_build(&order, trades, &is_exposed, settings, &ctx_of)?,
+                };
                 After {
-                    tcr: f[4],
-                    tcr_reduction: tcr_baseline.zip(f[4]).map(|(x, y)| x - y),
-                    sharpe: f[2],
-                    max_drawdown: f[3],
-                    runs_tcr_reduced: None,
-                    runs_sharpe_improved: None,
-                }
-            } else if per_run.is_empty() {
-                let sc = build(&is_exposed)?;
-                let m = metrics::compute(
-                    &sc.removed.view().curve(&trades.opened, &trades.closed),
-                    &ctx_of(&sc),
-                );
-                After {
-                    tcr: m.tcr,
-                    tcr_reduction: tcr_baseline.zip(m.tcr).map(|(x, y)| x - y),
-                    sharpe: m.sharpe,
-                    max_drawdown: m.max_drawdown,
+                    tcr,
+                    tcr_reduction: tcr_baseline.zip(tcr).map(|(x, y)| x - y),
+                    sharpe,
+                    max_drawdown,
                     runs_tcr_reduced: None,
                     runs_sharpe_improved: None,
                 }
@@ -349,35 +341,19 @@ fn runs_after(
     let each: Vec<RunAfter> = runs
         .iter()
         .map(|r| -> Result<_, scenarios::ScenarioError> {
-            if let Some(pass) = &r.pass {
-                let f = pass.figures(&|s| exposed(r.order[s] as usize));
-                let (tcr, sharpe) = (f[4], f[2]);
-                return Ok([
-                    tcr,
-                    r.tcr.zip(tcr).map(|(b, a)| b - a),
-                    sharpe,
-                    f[3],
-                    r.sharpe.zip(sharpe).map(|(b, a)| a - b),
-                ]);
-            }
-            let sc = scenarios::build(
-                &TradeView::of(&r.order, trades, exposed),
-                &settings.scenario,
-            )?;
-            let ctx = Context {
-                span: r.span,
-                ..ctx_of(&sc)
+            let [tcr, sharpe, max_drawdown] = match &r.pass {
+                Some(pass) => path_figures(pass.figures(&|s| exposed(r.order[s] as usize))),
+                None => removed_by_build(&r.order, trades, exposed, settings, &|sc| Context {
+                    span: r.span,
+                    ..ctx_of(sc)
+                })?,
             };
-            let m = metrics::compute(
-                &sc.removed.view().curve(&trades.opened, &trades.closed),
-                &ctx,
-            );
             Ok([
-                m.tcr,
-                r.tcr.zip(m.tcr).map(|(b, a)| b - a),
-                m.sharpe,
-                m.max_drawdown,
-                r.sharpe.zip(m.sharpe).map(|(b, a)| a - b),
+                tcr,
+                r.tcr.zip(tcr).map(|(b, a)| b - a),
+                sharpe,
+                max_drawdown,
+                r.sharpe.zip(sharpe).map(|(b, a)| a - b),
             ])
         })
         .collect::<Result<_, _>>()?;
@@ -394,6 +370,29 @@ fn runs_after(
         runs_tcr_reduced: share(reductions),
         runs_sharpe_improved: share(sharpe_gains),
     })
+}
+
+/// TCR, Sharpe and max drawdown from the weighted pass's five figures
+/// (net, profit factor, Sharpe, max drawdown, TCR).
+fn path_figures(f: [Option<f64>; 5]) -> [Option<f64>; 3] {
+    [f[4], f[2], f[3]]
+}
+
+/// TCR, Sharpe and max drawdown of the removed scenario built over `order`
+/// (where the weighted pass does not apply).
+fn removed_by_build(
+    order: &[u32],
+    trades: &Trades,
+    exposed: &(dyn Fn(usize) -> bool + Sync),
+    settings: &AnalysisSettings,
+    ctx_of: &dyn Fn(&scenarios::Scenarios) -> Context,
+) -> Result<[Option<f64>; 3], scenarios::ScenarioError> {
+    let sc = scenarios::build(&TradeView::of(order, trades, exposed), &settings.scenario)?;
+    let m = metrics::compute(
+        &sc.removed.view().curve(&trades.opened, &trades.closed),
+        &ctx_of(&sc),
+    );
+    Ok([m.tcr, m.sharpe, m.max_drawdown])
 }
 
 /// Pareto frontier: maximise tail reduction, minimise time blocked.

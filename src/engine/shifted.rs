@@ -136,11 +136,6 @@ impl ShiftedCalendar {
         &self.currencies
     }
 
-    /// Whether there is no used window.
-    pub fn is_empty(&self) -> bool {
-        self.windows.is_empty()
-    }
-
     /// Moves every window by `days` weekdays (wrapping within the span,
     /// time of day kept) into `out`, dropping those within a day of a real
     /// release of their series.

@@ -739,6 +739,25 @@ mod tests {
         (t, exposed)
     }
 
+    /// Fixed sizing, a cap at the 99 % quantile, and the given starting equity.
+    fn fixed_sizing(initial_equity: Option<f64>) -> ScenarioSettings {
+        ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::Quantile(0.99),
+            initial_equity,
+        }
+    }
+
+    /// The trades' own span in `zone`, TCR on the top 1 %.
+    fn context(t: &Trades, zone: Zone) -> Context {
+        Context {
+            span: t.span().unwrap(),
+            report_zone: zone,
+            initial_equity: None,
+            tcr_p: 1.0,
+        }
+    }
+
     fn bits(c: &[Option<f64>; 5]) -> [Option<u64>; 5] {
         c.map(|v| v.map(f64::to_bits))
     }
@@ -759,17 +778,8 @@ mod tests {
         .enumerate()
         {
             let (t, exposed) = random_trades(3000, 40 + case as u64, equity);
-            let settings = ScenarioSettings {
-                sizing: Sizing::Fixed,
-                cap: CapRule::Quantile(0.99),
-                initial_equity: initial,
-            };
-            let ctx = Context {
-                span: t.span().unwrap(),
-                report_zone: zones[zone],
-                initial_equity: None,
-                tcr_p: 1.0,
-            };
+            let settings = fixed_sizing(initial);
+            let ctx = context(&t, zones[zone]);
             let w = Weighted::new(&t, &exposed, &settings, &ctx, false).expect("fixed sizing");
             assert_eq!(w.tail.is_some(), equity);
             let mut sc = w.scratch();
@@ -797,17 +807,8 @@ mod tests {
     fn removed_pass_equals_the_removed_scenario() {
         for (case, equity) in [false, true].into_iter().enumerate() {
             let (t, _) = random_trades(4000, 60 + case as u64, equity);
-            let settings = ScenarioSettings {
-                sizing: Sizing::Fixed,
-                cap: CapRule::Quantile(0.99),
-                initial_equity: None,
-            };
-            let ctx = Context {
-                span: t.span().unwrap(),
-                report_zone: "America/New_York".parse::<Zone>().unwrap(),
-                initial_equity: None,
-                tcr_p: 1.0,
-            };
+            let settings = fixed_sizing(None);
+            let ctx = context(&t, "America/New_York".parse::<Zone>().unwrap());
             let pass = RemovedPass::new(&t, &settings, &ctx).expect("fixed sizing");
             let mut order: Vec<u32> = (0..t.len() as u32).collect();
             scenarios::close_order(&mut order, &t.opened, &t.closed);
@@ -845,17 +846,8 @@ mod tests {
         for &i in &by_size[..2000] {
             exposed[i] = true;
         }
-        let settings = ScenarioSettings {
-            sizing: Sizing::Fixed,
-            cap: CapRule::Quantile(0.99),
-            initial_equity: None,
-        };
-        let ctx = Context {
-            span: t.span().unwrap(),
-            report_zone: Zone::Utc,
-            initial_equity: None,
-            tcr_p: 1.0,
-        };
+        let settings = fixed_sizing(None);
+        let ctx = context(&t, Zone::Utc);
         let w = Weighted::new(&t, &exposed, &settings, &ctx, false).unwrap();
         assert!(!w.ranked_all);
         assert!(
@@ -877,17 +869,8 @@ mod tests {
     #[test]
     fn a_resample_past_the_ranked_prefix_takes_the_slow_path() {
         let (t, exposed) = random_trades(5000, 77, false);
-        let settings = ScenarioSettings {
-            sizing: Sizing::Fixed,
-            cap: CapRule::Quantile(0.99),
-            initial_equity: None,
-        };
-        let ctx = Context {
-            span: t.span().unwrap(),
-            report_zone: Zone::Utc,
-            initial_equity: None,
-            tcr_p: 1.0,
-        };
+        let settings = fixed_sizing(None);
+        let ctx = context(&t, Zone::Utc);
         let w = Weighted::new(&t, &exposed, &settings, &ctx, false).unwrap();
         assert!(!w.ranked_all, "50 × 4 + 1024 < 5000");
         let mut small: Vec<u32> = (0..5000).collect();

@@ -121,9 +121,10 @@ pub fn placebo(
 }
 
 /// Runs `n` placebo calendars for each group (its shifts drawn from its own
-/// seed), one result per group. Each distinct shift is built and applied to
-/// the trades once ([`ShiftedCalendar`], [`TradeIndex`]), then scored for
-/// every group that drew it; `progress` ticks once per group and placebo.
+/// seed), one result per group. Each distinct shift is moved once
+/// ([`ShiftedCalendar`]) and marked once on the trades of each group that
+/// drew it (a [`TradeIndex`] per group); `progress` ticks once per group
+/// and placebo.
 #[allow(clippy::too_many_arguments)]
 pub fn placebo_groups(
     trades: &Trades,
