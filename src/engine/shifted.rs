@@ -84,14 +84,19 @@ impl ShiftedCalendar {
     ) -> ShiftedCalendar {
         let mut series_ids: HashMap<(String, String), u32> = HashMap::new();
         let mut series: Vec<Vec<i64>> = Vec::new();
-        for r in releases {
-            let key = (r.currency.clone(), normalise_title(&r.title));
-            let id = *series_ids.entry(key).or_insert_with(|| {
-                series.push(Vec::new());
-                (series.len() - 1) as u32
-            });
-            series[id as usize].push(r.at);
-        }
+        // Each release's series, named once.
+        let series_of: Vec<u32> = releases
+            .iter()
+            .map(|r| {
+                let key = (r.currency.clone(), normalise_title(&r.title));
+                let id = *series_ids.entry(key).or_insert_with(|| {
+                    series.push(Vec::new());
+                    (series.len() - 1) as u32
+                });
+                series[id as usize].push(r.at);
+                id
+            })
+            .collect();
         for s in &mut series {
             s.sort_unstable();
         }
@@ -101,7 +106,6 @@ impl ShiftedCalendar {
         let prepared: Vec<Prepared> = windows
             .iter()
             .map(|w| {
-                let r = &releases[w.release as usize];
                 let day = w.at.div_euclid(DAY_MS);
                 let (start, end) = w.slot(rule);
                 Prepared {
@@ -110,7 +114,7 @@ impl ShiftedCalendar {
                     time_of_day: w.at - day * DAY_MS,
                     start_offset: start - w.at,
                     end_offset: end - w.at,
-                    series: series_ids[&(r.currency.clone(), normalise_title(&r.title))],
+                    series: series_of[w.release as usize],
                 }
             })
             .collect();
