@@ -2,9 +2,9 @@
 //! and metrics, shown as a table, JSON, or a folder of files.
 
 use super::common::{self, ChanceArgs, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
+use super::outcome::Outcome;
 use crate::analysis::run as analysis;
 use crate::import::table::TableFormat;
-use crate::render::output::OutDir;
 use crate::report::summary::{Inputs, Summary};
 use anyhow::Result;
 use clap::Args;
@@ -51,6 +51,28 @@ pub struct AnalyzeArgs {
 }
 
 pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
+    let outcome = execute(&args, args.out.is_some())?;
+    if let Some(dir) = &args.out {
+        outcome.write(dir, &args.charts)?;
+    }
+    if args.json {
+        crate::render::output::stdout(format!("{}\n", outcome.json).as_bytes())?;
+    } else {
+        crate::render::output::stdout(
+            crate::render::term::emphasise(&outcome.text, crate::render::term::use_colour())
+                .as_bytes(),
+        )?;
+        if let Some(dir) = &args.out {
+            let ext = args.trades_format.extension();
+            crate::render::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
+        }
+    }
+    Ok(common::exit_status(&outcome.warnings))
+}
+
+/// The analysis and everything it shows, in memory: the summary JSON, the
+/// terminal table and, with `files`, the `--out` folder's files and charts.
+pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
     // Resolve every flag before reading data.
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
@@ -62,14 +84,9 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
         &loaded.calendar,
         &loaded.currencies,
     );
-    let (mut result, exposure) = analysis::analyze(
-        trades,
-        &cal.releases,
-        currencies,
-        &settings,
-        args.out.is_some(),
-    )?;
-    // The scenario series (filled only for --out) go to the files below.
+    let (mut result, exposure) =
+        analysis::analyze(trades, &cal.releases, currencies, &settings, files)?;
+    // The scenario series (filled only for files) go to the files below.
     let series = std::mem::take(&mut result.series);
     let (placebo, bootstrap) = crate::analysis::evidence::chance(
         trades,
@@ -94,27 +111,14 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
     let json = serde_json::to_string_pretty(&summary)?;
     crate::import::phases::mark("summary");
-    if let Some(dir) = &args.out {
-        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
+    let mut outcome = Outcome {
+        text: crate::render::table::analyze(&summary),
+        inputs: args.input.input_paths(&loaded),
+        warnings: summary.warnings.clone(),
+        ..Outcome::default()
+    };
+    if files {
         let sorted_abs = series.sorted_abs(&exposure);
-        let annotated = crate::render::files::annotated_trades(
-            trades,
-            &exposure,
-            &cal.releases,
-            &trade_summary.files,
-        );
-        match args.trades_format {
-            TableFormat::Csv => out.write("trades.csv", &annotated.to_csv())?,
-            TableFormat::Parquet => out.write("trades.parquet", &annotated.to_parquet()?)?,
-        };
-        out.write(
-            "releases.csv",
-            &crate::render::files::releases_csv(&summary.attribution.by_release),
-        )?;
-        out.write(
-            "tail.csv",
-            &crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis),
-        )?;
         let figures = figures(
             &summary,
             trades,
@@ -124,31 +128,39 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
             &sorted_abs,
         )?;
         drop(series);
-        for f in &figures {
-            common::write_chart(&out, f.id, &f.svg, &args.charts)?;
-        }
-        out.write(
-            "report.html",
-            crate::render::html::analyze_report(&summary, &figures).as_bytes(),
-        )?;
-        out.write("summary.json", json.as_bytes())?;
+        let annotated = crate::render::files::annotated_trades(
+            trades,
+            &exposure,
+            &cal.releases,
+            &trade_summary.files,
+        );
+        let trades_file = match args.trades_format {
+            TableFormat::Csv => ("trades.csv", annotated.to_csv()),
+            TableFormat::Parquet => ("trades.parquet", annotated.to_parquet()?),
+        };
+        outcome.files = vec![
+            (trades_file.0.to_string(), trades_file.1),
+            (
+                "releases.csv".into(),
+                crate::render::files::releases_csv(&summary.attribution.by_release),
+            ),
+            (
+                "tail.csv".into(),
+                crate::render::files::tail_csv(&sorted_abs, summary.tail.tcr_basis),
+            ),
+            (
+                "report.html".into(),
+                crate::render::html::analyze_report(&summary, &figures).into_bytes(),
+            ),
+            ("summary.json".into(), json.clone().into_bytes()),
+        ];
+        outcome.charts = figures
+            .into_iter()
+            .map(|f| (f.id.to_string(), f.svg))
+            .collect();
     }
-    if args.json {
-        crate::render::output::stdout(format!("{json}\n").as_bytes())?;
-    } else {
-        crate::render::output::stdout(
-            crate::render::term::emphasise(
-                &crate::render::table::analyze(&summary),
-                crate::render::term::use_colour(),
-            )
-            .as_bytes(),
-        )?;
-        if let Some(dir) = &args.out {
-            let ext = args.trades_format.extension();
-            crate::render::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;
-        }
-    }
-    Ok(common::exit_status(&summary.warnings))
+    outcome.json = json;
+    Ok(outcome)
 }
 
 /// The charts of the report (SVG), drawn from the summary and the scenario

@@ -45,6 +45,10 @@ pub struct TradeArgs {
     /// (trades.csv / trades.parquet), e.g. --keep TradeRef,Note.
     #[arg(long, value_name = "COLUMN,...", value_delimiter = ',')]
     pub keep: Vec<String>,
+    /// Tables handed over in memory by a library caller (the Python
+    /// package), read in place of `--trades` files; never a flag.
+    #[arg(skip)]
+    pub tables: Vec<crate::import::table::Source>,
 }
 
 /// Where the release calendar comes from and how to read it.
@@ -53,6 +57,10 @@ pub struct CalendarArgs {
     /// Release calendar file(s), ICS or CSV, merged (e.g. one per currency).
     #[arg(long = "calendar", value_name = "FILE", num_args = 1..)]
     pub calendar: Vec<PathBuf>,
+    /// Calendar tables handed over in memory by a library caller, read
+    /// after the `--calendar` files; never a flag.
+    #[arg(skip)]
+    pub tables: Vec<crate::import::table::Source>,
     /// Zone of calendar times without an offset (CSV times, floating ICS
     /// times, and the day of all-day releases); default UTC, or an ICS
     /// file's own X-WR-TIMEZONE.

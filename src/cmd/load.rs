@@ -6,12 +6,13 @@ use super::progress::spinner;
 use super::settings::{calendar_options, trade_options};
 use crate::engine::relevance::{self, InstrumentCurrencies};
 use crate::import::calendar::{self, Calendar, CalendarOptions};
+use crate::import::table::Source;
 use crate::import::trades::{self, TradeOptions, TradeSummary, Trades};
 use anyhow::{Result, bail};
 use std::collections::HashMap;
 use std::path::PathBuf;
 
-/// Loads trades named by the flags.
+/// Loads trades named by the flags (or handed over as tables).
 pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeSummary)> {
     let paths = trades::expand_paths(&t.trades)?;
     let limit = t
@@ -20,7 +21,9 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
         .map(crate::import::budget::parse_size)
         .transpose()?;
     crate::import::budget::check(&paths, limit)?;
-    let (trades, mut summary) = trades::load(&paths, opts)?;
+    let mut sources = Source::files(&paths);
+    sources.extend(t.tables.iter().cloned());
+    let (trades, mut summary) = trades::load_sources(&sources, opts)?;
     if t.run.is_empty() {
         return Ok((trades, summary));
     }
@@ -29,9 +32,11 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
     Ok((trades, summary))
 }
 
-/// Loads and merges the calendar files.
+/// Loads and merges the calendar files (and tables handed over).
 pub fn load_calendar(c: &CalendarArgs, opts: &CalendarOptions) -> Result<Calendar> {
-    Ok(calendar::load(&c.calendar, opts)?)
+    let mut sources = Source::files(&c.calendar);
+    sources.extend(c.tables.iter().cloned());
+    Ok(calendar::load_sources(&sources, opts)?)
 }
 
 /// Distinct calendar currencies, sorted.
@@ -104,11 +109,25 @@ impl Loaded {
     }
 }
 
+impl TradeArgs {
+    /// Whether any trades are named or handed over.
+    pub fn given(&self) -> bool {
+        !self.trades.is_empty() || !self.tables.is_empty()
+    }
+}
+
+impl CalendarArgs {
+    /// Whether any calendar is named or handed over.
+    pub fn given(&self) -> bool {
+        !self.calendar.is_empty() || !self.tables.is_empty()
+    }
+}
+
 impl InputArgs {
     /// Reads trades and the calendar (over the trades' span when it holds
     /// iCalendar files), then resolves instrument currencies. `command` names the subcommand in errors.
     pub fn load(&self, command: &str, terminal: &TerminalArgs) -> Result<Loaded> {
-        if self.trades.trades.is_empty() || self.calendar.calendar.is_empty() {
+        if !self.trades.given() || !self.calendar.given() {
             bail!("{command} needs --trades and --calendar");
         }
         let trade_opts = trade_options(&self.trades, &self.rows)?;

@@ -7,6 +7,7 @@ pub mod args;
 pub mod check;
 pub mod common;
 pub mod load;
+pub mod outcome;
 pub mod progress;
 pub mod rank;
 pub mod schedule;

@@ -2,9 +2,9 @@
 //! once the release-exposed trades are removed.
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
+use super::outcome::Outcome;
 use crate::analysis::rank::{self, RankBy};
 use crate::import::table::TableFormat;
-use crate::render::output::OutDir;
 use crate::report::rank::RankReport;
 use crate::report::summary::{CAUTION, ToolInfo};
 use anyhow::{Result, bail};
@@ -69,6 +69,22 @@ pub enum SortBy {
 }
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
+    let outcome = execute(&args, args.out.is_some())?;
+    if let Some(dir) = &args.out {
+        outcome.write(dir, &args.charts)?;
+    }
+    let shown = if args.json {
+        format!("{}\n", outcome.json)
+    } else {
+        outcome.text.clone()
+    };
+    crate::render::output::stdout(shown.as_bytes())?;
+    Ok(common::exit_status(&outcome.warnings))
+}
+
+/// The ranking and everything it shows, in memory: the JSON, the terminal
+/// table and, with `files`, the `--out` folder's files and chart.
+pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
     let loaded = args.input.load("rank", &args.terminal)?;
@@ -107,13 +123,15 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         SortBy::Shift => rows.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed)),
         SortBy::Run => rows.sort_by(|a, b| crate::import::trades::run_order(&a.run, &b.run)),
     }
-    if let Some(dir) = &args.out {
-        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        match args.runs_format {
-            TableFormat::Csv => out.write("runs.csv", &crate::render::files::runs_csv(&rows))?,
-            TableFormat::Parquet => {
-                out.write("runs.parquet", &crate::render::files::runs_parquet(&rows)?)?
-            }
+    let mut outcome = Outcome {
+        inputs: args.input.input_paths(&loaded),
+        warnings: warnings.clone(),
+        ..Outcome::default()
+    };
+    if files {
+        let runs_file = match args.runs_format {
+            TableFormat::Csv => ("runs.csv", crate::render::files::runs_csv(&rows)),
+            TableFormat::Parquet => ("runs.parquet", crate::render::files::runs_parquet(&rows)?),
         };
         let mut by_shift = rows.clone();
         by_shift.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed));
@@ -125,7 +143,6 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
                 .collect();
             let svg =
                 crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
-            common::write_chart(&out, "rank-shift", &svg, &args.charts)?;
             vec![crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg }]
         };
         #[cfg(not(feature = "charts"))]
@@ -142,7 +159,14 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
             &crate::render::html::rank_table(&by_shift, &crate::render::label(&args.by)),
             CAUTION,
         );
-        out.write("report.html", page.as_bytes())?;
+        outcome.files = vec![
+            (runs_file.0.to_string(), runs_file.1),
+            ("report.html".into(), page.into_bytes()),
+        ];
+        outcome.charts = figures
+            .into_iter()
+            .map(|f| (f.id.to_string(), f.svg))
+            .collect();
     }
     if let Some(n) = args.top {
         rows.truncate(n);
@@ -158,14 +182,7 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
         runs: rows,
         caution: CAUTION,
     };
-    if args.json {
-        crate::render::output::stdout(
-            format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes(),
-        )?;
-    } else {
-        crate::render::output::stdout(
-            crate::render::table::rank(&report, crate::render::term::width()).as_bytes(),
-        )?;
-    }
-    Ok(common::exit_status(&report.warnings))
+    outcome.json = serde_json::to_string_pretty(&report)?;
+    outcome.text = crate::render::table::rank(&report, crate::render::term::width());
+    Ok(outcome)
 }

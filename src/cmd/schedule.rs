@@ -2,6 +2,7 @@
 //! as CSV, JSON, ICS, or a terminal view of the coming days.
 
 use super::common::{self, CalendarArgs, InstrumentArgs, RowArgs, WindowArgs};
+use super::outcome::Outcome;
 use crate::analysis::schedule::{self, ScheduleSettings};
 use crate::import::zones::{DAY_MS, naive_to_ms};
 use anyhow::{Context, Result, bail};
@@ -66,17 +67,59 @@ pub enum Format {
     Ics,
 }
 
-pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
-    if args.calendar.calendar.is_empty() {
+pub fn run(args: ScheduleArgs) -> Result<std::process::ExitCode> {
+    let (format, output, calendars) = (
+        args.format,
+        args.output.clone(),
+        args.calendar.calendar.clone(),
+    );
+    let (outcome, windows) = execute(args)?;
+    // On standard error, so that a piped schedule stays clean data.
+    for w in &outcome.warnings {
+        eprintln!("WARNING {w}");
+    }
+    let bytes = match format {
+        Format::Table => outcome.text.as_bytes(),
+        Format::Json => outcome.json.as_bytes(),
+        Format::Csv => outcome.file("schedule.csv").unwrap_or_default(),
+        Format::Ics => outcome.file("schedule.ics").unwrap_or_default(),
+    };
+    match &output {
+        Some(path) => {
+            let dir = path
+                .parent()
+                .filter(|p| !p.as_os_str().is_empty())
+                .map(PathBuf::from)
+                .unwrap_or_else(|| PathBuf::from("."));
+            let name = path
+                .file_name()
+                .context("--output needs a file name")?
+                .to_string_lossy()
+                .into_owned();
+            crate::render::output::OutDir::new(&dir, &calendars)?.write(&name, bytes)?;
+            eprintln!("wrote {windows} window(s) to {}", path.display());
+        }
+        None => {
+            crate::render::output::stdout(bytes)?;
+        }
+    }
+    Ok(common::exit_status(&outcome.warnings))
+}
+
+/// The blackout list in every form it is written in (the table as text,
+/// JSON, and `schedule.csv` / `schedule.ics` as files), with its warnings
+/// and the number of windows.
+pub fn execute(mut args: ScheduleArgs) -> Result<(Outcome, usize)> {
+    if !args.calendar.given() {
         bail!("schedule needs --calendar");
     }
-    if !args.trades.run.is_empty() && args.trades.trades.is_empty() {
+    if !args.trades.run.is_empty() && !args.trades.given() {
         bail!("--run picks runs of --trades: give the trade list too");
     }
     if !args.trades.keep.is_empty() {
         bail!("--keep carries columns into per-trade outputs; schedule writes none");
     }
-    if !args.trades.trades.is_empty() {
+    if args.trades.given() {
         let opts = common::trade_options(&args.trades, &args.rows)?;
         let (trades, _) = common::load_trades(&args.trades, &opts)?;
         // The instruments that actually traded, in name order, after any
@@ -149,37 +192,24 @@ pub fn run(mut args: ScheduleArgs) -> Result<std::process::ExitCode> {
         range,
     };
     let list = schedule::build(&cal.releases, &pairs, &settings);
-    // On standard error, so that a piped schedule stays clean data.
-    for w in &warnings {
-        eprintln!("WARNING {w}");
-    }
-    let bytes = match args.format {
-        Format::Table => crate::render::schedule::table(&list, &zone).into_bytes(),
-        Format::Csv => crate::render::schedule::csv(&list, &zone),
-        Format::Json => crate::render::schedule::json(&list, &zone).into_bytes(),
-        Format::Ics => crate::render::schedule::ics(&list, now),
+    let outcome = Outcome {
+        json: crate::render::schedule::json(&list, &zone),
+        text: crate::render::schedule::table(&list, &zone),
+        files: vec![
+            (
+                "schedule.csv".into(),
+                crate::render::schedule::csv(&list, &zone),
+            ),
+            (
+                "schedule.ics".into(),
+                crate::render::schedule::ics(&list, now),
+            ),
+        ],
+        inputs: args.calendar.calendar.clone(),
+        warnings,
+        ..Outcome::default()
     };
-    match &args.output {
-        Some(path) => {
-            let dir = path
-                .parent()
-                .filter(|p| !p.as_os_str().is_empty())
-                .map(PathBuf::from)
-                .unwrap_or_else(|| PathBuf::from("."));
-            let name = path
-                .file_name()
-                .context("--output needs a file name")?
-                .to_string_lossy()
-                .into_owned();
-            crate::render::output::OutDir::new(&dir, &args.calendar.calendar)?
-                .write(&name, &bytes)?;
-            eprintln!("wrote {} window(s) to {}", list.len(), path.display());
-        }
-        None => {
-            crate::render::output::stdout(&bytes)?;
-        }
-    }
-    Ok(common::exit_status(&warnings))
+    Ok((outcome, list.len()))
 }
 
 /// What a schedule cannot promise: days of the requested range the calendar

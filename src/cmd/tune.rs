@@ -2,8 +2,8 @@
 //! that remove the damage at least cost.
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
+use super::outcome::Outcome;
 use crate::import::calendar::Tier;
-use crate::render::output::OutDir;
 use crate::report::summary::{CAUTION, ToolInfo};
 use crate::report::tune::TuneReport;
 use anyhow::Result;
@@ -57,6 +57,22 @@ pub struct TuneArgs {
 }
 
 pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
+    let outcome = execute(&args, args.out.is_some())?;
+    if let Some(dir) = &args.out {
+        outcome.write(dir, &args.charts)?;
+    }
+    let shown = if args.json {
+        format!("{}\n", outcome.json)
+    } else {
+        outcome.text.clone()
+    };
+    crate::render::output::stdout(shown.as_bytes())?;
+    Ok(common::exit_status(&outcome.warnings))
+}
+
+/// The window grid and everything it shows, in memory: the JSON, the
+/// terminal table and, with `files`, the `--out` folder's files and chart.
+pub fn execute(args: &TuneArgs, files: bool) -> Result<Outcome> {
     let pre =
         crate::analysis::tune::parse_range(&args.pre).map_err(|e| anyhow::anyhow!("--pre {e}"))?;
     let post = crate::analysis::tune::parse_range(&args.post)
@@ -97,13 +113,13 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
         caution: CAUTION,
     };
     let json = serde_json::to_string_pretty(&report)?;
-    if let Some(dir) = &args.out {
-        let out = OutDir::new(dir, &args.input.input_paths(&loaded))?;
-        out.write(
-            "grid.csv",
-            &crate::render::files::grid_csv(&report.result.cells),
-        )?;
-        out.write("tune.json", json.as_bytes())?;
+    let mut outcome = Outcome {
+        text: crate::render::table::tune(&report, args.frontier_only),
+        inputs: args.input.input_paths(&loaded),
+        warnings: report.warnings.clone(),
+        ..Outcome::default()
+    };
+    if files {
         let res = &report.result;
         #[cfg(feature = "charts")]
         let figures = {
@@ -115,7 +131,6 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
                 &|a, b| cell(a, b).frontier,
                 "Tail reduction by window (frontier outlined)",
             )?;
-            common::write_chart(&out, "tune", &svg, &args.charts)?;
             vec![crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg }]
         };
         #[cfg(not(feature = "charts"))]
@@ -141,14 +156,19 @@ pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
             "",
             CAUTION,
         );
-        out.write("report.html", page.as_bytes())?;
+        outcome.files = vec![
+            (
+                "grid.csv".into(),
+                crate::render::files::grid_csv(&res.cells),
+            ),
+            ("tune.json".into(), json.clone().into_bytes()),
+            ("report.html".into(), page.into_bytes()),
+        ];
+        outcome.charts = figures
+            .into_iter()
+            .map(|f| (f.id.to_string(), f.svg))
+            .collect();
     }
-    if args.json {
-        crate::render::output::stdout(format!("{json}\n").as_bytes())?;
-    } else {
-        crate::render::output::stdout(
-            crate::render::table::tune(&report, args.frontier_only).as_bytes(),
-        )?;
-    }
-    Ok(common::exit_status(&report.warnings))
+    outcome.json = json;
+    Ok(outcome)
 }

@@ -6,7 +6,7 @@
 //! null). Parquet columns keep their types: text, numbers, or timestamps.
 
 use polars::prelude::*;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 /// A loaded table.
 pub struct Table {
@@ -230,7 +230,46 @@ mod parquet {
     }
 }
 
+/// Where a tabular input comes from: a file, or a table the caller already
+/// holds in memory (the library's callers: the Python package hands over
+/// Arrow tables). `name` stands in for the file name in every message.
+#[derive(Debug, Clone)]
+pub enum Source {
+    /// A file, read by its extension (Parquet) or as delimited text.
+    File(PathBuf),
+    /// A table in memory; its columns keep their types as Parquet's do.
+    Frame {
+        /// How messages name it (for example `trades table 1`).
+        name: String,
+        /// The table.
+        frame: DataFrame,
+    },
+}
+
+impl Source {
+    /// The file's path, or the table's name as a path, for messages.
+    pub fn path(&self) -> PathBuf {
+        match self {
+            Source::File(p) => p.clone(),
+            Source::Frame { name, .. } => PathBuf::from(name),
+        }
+    }
+
+    /// Files as sources.
+    pub fn files(paths: &[PathBuf]) -> Vec<Source> {
+        paths.iter().cloned().map(Source::File).collect()
+    }
+}
+
 impl Table {
+    /// A table already in memory, cells kept as typed.
+    pub fn from_frame(df: DataFrame) -> Table {
+        Table {
+            df,
+            problems: Vec::new(),
+        }
+    }
+
     /// Rows `first..first + rows` of a Parquet file.
     pub fn read_parquet_rows(path: &Path, first: usize, rows: usize) -> Result<Table, TableError> {
         let df = parquet::frame(path, Some((first, rows)))?;

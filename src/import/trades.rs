@@ -7,7 +7,7 @@
 //! row, field and reason — `rows_read = rows_imported + rows_rejected`.
 
 use crate::import::csvchunks::{self, Parsed, Record, ScanError};
-use crate::import::table::{Cell, ColumnSource, Table};
+use crate::import::table::{Cell, ColumnSource, Source, Table};
 use crate::import::timefmt::{Stamp, TimeFormat, parse_stamp, trim_fast};
 use crate::import::zones::{DayOffsetCache, LocalPolicy, Zone, ZoneError};
 use rayon::prelude::*;
@@ -432,22 +432,41 @@ pub fn expand_paths(specs: &[String]) -> Result<Vec<PathBuf>, TradeError> {
 /// becomes one run named by its file stem. CSV files are read in blocks on
 /// every core ([`crate::import::csvchunks`]); Parquet through polars.
 pub fn load(paths: &[PathBuf], opts: &TradeOptions) -> Result<(Trades, TradeSummary), TradeError> {
+    load_sources(&Source::files(paths), opts)
+}
+
+/// Reads trade files and in-memory tables alike (a table is read as a
+/// Parquet file is: typed columns); with several sources and no `run`
+/// column, each becomes one run named by its file stem or table name.
+pub fn load_sources(
+    sources: &[Source],
+    opts: &TradeOptions,
+) -> Result<(Trades, TradeSummary), TradeError> {
     let mut sink = Sink::default();
-    let run_per_file = paths.len() > 1;
-    for (fi, path) in paths.iter().enumerate() {
+    let run_per_file = sources.len() > 1;
+    for (fi, source) in sources.iter().enumerate() {
+        let path = source.path();
         sink.summary.files.push(path.display().to_string());
-        let file_run = run_per_file.then(|| {
-            path.file_stem()
+        let file_run = run_per_file.then(|| match source {
+            Source::Frame { name, .. } => name.clone(),
+            Source::File(_) => path
+                .file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
-                .unwrap_or_default()
+                .unwrap_or_default(),
         });
-        sink.start_file(fi as u16, path, file_run);
-        if crate::import::table::TableFormat::of_path(path)
-            == crate::import::table::TableFormat::Parquet
-        {
-            read_parquet(path, opts, &mut sink)?;
-        } else {
-            read_csv(path, opts, &mut sink)?;
+        sink.start_file(fi as u16, &path, file_run);
+        match source {
+            Source::Frame { frame, .. } => {
+                let table = Table::from_frame(frame.clone());
+                read_table(&table, &path, opts, &mut sink)?;
+            }
+            Source::File(path)
+                if crate::import::table::TableFormat::of_path(path)
+                    == crate::import::table::TableFormat::Parquet =>
+            {
+                read_parquet(path, opts, &mut sink)?
+            }
+            Source::File(path) => read_csv(path, opts, &mut sink)?,
         }
     }
     let Sink {

@@ -114,6 +114,18 @@ pub fn read(
         path: path.into(),
         message: message.to_string(),
     })?;
+    read_table(&table, path, opts, out, summary)
+}
+
+/// Reads one calendar table (a CSV file's, or one held in memory) into
+/// `out`; `path` names it in messages.
+pub fn read_table(
+    table: &Table,
+    path: &Path,
+    opts: &CalendarOptions,
+    out: &mut Vec<Release>,
+    summary: &mut CalendarSummary,
+) -> Result<(), CalendarError> {
     let name_of = |f: &str| {
         opts.columns
             .get(f)

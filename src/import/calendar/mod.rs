@@ -11,6 +11,7 @@ pub mod ics;
 pub mod rules;
 pub mod vtimezone;
 
+use crate::import::table::{Source, Table};
 use crate::import::zones::{LocalPolicy, Zone};
 use serde::Serialize;
 use std::collections::HashMap;
@@ -227,14 +228,29 @@ pub fn normalise_title(t: &str) -> String {
 
 /// Reads and merges calendar files (ICS by `.ics`/`.ical` extension, else CSV).
 pub fn load(paths: &[PathBuf], opts: &CalendarOptions) -> Result<Calendar, CalendarError> {
+    load_sources(&Source::files(paths), opts)
+}
+
+/// Reads and merges calendar files and in-memory tables (a table is read
+/// with the CSV layout's columns, its cells typed as Parquet's are).
+pub fn load_sources(sources: &[Source], opts: &CalendarOptions) -> Result<Calendar, CalendarError> {
     let mut summary = CalendarSummary::default();
     let mut releases = Vec::new();
-    for path in paths {
+    for source in sources {
+        let path = source.path();
         summary.files.push(path.display().to_string());
-        if is_ics(path) {
-            ics::read(path, opts, &mut releases, &mut summary)?;
-        } else {
-            csv::read(path, opts, &mut releases, &mut summary)?;
+        match source {
+            Source::File(path) if is_ics(path) => {
+                ics::read(path, opts, &mut releases, &mut summary)?
+            }
+            Source::File(path) => csv::read(path, opts, &mut releases, &mut summary)?,
+            Source::Frame { frame, .. } => csv::read_table(
+                &Table::from_frame(frame.clone()),
+                &path,
+                opts,
+                &mut releases,
+                &mut summary,
+            )?,
         }
     }
     if summary.log.rows_rejected > 0 && !opts.skip_bad_rows {
