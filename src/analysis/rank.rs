@@ -53,7 +53,8 @@ impl RankBy {
             RankBy::MaxDrawdown => m.max_drawdown,
         }
     }
-    fn higher_is_better(self) -> bool {
+    /// Whether a larger figure ranks higher (all but max drawdown).
+    pub fn higher_is_better(self) -> bool {
         self != RankBy::MaxDrawdown
     }
 }
@@ -240,7 +241,9 @@ fn run_row(
 
 /// Ranks 1..n by the figure; ties and undefined values (ranked last) in
 /// the natural order of run names ([`crate::import::trades::run_order`]).
-fn ranks(values: &[Option<f64>], names: &[&str], higher_is_better: bool) -> Vec<usize> {
+/// Public so that runs figured apart (partitions of a distributed run) are
+/// ranked together by the same rule.
+pub fn ranks(values: &[Option<f64>], names: &[&str], higher_is_better: bool) -> Vec<usize> {
     let mut idx: Vec<usize> = (0..values.len()).collect();
     let by_name = |a: usize, b: usize| crate::import::trades::run_order(names[a], names[b]);
     idx.sort_by(|&a, &b| match (values[a], values[b]) {

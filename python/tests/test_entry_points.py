@@ -1,0 +1,79 @@
+"""Each entry point against the command line's JSON on the bundled demo:
+the same engine, so the same figures, bit for bit."""
+
+import eventfence
+from conftest import CALENDARS, DEMO, DEMO_FLAGS, cli, cli_json
+
+
+def test_analyze_equals_the_cli_summary():
+    a = eventfence.analyze("demo/trades.csv", CALENDARS, placebo=99, bootstrap=200, **DEMO)
+    want = cli_json(
+        "analyze", "--trades", "demo/trades.csv", "--calendar", *CALENDARS, *DEMO_FLAGS,
+        "--placebo", "99", "--bootstrap", "200", "--json",
+    )
+    assert a.summary == want
+    # The headline the README prints is the CLI's.
+    assert a.headline == want["headline"]
+
+
+def test_analyze_tables_hold_the_trades_and_releases():
+    a = eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0, **DEMO)
+    s = a.summary
+    trades = a.trades
+    assert trades.num_rows == s["exposure"]["trades"]
+    exposed = trades.column("exposed").to_pylist()
+    assert sum(1 for e in exposed if e) == s["exposure"]["exposed_trades"]
+    assert abs(sum(trades.column("pnl").to_pylist()) - s["headline"]["net"]) < 1e-6
+    assert a.releases.num_rows == len(s["attribution"]["by_release"])
+    assert set(a.charts) >= {"tail", "equity"}
+    assert a.charts["tail"].lstrip().startswith("<svg")
+    assert "<html" in a.report_html
+    # Same text the terminal shows (colour aside).
+    assert a.text.splitlines()[0] == cli(
+        "analyze", "--trades", "demo/trades.csv", "--calendar", *CALENDARS, *DEMO_FLAGS,
+        "--placebo", "0", "--bootstrap", "0",
+    ).splitlines()[0]
+
+
+def test_rank_equals_the_cli():
+    r = eventfence.rank("demo/trades.csv", CALENDARS, by="sharpe", **DEMO)
+    want = cli_json(
+        "rank", "--trades", "demo/trades.csv", "--calendar", *CALENDARS, *DEMO_FLAGS,
+        "--by", "sharpe", "--json",
+    )
+    assert r.summary == want
+    runs = r.runs.to_pylist()
+    assert [x["run"] for x in runs] == [x["run"] for x in want["runs"]]
+    assert [x["rank_removed"] for x in runs] == [x["rank_removed"] for x in want["runs"]]
+
+
+def test_tune_equals_the_cli():
+    t = eventfence.tune("demo/trades.csv", CALENDARS, pre="0..60/15", post="0..120/30", **DEMO)
+    want = cli_json(
+        "tune", "--trades", "demo/trades.csv", "--calendar", *CALENDARS, *DEMO_FLAGS,
+        "--pre", "0..60/15", "--post", "0..120/30", "--json",
+    )
+    assert t.summary == want
+    assert t.cells.num_rows == 5 * 5
+
+
+def test_schedule_equals_the_cli():
+    s = eventfence.schedule(
+        "calendars/demo-usd.ics", currencies="USD", from_="2024-03-01", to="2024-03-31"
+    )
+    want = cli_json(
+        "schedule", "--calendar", "calendars/demo-usd.ics", "--currencies", "USD",
+        "--from", "2024-03-01", "--to", "2024-03-31", "--format", "json",
+    )
+    assert s.summary == want
+    assert s.windows.num_rows == len(want["windows"])
+    assert s.csv == cli(
+        "schedule", "--calendar", "calendars/demo-usd.ics", "--currencies", "USD",
+        "--from", "2024-03-01", "--to", "2024-03-31", "--format", "csv",
+    )
+
+
+def test_out_writes_the_cli_folder(tmp_path):
+    eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0, out=tmp_path, **DEMO)
+    names = {p.name for p in tmp_path.iterdir()}
+    assert {"summary.json", "report.html", "trades.parquet", "releases.csv", "tail.csv"} <= names
