@@ -127,10 +127,30 @@ fn every_chart_renders_with_its_series() {
     let out = dir.path().join("r");
     demo("rank", &out, &[]);
     let rk = svg(&out.join("chart-rank-shift.svg"));
+    // Runs in either top 10 (from runs.csv's ranks) are triangles, the
+    // others circles; each kind has one legend swatch more.
+    let runs = std::fs::read_to_string(out.join("runs.csv")).unwrap();
+    let header: Vec<&str> = runs.lines().next().unwrap().split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let (rb, rr) = (col("rank_baseline"), col("rank_removed"));
+    let in_top = runs
+        .lines()
+        .skip(1)
+        .filter(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            f[rb].parse::<usize>().unwrap() <= 10 || f[rr].parse::<usize>().unwrap() <= 10
+        })
+        .count();
+    assert!((10..=20).contains(&in_top), "{in_top} runs in a top 10");
     assert_eq!(
         count(&rk, "circle", "#1B4F8A"),
-        50 + 1,
-        "one point per run plus the legend swatch"
+        50 - in_top + 1,
+        "one point per run outside the top sets plus the legend swatch"
+    );
+    assert_eq!(
+        count(&rk, "polygon", "#DC9A26"),
+        in_top + 1,
+        "one triangle per run in a top 10 plus the legend swatch"
     );
     let out = dir.path().join("t");
     demo("tune", &out, &["--pre", "0..30/15", "--post", "0..60/30"]);

@@ -186,7 +186,10 @@ fn ranked(t: &Trades, rel: &[Release]) -> Value {
         &lists,
         &s,
         eventfence::analysis::rank::RankBy::Net,
-        placebo,
+        eventfence::analysis::rank::RankDraws {
+            placebo,
+            random_removal: Default::default(),
+        },
         &|| {},
     )
     .unwrap();

@@ -9,7 +9,7 @@ are keyword arguments named like the flags (``--trades-tz`` is
 and its tables as ``pyarrow.Table`` (``.to_pandas()``, or
 ``polars.from_arrow``).
 
-Example (the repository's demo)::
+Example (the repository's demo, run from its root)::
 
     import eventfence
     a = eventfence.analyze(
@@ -310,7 +310,10 @@ def merge_ranks(parts: Sequence[Any], by: str = "sharpe") -> List[Dict[str, Any]
 
     Example::
 
-        parts = [eventfence.rank(t, cal, map={"run": "run"}) for t in tables]
+        parts = [eventfence.rank("demo/trades.csv", "calendars/demo-usd.ics",
+                                 trades_tz="America/New_York+07:00",
+                                 instrument_map="US500=USD", run=runs)
+                 for runs in ("p01,p02,p03", "p04,p05")]
         rows = eventfence.merge_ranks(parts, by="sharpe")
     """
     rows: List[Dict[str, Any]] = []

@@ -77,3 +77,22 @@ def test_out_writes_the_cli_folder(tmp_path):
     eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0, out=tmp_path, **DEMO)
     names = {p.name for p in tmp_path.iterdir()}
     assert {"summary.json", "report.html", "trades.parquet", "releases.csv", "tail.csv"} <= names
+
+
+def test_rank_distortion_equals_scipy_on_the_demo():
+    from scipy import stats
+
+    r = eventfence.rank("demo/trades.csv", CALENDARS, by="sharpe", distortion_draws=19, **DEMO)
+    rows = r.summary["runs"]
+    d = r.summary["distortion"]
+    x = [row["by_baseline"] for row in rows]
+    y = [row["by_removed"] for row in rows]
+    assert d["runs_compared"] == len(rows) == 50
+    assert abs(d["spearman_rho"] - stats.spearmanr(x, y).statistic) < 1e-12
+    assert abs(d["kendall_tau_b"] - stats.kendalltau(x, y, variant="b").statistic) < 1e-12
+    top_b = {row["run"] for row in rows if row["rank_baseline"] <= 10}
+    top_r = {row["run"] for row in rows if row["rank_removed"] <= 10}
+    assert d["top_k"] == 10 and d["top_overlap"] == len(top_b & top_r)
+    assert set(d["left_top"]) == top_b - top_r and set(d["entered_top"]) == top_r - top_b
+    ref = d["random_removal"]
+    assert ref["draws"] == 19 and 0.0 <= ref["share_rho_at_or_below"] <= 1.0

@@ -106,6 +106,11 @@ pub struct RunRow {
     pub rank_shift: i64,
     /// Placebo p-value of the exposed share (when asked for).
     pub placebo_p: Option<f64>,
+    /// The ranking figure after removing, instead of the exposed trades, as
+    /// many randomly chosen ones: one value per draw (the distortion
+    /// reference; empty when not asked for).
+    #[serde(skip)]
+    pub by_random_removed: Vec<Option<f64>>,
     /// What the run's tail figures were measured on (stated once per report).
     #[serde(skip)]
     pub tcr_basis: scenarios::TailBasis,
@@ -120,9 +125,10 @@ pub fn rank(
     currencies: &[Vec<String>],
     settings: &AnalysisSettings,
     by: RankBy,
-    placebo: PlaceboSettings,
+    draws: RankDraws,
     progress: &(dyn Fn() + Sync),
 ) -> Result<Vec<RunRow>, scenarios::ScenarioError> {
+    let placebo = draws.placebo;
     let engine = Engine::from_windows(windows, settings.exposure_rule, releases.len());
     // Each run's trades in close order, so that every per-run sum runs in
     // an order that does not depend on the input's row order.
@@ -137,7 +143,20 @@ pub fn rank(
         .par_iter()
         .enumerate()
         .map(|(r, idx)| {
-            let row = run_row(trades, idx, r, &engine, currencies, settings, by);
+            let row = run_row(trades, idx, r, &engine, currencies, settings, by).and_then(
+                |(mut row, flags)| {
+                    row.by_random_removed = random_removal(
+                        trades,
+                        idx,
+                        &flags,
+                        &row.run,
+                        settings,
+                        by,
+                        draws.random_removal,
+                    )?;
+                    Ok((row, flags))
+                },
+            );
             progress();
             row
         })
@@ -172,6 +191,105 @@ pub fn rank(
     }
     assign_ranks(&mut rows, by);
     Ok(rows)
+}
+
+/// The draws `rank` makes besides the rows: placebo calendars per run, and
+/// random removals (the distortion reference).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct RankDraws {
+    /// Placebo calendars per run (0 = off).
+    pub placebo: PlaceboSettings,
+    /// Random removals (0 draws = off).
+    pub random_removal: RandomRemovalSettings,
+}
+
+/// Draws of the distortion reference.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct RandomRemovalSettings {
+    /// Draws (0 = off).
+    pub draws: usize,
+    /// Seed; each run's stream is named by the run, so the draws do not
+    /// depend on which other runs are ranked beside it.
+    pub seed: u64,
+}
+
+/// Salt of the random-removal streams, so that they never coincide with
+/// the placebo or bootstrap streams of the same seed.
+const RANDOM_REMOVAL_SALT: u64 = 0x5eed_0fd1_570a_7e00;
+
+/// One run's ranking figure after each draw: as many of its trades as are
+/// exposed, chosen uniformly at random without replacement, removed in
+/// place of the exposed ones (docs/method.md §10). The same path as the
+/// removed scenario, with the drawn trades as the "exposed" set.
+fn random_removal(
+    all: &Trades,
+    idx: &[u32],
+    flags: &[bool],
+    run: &str,
+    settings: &AnalysisSettings,
+    by: RankBy,
+    draws: RandomRemovalSettings,
+) -> Result<Vec<Option<f64>>, scenarios::ScenarioError> {
+    use rand::SeedableRng;
+    if draws.draws == 0 {
+        return Ok(Vec::new());
+    }
+    let t = crate::analysis::run::subset(all, idx);
+    let exposed = flags.iter().filter(|&&f| f).count();
+    let ctx = Context {
+        span: (0, 0),
+        report_zone: settings.report_tz,
+        initial_equity: None,
+        tcr_p: settings.tcr_p,
+    };
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::import::trades::run_seed(
+        draws.seed ^ RANDOM_REMOVAL_SALT,
+        run,
+    ));
+    let mut drawn = vec![false; t.len()];
+    let mut out = Vec::with_capacity(draws.draws);
+    for _ in 0..draws.draws {
+        drawn.fill(false);
+        for i in rand::seq::index::sample(&mut rng, t.len(), exposed) {
+            drawn[i] = true;
+        }
+        let is_drawn = |i: usize| drawn[i];
+        let result = run_result(
+            run.to_string(),
+            (0..t.len() as u32).collect(),
+            &t,
+            &is_drawn,
+            &ctx,
+            settings,
+        )?;
+        out.push(by.value(&result.scenarios.removed));
+    }
+    Ok(out)
+}
+
+/// The distortion of the ranking `rows` (as [`rank`] returned them, before
+/// any filter): ρ, τ-b, the top-`top_k` overlap and, when the rows carry
+/// random removals, their reference.
+pub fn distortion(
+    rows: &[RunRow],
+    by: RankBy,
+    top_k: usize,
+    seed: u64,
+) -> crate::analysis::distortion::Distortion {
+    let names: Vec<&str> = rows.iter().map(|r| r.run.as_str()).collect();
+    let b: Vec<Option<f64>> = rows.iter().map(|r| r.by_baseline).collect();
+    let rm: Vec<Option<f64>> = rows.iter().map(|r| r.by_removed).collect();
+    let rb: Vec<usize> = rows.iter().map(|r| r.rank_baseline).collect();
+    let rr: Vec<usize> = rows.iter().map(|r| r.rank_removed).collect();
+    let n = rows
+        .iter()
+        .map(|r| r.by_random_removed.len())
+        .min()
+        .unwrap_or(0);
+    let random: Vec<Vec<Option<f64>>> = (0..n)
+        .map(|d| rows.iter().map(|r| r.by_random_removed[d]).collect())
+        .collect();
+    crate::analysis::distortion::distortion(by, &names, &b, &rm, (&rb, &rr), top_k, &random, seed)
 }
 
 /// One run's row (without its placebo p-value) and its trades' exposure
@@ -234,6 +352,7 @@ fn run_row(
         rank_removed: 0,
         rank_shift: 0,
         placebo_p: None,
+        by_random_removed: Vec::new(),
         tcr_basis: result.tail_basis,
     };
     Ok((row, flags))

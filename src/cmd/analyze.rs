@@ -108,7 +108,10 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
         &cal.summary,
         args.input.calendar.calendar_tz().to_string(),
     );
-    let summary = Summary::new(inputs, settings, result, placebo, bootstrap);
+    let mut summary = Summary::new(inputs, settings, result, placebo, bootstrap);
+    if summary.account_figures == crate::analysis::run::AccountFigures::PerRun {
+        summary.distortion = Some(distortion(&loaded, &summary.settings, &args.chance)?);
+    }
     let json = serde_json::to_string_pretty(&summary)?;
     crate::import::phases::mark("summary");
     let mut outcome = Outcome {
@@ -161,6 +164,40 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
     }
     outcome.json = json;
     Ok(outcome)
+}
+
+/// How far removing the exposed trades reorders the runs, by rank's
+/// default figure (Sharpe) and top k: `rank`'s own computation.
+fn distortion(
+    loaded: &crate::cmd::load::Loaded,
+    settings: &crate::analysis::run::AnalysisSettings,
+    chance: &ChanceArgs,
+) -> Result<crate::analysis::distortion::Distortion> {
+    use crate::analysis::rank::{self, RandomRemovalSettings, RankBy, RankDraws};
+    let windows =
+        crate::engine::exposure::used_windows(&loaded.calendar.releases, &settings.windows);
+    let rows = rank::rank(
+        &loaded.trades,
+        &loaded.calendar.releases,
+        &windows,
+        &loaded.currency_lists(),
+        settings,
+        RankBy::Sharpe,
+        RankDraws {
+            placebo: Default::default(),
+            random_removal: RandomRemovalSettings {
+                draws: chance.distortion_draws,
+                seed: chance.seed,
+            },
+        },
+        &|| {},
+    )?;
+    Ok(rank::distortion(
+        &rows,
+        RankBy::Sharpe,
+        super::rank::DEFAULT_TOP_K,
+        chance.seed,
+    ))
 }
 
 /// The charts of the report (SVG), drawn from the summary and the scenario

@@ -192,7 +192,11 @@ pub struct ChanceArgs {
     /// Bootstrap resamples for the intervals (0 turns them off).
     #[arg(long, value_name = "N", default_value_t = 2000)]
     pub bootstrap: usize,
-    /// Seed of the placebo shifts and bootstrap resamples.
+    /// With runs: draws of the distortion reference (per run, as many
+    /// random trades removed as it has exposed ones; 0 = off).
+    #[arg(long, value_name = "N", default_value_t = 199)]
+    pub distortion_draws: usize,
+    /// Seed of the placebo shifts, bootstrap resamples and distortion draws.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub seed: u64,
 }

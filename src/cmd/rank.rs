@@ -46,6 +46,11 @@ pub struct RankArgs {
     /// Placebo calendars per run for a p-value (0 = off; costs N exposure passes per run).
     #[arg(long, value_name = "N", default_value_t = 0)]
     pub placebo: usize,
+    /// Draws of the distortion reference: per run, as many random trades
+    /// removed as it has exposed ones (0 = off).
+    #[arg(long, value_name = "N", default_value_t = 199)]
+    pub distortion_draws: usize,
+    /// Seed of the placebo calendars and the distortion draws.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub seed: u64,
     /// Print JSON instead of the table.
@@ -67,6 +72,9 @@ pub enum SortBy {
     Shift,
     Run,
 }
+
+/// k of the top-k overlap when `--top` is not given (SPEC §9.3).
+pub const DEFAULT_TOP_K: usize = 10;
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
     let outcome = execute(&args, args.out.is_some())?;
@@ -98,9 +106,15 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     let cur = loaded.currency_lists();
     let windows = crate::engine::exposure::used_windows(&cal.releases, &settings.windows);
     let pb = common::progress_bar(&args.terminal, trades.runs.len() as u64, "runs");
-    let placebo = crate::analysis::evidence::PlaceboSettings {
-        n: args.placebo,
-        seed: args.seed,
+    let draws = rank::RankDraws {
+        placebo: crate::analysis::evidence::PlaceboSettings {
+            n: args.placebo,
+            seed: args.seed,
+        },
+        random_removal: rank::RandomRemovalSettings {
+            draws: args.distortion_draws,
+            seed: args.seed,
+        },
     };
     let mut rows = rank::rank(
         trades,
@@ -109,11 +123,12 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
         &cur,
         &settings,
         args.by,
-        placebo,
+        draws,
         &|| pb.inc(1),
     )?;
     pb.finish_and_clear();
     let total = rows.len();
+    let distortion = rank::distortion(&rows, args.by, args.top.unwrap_or(DEFAULT_TOP_K), args.seed);
     let warnings = loaded.warnings(&args.input, &settings);
     let tcr_basis = rows.first().map(|r| r.tcr_basis).unwrap_or_default();
     rows.retain(|r| r.trades >= args.min_trades);
@@ -141,18 +156,22 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
                 .iter()
                 .map(|r| (r.rank_baseline, r.rank_removed, r.run.clone()))
                 .collect();
-            let svg =
-                crate::render::charts::rank_shift(&pts, "Rank with and without release trades")?;
-            vec![crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed.".into(), svg }]
+            let svg = crate::render::charts::rank_shift(
+                &pts,
+                distortion.top_k,
+                "Rank with and without release trades",
+            )?;
+            vec![crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed; triangles are runs in either top k (the lines mark its border).".into(), svg }]
         };
         #[cfg(not(feature = "charts"))]
         let figures: Vec<crate::render::Figure> = Vec::new();
         let page = crate::render::html::charts_page(
             "Parameter sets with and without release trades",
             &format!(
-                "{} runs; P/L per trade = {}",
+                "{} runs; P/L per trade = {}. {}",
                 rows.len(),
-                loaded.trade_summary.pnl_formed_as
+                loaded.trade_summary.pnl_formed_as,
+                crate::render::text::distortion_lines(&distortion).replace('\n', " ")
             ),
             &warnings,
             &figures,
@@ -179,6 +198,7 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
         warnings,
         pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(),
         tcr_basis,
+        distortion,
         runs: rows,
         caution: CAUTION,
     };

@@ -445,7 +445,10 @@ pub fn heatmap(
 
 /// Baseline rank against removed rank, one point per run, with the
 /// no-change diagonal.
-pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
+/// Rank with every trade against rank without the exposed ones, one point
+/// per run; runs in either top `top_k` are drawn larger and in the accent
+/// colour, with the two top-k borders as lines.
+pub fn rank_shift(points: &[(usize, usize, String)], top_k: usize, caption: &str) -> Res {
     let mut s = String::new();
     {
         let root = SVGBackend::with_string(&mut s, (560, 560)).into_drawing_area();
@@ -469,7 +472,12 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
             TICK.stroke_width(1),
         )))
         .map_err(err)?;
-        let pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 as f64, p.1 as f64)).collect();
+        let in_top = |p: &(usize, usize, String)| p.0 <= top_k || p.1 <= top_k;
+        let pts: Vec<(f64, f64)> = points
+            .iter()
+            .filter(|p| !in_top(p))
+            .map(|p| (p.0 as f64, p.1 as f64))
+            .collect();
         c.draw_series(
             thin(&pts, 3000)
                 .into_iter()
@@ -478,6 +486,25 @@ pub fn rank_shift(points: &[(usize, usize, String)], caption: &str) -> Res {
         .map_err(err)?
         .label("run")
         .legend(|(x, y)| Circle::new((x + 9, y), 3, BASELINE.filled()));
+        let edge = top_k as f64 + 0.5;
+        if edge < n {
+            for line in [vec![(edge, 0.0), (edge, n)], vec![(0.0, edge), (n, edge)]] {
+                c.draw_series(std::iter::once(PathElement::new(
+                    line,
+                    EXPOSED.stroke_width(1),
+                )))
+                .map_err(err)?;
+            }
+        }
+        c.draw_series(
+            points
+                .iter()
+                .filter(|p| in_top(p))
+                .map(|p| TriangleMarker::new((p.0 as f64, p.1 as f64), 5, EXPOSED.filled())),
+        )
+        .map_err(err)?
+        .label(format!("in a top {top_k}"))
+        .legend(|(x, y)| TriangleMarker::new((x + 9, y), 5, EXPOSED.filled()));
         // The ten runs that move most carry their names.
         let mut moved: Vec<&(usize, usize, String)> = points.iter().collect();
         moved.sort_by_key(|p| std::cmp::Reverse((p.0 as i64 - p.1 as i64).abs()));

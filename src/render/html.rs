@@ -114,6 +114,14 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             super::text::pct(d.share_above_tcr_threshold_removed)
         );
     }
+    if let Some(d) = &s.distortion {
+        let _ = write!(
+            h,
+            "<p>Ranked by {}: {}</p>",
+            esc(&super::label(&d.by)),
+            esc(&super::text::distortion_lines(d))
+        );
+    }
     if !s.runs.is_empty() {
         let _ = write!(
             h,

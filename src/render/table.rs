@@ -189,6 +189,14 @@ pub fn analyze(s: &Summary) -> String {
     );
     scenario_table(s, &mut out);
     out.push_str(&across_runs_text(s));
+    if let Some(d) = &s.distortion {
+        let _ = writeln!(
+            out,
+            "Ranked by {}: {}",
+            super::label(&d.by),
+            super::text::distortion_lines(d)
+        );
+    }
     let _ = writeln!(out, "{}", chance_text(s));
     if let Some(b) = &s.bootstrap {
         let _ = writeln!(out, "{}", grid(&BOOTSTRAP_HEADER, &bootstrap_rows(b)));
@@ -347,6 +355,9 @@ pub fn rank(r: &crate::report::rank::RankReport, width: Option<usize>) -> String
         r.runs.len(),
         r.runs_total
     );
+    for line in super::text::distortion_lines(&r.distortion).lines() {
+        let _ = writeln!(out, "{}", wrap(line, 78));
+    }
     let _ = writeln!(
         out,
         "base/rem: {by} with all trades / without release-exposed trades;"

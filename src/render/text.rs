@@ -325,3 +325,37 @@ pub fn across_rows(d: &crate::report::types::RunDistribution) -> Vec<Vec<String>
         })
         .collect()
 }
+
+/// The distortion block: rank agreement, the top-k sets, and the random
+/// removal reference (docs/method.md §10), one sentence each.
+pub fn distortion_lines(d: &crate::analysis::distortion::Distortion) -> String {
+    let mut out = String::new();
+    let num = |v: Option<f64>| v.map_or("-".to_string(), |x| format!("{x:.3}"));
+    let names = |v: &[String]| {
+        if v.is_empty() {
+            "none".to_string()
+        } else {
+            v.join(", ")
+        }
+    };
+    out.push_str(&format!(
+        "Reordering without the exposed trades: Spearman rho {}, Kendall tau-b {} over {} runs (1 = same order); top {}: {} in both, left: {}, entered: {}.\n",
+        num(d.spearman_rho),
+        num(d.kendall_tau_b),
+        d.runs_compared,
+        d.top_k,
+        d.top_overlap,
+        names(&d.left_top),
+        names(&d.entered_top)
+    ));
+    if let Some(r) = &d.random_removal {
+        out.push_str(&format!(
+            "Removing as many random trades per run instead ({} draws): median rho {}; {} of draws reorder as much or more.\n",
+            r.draws,
+            num(r.median_rho),
+            r.share_rho_at_or_below
+                .map_or("-".to_string(), |s| format!("{:.1} %", 100.0 * s))
+        ));
+    }
+    out
+}

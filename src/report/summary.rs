@@ -148,6 +148,10 @@ pub struct Summary {
     /// With several runs (alternative parameter sets, never one account):
     /// the account-path figures as their spread across runs; null otherwise.
     pub across_runs: Option<crate::analysis::run::RunDistribution>,
+    /// With several runs read as alternatives: how far removing the
+    /// exposed trades reorders them by Sharpe (docs/method.md §10); null
+    /// otherwise.
+    pub distortion: Option<crate::analysis::distortion::Distortion>,
     pub warnings: Vec<String>,
     pub caution: &'static str,
 }
@@ -199,6 +203,7 @@ impl Summary {
                 by_tier,
             },
             across_runs: crate::analysis::run::across_runs(&a.runs, settings_threshold),
+            distortion: None,
             runs: a.runs,
             warnings,
             caution: CAUTION,

@@ -13,7 +13,7 @@ use serde::Serialize;
 use std::collections::BTreeMap;
 
 /// Placebo settings.
-#[derive(Debug, Clone, Copy, Serialize)]
+#[derive(Debug, Clone, Copy, Default, Serialize)]
 pub struct PlaceboSettings {
     /// Number of placebo calendars (0 = off).
     pub n: usize,
