@@ -96,3 +96,18 @@ def test_rank_distortion_equals_scipy_on_the_demo():
     assert set(d["left_top"]) == top_b - top_r and set(d["entered_top"]) == top_r - top_b
     ref = d["random_removal"]
     assert ref["draws"] == 19 and 0.0 <= ref["share_rho_at_or_below"] <= 1.0
+
+
+def test_series_add_up_to_the_exposed_pnl_on_the_demo():
+    a = eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0, **DEMO)
+    series = a.summary["attribution"]["by_series"]
+    releases = a.summary["attribution"]["by_release"]
+    assert sum(s["releases_used"] for s in series) == len(releases)
+    assert abs(sum(s["attributed_pnl"] for s in series) - a.headline["exposed_pnl"]) < 1e-6
+    # Largest |attributed| first; each mean is its total over releases used.
+    sizes = [abs(s["attributed_pnl"]) for s in series]
+    assert sizes == sorted(sizes, reverse=True)
+    for s in series:
+        assert abs(s["mean_per_release"] * s["releases_used"] - s["attributed_pnl"]) < 1e-9
+        assert s["trades"] <= sum(r["trades_touched"] for r in releases
+                                  if r["currency"] == s["currency"])

@@ -201,6 +201,23 @@ pub fn analyze_report(s: &Summary, figures: &[Figure]) -> String {
             r.attributed_pnl
         );
     }
+    let _ = write!(
+        h,
+        "</table><h2>Series</h2><p>Releases of one currency and title (every monthly report of one kind) taken together; the 15 with the largest |attributed P/L|, all in summary.json.</p><table><tr><th>series</th><th>currency</th><th>releases used</th><th>touched</th><th>trades</th><th>attributed</th><th>per release</th></tr>"
+    );
+    for l in s.attribution.by_series.iter().take(15) {
+        let _ = write!(
+            h,
+            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{:.2}</td><td>{}</td></tr>",
+            esc(&l.title),
+            esc(&l.currency),
+            l.releases_used,
+            l.releases_touched,
+            l.trades,
+            l.attributed_pnl,
+            l.mean_per_release.map_or("-".into(), |m| format!("{m:.2}"))
+        );
+    }
     let _ = write!(h, "</table><h2>Rejected rows</h2>");
     if t.rows_rejected + c.rows_rejected == 0 {
         let _ = write!(

@@ -291,6 +291,35 @@ fn attribution_tables(s: &Summary, out: &mut String) {
         }
         let _ = writeln!(out, "{t}");
     }
+    let series = &s.attribution.by_series;
+    if !series.is_empty() {
+        let _ = writeln!(
+            out,
+            "Series (top 10 of {} by |attributed P/L|; all in --json / summary.json):",
+            series.len()
+        );
+        let mut t = new_table(&[
+            "series",
+            "currency",
+            "used",
+            "touched",
+            "trades",
+            "attributed",
+            "per release",
+        ]);
+        for l in series.iter().take(10) {
+            t.add_row(vec![
+                Cell::new(&l.title),
+                Cell::new(&l.currency),
+                num(l.releases_used),
+                num(l.releases_touched),
+                num(l.trades),
+                num(format!("{:.2}", l.attributed_pnl)),
+                num(l.mean_per_release.map_or("-".into(), |m| format!("{m:.2}"))),
+            ]);
+        }
+        let _ = writeln!(out, "{t}");
+    }
     for (name, groups) in [
         ("category", &s.attribution.by_category),
         ("currency", &s.attribution.by_currency),

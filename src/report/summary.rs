@@ -163,6 +163,7 @@ pub struct AttributionOut {
     pub by_category: BTreeMap<String, crate::analysis::attribution::GroupLine>,
     pub by_currency: BTreeMap<String, crate::analysis::attribution::GroupLine>,
     pub by_tier: BTreeMap<String, crate::analysis::attribution::GroupLine>,
+    pub by_series: Vec<crate::analysis::attribution::SeriesLine>,
 }
 
 impl Summary {
@@ -180,6 +181,7 @@ impl Summary {
             by_category,
             by_currency,
             by_tier,
+            by_series,
             headline,
         } = a.attribution;
         Summary {
@@ -201,6 +203,7 @@ impl Summary {
                 by_category,
                 by_currency,
                 by_tier,
+                by_series,
             },
             across_runs: crate::analysis::run::across_runs(&a.runs, settings_threshold),
             distortion: None,
