@@ -230,6 +230,24 @@ fn random_removal(
     by: RankBy,
     draws: RandomRemovalSettings,
 ) -> Result<Vec<Option<f64>>, scenarios::ScenarioError> {
+    random_removal_with(all, idx, flags, run, settings, by, draws, true)
+}
+
+/// [`random_removal`]; `fast`: take net, profit factor, Sharpe and max
+/// drawdown from the weighted pass (`evidence::RemovedPass`, bit for bit
+/// the removed scenario's figures) where it applies, else build the
+/// scenarios each draw.
+#[allow(clippy::too_many_arguments)]
+fn random_removal_with(
+    all: &Trades,
+    idx: &[u32],
+    flags: &[bool],
+    run: &str,
+    settings: &AnalysisSettings,
+    by: RankBy,
+    draws: RandomRemovalSettings,
+    fast: bool,
+) -> Result<Vec<Option<f64>>, scenarios::ScenarioError> {
     use rand::SeedableRng;
     if draws.draws == 0 {
         return Ok(Vec::new());
@@ -242,6 +260,25 @@ fn random_removal(
         initial_equity: None,
         tcr_p: settings.tcr_p,
     };
+    // The figure's slot in the pass's [net, profit factor, Sharpe, max
+    // drawdown, TCR], for the figures it computes.
+    let slot = match by {
+        RankBy::Net => Some(0),
+        RankBy::ProfitFactor => Some(1),
+        RankBy::Sharpe => Some(2),
+        RankBy::MaxDrawdown => Some(3),
+        _ => None,
+    };
+    let all_idx: Vec<u32> = (0..t.len() as u32).collect();
+    let pass = slot.filter(|_| fast).and_then(|_| {
+        // The context run_result gives the run's scenarios.
+        let run_ctx = Context {
+            span: crate::analysis::run::span_of(&all_idx, &t, ctx.span),
+            initial_equity: settings.scenario.initial_equity,
+            ..ctx
+        };
+        evidence::RemovedPass::new(&t, &settings.scenario, &run_ctx)
+    });
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(crate::import::trades::run_seed(
         draws.seed ^ RANDOM_REMOVAL_SALT,
         run,
@@ -254,15 +291,21 @@ fn random_removal(
             drawn[i] = true;
         }
         let is_drawn = |i: usize| drawn[i];
-        let result = run_result(
-            run.to_string(),
-            (0..t.len() as u32).collect(),
-            &t,
-            &is_drawn,
-            &ctx,
-            settings,
-        )?;
-        out.push(by.value(&result.scenarios.removed));
+        let value = match (&pass, slot) {
+            (Some(p), Some(k)) => p.figures(&is_drawn)[k],
+            _ => {
+                let result = run_result(
+                    run.to_string(),
+                    all_idx.clone(),
+                    &t,
+                    &is_drawn,
+                    &ctx,
+                    settings,
+                )?;
+                by.value(&result.scenarios.removed)
+            }
+        };
+        out.push(value);
     }
     Ok(out)
 }
@@ -403,6 +446,45 @@ fn assign_ranks(rows: &mut [RunRow], by: RankBy) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The weighted pass and the built scenarios give the same draws, bit
+    /// for bit, for every figure the pass computes.
+    #[test]
+    fn random_removal_fast_path_equals_the_scenarios() {
+        let n = 300;
+        let day = 86_400_000i64;
+        let mut t = Trades::default();
+        for i in 0..n {
+            let open = 1_700_000_000_000 + (i as i64) * day / 3 + (i as i64 % 7) * 3_600_000;
+            t.opened.push(open);
+            t.closed.push(open + 600_000 * (1 + i as i64 % 5));
+            t.instrument.push(0);
+            t.pnl
+                .push(((i * 37 % 101) as f64 - 48.0) * if i % 17 == 0 { 9.0 } else { 1.0 });
+            t.run.push(0);
+        }
+        t.instruments = vec!["X".into()];
+        let flags: Vec<bool> = (0..n).map(|i| i % 9 == 0).collect();
+        let idx: Vec<u32> = (0..n as u32).collect();
+        let settings = AnalysisSettings::default();
+        let draws = RandomRemovalSettings { draws: 25, seed: 3 };
+        for by in [
+            RankBy::Net,
+            RankBy::ProfitFactor,
+            RankBy::Sharpe,
+            RankBy::MaxDrawdown,
+        ] {
+            let fast =
+                random_removal_with(&t, &idx, &flags, "r", &settings, by, draws, true).unwrap();
+            let slow =
+                random_removal_with(&t, &idx, &flags, "r", &settings, by, draws, false).unwrap();
+            assert_eq!(fast.len(), 25);
+            assert!(fast.iter().all(|v| v.is_some()), "{by:?}");
+            let bits =
+                |v: &[Option<f64>]| v.iter().map(|x| x.map(f64::to_bits)).collect::<Vec<_>>();
+            assert_eq!(bits(&fast), bits(&slow), "{by:?}");
+        }
+    }
 
     #[test]
     fn ranking_orders_and_puts_undefined_last() {
