@@ -66,6 +66,7 @@ fn bootstrap_percentiles_match_numpy() {
         sizing: Sizing::Fixed,
         cap: CapRule::Quantile(0.99),
         initial_equity: None,
+        stress: None,
     };
     let ctx = Context {
         span: t.span().unwrap(),

@@ -224,6 +224,7 @@ fn settings() -> AnalysisSettings {
             sizing: Sizing::Fixed,
             cap: CapRule::parse("q0.99").unwrap(),
             initial_equity: Some(10_000.0),
+            stress: None,
         },
         report_tz: "Europe/London".parse().unwrap(),
         tcr_p: 1.0,

@@ -111,3 +111,20 @@ def test_series_add_up_to_the_exposed_pnl_on_the_demo():
         assert abs(s["mean_per_release"] * s["releases_used"] - s["attributed_pnl"]) < 1e-9
         assert s["trades"] <= sum(r["trades_touched"] for r in releases
                                   if r["currency"] == s["currency"])
+
+
+def test_stressed_scenario_conserves_the_charge_on_the_demo():
+    # Fixed sizing: stressed net = baseline net - the total charge; the
+    # amount form charges every exposed trade the same.
+    plain = eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0, **DEMO)
+    assert "stressed" not in plain.summary["scenarios"]
+    for rule in ("amount:15", "per-size:7", "pct:20"):
+        a = eventfence.analyze("demo/trades.csv", CALENDARS, placebo=0, bootstrap=0,
+                               stress=rule, **DEMO)
+        sc = a.summary["scenarios"]
+        charge = a.summary["stress_charge"]
+        assert abs(sc["stressed"]["net"] - (sc["baseline"]["net"] - charge)) < 1e-6, rule
+        assert sc["stressed"]["trades"] == sc["baseline"]["trades"]
+        assert all("stressed" in r["scenarios"] for r in a.summary["runs"])
+        if rule == "amount:15":
+            assert abs(charge - 15 * a.summary["exposure"]["exposed_trades"]) < 1e-9

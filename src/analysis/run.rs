@@ -53,6 +53,7 @@ impl Default for AnalysisSettings {
                 sizing: scenarios::Sizing::Fixed,
                 cap: scenarios::CapRule::Quantile(0.99),
                 initial_equity: None,
+                stress: None,
             },
             report_tz: crate::import::zones::Zone::Utc,
             tcr_p: 1.0,
@@ -114,6 +115,7 @@ impl ScenarioMetrics {
             baseline: self.baseline.without_account_path(),
             removed: self.removed.without_account_path(),
             capped: self.capped.without_account_path(),
+            stressed: self.stressed.map(Metrics::without_account_path),
         }
     }
 }
@@ -215,6 +217,10 @@ pub struct ScenarioMetrics {
     pub removed: Metrics,
     /// Figures with the exposed trades capped.
     pub capped: Metrics,
+    /// Figures with the exposed trades charged the stress cost (`--stress`;
+    /// absent without it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub stressed: Option<Metrics>,
 }
 
 /// One parameter set.
@@ -354,6 +360,9 @@ pub struct Analysis {
     pub exposure: ExposureSummary,
     /// Per currency: trades outside the calendar's span.
     pub coverage: Vec<CoverageLine>,
+    /// Σ stress charge over the exposed trades (`--stress`), so that
+    /// stressed net = baseline net − this; `None` without it.
+    pub stress_charge: Option<f64>,
     /// The cap C of the capped scenario.
     pub cap_value: Option<f64>,
     /// Starting equity used by compounding sizing.
@@ -387,10 +396,16 @@ fn metrics_of(sc: &Scenarios, opened: &[i64], closed: &[i64], ctx: &Context) -> 
         },
         || metrics::compute(&r, ctx),
     );
+    // The stressed scenario also holds the baseline's trades.
+    let stressed = sc.stressed_view().map(|v| {
+        let c = v.curve(opened, closed);
+        metrics::compute_with_union(&c, ctx, Some(metrics::time_held(&b)))
+    });
     ScenarioMetrics {
         baseline,
         removed,
         capped,
+        stressed,
     }
 }
 
@@ -606,7 +621,8 @@ pub fn analyze(
         },
     );
     let (attribution, (all, overall, tail)) = (attribution?, overall?);
-    let (cap_value, initial_equity) = (all.cap_value, all.initial_equity);
+    let (cap_value, initial_equity, stress_charge) =
+        (all.cap_value, all.initial_equity, all.stress_charge);
     let mut runs = runs?;
     // Listed by name, whatever the row order.
     runs.sort_by(|a, b| crate::import::trades::run_order(&a.run, &b.run));
@@ -636,6 +652,7 @@ pub fn analyze(
             account_figures,
             exposure: summary,
             coverage,
+            stress_charge,
             cap_value,
             initial_equity,
             scenarios: overall,
@@ -662,6 +679,7 @@ pub fn subset(t: &Trades, idx: &[u32]) -> Trades {
         run: vec![0; idx.len()],
         equity_before: t.equity_before.as_deref().map(|v| pick(v, idx)),
         pnl_pct: t.pnl_pct.as_deref().map(|v| pick(v, idx)),
+        size: t.size.as_deref().map(|v| pick(v, idx)),
         file: vec![0; idx.len()],
         row: vec![0; idx.len()],
         ..Default::default()

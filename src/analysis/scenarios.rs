@@ -74,6 +74,52 @@ impl CapRule {
     }
 }
 
+/// The extra cost the `stressed` scenario charges each exposed trade
+/// (docs/method.md §4): worse fills around releases than the back-test's.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind", content = "value")]
+pub enum StressRule {
+    /// A fixed amount per trade, in account currency.
+    Amount(f64),
+    /// An amount per unit of the trade's size (`size` column).
+    PerSize(f64),
+    /// A percentage of the trade's |P/L|.
+    Pct(f64),
+}
+
+impl StressRule {
+    /// `amount:15`, `per-size:7`, `pct:20`.
+    pub fn parse(s: &str) -> Result<StressRule, crate::import::setting::BadSetting> {
+        let bad = || {
+            format!(
+                "--stress '{s}': use amount:15 (per trade), per-size:7 (times size) or pct:20 (% of |P/L|)"
+            )
+        };
+        let (kind, value) = s.trim().split_once(':').ok_or_else(bad)?;
+        let v = value
+            .trim()
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite() && *v >= 0.0)
+            .ok_or_else(bad)?;
+        match kind.trim() {
+            "amount" => Ok(StressRule::Amount(v)),
+            "per-size" => Ok(StressRule::PerSize(v)),
+            "pct" => Ok(StressRule::Pct(v)),
+            _ => Err(bad().into()),
+        }
+    }
+
+    /// The charge on a trade with this P/L and size (≥ 0).
+    pub fn charge(self, pnl: f64, size: Option<f64>) -> f64 {
+        match self {
+            StressRule::Amount(a) => a,
+            StressRule::PerSize(k) => k * size.unwrap_or(0.0).abs(),
+            StressRule::Pct(p) => pnl.abs() * p / 100.0,
+        }
+    }
+}
+
 /// How the scenarios are built from the trades.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct ScenarioSettings {
@@ -83,6 +129,9 @@ pub struct ScenarioSettings {
     pub cap: CapRule,
     /// Starting equity (needed by compounding without an equity column).
     pub initial_equity: Option<f64>,
+    /// The stressed scenario's extra cost per exposed trade; none: no
+    /// stressed scenario.
+    pub stress: Option<StressRule>,
 }
 
 /// Why the scenarios could not be built.
@@ -96,6 +145,9 @@ pub enum ScenarioError {
     /// An equity cap without any equity.
     #[error("--cap equity:… needs equity: map an equity_before column or give --initial-equity")]
     NoEquityForCap,
+    /// A per-size stress without sizes.
+    #[error("--stress per-size:… needs each trade's size: map a size column")]
+    NoSizeForStress,
 }
 
 /// One scenario's kept trades in close order.
@@ -171,6 +223,16 @@ impl Scenarios {
             ret: &self.capped.ret,
             ..self.baseline.view()
         }
+    }
+
+    /// The stressed scenario with the baseline's times and trades, when
+    /// there is one.
+    pub fn stressed_view(&self) -> Option<SeriesView<'_>> {
+        self.stress_charge.map(|_| SeriesView {
+            pnl: &self.stressed.pnl,
+            ret: &self.stressed.ret,
+            ..self.baseline.view()
+        })
     }
 
     /// baseline, removed, capped.
@@ -249,6 +311,13 @@ pub struct Scenarios {
     /// baseline's trades in the same order, so its times and trade indices
     /// are the baseline's (not stored twice; see [`Scenarios::capped_view`]).
     pub capped: Series,
+    /// Like `capped`: the baseline's trades with the exposed ones charged
+    /// the stress cost (only `pnl`, and `ret` on the return basis); empty
+    /// without `--stress`.
+    pub stressed: Series,
+    /// Σ charge over the exposed trades (in account currency, as each
+    /// scenario trade's P/L is); `None` without `--stress`.
+    pub stress_charge: Option<f64>,
     /// C: in account currency, or as a return fraction under compounding
     /// (quantile/median caps); `None` when there are no unexposed trades to
     /// take it from (then exposed trades count 0 in `capped`).
@@ -275,6 +344,8 @@ pub struct TradeView<'a> {
     pub equity_before: Option<&'a [f64]>,
     /// P/L as a percentage of equity at open, when known.
     pub pnl_pct: Option<&'a [f64]>,
+    /// Position size, when mapped (the per-size stress).
+    pub size: Option<&'a [f64]>,
 }
 
 impl<'a> TradeView<'a> {
@@ -292,6 +363,7 @@ impl<'a> TradeView<'a> {
             exposed,
             equity_before: t.equity_before.as_deref(),
             pnl_pct: t.pnl_pct.as_deref(),
+            size: t.size.as_deref(),
         }
     }
 }
@@ -396,6 +468,9 @@ fn build_with(
     baseline_trades: bool,
 ) -> Result<Scenarios, ScenarioError> {
     let mut out = Scenarios::default();
+    if matches!(s.stress, Some(StressRule::PerSize(_))) && v.size.is_none() {
+        return Err(ScenarioError::NoSizeForStress);
+    }
     match s.sizing {
         Sizing::Fixed => build_fixed(v, s, out, baseline_trades),
         Sizing::Compounding => {
@@ -496,6 +571,27 @@ fn build_fixed(
             p.clamp(-c, c)
         })
         .collect();
+    if let Some(rule) = s.stress {
+        let size = |i: u32| v.size.map(|z| z[i as usize]);
+        out.stressed.pnl = order
+            .iter()
+            .zip(&baseline_pnl)
+            .map(|(&i, &p)| {
+                if exposed(i as usize) {
+                    p - rule.charge(p, size(i))
+                } else {
+                    p
+                }
+            })
+            .collect();
+        out.stress_charge = Some(
+            order
+                .iter()
+                .filter(|&&i| exposed(i as usize))
+                .map(|&i| rule.charge(v.pnl[i as usize], size(i)))
+                .sum(),
+        );
+    }
     // Returns on the recorded equity (the column, or the one P/L % implies)
     // when every trade has one: sizes may follow the account even when the
     // P/L is summed as given.
@@ -515,6 +611,9 @@ fn build_fixed(
         out.baseline.ret = ret_of(base_trade, &baseline_pnl);
         out.removed.ret = ret_of(&removed_trade, &removed_pnl);
         out.capped.ret = ret_of(base_trade, &out.capped.pnl);
+        if s.stress.is_some() {
+            out.stressed.ret = ret_of(base_trade, &out.stressed.pnl);
+        }
         out.tail_basis = TailBasis::Return;
     }
     out.baseline = Series {
@@ -621,11 +720,27 @@ fn build_compounding(
     // Under compounding every trade's return is known: the tail is
     // measured on the returns each scenario replays.
     out.tail_basis = TailBasis::Return;
-    let (mut eq_base, mut eq_rem, mut eq_cap) = (e0, e0, e0);
+    let (mut eq_base, mut eq_rem, mut eq_cap, mut eq_st) = (e0, e0, e0, e0);
     let ratio = |p: f64, e: f64| if e != 0.0 { p / e } else { 0.0 };
+    let mut charged = 0.0;
     for &i in v.order {
         let i = i as usize;
         let r = ret[i];
+        if let Some(rule) = s.stress {
+            // The charge falls on the stressed account's own P/L of the
+            // trade (its equity × r), which then compounds on.
+            let p = eq_st * r;
+            let ps = if (v.exposed)(i) {
+                let c = rule.charge(p, v.size.map(|z| z[i]));
+                charged += c;
+                p - c
+            } else {
+                p
+            };
+            out.stressed.ret.push(ratio(ps, eq_st));
+            eq_st += ps;
+            out.stressed.pnl.push(ps);
+        }
         let pb = eq_base * r;
         out.baseline.ret.push(r);
         eq_base += pb;
@@ -655,6 +770,9 @@ fn build_compounding(
             out.capped.pnl.push(pc);
         }
     }
+    if s.stress.is_some() {
+        out.stress_charge = Some(charged);
+    }
     Ok(out)
 }
 
@@ -677,6 +795,7 @@ mod tests {
             exposed,
             equity_before: eb,
             pnl_pct: None,
+            size: None,
         }
     }
 
@@ -696,6 +815,7 @@ mod tests {
             sizing: Sizing::Compounding,
             cap: CapRule::Amount(50.0),
             initial_equity: None,
+            stress: None,
         };
         let sc = build(&view(&order, &pnl, &t, &exposed, Some(&eb)), &s).unwrap();
         let close = |a: &[f64], b: &[f64]| a.iter().zip(b).all(|(x, y)| (x - y).abs() < 1e-9);
@@ -730,6 +850,7 @@ mod tests {
             sizing: Sizing::Fixed,
             cap: CapRule::Amount(150.0),
             initial_equity: None,
+            stress: None,
         };
         let sc = build(&view(&order, &pnl, &t, &all, None), &s).unwrap();
         assert!((sc.capped.pnl.iter().sum::<f64>() - 300.0).abs() < 1e-9);
@@ -795,5 +916,93 @@ mod tests {
         );
         assert!(CapRule::parse("q1.5").is_err());
         assert!(CapRule::parse("lots").is_err());
+    }
+
+    fn stressed(rule: &str, size: Option<&[f64]>) -> Result<Scenarios, ScenarioError> {
+        let pnl = [100.0, -50.0, 30.0, -20.0];
+        let t = [1, 2, 3, 4];
+        let order = [0u32, 1, 2, 3];
+        let exposed = |i: usize| i < 2;
+        let v = TradeView {
+            size,
+            ..view(&order, &pnl, &t, &exposed, None)
+        };
+        let s = ScenarioSettings {
+            sizing: Sizing::Fixed,
+            cap: CapRule::Amount(500.0),
+            initial_equity: None,
+            stress: Some(StressRule::parse(rule).unwrap()),
+        };
+        build(&v, &s)
+    }
+
+    /// Worked by hand: P/L 100, −50 (exposed, sizes 1 and 2), 30, −20.
+    /// amount:15 charges 15 each; per-size:7 charges 7 × 1 and 7 × 2;
+    /// pct:20 charges 20 % of |100| and of |−50|. Unexposed trades keep
+    /// their P/L, and stressed net = baseline net (60) − the total charge.
+    #[test]
+    fn stressed_charges_each_exposed_trade() {
+        let size = [1.0, 2.0, 0.5, 3.0];
+        for (rule, want, charge) in [
+            ("amount:15", [85.0, -65.0, 30.0, -20.0], 30.0),
+            ("per-size:7", [93.0, -64.0, 30.0, -20.0], 21.0),
+            ("pct:20", [80.0, -60.0, 30.0, -20.0], 30.0),
+        ] {
+            let sc = stressed(rule, Some(&size)).unwrap();
+            assert_eq!(sc.stressed.pnl, want, "{rule}");
+            assert_eq!(sc.stress_charge, Some(charge), "{rule}");
+            let net: f64 = sc.stressed.pnl.iter().sum();
+            let base: f64 = sc.baseline.pnl.iter().sum();
+            assert_eq!(net, base - charge, "{rule}: conservation");
+            let view = sc.stressed_view().unwrap();
+            assert_eq!(view.trade, sc.baseline.trade.as_slice());
+        }
+    }
+
+    #[test]
+    fn stress_rules_parse_and_per_size_needs_sizes() {
+        assert_eq!(
+            StressRule::parse("amount:15").unwrap(),
+            StressRule::Amount(15.0)
+        );
+        assert_eq!(
+            StressRule::parse(" per-size:7 ").unwrap(),
+            StressRule::PerSize(7.0)
+        );
+        assert_eq!(StressRule::parse("pct:20").unwrap(), StressRule::Pct(20.0));
+        for bad in ["15", "amount:-1", "pct:x", "fee:3"] {
+            assert!(StressRule::parse(bad).is_err(), "{bad}");
+        }
+        assert!(matches!(
+            stressed("per-size:7", None),
+            Err(ScenarioError::NoSizeForStress)
+        ));
+    }
+
+    /// Compounding, worked by hand on the three-trade example above
+    /// (returns +10 %, −10 %, +10 %; equity 1000; the first trade
+    /// exposed), amount:15: 1000 × 10 % − 15 = 85 → 1085; −10 % = −108.5 →
+    /// 976.5; +10 % = 97.65. The charge (15) compounds on, so the stressed
+    /// net (74.15) is not the baseline's 89 − 15.
+    #[test]
+    fn stressed_under_compounding() {
+        let pnl = [100.0, -110.0, 99.0];
+        let eb = [1000.0, 1100.0, 990.0];
+        let t = [1, 2, 3];
+        let order = [0u32, 1, 2];
+        let exposed = |i: usize| i == 0;
+        let s = ScenarioSettings {
+            sizing: Sizing::Compounding,
+            cap: CapRule::Amount(50.0),
+            initial_equity: None,
+            stress: Some(StressRule::Amount(15.0)),
+        };
+        let sc = build(&view(&order, &pnl, &t, &exposed, Some(&eb)), &s).unwrap();
+        let want = [85.0, -108.5, 97.65];
+        for (got, want) in sc.stressed.pnl.iter().zip(want) {
+            assert!((got - want).abs() < 1e-9, "{got} vs {want}");
+        }
+        assert_eq!(sc.stress_charge, Some(15.0));
+        assert!((sc.stressed.ret[0] - 0.085).abs() < 1e-12);
     }
 }

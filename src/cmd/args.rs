@@ -167,6 +167,11 @@ pub struct ScenarioArgs {
     /// median*3, amount:500, or equity:1.5 (% of equity).
     #[arg(long, value_name = "RULE", default_value = "q0.99")]
     pub cap: String,
+    /// Adds the stressed scenario: every trade kept, each exposed one charged
+    /// amount:15 (per trade), per-size:7 (times its size) or pct:20 (% of
+    /// its |P/L|) for worse fills around releases.
+    #[arg(long, value_name = "RULE")]
+    pub stress: Option<String>,
     /// Starting account equity (adds drawdown % and daily returns).
     #[arg(long, value_name = "AMOUNT")]
     pub initial_equity: Option<f64>,

@@ -157,6 +157,11 @@ impl ScenarioArgs {
                 sizing: self.sizing,
                 cap: crate::analysis::scenarios::CapRule::parse(&self.cap)?,
                 initial_equity: self.initial_equity,
+                stress: self
+                    .stress
+                    .as_deref()
+                    .map(crate::analysis::scenarios::StressRule::parse)
+                    .transpose()?,
             },
             report_tz: zone_flag("report-tz", &self.report_tz)?,
             tcr_p: self.tcr_p,

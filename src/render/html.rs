@@ -2,7 +2,7 @@
 //! network. Sections: inputs and settings, the headline answer, scenario
 //! table, chance tests, charts, top releases, rejected rows, caution.
 
-use super::text::{SCENARIO_HEADER, scenario_rows};
+use super::text::{scenario_header, scenario_rows};
 use crate::report::summary::Summary;
 use std::fmt::Write;
 
@@ -334,5 +334,5 @@ pub fn rank_table(rows: &[crate::report::types::RunRow], by: &str) -> String {
 
 /// The scenario table as HTML.
 pub fn scenario_html(s: &Summary) -> String {
-    table(&SCENARIO_HEADER, &scenario_rows(s).0)
+    table(&scenario_header(s), &scenario_rows(s).0)
 }

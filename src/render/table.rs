@@ -243,7 +243,7 @@ fn analyze_header(s: &Summary, out: &mut String) {
 /// The scenario table, with what it leaves to the per-run section.
 fn scenario_table(s: &Summary, out: &mut String) {
     let (rows, left_out) = scenario_rows(s);
-    let t = grid(&SCENARIO_HEADER, &rows);
+    let t = grid(&super::text::scenario_header(s), &rows);
     let _ = writeln!(out, "{t}");
     if s.account_figures == AccountFigures::PerRun {
         let _ = writeln!(

@@ -225,6 +225,16 @@ pub const SCENARIO_HEADER: [&str; 6] = [
     "Δ capped",
 ];
 
+/// The scenario table's header: [`SCENARIO_HEADER`], and the stressed
+/// scenario's two columns when there is one.
+pub fn scenario_header(s: &Summary) -> Vec<&'static str> {
+    let mut h = SCENARIO_HEADER.to_vec();
+    if s.scenarios.stressed.is_some() {
+        h.extend(["stressed", "Δ stressed"]);
+    }
+    h
+}
+
 /// The scenario table's rows as text, and the labels of the rows this
 /// input cannot fill (left out).
 pub fn scenario_rows(s: &Summary) -> (Vec<Vec<String>>, Vec<&'static str>) {
@@ -244,7 +254,12 @@ pub fn scenario_rows(s: &Summary) -> (Vec<Vec<String>>, Vec<&'static str>) {
                 delta(a, b, *dec)
             }
         };
-        rows.push(vec![label.to_string(), f(b), f(r), d(b, r), f(c), d(b, c)]);
+        let mut row = vec![label.to_string(), f(b), f(r), d(b, r), f(c), d(b, c)];
+        if let Some(st) = &sc.stressed {
+            let v = get(st);
+            row.extend([f(v), d(b, v)]);
+        }
+        rows.push(row);
     }
     (rows, left_out)
 }

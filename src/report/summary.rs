@@ -135,6 +135,10 @@ pub struct Summary {
     /// The cap C of the capped scenario (amount, or return fraction under
     /// compounding); null when it could not be computed.
     pub cap_value: Option<f64>,
+    /// Σ stress charge over the exposed trades (`--stress`); absent
+    /// without it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub stress_charge: Option<f64>,
     pub initial_equity: Option<f64>,
     pub scenarios: ScenarioMetrics,
     pub tail: crate::analysis::run::TailSummary,
@@ -192,6 +196,7 @@ impl Summary {
             exposure: a.exposure,
             coverage: a.coverage,
             cap_value: a.cap_value,
+            stress_charge: a.stress_charge,
             initial_equity: a.initial_equity,
             scenarios: a.scenarios,
             tail: a.tail,

@@ -745,6 +745,7 @@ mod tests {
             sizing: Sizing::Fixed,
             cap: CapRule::Quantile(0.99),
             initial_equity,
+            stress: None,
         }
     }
 
