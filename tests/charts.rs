@@ -170,3 +170,70 @@ fn every_chart_renders_with_its_series() {
         "frontier cells outlined"
     );
 }
+
+/// rank's tail-shape chart: by default the top 3 runs with all trades and
+/// the top 3 without the exposed ones (from runs.csv's ranks), each a line
+/// named in the legend; `--curves` picks the runs; each curve is the run's
+/// sorted |P/L| over its mean, so it starts at max |P/L| ÷ mean |P/L|.
+#[test]
+fn rank_overlays_the_tail_shapes_it_is_asked_for() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r");
+    demo("rank", &out, &["--distortion-draws", "0"]);
+    let runs = std::fs::read_to_string(out.join("runs.csv")).unwrap();
+    let header: Vec<&str> = runs.lines().next().unwrap().split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let rows: Vec<Vec<&str>> = runs
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').collect())
+        .collect();
+    let top = |c: usize| -> Vec<String> {
+        let mut v: Vec<&Vec<&str>> = rows.iter().collect();
+        v.sort_by_key(|r| r[c].parse::<usize>().unwrap());
+        v.iter().take(3).map(|r| r[0].to_string()).collect()
+    };
+    let mut want = top(col("rank_baseline"));
+    for r in top(col("rank_removed")) {
+        if !want.contains(&r) {
+            want.push(r);
+        }
+    }
+    let shapes = svg(&out.join("chart-tail-shapes.svg"));
+    let labels = texts(&shapes);
+    for r in &want {
+        assert!(labels.contains(r), "legend names {r}: {labels:?}");
+    }
+    assert!(labels.iter().any(|t| t == "tail threshold 12"));
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(html.contains("Tail shapes"));
+
+    let out = dir.path().join("c");
+    demo(
+        "rank",
+        &out,
+        &["--distortion-draws", "0", "--curves", "p07,p12"],
+    );
+    let labels = texts(&svg(&out.join("chart-tail-shapes.svg")));
+    let runs_named: Vec<&String> = labels
+        .iter()
+        .filter(|t| t.starts_with('p') && t.len() == 3)
+        .collect();
+    assert_eq!(runs_named, vec!["p07", "p12"]);
+
+    for (extra, message) in [
+        (vec!["--curves", "p99"], "--curves: no run 'p99'"),
+        (vec!["--curves", "p07", "--no-out"], "give --out"),
+    ] {
+        let mut cmd = common::demo("rank");
+        if extra.last() == Some(&"--no-out") {
+            cmd.args(&extra[..extra.len() - 1]);
+        } else {
+            cmd.arg("--out").arg(dir.path().join("e")).args(&extra);
+        }
+        let o = cmd.output().unwrap();
+        assert!(!o.status.success());
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(err.contains(message), "{err}");
+    }
+}

@@ -310,6 +310,60 @@ fn random_removal_with(
     Ok(out)
 }
 
+/// The tail shape of each run named in `runs` (in that order): its trades'
+/// |P/L| — or |return| on the return basis, the values the tail
+/// concentration is measured on — sorted largest first and divided by
+/// their mean, so that runs of different size compare (docs/method.md §6).
+/// A name that is no run is an error naming it.
+pub fn tail_shapes(
+    trades: &Trades,
+    runs: &[String],
+    settings: &AnalysisSettings,
+) -> Result<Vec<(String, Vec<f64>)>, TailShapeError> {
+    let mut order: Vec<u32> = (0..trades.len() as u32).collect();
+    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    let by_run = split_by_run(&order, trades);
+    runs.iter()
+        .map(|name| {
+            let r = trades
+                .runs
+                .iter()
+                .position(|n| n == name)
+                .ok_or_else(|| TailShapeError::NoRun(name.clone()))?;
+            let sc = scenarios::build_in_order(
+                by_run[r].clone(),
+                trades,
+                &|_| false,
+                &settings.scenario,
+            )?;
+            let mut v: Vec<f64> = sc
+                .baseline
+                .view()
+                .tail_values()
+                .iter()
+                .map(|x| x.abs())
+                .collect();
+            v.sort_by(|a, b| b.total_cmp(a));
+            let mean = v.iter().sum::<f64>() / v.len().max(1) as f64;
+            if mean > 0.0 {
+                v.iter_mut().for_each(|x| *x /= mean);
+            }
+            Ok((name.clone(), v))
+        })
+        .collect()
+}
+
+/// Why the tail shapes could not be drawn.
+#[derive(Debug, thiserror::Error)]
+pub enum TailShapeError {
+    /// `--curves` names a run the trades do not have.
+    #[error("--curves: no run '{0}' in the trades")]
+    NoRun(String),
+    /// The scenarios could not be built.
+    #[error(transparent)]
+    Scenario(#[from] scenarios::ScenarioError),
+}
+
 /// The distortion of the ranking `rows` (as [`rank`] returned them, before
 /// any filter): ρ, τ-b, the top-`top_k` overlap and, when the rows carry
 /// random removals, their reference.
@@ -484,6 +538,28 @@ mod tests {
                 |v: &[Option<f64>]| v.iter().map(|x| x.map(f64::to_bits)).collect::<Vec<_>>();
             assert_eq!(bits(&fast), bits(&slow), "{by:?}");
         }
+    }
+
+    /// A run's tail shape: |P/L| largest first over its mean (so the curve
+    /// averages 1); an unknown run is named in the error.
+    #[test]
+    fn tail_shapes_scale_by_the_mean() {
+        let mut t = Trades::default();
+        for (i, p) in [4.0, -1.0, 2.0, -1.0].iter().enumerate() {
+            t.opened.push(i as i64 * 1000);
+            t.closed.push(i as i64 * 1000 + 500);
+            t.instrument.push(0);
+            t.pnl.push(*p);
+            t.run.push(0);
+        }
+        t.instruments = vec!["X".into()];
+        t.runs = vec!["a".into()];
+        let settings = AnalysisSettings::default();
+        let shapes = tail_shapes(&t, &["a".to_string()], &settings).unwrap();
+        // Mean |P/L| = 8 / 4 = 2.
+        assert_eq!(shapes, vec![("a".to_string(), vec![2.0, 1.0, 0.5, 0.5])]);
+        let e = tail_shapes(&t, &["b".to_string()], &settings).unwrap_err();
+        assert_eq!(e.to_string(), "--curves: no run 'b' in the trades");
     }
 
     #[test]

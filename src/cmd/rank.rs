@@ -3,7 +3,7 @@
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use super::outcome::Outcome;
-use crate::analysis::rank::{self, RankBy};
+use crate::analysis::rank::{self, RankBy, RunRow};
 use crate::import::table::TableFormat;
 use crate::report::rank::RankReport;
 use crate::report::summary::{CAUTION, ToolInfo};
@@ -59,6 +59,11 @@ pub struct RankArgs {
     /// Write runs.csv (or runs.parquet), chart-rank-shift.svg and report.html here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
+    /// Runs whose tail shapes (sorted |P/L| ÷ mean |P/L|) --out overlays;
+    /// default: the top 3 with all trades and the top 3 without the
+    /// exposed ones.
+    #[arg(long, value_name = "RUN,...", value_delimiter = ',')]
+    pub curves: Vec<String>,
     /// Format of the runs file in --out.
     #[arg(long, value_enum, default_value_t = TableFormat::Csv)]
     pub runs_format: TableFormat,
@@ -95,6 +100,9 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
 pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
+    if !args.curves.is_empty() && args.out.is_none() {
+        bail!("--curves picks the runs of the tail-shape chart, which --out writes: give --out");
+    }
     let loaded = args.input.load("rank", &args.terminal)?;
     let trades = &loaded.trades;
     if !trades.has_runs() {
@@ -161,7 +169,35 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
                 distortion.top_k,
                 "Rank with and without release trades",
             )?;
-            vec![crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed; triangles are runs in either top k (the lines mark its border).".into(), svg }]
+            let picked = if args.curves.is_empty() {
+                let by = |key: fn(&RunRow) -> usize| {
+                    let mut v: Vec<&RunRow> = rows.iter().collect();
+                    v.sort_by_key(|r| key(r));
+                    v.into_iter()
+                        .take(3)
+                        .map(|r| r.run.clone())
+                        .collect::<Vec<_>>()
+                };
+                let mut picked = by(|r| r.rank_baseline);
+                for r in by(|r| r.rank_removed) {
+                    if !picked.contains(&r) {
+                        picked.push(r);
+                    }
+                }
+                picked
+            } else {
+                args.curves.clone()
+            };
+            let shapes = rank::tail_shapes(trades, &picked, &settings)?;
+            let tails = crate::render::charts::tail_shapes(
+                &shapes,
+                settings.tcr_threshold,
+                "Tail shapes: each run's sorted |P/L| over its mean",
+            )?;
+            vec![
+                crate::render::Figure { id: "rank-shift", caption: "Each point is a run; points off the diagonal change rank once release-exposed trades are removed; triangles are runs in either top k (the lines mark its border).".into(), svg },
+                crate::render::Figure { id: "tail-shapes", caption: "Each line is one run's trades by |P/L|, largest first, divided by the run's mean |P/L| so that runs compare; lines that start high and fall fast lean on a few trades. The dashed line is the tail threshold.".into(), svg: tails },
+            ]
         };
         #[cfg(not(feature = "charts"))]
         let figures: Vec<crate::render::Figure> = Vec::new();

@@ -526,6 +526,84 @@ pub fn rank_shift(points: &[(usize, usize, String)], top_k: usize, caption: &str
     Ok(s)
 }
 
+/// Sorted |P/L| ÷ mean |P/L| of several runs on one chart (log rank
+/// axis), each in its own colour and line pattern, with the tail
+/// threshold as a horizontal line.
+pub fn tail_shapes(curves: &[(String, Vec<f64>)], threshold: f64, caption: &str) -> Res {
+    let mut s = String::new();
+    {
+        let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let n = curves.iter().map(|c| c.1.len()).max().unwrap_or(0).max(2) as f64;
+        let top = curves
+            .iter()
+            .filter_map(|c| c.1.first().copied())
+            .fold(threshold, f64::max)
+            * 1.05;
+        let mut c = ChartBuilder::on(&root)
+            .caption(caption, (FONT, 18))
+            .margin(12)
+            .x_label_area_size(36)
+            .y_label_area_size(60)
+            .build_cartesian_2d((1f64..n).log_scale(), 0f64..top.max(1e-9))
+            .map_err(err)?;
+        c.configure_mesh()
+            .x_desc("rank by |P/L| within the run (1 = largest, log scale)")
+            .y_desc("|P/L| ÷ the run's mean |P/L|")
+            .x_label_formatter(&axis_number)
+            .y_label_formatter(&axis_number)
+            .light_line_style(WHITE)
+            .draw()
+            .map_err(err)?;
+        c.draw_series(std::iter::once(plotters::element::DashedPathElement::new(
+            vec![(1.0, threshold), (n, threshold)],
+            4,
+            4,
+            TICK.stroke_width(2),
+        )))
+        .map_err(err)?
+        .label(format!("tail threshold {}", axis_number(&threshold)))
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], TICK.stroke_width(2)));
+        const COLOURS: [RGBColor; 5] = [BASELINE, REMOVED, CAPPED, EXPOSED, NEGATIVE];
+        for (i, (name, v)) in curves.iter().enumerate() {
+            let pts: Vec<(f64, f64)> = v
+                .iter()
+                .enumerate()
+                .map(|(k, y)| ((k + 1) as f64, *y))
+                .collect();
+            let style = COLOURS[i % COLOURS.len()].stroke_width(2);
+            let (dash, gap) = PATTERN[(i / COLOURS.len() + i) % PATTERN.len()];
+            let pts = thin_head(&pts, 400, 1500);
+            let anno = if dash == 0 {
+                c.draw_series(LineSeries::new(pts, style)).map_err(err)?
+            } else {
+                c.draw_series(DashedLineSeries::new(pts, dash, gap, style))
+                    .map_err(err)?
+            };
+            anno.label(name.clone()).legend(move |(x, y)| {
+                if dash == 0 {
+                    PathElement::new(vec![(x, y), (x + 18, y)], style).into_dyn()
+                } else {
+                    plotters::element::DashedPathElement::new(
+                        vec![(x, y), (x + 18, y)],
+                        dash,
+                        gap,
+                        style,
+                    )
+                    .into_dyn()
+                }
+            });
+        }
+        c.configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(BLACK.mix(0.3))
+            .draw()
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(s)
+}
+
 /// Everything the analyze charts draw.
 pub struct AnalyzeCharts<'a> {
     pub summary: &'a crate::report::summary::Summary,
