@@ -857,3 +857,62 @@ fn every_json_carries_schema_and_tzdb_versions() {
     seen.dedup();
     assert_eq!(seen.len(), 1, "{seen:?}");
 }
+
+/// rank with --stress: every run has its stressed figure and rank (a
+/// permutation of 1..=50); ranked by net, the stressed net is the baseline
+/// net less 15 per exposed trade (amount:15, fixed sizing: conservation);
+/// runs.csv carries the two columns; --scenario stressed sets them beside
+/// all trades in the table, and needs --stress.
+#[test]
+fn rank_ranks_the_stressed_scenario() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = common::demo("rank")
+        .args([
+            "--by",
+            "net",
+            "--stress",
+            "amount:15",
+            "--distortion-draws",
+            "0",
+            "--json",
+        ])
+        .args(["--scenario", "stressed", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let j: Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(j["compared"], "stressed");
+    let runs = j["runs"].as_array().unwrap();
+    let mut ranks: Vec<i64> = runs
+        .iter()
+        .map(|r| r["rank_stressed"].as_i64().unwrap())
+        .collect();
+    ranks.sort();
+    assert_eq!(ranks, (1..=50).collect::<Vec<_>>());
+    for r in runs {
+        let want =
+            r["net_baseline"].as_f64().unwrap() - 15.0 * r["exposed_trades"].as_f64().unwrap();
+        let got = r["by_stressed"].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-6, "{}: {got} vs {want}", r["run"]);
+    }
+    // Sorted by the stressed rank.
+    let order: Vec<i64> = runs
+        .iter()
+        .map(|r| r["rank_stressed"].as_i64().unwrap())
+        .collect();
+    assert!(order.windows(2).all(|w| w[0] < w[1]));
+    let csv = std::fs::read_to_string(dir.path().join("runs.csv")).unwrap();
+    assert!(
+        csv.lines()
+            .next()
+            .unwrap()
+            .ends_with(",placebo_p,by_stressed,rank_stressed")
+    );
+    let o = common::demo("rank")
+        .args(["--scenario", "stressed"])
+        .output()
+        .unwrap();
+    assert!(!o.status.success());
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--scenario stressed needs --stress"));
+}

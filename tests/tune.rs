@@ -171,3 +171,52 @@ fn tune_cells_aggregate_per_run() {
         assert_eq!(c["trades_removed"], a["exposure"]["exposed_trades"]);
     }
 }
+
+/// With --stress amount:15 each cell's stressed net is the baseline net
+/// less 15 per trade the cell's windows expose (fixed sizing:
+/// conservation), the baseline net being analyze's.
+#[test]
+fn tune_cells_report_the_stressed_net() {
+    let o = common::demo("tune")
+        .args([
+            "--pre",
+            "0..30/15",
+            "--post",
+            "0..60/30",
+            "--stress",
+            "amount:15",
+            "--json",
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let o = common::demo("analyze")
+        .args([
+            "--placebo",
+            "0",
+            "--bootstrap",
+            "0",
+            "--distortion-draws",
+            "0",
+            "--json",
+        ])
+        .output()
+        .unwrap();
+    let a: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let net = a["headline"]["net"].as_f64().unwrap();
+    let cells = j["cells"].as_array().unwrap();
+    assert_eq!(cells.len(), 9);
+    for c in cells {
+        let removed = c["trades_removed"].as_f64().unwrap();
+        let stressed = c["net_stressed"].as_f64().unwrap();
+        assert!((stressed - (net - 15.0 * removed)).abs() < 1e-6, "{c}");
+    }
+    // Without --stress the field is absent.
+    let o = common::demo("tune")
+        .args(["--pre", "0..0/15", "--post", "0..0/30", "--json"])
+        .output()
+        .unwrap();
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert!(j["cells"][0].get("net_stressed").is_none());
+}

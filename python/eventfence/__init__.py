@@ -327,5 +327,11 @@ def merge_ranks(parts: Sequence[Any], by: str = "sharpe") -> List[Dict[str, Any]
     )
     for r, b, m in zip(rows, baseline, removed):
         r["rank_baseline"], r["rank_removed"], r["rank_shift"] = b, m, b - m
+    if any("rank_stressed" in r for r in rows):
+        # With --stress every row carries its stressed figure.
+        _, stressed = _rank_together(names, [r["by_baseline"] for r in rows],
+                                     [r.get("by_stressed") for r in rows], by)
+        for r, s in zip(rows, stressed):
+            r["rank_stressed"] = s
     rows.sort(key=lambda r: r["rank_removed"])
     return rows

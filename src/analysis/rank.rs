@@ -17,6 +17,17 @@ use crate::import::trades::Trades;
 use rayon::prelude::*;
 use serde::Serialize;
 
+/// The scenario a ranking is set beside the one with every trade.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Compared {
+    /// Without the exposed trades.
+    #[default]
+    Removed,
+    /// The exposed trades charged the stress cost (`--stress`).
+    Stressed,
+}
+
 /// The figure runs are ranked by (higher is better; max drawdown: lower).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -104,6 +115,13 @@ pub struct RunRow {
     pub rank_removed: usize,
     /// rank_baseline − rank_removed: positive means the run moved up.
     pub rank_shift: i64,
+    /// The ranking figure in the stressed scenario (`--stress`; absent
+    /// without it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub by_stressed: Option<f64>,
+    /// Rank in the stressed scenario (`--stress`; absent without it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rank_stressed: Option<usize>,
     /// Placebo p-value of the exposed share (when asked for).
     pub placebo_p: Option<f64>,
     /// The ranking figure after removing, instead of the exposed trades, as
@@ -448,6 +466,8 @@ fn run_row(
         rank_baseline: 0,
         rank_removed: 0,
         rank_shift: 0,
+        by_stressed: result.scenarios.stressed.as_ref().and_then(|m| by.value(m)),
+        rank_stressed: None,
         placebo_p: None,
         by_random_removed: Vec::new(),
         tcr_basis: result.tail_basis,
@@ -490,10 +510,17 @@ fn assign_ranks(rows: &mut [RunRow], by: RankBy) {
         ranks(&b, &names, by.higher_is_better()),
         ranks(&r, &names, by.higher_is_better()),
     );
+    // The stressed scenario holds every trade, so each run has one when
+    // any has (`--stress`).
+    let stressed = rows.iter().any(|r| r.by_stressed.is_some()).then(|| {
+        let s: Vec<Option<f64>> = rows.iter().map(|r| r.by_stressed).collect();
+        ranks(&s, &names, by.higher_is_better())
+    });
     for (i, row) in rows.iter_mut().enumerate() {
         row.rank_baseline = rb[i];
         row.rank_removed = rr[i];
         row.rank_shift = rb[i] as i64 - rr[i] as i64;
+        row.rank_stressed = stressed.as_ref().map(|s| s[i]);
     }
 }
 

@@ -66,6 +66,11 @@ pub struct Cell {
     pub runs_tcr_reduced: Option<f64>,
     /// Share of runs whose Sharpe ratio rises.
     pub runs_sharpe_improved: Option<f64>,
+    /// With `--stress` under fixed sizing: net P/L of all trades with the
+    /// cell's exposed trades charged the stress cost (net − Σ charge);
+    /// absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub net_stressed: Option<f64>,
     /// Union of the windows (of the traded currencies) ÷ weekday time in
     /// the trades' span.
     pub blocked_share: f64,
@@ -244,6 +249,22 @@ pub fn tune(
                 .map(|i| trades.pnl[i])
                 .sum();
             let is_exposed = |i: usize| is_set(&bits, i);
+            // The stressed scenario keeps every trade and charges the
+            // exposed ones: its net is the baseline's less the charges
+            // (fixed sizing; compounding would replay the account).
+            let net_stressed = settings
+                .scenario
+                .stress
+                .filter(|_| settings.scenario.sizing == scenarios::Sizing::Fixed)
+                .map(|rule| {
+                    let size = trades.size.as_deref();
+                    net - order
+                        .iter()
+                        .map(|&i| i as usize)
+                        .filter(|&i| is_set(&bits, i))
+                        .map(|i| rule.charge(trades.pnl[i], size.map(|z| z[i])))
+                        .sum::<f64>()
+                });
             let after = if per_run.is_empty() {
                 let [tcr, sharpe, max_drawdown] = match &pooled_pass {
                     Some(pass) => path_figures(pass.figures(&is_exposed)),
@@ -279,6 +300,7 @@ pub fn tune(
                 max_drawdown_after: after.max_drawdown,
                 runs_tcr_reduced: after.runs_tcr_reduced,
                 runs_sharpe_improved: after.runs_sharpe_improved,
+                net_stressed,
                 blocked_share: if week > 0.0 {
                     blocked as f64 / week
                 } else {
@@ -431,6 +453,7 @@ mod tests {
             max_drawdown_after: None,
             runs_tcr_reduced: None,
             runs_sharpe_improved: None,
+            net_stressed: None,
             blocked_share: blocked,
             frontier: false,
         }

@@ -3,7 +3,7 @@
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use super::outcome::Outcome;
-use crate::analysis::rank::{self, RankBy, RunRow};
+use crate::analysis::rank::{self, Compared, RankBy, RunRow};
 use crate::import::table::TableFormat;
 use crate::report::rank::RankReport;
 use crate::report::summary::{CAUTION, ToolInfo};
@@ -37,6 +37,11 @@ pub struct RankArgs {
     /// Order of the table.
     #[arg(long, value_enum, default_value_t = SortBy::RankRemoved)]
     pub sort: SortBy,
+    /// The scenario the table sets beside all trades: removed (without the
+    /// exposed trades) or stressed (exposed trades charged, needs --stress;
+    /// then --sort rank-removed orders by the stressed rank).
+    #[arg(long = "scenario", value_enum, default_value_t = Compared::Removed)]
+    pub compared: Compared,
     /// Show only the first N rows (after sorting).
     #[arg(long, value_name = "N")]
     pub top: Option<usize>,
@@ -100,6 +105,9 @@ pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
 pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     let mut settings = args.scenario.settings(&args.windows)?;
     settings.calendar_span = args.input.calendar.stated_span()?;
+    if args.compared == Compared::Stressed && settings.scenario.stress.is_none() {
+        bail!("--scenario stressed needs --stress (amount:…, per-size:… or pct:…)");
+    }
     if !args.curves.is_empty() && args.out.is_none() {
         bail!("--curves picks the runs of the tail-shape chart, which --out writes: give --out");
     }
@@ -141,6 +149,9 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     let tcr_basis = rows.first().map(|r| r.tcr_basis).unwrap_or_default();
     rows.retain(|r| r.trades >= args.min_trades);
     match args.sort {
+        SortBy::RankRemoved if args.compared == Compared::Stressed => {
+            rows.sort_by_key(|r| r.rank_stressed)
+        }
         SortBy::RankRemoved => rows.sort_by_key(|r| r.rank_removed),
         SortBy::RankBaseline => rows.sort_by_key(|r| r.rank_baseline),
         SortBy::Shift => rows.sort_by_key(|r| (-r.rank_shift.abs(), r.rank_removed)),
@@ -234,6 +245,7 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
         warnings,
         pnl_formed_as: loaded.trade_summary.pnl_formed_as.clone(),
         tcr_basis,
+        compared: args.compared,
         distortion,
         runs: rows,
         caution: CAUTION,

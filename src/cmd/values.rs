@@ -4,7 +4,7 @@
 //! because the derive would put clap into `import/`, `engine/` and
 //! `analysis/`.
 
-use crate::analysis::rank::RankBy;
+use crate::analysis::rank::{Compared, RankBy};
 use crate::analysis::scenarios::Sizing;
 use crate::engine::exposure::ExposureRule;
 use crate::engine::relevance::Unmapped;
@@ -67,4 +67,9 @@ value_enum!(RankBy {
     Expectancy => "expectancy",
     TStat => "t-stat",
     MaxDrawdown => "max-drawdown",
+});
+
+value_enum!(Compared {
+    Removed => "removed": "Without the exposed trades",
+    Stressed => "stressed": "Exposed trades charged the stress cost (needs --stress)",
 });

@@ -264,9 +264,14 @@ fn opt(v: Option<f64>) -> String {
         .unwrap_or_default()
 }
 
-/// runs.csv: one row per run, columns as `RUN_COLUMNS`.
+/// runs.csv: one row per run, columns as `RUN_COLUMNS`, then
+/// `by_stressed` and `rank_stressed` with `--stress`.
 pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
+    let stressed = rows.iter().any(|r| r.rank_stressed.is_some());
     let mut s = RUN_COLUMNS.join(",");
+    if stressed {
+        s.push_str(",by_stressed,rank_stressed");
+    }
     s.push('\n');
     for r in rows {
         let _ = writeln!(
@@ -295,6 +300,15 @@ pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
             r.rank_shift,
             opt(r.placebo_p)
         );
+        if stressed {
+            s.pop();
+            let _ = writeln!(
+                s,
+                ",{},{}",
+                opt(r.by_stressed),
+                r.rank_stressed.map_or(String::new(), |v| v.to_string())
+            );
+        }
     }
     s.into_bytes()
 }
@@ -368,14 +382,26 @@ pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> Result<Vec<u8>, Fi
             Column::new("placebo_p".into(), f(|r| r.placebo_p)),
         ],
     )?;
+    if rows.iter().any(|r| r.rank_stressed.is_some()) {
+        df.with_column(Column::new("by_stressed".into(), f(|r| r.by_stressed)))?;
+        df.with_column(Column::new(
+            "rank_stressed".into(),
+            rows.iter()
+                .map(|r| r.rank_stressed.map(|v| v as u64))
+                .collect::<Vec<_>>(),
+        ))?;
+    }
     parquet_bytes(&mut df)
 }
 
-/// grid.csv: one row per tune cell (heat-map data).
+/// grid.csv: one row per tune cell (heat-map data), with `net_stressed`
+/// last under `--stress`.
 pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
+    let stressed = cells.iter().any(|c| c.net_stressed.is_some());
     let mut s = String::from(
-        "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,runs_tcr_reduced,runs_sharpe_improved,blocked_share,frontier\n",
+        "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,runs_tcr_reduced,runs_sharpe_improved,blocked_share,frontier",
     );
+    s.push_str(if stressed { ",net_stressed\n" } else { "\n" });
     for c in cells {
         let _ = writeln!(
             s,
@@ -393,6 +419,10 @@ pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
             c.blocked_share,
             c.frontier
         );
+        if stressed {
+            s.pop();
+            let _ = writeln!(s, ",{}", opt(c.net_stressed));
+        }
     }
     s.into_bytes()
 }

@@ -387,9 +387,17 @@ pub fn rank(r: &crate::report::rank::RankReport, width: Option<usize>) -> String
     for line in super::text::distortion_lines(&r.distortion).lines() {
         let _ = writeln!(out, "{}", wrap(line, 78));
     }
+    let stressed = r.compared == crate::analysis::rank::Compared::Stressed;
     let _ = writeln!(
         out,
-        "base/rem: {by} with all trades / without release-exposed trades;"
+        "{}",
+        if stressed {
+            format!(
+                "base/str: {by} with all trades / with release-exposed trades charged the stress cost;"
+            )
+        } else {
+            format!("base/rem: {by} with all trades / without release-exposed trades;")
+        }
     );
     let _ = writeln!(
         out,
@@ -412,6 +420,11 @@ pub fn rank(r: &crate::report::rank::RankReport, width: Option<usize>) -> String
     let mut header = vec![
         "run", "trades", "exposed", "base", "rem", "TCR b", "TCR r", "rk b", "rk r", "shift",
     ];
+    if stressed {
+        // Columns 4, 8 and 9 show the stressed scenario.
+        header[4] = "str";
+        header[8] = "rk s";
+    }
     if with_p {
         header.push("p");
     }
@@ -425,12 +438,29 @@ pub fn rank(r: &crate::report::rank::RankReport, width: Option<usize>) -> String
                 x.exposed_share_of_trades
                     .map_or("—".into(), |v| format!("{:.1}", 100.0 * v)),
                 fmt_opt(x.by_baseline, 2),
-                fmt_opt(x.by_removed, 2),
+                fmt_opt(
+                    if stressed {
+                        x.by_stressed
+                    } else {
+                        x.by_removed
+                    },
+                    2,
+                ),
                 fmt_opt(x.tcr_baseline, 1),
                 fmt_opt(x.tcr_removed, 1),
                 x.rank_baseline.to_string(),
-                x.rank_removed.to_string(),
-                format!("{:+}", x.rank_shift),
+                if stressed {
+                    x.rank_stressed.map_or("—".into(), |v| v.to_string())
+                } else {
+                    x.rank_removed.to_string()
+                },
+                if stressed {
+                    x.rank_stressed.map_or("—".into(), |v| {
+                        format!("{:+}", x.rank_baseline as i64 - v as i64)
+                    })
+                } else {
+                    format!("{:+}", x.rank_shift)
+                },
             ];
             if with_p {
                 row.push(fmt_opt(x.placebo_p, 3));
@@ -553,8 +583,17 @@ pub fn tune(r: &crate::report::tune::TuneReport, frontier_only: bool) -> String 
         header.insert(5, "TCR cut");
         header.push("runs TCR↓");
     }
+    let stressed = res.cells.iter().any(|c| c.net_stressed.is_some());
+    if stressed {
+        header.push("net str");
+    }
     header.push("");
     let mut t = new_table(&header);
+    if stressed {
+        // One column more than 100 characters hold: the table grows
+        // rather than split a number across lines.
+        t.set_content_arrangement(ContentArrangement::Disabled);
+    }
     for c in res.cells.iter().filter(|c| c.frontier || !frontier_only) {
         let mut row = vec![
             num(c.pre_min),
@@ -569,6 +608,9 @@ pub fn tune(r: &crate::report::tune::TuneReport, frontier_only: bool) -> String 
         if per_run {
             row.insert(5, num(fmt_opt(c.tcr_reduction, 2)));
             row.push(num(pct(c.runs_tcr_reduced)));
+        }
+        if stressed {
+            row.push(num(fmt_opt(c.net_stressed, 2)));
         }
         row.push(Cell::new(if c.frontier { "*" } else { "" }));
         t.add_row(row);

@@ -16,6 +16,8 @@ pub struct RankReport {
     pub pnl_formed_as: String,
     /// `amount` or `return`: what tcr_baseline / tcr_removed are measured on.
     pub tcr_basis: crate::analysis::scenarios::TailBasis,
+    /// The scenario the terminal table sets beside all trades.
+    pub compared: crate::analysis::rank::Compared,
     /// How far removing the exposed trades reorders the runs (over every
     /// run ranked, before `--min-trades` and `--top`).
     pub distortion: crate::analysis::distortion::Distortion,
