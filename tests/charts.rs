@@ -237,3 +237,27 @@ fn rank_overlays_the_tail_shapes_it_is_asked_for() {
         assert!(err.contains(message), "{err}");
     }
 }
+
+/// With --stress the stressed scenario is drawn wherever the others are:
+/// its equity curve (its own colour, named in the legend), its column in
+/// the report's scenario table and its tail line.
+#[test]
+fn stressed_scenario_in_the_charts_and_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("s");
+    demo(
+        "analyze",
+        &out,
+        &["--placebo", "0", "--bootstrap", "0", "--stress", "pct:20"],
+    );
+    let eq = svg(&out.join("chart-equity.svg"));
+    assert!(texts(&eq).iter().any(|x| x == "stressed"));
+    // The curve and its legend swatch in the fourth scenario colour.
+    assert!(count(&eq, "polyline", "#DC9A26") + count(&eq, "path", "#DC9A26") >= 2);
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(html.contains("<th>stressed</th>") && html.contains("<th>Δ stressed</th>"));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    assert!(summary["tail"]["stressed"]["tcr"].is_number());
+    assert!(summary["scenarios"]["stressed"]["net"].is_number());
+}

@@ -907,7 +907,7 @@ fn rank_ranks_the_stressed_scenario() {
         csv.lines()
             .next()
             .unwrap()
-            .ends_with(",placebo_p,by_stressed,rank_stressed")
+            .ends_with(",placebo_p,in_top_baseline,in_top_removed,by_stressed,rank_stressed")
     );
     let o = common::demo("rank")
         .args(["--scenario", "stressed"])

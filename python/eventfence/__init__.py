@@ -299,12 +299,13 @@ def schedule(calendar: Any, trades: Any = None, **settings: Any) -> Schedule:
     return Schedule(_call("schedule", trades, calendar, settings))
 
 
-def merge_ranks(parts: Sequence[Any], by: str = "sharpe") -> List[Dict[str, Any]]:
+def merge_ranks(parts: Sequence[Any], by: str = "sharpe", top: int = 10) -> List[Dict[str, Any]]:
     """Ranks together the runs of several :func:`rank` results (for example
     one per partition of a distributed dataset, each holding whole runs), by
     the rule ``rank`` uses. Returns one dict per run, as in
     ``summary["runs"]``, with ``rank_baseline``, ``rank_removed`` and
-    ``rank_shift`` over all runs, ordered by ``rank_removed``.
+    ``rank_shift`` over all runs (and ``in_top_baseline`` /
+    ``in_top_removed`` for the top ``top``), ordered by ``rank_removed``.
 
     ``parts``: :class:`Ranking` results, or lists of run dicts.
 
@@ -327,6 +328,7 @@ def merge_ranks(parts: Sequence[Any], by: str = "sharpe") -> List[Dict[str, Any]
     )
     for r, b, m in zip(rows, baseline, removed):
         r["rank_baseline"], r["rank_removed"], r["rank_shift"] = b, m, b - m
+        r["in_top_baseline"], r["in_top_removed"] = b <= top, m <= top
     if any("rank_stressed" in r for r in rows):
         # With --stress every row carries its stressed figure.
         _, stressed = _rank_together(names, [r["by_baseline"] for r in rows],

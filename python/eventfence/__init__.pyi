@@ -78,7 +78,7 @@ def schedule(calendar: Input, trades: Input = ..., **settings: Any) -> Schedule:
         eventfence.schedule("calendars/demo-usd.ics", currencies="USD", next=7).windows
     """
 
-def merge_ranks(parts: Sequence[Union[Ranking, Sequence[Dict[str, Any]]]], by: str = ...) -> List[Dict[str, Any]]:
+def merge_ranks(parts: Sequence[Union[Ranking, Sequence[Dict[str, Any]]]], by: str = ..., top: int = ...) -> List[Dict[str, Any]]:
     """Ranks the runs of several rank results together. Example::
 
         eventfence.merge_ranks([eventfence.rank(t, cal) for t in tables], by="sharpe")

@@ -94,6 +94,10 @@ def test_rank_distortion_equals_scipy_on_the_demo():
     top_r = {row["run"] for row in rows if row["rank_removed"] <= 10}
     assert d["top_k"] == 10 and d["top_overlap"] == len(top_b & top_r)
     assert set(d["left_top"]) == top_b - top_r and set(d["entered_top"]) == top_r - top_b
+    assert {row["run"] for row in rows if row["in_top_baseline"]} == top_b
+    assert {row["run"] for row in rows if row["in_top_removed"]} == top_r
+    runs_csv = r.runs.to_pylist()
+    assert sum(x["in_top_baseline"] for x in runs_csv) == 10
     ref = d["random_removal"]
     assert ref["draws"] == 19 and 0.0 <= ref["share_rho_at_or_below"] <= 1.0
 

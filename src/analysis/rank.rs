@@ -115,6 +115,10 @@ pub struct RunRow {
     pub rank_removed: usize,
     /// rank_baseline − rank_removed: positive means the run moved up.
     pub rank_shift: i64,
+    /// In the top k (the distortion's k) with every trade.
+    pub in_top_baseline: bool,
+    /// In the top k without the exposed trades.
+    pub in_top_removed: bool,
     /// The ranking figure in the stressed scenario (`--stress`; absent
     /// without it).
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -382,6 +386,14 @@ pub enum TailShapeError {
     Scenario(#[from] scenarios::ScenarioError),
 }
 
+/// Marks each row's membership of the two top-`k` sets (by its ranks).
+pub fn mark_top(rows: &mut [RunRow], k: usize) {
+    for r in rows {
+        r.in_top_baseline = r.rank_baseline <= k;
+        r.in_top_removed = r.rank_removed <= k;
+    }
+}
+
 /// The distortion of the ranking `rows` (as [`rank`] returned them, before
 /// any filter): ρ, τ-b, the top-`top_k` overlap and, when the rows carry
 /// random removals, their reference.
@@ -466,6 +478,8 @@ fn run_row(
         rank_baseline: 0,
         rank_removed: 0,
         rank_shift: 0,
+        in_top_baseline: false,
+        in_top_removed: false,
         by_stressed: result.scenarios.stressed.as_ref().and_then(|m| by.value(m)),
         rank_stressed: None,
         placebo_p: None,

@@ -156,6 +156,9 @@ pub struct TailSummary {
     pub removed: TailLine,
     /// Exposed trades capped at the cap value.
     pub capped: TailLine,
+    /// Exposed trades charged the stress cost (`--stress`; absent without).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub stressed: Option<TailLine>,
 }
 
 /// `tcr` is the scenario's metric (computed once, in [`metrics::compute`]).
@@ -454,6 +457,10 @@ fn overall_of(
             )
         },
     );
+    let stressed = all
+        .stressed_view()
+        .zip(o.stressed.as_ref())
+        .map(|(v, m)| tl(v, m));
     let tail = TailSummary {
         tcr_basis: all.tail_basis,
         p: settings.tcr_p,
@@ -462,6 +469,7 @@ fn overall_of(
         baseline,
         removed,
         capped,
+        stressed,
     };
     (o, tail)
 }

@@ -259,16 +259,22 @@ impl Scenarios {
         v
     }
 
-    /// Each scenario's (close instant, P/L) in close order; `closed` is the
+    /// Each scenario's (close instant, P/L) in close order — baseline,
+    /// removed, capped, and stressed when there is one; `closed` is the
     /// input's close column.
-    pub fn curves(&self, closed: &[i64]) -> [Vec<(i64, f64)>; 3] {
-        self.views().map(|sr| {
+    pub fn curves(&self, closed: &[i64]) -> Vec<Vec<(i64, f64)>> {
+        let curve = |sr: SeriesView| -> Vec<(i64, f64)> {
             sr.trade
                 .iter()
                 .map(|&i| closed[i as usize])
                 .zip(sr.pnl.iter().copied())
                 .collect()
-        })
+        };
+        self.views()
+            .into_iter()
+            .chain(self.stressed_view())
+            .map(curve)
+            .collect()
     }
 
     /// Room for `n` trades in each series (removed may use less).

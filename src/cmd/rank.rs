@@ -144,7 +144,9 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
     )?;
     pb.finish_and_clear();
     let total = rows.len();
-    let distortion = rank::distortion(&rows, args.by, args.top.unwrap_or(DEFAULT_TOP_K), args.seed);
+    let top_k = args.top.unwrap_or(DEFAULT_TOP_K);
+    let distortion = rank::distortion(&rows, args.by, top_k, args.seed);
+    rank::mark_top(&mut rows, top_k);
     let warnings = loaded.warnings(&args.input, &settings);
     let tcr_basis = rows.first().map(|r| r.tcr_basis).unwrap_or_default();
     rows.retain(|r| r.trades >= args.min_trades);

@@ -54,11 +54,11 @@ pub fn axis_number(v: &f64) -> String {
 }
 
 /// Dash and gap (pixels) of each scenario's line: baseline solid, removed
-/// dashed, capped dotted.
-const PATTERN: [(u32, u32); 3] = [(0, 0), (9, 5), (2, 4)];
+/// dashed, capped dotted, stressed long-dashed.
+const PATTERN: [(u32, u32); 4] = [(0, 0), (9, 5), (2, 4), (16, 4)];
 
-/// Draws one scenario's line (i: 0 baseline, 1 removed, 2 capped) in its
-/// colour and pattern, with a matching legend entry.
+/// Draws one scenario's line (i: 0 baseline, 1 removed, 2 capped, 3
+/// stressed) in its colour and pattern, with a matching legend entry.
 fn scenario_line<'a, DB, X, Y>(
     c: &mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
     i: usize,
@@ -70,9 +70,9 @@ where
     X: plotters::coord::ranged1d::Ranged<ValueType = f64>,
     Y: plotters::coord::ranged1d::Ranged<ValueType = f64>,
 {
-    let col = [BASELINE, REMOVED, CAPPED][i % 3];
+    let col = [BASELINE, REMOVED, CAPPED, EXPOSED][i % 4];
     let style = col.stroke_width(2);
-    let (dash, gap) = PATTERN[i % 3];
+    let (dash, gap) = PATTERN[i % 4];
     let anno = if dash == 0 {
         c.draw_series(LineSeries::new(pts, style)).map_err(err)?
     } else {
@@ -611,7 +611,8 @@ pub struct AnalyzeCharts<'a> {
     /// The removed scenario's magnitudes on the same basis, largest first.
     pub removed_abs: &'a [f64],
     /// Scenario (close instant, P/L) in close order: baseline, removed, capped.
-    pub curves: &'a [Vec<(i64, f64)>; 3],
+    /// baseline, removed, capped, and stressed when there is one.
+    pub curves: &'a [Vec<(i64, f64)>],
     pub span_start: i64,
     /// Instants of used high-tier releases.
     pub high_releases: Vec<i64>,
@@ -644,11 +645,11 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::Figure>, ChartErr
             }))
             .collect::<Vec<_>>()
     };
-    let curves = [
-        ("baseline", eq(&d.curves[0])),
-        ("removed", eq(&d.curves[1])),
-        ("capped", eq(&d.curves[2])),
-    ];
+    let curves: Vec<(&str, Vec<(f64, f64)>)> = ["baseline", "removed", "capped", "stressed"]
+        .into_iter()
+        .zip(d.curves)
+        .map(|(name, c)| (name, eq(c)))
+        .collect();
     let ticks: Vec<f64> = d
         .high_releases
         .iter()

@@ -256,6 +256,8 @@ pub const RUN_COLUMNS: &[&str] = &[
     "rank_removed",
     "rank_shift",
     "placebo_p",
+    "in_top_baseline",
+    "in_top_removed",
 ];
 
 fn opt(v: Option<f64>) -> String {
@@ -276,7 +278,7 @@ pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
     for r in rows {
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
             csv_field(&r.run),
             r.trades,
             r.exposed_trades,
@@ -298,7 +300,9 @@ pub fn runs_csv(rows: &[crate::report::types::RunRow]) -> Vec<u8> {
             r.rank_baseline,
             r.rank_removed,
             r.rank_shift,
-            opt(r.placebo_p)
+            opt(r.placebo_p),
+            r.in_top_baseline,
+            r.in_top_removed
         );
         if stressed {
             s.pop();
@@ -380,6 +384,14 @@ pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> Result<Vec<u8>, Fi
                 rows.iter().map(|r| r.rank_shift).collect::<Vec<_>>(),
             ),
             Column::new("placebo_p".into(), f(|r| r.placebo_p)),
+            Column::new(
+                "in_top_baseline".into(),
+                rows.iter().map(|r| r.in_top_baseline).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "in_top_removed".into(),
+                rows.iter().map(|r| r.in_top_removed).collect::<Vec<_>>(),
+            ),
         ],
     )?;
     if rows.iter().any(|r| r.rank_stressed.is_some()) {

@@ -636,11 +636,15 @@ pub fn chance_text(s: &Summary) -> String {
         "Tail concentration {basis}: mean of the top {} % {what} over mean {what}; threshold {} — {}.",
         tail.p, tail.threshold, tail.threshold_source
     );
-    for (name, l) in [
+    let mut lines = vec![
         ("baseline", &tail.baseline),
         ("removed", &tail.removed),
         ("capped", &tail.capped),
-    ] {
+    ];
+    if let Some(st) = &tail.stressed {
+        lines.push(("stressed", st));
+    }
+    for (name, l) in lines {
         let _ = writeln!(
             out,
             "  {name:<8} TCR {} ({}){}; Hill tail index {}",

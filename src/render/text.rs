@@ -154,31 +154,35 @@ pub const TAIL_HEADER: [&str; 6] = [
 /// Tail figures per scenario, as text rows (HTML).
 pub fn tail_rows(s: &Summary) -> Vec<Vec<String>> {
     let t = &s.tail;
-    [
+    let mut lines = vec![
         ("baseline", &t.baseline),
         ("removed", &t.removed),
         ("capped", &t.capped),
-    ]
-    .iter()
-    .map(|(name, l)| {
-        vec![
-            name.to_string(),
-            fmt_opt(l.tcr, 2),
-            match l.above_threshold {
-                Some(true) => "yes".into(),
-                Some(false) => "no".into(),
-                None => "—".into(),
-            },
-            if l.too_few {
-                format!("{} (too few to judge)", l.top_bucket)
-            } else {
-                l.top_bucket.to_string()
-            },
-            l.hill.map_or("—".into(), |h| format!("{:.2}", h.alpha)),
-            l.hill.map_or("—".into(), |h| format!("{} of {}", h.k, h.n)),
-        ]
-    })
-    .collect()
+    ];
+    if let Some(st) = &t.stressed {
+        lines.push(("stressed", st));
+    }
+    lines
+        .iter()
+        .map(|(name, l)| {
+            vec![
+                name.to_string(),
+                fmt_opt(l.tcr, 2),
+                match l.above_threshold {
+                    Some(true) => "yes".into(),
+                    Some(false) => "no".into(),
+                    None => "—".into(),
+                },
+                if l.too_few {
+                    format!("{} (too few to judge)", l.top_bucket)
+                } else {
+                    l.top_bucket.to_string()
+                },
+                l.hill.map_or("—".into(), |h| format!("{:.2}", h.alpha)),
+                l.hill.map_or("—".into(), |h| format!("{} of {}", h.k, h.n)),
+            ]
+        })
+        .collect()
 }
 
 pub const PLACEBO_HEADER: [&str; 3] = ["statistic", "observed", "p-value"];
