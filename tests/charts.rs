@@ -111,7 +111,14 @@ fn every_chart_renders_with_its_series() {
         "report.html is {} bytes",
         html.len()
     );
-    assert_eq!(html.matches("<svg").count(), 5);
+    // Five analysis charts, and with the demo's runs the rank chart.
+    assert_eq!(html.matches("<svg").count(), 6);
+    let rk = svg(&out.join("chart-rank-shift.svg"));
+    assert_eq!(
+        count(&rk, "circle", "#1B4F8A") + count(&rk, "polygon", "#DC9A26"),
+        50 + 2,
+        "one point per run plus two legend swatches"
+    );
     for needle in ["<script", "src=", "href=", "@import", "url("] {
         assert!(
             !html.contains(needle),

@@ -109,8 +109,13 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
         args.input.calendar.calendar_tz().to_string(),
     );
     let mut summary = Summary::new(inputs, settings, result, placebo, bootstrap);
+    // With alternative runs: the distortion, and each run's ranks for the
+    // report's rank chart.
+    let mut rank_points = Vec::new();
     if summary.account_figures == crate::analysis::run::AccountFigures::PerRun {
-        summary.distortion = Some(distortion(&loaded, &summary.settings, &args.chance)?);
+        let (d, points) = distortion(&loaded, &summary.settings, &args.chance)?;
+        summary.distortion = Some(d);
+        rank_points = points;
     }
     let json = serde_json::to_string_pretty(&summary)?;
     crate::import::phases::mark("summary");
@@ -129,6 +134,7 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
             &cal.releases,
             &series,
             &sorted_abs,
+            &rank_points,
         )?;
         drop(series);
         let annotated = crate::render::files::annotated_trades(
@@ -166,13 +172,16 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
     Ok(outcome)
 }
 
+/// A run's rank with every trade, without the exposed ones, and its name.
+type RankPoint = (usize, usize, String);
+
 /// How far removing the exposed trades reorders the runs, by rank's
 /// default figure (Sharpe) and top k: `rank`'s own computation.
 fn distortion(
     loaded: &crate::cmd::load::Loaded,
     settings: &crate::analysis::run::AnalysisSettings,
     chance: &ChanceArgs,
-) -> Result<crate::analysis::distortion::Distortion> {
+) -> Result<(crate::analysis::distortion::Distortion, Vec<RankPoint>)> {
     use crate::analysis::rank::{self, RandomRemovalSettings, RankBy, RankDraws};
     let windows =
         crate::engine::exposure::used_windows(&loaded.calendar.releases, &settings.windows);
@@ -192,12 +201,17 @@ fn distortion(
         },
         &|| {},
     )?;
-    Ok(rank::distortion(
+    let d = rank::distortion(
         &rows,
         RankBy::Sharpe,
         super::rank::DEFAULT_TOP_K,
         chance.seed,
-    ))
+    );
+    let points = rows
+        .into_iter()
+        .map(|r| (r.rank_baseline, r.rank_removed, r.run))
+        .collect();
+    Ok((d, points))
 }
 
 /// The charts of the report (SVG), drawn from the summary and the scenario
@@ -210,6 +224,7 @@ fn figures(
     releases: &[crate::import::calendar::Release],
     series: &crate::analysis::scenarios::Scenarios,
     sorted_abs: &[(f64, bool)],
+    rank_points: &[(usize, usize, String)],
 ) -> Result<Vec<crate::render::Figure>> {
     let curves = series.curves(&trades.closed);
     let mut removed_abs: Vec<f64> = series
@@ -246,7 +261,15 @@ fn figures(
         high_releases,
         scatter,
     };
-    Ok(crate::render::charts::analyze_figures(&data)?)
+    let mut figures = crate::render::charts::analyze_figures(&data)?;
+    if let Some(d) = &summary.distortion {
+        figures.push(crate::render::Figure {
+            id: "rank-shift",
+            caption: format!("Each point is a run ranked by {} with all trades and without the exposed ones; triangles are runs in either top {} (the lines mark its border).", crate::render::label(&d.by), d.top_k),
+            svg: crate::render::charts::rank_shift(rank_points, d.top_k, "Rank with and without release trades")?,
+        });
+    }
+    Ok(figures)
 }
 
 #[cfg(not(feature = "charts"))]
@@ -257,6 +280,7 @@ fn figures(
     _: &[crate::import::calendar::Release],
     _: &crate::analysis::scenarios::Scenarios,
     _: &[(f64, bool)],
+    _: &[(usize, usize, String)],
 ) -> Result<Vec<crate::render::Figure>> {
     Ok(Vec::new())
 }

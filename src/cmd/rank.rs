@@ -3,7 +3,7 @@
 
 use super::common::{self, InputArgs, ScenarioArgs, TerminalArgs, WindowArgs};
 use super::outcome::Outcome;
-use crate::analysis::rank::{self, Compared, RankBy, RunRow};
+use crate::analysis::rank::{self, Compared, RankBy};
 use crate::import::table::TableFormat;
 use crate::report::rank::RankReport;
 use crate::report::summary::{CAUTION, ToolInfo};
@@ -183,8 +183,8 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
                 "Rank with and without release trades",
             )?;
             let picked = if args.curves.is_empty() {
-                let by = |key: fn(&RunRow) -> usize| {
-                    let mut v: Vec<&RunRow> = rows.iter().collect();
+                let by = |key: fn(&rank::RunRow) -> usize| {
+                    let mut v: Vec<&rank::RunRow> = rows.iter().collect();
                     v.sort_by_key(|r| key(r));
                     v.into_iter()
                         .take(3)
