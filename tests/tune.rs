@@ -212,6 +212,40 @@ fn tune_cells_report_the_stressed_net() {
         let stressed = c["net_stressed"].as_f64().unwrap();
         assert!((stressed - (net - 15.0 * removed)).abs() < 1e-6, "{c}");
     }
+    // A cell equals analyze's stressed scenario at the same windows:
+    // pre 15 / post 30 for every used tier (the demo's high tier default;
+    // medium gets the same window in the cell).
+    let cell = cells
+        .iter()
+        .find(|c| c["pre_min"] == 15 && c["post_min"] == 30)
+        .unwrap();
+    let o = common::demo("analyze")
+        .args([
+            "--placebo",
+            "0",
+            "--bootstrap",
+            "0",
+            "--distortion-draws",
+            "0",
+            "--json",
+        ])
+        .args([
+            "--stress",
+            "amount:15",
+            "--window",
+            "high=15/30",
+            "--window",
+            "medium=15/30",
+        ])
+        .output()
+        .unwrap();
+    let a: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let st = &a["scenarios"]["stressed"];
+    assert!(close(&cell["net_stressed"], &st["net"]), "{cell} vs {st}");
+    assert!(
+        close(&cell["profit_factor_stressed"], &st["profit_factor"]),
+        "{cell} vs {st}"
+    );
     // Without --stress the field is absent.
     let o = common::demo("tune")
         .args(["--pre", "0..0/15", "--post", "0..0/30", "--json"])

@@ -71,6 +71,11 @@ pub struct Cell {
     /// absent otherwise.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub net_stressed: Option<f64>,
+    /// With `--stress` under fixed sizing: profit factor of all trades with
+    /// the cell's exposed trades charged; absent otherwise (or undefined:
+    /// no loss).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub profit_factor_stressed: Option<f64>,
     /// Union of the windows (of the traded currencies) ÷ weekday time in
     /// the trades' span.
     pub blocked_share: f64,
@@ -144,6 +149,11 @@ pub fn tune(
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
     crate::analysis::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
+    // Gross profit and gross loss of all trades (the stressed figures').
+    let gross = order
+        .iter()
+        .map(|&i| trades.pnl[i as usize])
+        .fold((0.0, 0.0), |(gp, gl), p| (gp + p.max(0.0), gl + p.min(0.0)));
     // The scenarios come from the one builder analyze uses, so a cell's
     // figures follow the sizing (compounding replays the kept trades).
     let build = |exposed: &(dyn Fn(usize) -> bool + Sync)| {
@@ -252,19 +262,30 @@ pub fn tune(
             // The stressed scenario keeps every trade and charges the
             // exposed ones: its net is the baseline's less the charges
             // (fixed sizing; compounding would replay the account).
-            let net_stressed = settings
+            let stressed = settings
                 .scenario
                 .stress
                 .filter(|_| settings.scenario.sizing == scenarios::Sizing::Fixed)
                 .map(|rule| {
                     let size = trades.size.as_deref();
-                    net - order
+                    // Net less the charges; gross profit and loss with each
+                    // exposed trade's P/L replaced by its charged P/L.
+                    let (mut charge, mut gp, mut gl) = (0.0, gross.0, gross.1);
+                    for i in order
                         .iter()
                         .map(|&i| i as usize)
                         .filter(|&i| is_set(&bits, i))
-                        .map(|i| rule.charge(trades.pnl[i], size.map(|z| z[i])))
-                        .sum::<f64>()
+                    {
+                        let p = trades.pnl[i];
+                        let c = rule.charge(p, size.map(|z| z[i]));
+                        charge += c;
+                        gp += (p - c).max(0.0) - p.max(0.0);
+                        gl += (p - c).min(0.0) - p.min(0.0);
+                    }
+                    (net - charge, (gl < 0.0).then(|| gp / -gl))
                 });
+            let (net_stressed, profit_factor_stressed) =
+                (stressed.map(|s| s.0), stressed.and_then(|s| s.1));
             let after = if per_run.is_empty() {
                 let [tcr, sharpe, max_drawdown] = match &pooled_pass {
                     Some(pass) => path_figures(pass.figures(&is_exposed)),
@@ -301,6 +322,7 @@ pub fn tune(
                 runs_tcr_reduced: after.runs_tcr_reduced,
                 runs_sharpe_improved: after.runs_sharpe_improved,
                 net_stressed,
+                profit_factor_stressed,
                 blocked_share: if week > 0.0 {
                     blocked as f64 / week
                 } else {
@@ -454,6 +476,7 @@ mod tests {
             runs_tcr_reduced: None,
             runs_sharpe_improved: None,
             net_stressed: None,
+            profit_factor_stressed: None,
             blocked_share: blocked,
             frontier: false,
         }

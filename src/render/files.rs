@@ -407,13 +407,17 @@ pub fn runs_parquet(rows: &[crate::report::types::RunRow]) -> Result<Vec<u8>, Fi
 }
 
 /// grid.csv: one row per tune cell (heat-map data), with `net_stressed`
-/// last under `--stress`.
+/// and `profit_factor_stressed` last under `--stress`.
 pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
     let stressed = cells.iter().any(|c| c.net_stressed.is_some());
     let mut s = String::from(
         "pre_min,post_min,trades_removed,share_of_net_removed,tcr_after,tcr_reduction,sharpe_after,max_drawdown_after,runs_tcr_reduced,runs_sharpe_improved,blocked_share,frontier",
     );
-    s.push_str(if stressed { ",net_stressed\n" } else { "\n" });
+    s.push_str(if stressed {
+        ",net_stressed,profit_factor_stressed\n"
+    } else {
+        "\n"
+    });
     for c in cells {
         let _ = writeln!(
             s,
@@ -433,7 +437,12 @@ pub fn grid_csv(cells: &[crate::report::types::Cell]) -> Vec<u8> {
         );
         if stressed {
             s.pop();
-            let _ = writeln!(s, ",{}", opt(c.net_stressed));
+            let _ = writeln!(
+                s,
+                ",{},{}",
+                opt(c.net_stressed),
+                opt(c.profit_factor_stressed)
+            );
         }
     }
     s.into_bytes()
