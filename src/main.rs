@@ -25,6 +25,9 @@ enum Command {
         #[arg(value_enum)]
         shell: clap_complete::Shell,
     },
+    /// Print the manual page (roff, from the same definitions as --help),
+    /// e.g. `eventfence man > eventfence.1 && man ./eventfence.1`.
+    Man,
 }
 
 fn main() -> ExitCode {
@@ -35,6 +38,15 @@ fn main() -> ExitCode {
         Command::Rank(a) => cmd::rank::run(*a),
         Command::Schedule(a) => cmd::schedule::run(*a),
         Command::Tune(a) => cmd::tune::run(*a),
+        Command::Man => {
+            use clap::CommandFactory;
+            let mut buf = Vec::new();
+            clap_mangen::Man::new(Cli::command())
+                .render(&mut buf)
+                .map_err(anyhow::Error::from)
+                .and_then(|_| eventfence::render::output::stdout(&buf).map_err(anyhow::Error::from))
+                .map(|_| ExitCode::SUCCESS)
+        }
         Command::Completions { shell } => {
             use clap::CommandFactory;
             let mut buf = Vec::new();

@@ -916,3 +916,38 @@ fn rank_ranks_the_stressed_scenario() {
     assert!(!o.status.success());
     assert!(String::from_utf8_lossy(&o.stderr).contains("--scenario stressed needs --stress"));
 }
+
+/// `eventfence man` prints a roff manual page from the clap definitions,
+/// naming every subcommand; every subcommand takes the common --quiet.
+#[test]
+fn man_page_and_common_flags() {
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .arg("man")
+        .output()
+        .unwrap();
+    assert!(o.status.success());
+    let page = String::from_utf8(o.stdout).unwrap();
+    assert!(
+        page.contains(".TH eventfence 1"),
+        "{}",
+        &page[..200.min(page.len())]
+    );
+    for sub in ["analyze", "check", "rank", "schedule", "tune"] {
+        assert!(page.contains(sub), "man page lacks {sub}");
+    }
+    let root = common::root();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
+        .args([
+            "schedule",
+            "--quiet",
+            "--currencies",
+            "USD",
+            "--from",
+            "2024-03-01",
+        ])
+        .args(["--to", "2024-03-08", "--calendar"])
+        .arg(root.join("calendars/demo-usd.ics"))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}

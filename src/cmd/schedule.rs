@@ -35,6 +35,10 @@ pub struct ScheduleArgs {
     /// instruments those runs traded.
     #[command(flatten)]
     pub trades: common::TradeArgs,
+    /// The flags every subcommand takes (schedule draws no progress bar,
+    /// so --quiet changes nothing here).
+    #[command(flatten)]
+    pub terminal: common::TerminalArgs,
     /// Or currencies directly (comma-separated); each becomes its own row.
     #[arg(long, value_name = "CCYS", value_delimiter = ',')]
     pub currencies: Vec<String>,
