@@ -39,6 +39,27 @@ impl Outcome {
         Ok(())
     }
 
+    /// The command line's delivery for `rank` and `tune`: the `--out`
+    /// folder when one is named, then the JSON (`--json`) or the table on
+    /// stdout; exit status 3 with warnings.
+    pub fn deliver(
+        &self,
+        out: Option<&Path>,
+        chart_args: &ChartArgs,
+        json: bool,
+    ) -> Result<std::process::ExitCode> {
+        if let Some(dir) = out {
+            self.write(dir, chart_args)?;
+        }
+        let shown = if json {
+            format!("{}\n", self.json)
+        } else {
+            self.text.clone()
+        };
+        crate::render::output::stdout(shown.as_bytes())?;
+        Ok(super::common::exit_status(&self.warnings))
+    }
+
     /// The file of this name, if the outcome has it.
     pub fn file(&self, name: &str) -> Option<&[u8]> {
         self.files

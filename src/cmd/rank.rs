@@ -87,17 +87,7 @@ pub enum SortBy {
 pub const DEFAULT_TOP_K: usize = 10;
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
-    let outcome = execute(&args, args.out.is_some())?;
-    if let Some(dir) = &args.out {
-        outcome.write(dir, &args.charts)?;
-    }
-    let shown = if args.json {
-        format!("{}\n", outcome.json)
-    } else {
-        outcome.text.clone()
-    };
-    crate::render::output::stdout(shown.as_bytes())?;
-    Ok(common::exit_status(&outcome.warnings))
+    execute(&args, args.out.is_some())?.deliver(args.out.as_deref(), &args.charts, args.json)
 }
 
 /// The ranking and everything it shows, in memory: the JSON, the terminal

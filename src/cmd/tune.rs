@@ -57,17 +57,7 @@ pub struct TuneArgs {
 }
 
 pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
-    let outcome = execute(&args, args.out.is_some())?;
-    if let Some(dir) = &args.out {
-        outcome.write(dir, &args.charts)?;
-    }
-    let shown = if args.json {
-        format!("{}\n", outcome.json)
-    } else {
-        outcome.text.clone()
-    };
-    crate::render::output::stdout(shown.as_bytes())?;
-    Ok(common::exit_status(&outcome.warnings))
+    execute(&args, args.out.is_some())?.deliver(args.out.as_deref(), &args.charts, args.json)
 }
 
 /// The window grid and everything it shows, in memory: the JSON, the
