@@ -31,6 +31,7 @@ enum Command {
 }
 
 fn main() -> ExitCode {
+    eventfence::render::output::mark_process_start();
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Analyze(a) => cmd::analyze::run(*a),

@@ -58,10 +58,7 @@ pub fn run(args: AnalyzeArgs) -> Result<std::process::ExitCode> {
     if args.json {
         crate::render::output::stdout(format!("{}\n", outcome.json).as_bytes())?;
     } else {
-        crate::render::output::stdout(
-            crate::render::term::emphasise(&outcome.text, crate::render::term::use_colour())
-                .as_bytes(),
-        )?;
+        args.terminal.print(&outcome.text)?;
         if let Some(dir) = &args.out {
             let ext = args.trades_format.extension();
             crate::render::output::stdout(format!("Wrote report.html, summary.json, trades.{ext}, releases.csv, tail.csv and chart-*.svg to {}\n", dir.display()).as_bytes())?;

@@ -206,12 +206,44 @@ pub struct ChanceArgs {
     pub seed: u64,
 }
 
-/// Terminal behaviour.
+/// Terminal behaviour, the same flags in every subcommand.
 #[derive(Debug, Clone, Args, Default)]
 pub struct TerminalArgs {
     /// No progress bars.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Emphasis in the terminal text (the answer in bold, warnings in
+    /// blue): auto (on a terminal, unless NO_COLOR is set), always, never.
+    #[arg(long, value_enum, value_name = "WHEN", default_value_t = crate::render::term::Colour::Auto)]
+    pub color: crate::render::term::Colour,
+}
+
+/// What `rank` and `tune` print on stdout.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, clap::ValueEnum)]
+pub enum PrintFormat {
+    /// The terminal table.
+    #[default]
+    Table,
+    /// One JSON document (the same as --json).
+    Json,
+    /// One JSON object per line, one line per row (rank: each run; tune:
+    /// each cell), so that a large result streams.
+    Jsonl,
+}
+
+impl PrintFormat {
+    /// The format asked for, `--json` standing for `--format json`.
+    pub fn chosen(self, json: bool) -> PrintFormat {
+        if json { PrintFormat::Json } else { self }
+    }
+}
+
+impl TerminalArgs {
+    /// Prints terminal text on stdout, emphasised as `--color` says.
+    pub fn print(&self, text: &str) -> std::io::Result<()> {
+        let colour = crate::render::term::use_colour(self.color);
+        crate::render::output::stdout(crate::render::term::emphasise(text, colour).as_bytes())
+    }
 }
 
 /// Trades, calendar, instrument mapping and row handling: the inputs of

@@ -22,6 +22,8 @@ use std::collections::BTreeMap;
 pub struct CheckArgs {
     #[command(flatten)]
     pub input: InputArgs,
+    #[command(flatten)]
+    pub terminal: common::TerminalArgs,
     /// Print JSON instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -147,7 +149,7 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
             format!("{}\n", serde_json::to_string_pretty(&report)?).as_bytes(),
         )?;
     } else {
-        crate::render::output::stdout(crate::render::table::check(&report).as_bytes())?;
+        args.terminal.print(&crate::render::table::check(&report))?;
     }
     let rejected = report
         .trades

@@ -8,20 +8,61 @@ use crate::engine::relevance::{self, InstrumentCurrencies};
 use crate::import::calendar::{self, Calendar, CalendarOptions};
 use crate::import::table::Source;
 use crate::import::trades::{self, TradeOptions, TradeSummary, Trades};
-use anyhow::{Result, bail};
+use anyhow::{Context, Result, bail};
 use std::collections::HashMap;
 use std::path::PathBuf;
 
-/// Loads trades named by the flags (or handed over as tables).
+/// The name `-` stands for standard input (README, "Standard input").
+pub const STDIN: &str = "-";
+
+/// Whether standard input has been taken by one `-` already.
+static STDIN_TAKEN: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Standard input, read whole, as a source named `stdin`; refused the
+/// second time (it can be read once: `-` for the trades or the calendar).
+fn stdin_source() -> Result<Source> {
+    use std::io::Read;
+    if STDIN_TAKEN.swap(true, std::sync::atomic::Ordering::SeqCst) {
+        bail!(
+            "standard input (-) can be read once: give - to --trades or to --calendar, not to both or twice"
+        );
+    }
+    let mut bytes = Vec::new();
+    std::io::stdin()
+        .lock()
+        .read_to_end(&mut bytes)
+        .context("cannot read standard input")?;
+    Ok(Source::Bytes {
+        name: "stdin".into(),
+        bytes: bytes.into(),
+    })
+}
+
+/// Loads trades named by the flags (or handed over as tables); `-` reads
+/// them from standard input.
 pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeSummary)> {
-    let paths = trades::expand_paths(&t.trades)?;
     let limit = t
         .max_memory
         .as_deref()
         .map(crate::import::budget::parse_size)
         .transpose()?;
+    let mut sources = Vec::new();
+    for spec in &t.trades {
+        if spec == STDIN {
+            sources.push(stdin_source()?);
+        } else {
+            let paths = trades::expand_paths(std::slice::from_ref(spec))?;
+            sources.extend(Source::files(&paths));
+        }
+    }
+    let paths: Vec<PathBuf> = sources
+        .iter()
+        .filter_map(|s| match s {
+            Source::File(p) => Some(p.clone()),
+            _ => None,
+        })
+        .collect();
     crate::import::budget::check(&paths, limit)?;
-    let mut sources = Source::files(&paths);
     sources.extend(t.tables.iter().cloned());
     let (trades, mut summary) = trades::load_sources(&sources, opts)?;
     if t.run.is_empty() {
@@ -32,9 +73,17 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
     Ok((trades, summary))
 }
 
-/// Loads and merges the calendar files (and tables handed over).
+/// Loads and merges the calendar files (and tables handed over); `-`
+/// reads one from standard input (iCalendar or CSV, told by its first line).
 pub fn load_calendar(c: &CalendarArgs, opts: &CalendarOptions) -> Result<Calendar> {
-    let mut sources = Source::files(&c.calendar);
+    let mut sources = Vec::new();
+    for path in &c.calendar {
+        if path.as_os_str() == STDIN {
+            sources.push(stdin_source()?);
+        } else {
+            sources.push(Source::File(path.clone()));
+        }
+    }
     sources.extend(c.tables.iter().cloned());
     Ok(calendar::load_sources(&sources, opts)?)
 }
@@ -136,7 +185,12 @@ impl InputArgs {
         // Only iCalendar files need the trades' span (to bound open-ended
         // recurrences); other calendars are read alongside the trades.
         // Errors keep their order: the trades' first.
-        let needs_span = self.calendar.calendar.iter().any(|p| calendar::is_ics(p));
+        // Standard input may hold iCalendar: read it after the trades too.
+        let needs_span = self
+            .calendar
+            .calendar
+            .iter()
+            .any(|p| calendar::is_ics(p) || p.as_os_str() == STDIN);
         let (trades, early) = if needs_span {
             (load_trades(&self.trades, &trade_opts), None)
         } else {

@@ -2,7 +2,7 @@
 //! command line's `run` writes it (the `--out` folder, stdout); a library
 //! caller (the Python package) takes it as it is.
 
-use super::args::ChartArgs;
+use super::args::{ChartArgs, PrintFormat, TerminalArgs};
 use crate::render::output::OutDir;
 use anyhow::Result;
 use std::path::{Path, PathBuf};
@@ -12,6 +12,9 @@ use std::path::{Path, PathBuf};
 pub struct Outcome {
     /// The JSON the command prints with `--json` (analyze: summary.json).
     pub json: String,
+    /// One JSON object per line, one per row (`--format jsonl`: rank's
+    /// runs, tune's cells); empty where a command has no rows to stream.
+    pub jsonl: String,
     /// The terminal table, without colour.
     pub text: String,
     /// The `--out` folder's files other than the charts, by name, in the
@@ -40,23 +43,25 @@ impl Outcome {
     }
 
     /// The command line's delivery for `rank` and `tune`: the `--out`
-    /// folder when one is named, then the JSON (`--json`) or the table on
-    /// stdout; exit status 3 with warnings.
+    /// folder when one is named, then the table, the JSON or the JSON
+    /// lines on stdout; exit status 3 with warnings.
     pub fn deliver(
         &self,
         out: Option<&Path>,
         chart_args: &ChartArgs,
-        json: bool,
+        format: PrintFormat,
+        terminal: &TerminalArgs,
     ) -> Result<std::process::ExitCode> {
         if let Some(dir) = out {
             self.write(dir, chart_args)?;
         }
-        let shown = if json {
-            format!("{}\n", self.json)
-        } else {
-            self.text.clone()
-        };
-        crate::render::output::stdout(shown.as_bytes())?;
+        match format {
+            PrintFormat::Table => terminal.print(&self.text)?,
+            PrintFormat::Json => {
+                crate::render::output::stdout(format!("{}\n", self.json).as_bytes())?
+            }
+            PrintFormat::Jsonl => crate::render::output::stdout(self.jsonl.as_bytes())?,
+        }
         Ok(super::common::exit_status(&self.warnings))
     }
 
@@ -67,4 +72,15 @@ impl Outcome {
             .find(|(n, _)| n == name)
             .map(|(_, b)| b.as_slice())
     }
+}
+
+/// One JSON object per line for each row, compact, each line ending in a
+/// newline (JSON Lines).
+pub fn json_lines<T: serde::Serialize>(rows: &[T]) -> Result<String> {
+    let mut out = String::new();
+    for row in rows {
+        out.push_str(&serde_json::to_string(row)?);
+        out.push('\n');
+    }
+    Ok(out)
 }

@@ -58,9 +58,13 @@ pub struct RankArgs {
     /// Seed of the placebo calendars and the distortion draws.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub seed: u64,
-    /// Print JSON instead of the table.
-    #[arg(long)]
+    /// Print JSON instead of the table (the same as --format json).
+    #[arg(long, conflicts_with = "format")]
     pub json: bool,
+    /// What to print on stdout: table, json, or jsonl (one JSON object per
+    /// line for each run, in the table's order).
+    #[arg(long, value_enum, default_value_t = common::PrintFormat::Table)]
+    pub format: common::PrintFormat,
     /// Write runs.csv (or runs.parquet), chart-rank-shift.svg and report.html here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
@@ -87,7 +91,12 @@ pub enum SortBy {
 pub const DEFAULT_TOP_K: usize = 10;
 
 pub fn run(args: RankArgs) -> Result<std::process::ExitCode> {
-    execute(&args, args.out.is_some())?.deliver(args.out.as_deref(), &args.charts, args.json)
+    execute(&args, args.out.is_some())?.deliver(
+        args.out.as_deref(),
+        &args.charts,
+        args.format.chosen(args.json),
+        &args.terminal,
+    )
 }
 
 /// The ranking and everything it shows, in memory: the JSON, the terminal
@@ -243,6 +252,7 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
         caution: CAUTION,
     };
     outcome.json = serde_json::to_string_pretty(&report)?;
+    outcome.jsonl = super::outcome::json_lines(&report.runs)?;
     outcome.text = crate::render::table::rank(&report, crate::render::term::width());
     Ok(outcome)
 }

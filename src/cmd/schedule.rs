@@ -58,7 +58,7 @@ pub struct ScheduleArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     pub format: Format,
-    /// Write to this file (atomically) instead of stdout.
+    /// Write to this file (atomically) instead of stdout (`-`: stdout).
     #[arg(long, value_name = "FILE")]
     pub output: Option<PathBuf>,
 }
@@ -72,10 +72,11 @@ pub enum Format {
 }
 
 pub fn run(args: ScheduleArgs) -> Result<std::process::ExitCode> {
-    let (format, output, calendars) = (
+    let (format, output, calendars, terminal) = (
         args.format,
         args.output.clone(),
         args.calendar.calendar.clone(),
+        args.terminal.clone(),
     );
     let (outcome, windows) = execute(args)?;
     // On standard error, so that a piped schedule stays clean data.
@@ -88,6 +89,8 @@ pub fn run(args: ScheduleArgs) -> Result<std::process::ExitCode> {
         Format::Csv => outcome.file("schedule.csv").unwrap_or_default(),
         Format::Ics => outcome.file("schedule.ics").unwrap_or_default(),
     };
+    // `--output -` is standard output, as without --output.
+    let output = output.filter(|p| p.as_os_str() != super::load::STDIN);
     match &output {
         Some(path) => {
             let dir = path
@@ -103,9 +106,8 @@ pub fn run(args: ScheduleArgs) -> Result<std::process::ExitCode> {
             crate::render::output::OutDir::new(&dir, &calendars)?.write(&name, bytes)?;
             eprintln!("wrote {windows} window(s) to {}", path.display());
         }
-        None => {
-            crate::render::output::stdout(bytes)?;
-        }
+        None if format == Format::Table => terminal.print(&outcome.text)?,
+        None => crate::render::output::stdout(bytes)?,
     }
     Ok(common::exit_status(&outcome.warnings))
 }

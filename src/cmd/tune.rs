@@ -48,16 +48,25 @@ pub struct TuneArgs {
     /// Show only frontier cells in the table.
     #[arg(long)]
     pub frontier_only: bool,
-    /// Print JSON instead of the table.
-    #[arg(long)]
+    /// Print JSON instead of the table (the same as --format json).
+    #[arg(long, conflicts_with = "format")]
     pub json: bool,
+    /// What to print on stdout: table, json, or jsonl (one JSON object per
+    /// line for each cell, pre-window by pre-window).
+    #[arg(long, value_enum, default_value_t = common::PrintFormat::Table)]
+    pub format: common::PrintFormat,
     /// Write grid.csv, tune.json, chart-tune.svg and report.html here.
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
 }
 
 pub fn run(args: TuneArgs) -> Result<std::process::ExitCode> {
-    execute(&args, args.out.is_some())?.deliver(args.out.as_deref(), &args.charts, args.json)
+    execute(&args, args.out.is_some())?.deliver(
+        args.out.as_deref(),
+        &args.charts,
+        args.format.chosen(args.json),
+        &args.terminal,
+    )
 }
 
 /// The window grid and everything it shows, in memory: the JSON, the
@@ -160,5 +169,6 @@ pub fn execute(args: &TuneArgs, files: bool) -> Result<Outcome> {
             .collect();
     }
     outcome.json = json;
+    outcome.jsonl = super::outcome::json_lines(&report.result.cells)?;
     Ok(outcome)
 }

@@ -10,6 +10,7 @@ use crate::engine::exposure::ExposureRule;
 use crate::engine::relevance::Unmapped;
 use crate::import::table::TableFormat;
 use crate::import::zones::LocalPolicy;
+use crate::render::term::Colour;
 use clap::builder::PossibleValue;
 
 /// `impl clap::ValueEnum` from a list of `Variant => "name"` with an
@@ -28,6 +29,12 @@ macro_rules! value_enum {
         }
     };
 }
+
+value_enum!(Colour {
+    Auto => "auto": "On a terminal, unless NO_COLOR is set",
+    Always => "always": "Always, even into a pipe or with NO_COLOR set",
+    Never => "never": "Never",
+});
 
 value_enum!(TableFormat {
     Csv => "csv",

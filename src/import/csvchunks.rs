@@ -295,7 +295,7 @@ impl<'a> Records<'a> {
 
 /// Reads a file block by block, each block ending at a record boundary.
 pub struct BlockReader {
-    file: File,
+    file: Box<dyn std::io::Read + Send>,
     delim: u8,
     carry: Vec<u8>,
     eof: bool,
@@ -305,13 +305,18 @@ pub struct BlockReader {
 impl BlockReader {
     /// Opens a file to read in blocks.
     pub fn open(path: &Path, delim: u8) -> std::io::Result<BlockReader> {
-        Ok(BlockReader {
-            file: File::open(path)?,
+        Ok(BlockReader::from_reader(Box::new(File::open(path)?), delim))
+    }
+
+    /// Reads blocks from any byte source (standard input, bytes in memory).
+    pub fn from_reader(file: Box<dyn std::io::Read + Send>, delim: u8) -> BlockReader {
+        BlockReader {
+            file,
             delim,
             carry: Vec::new(),
             eof: false,
             block_bytes: BLOCK_BYTES,
-        })
+        }
     }
 
     /// Smaller blocks, for tests of the boundary logic.

@@ -237,6 +237,15 @@ mod parquet {
 pub enum Source {
     /// A file, read by its extension (Parquet) or as delimited text.
     File(PathBuf),
+    /// Bytes already read whole, such as standard input (`-`): delimited
+    /// text, or for a calendar an iCalendar file (told by its first line).
+    Bytes {
+        /// How messages name it (`stdin`); with several trade inputs, also
+        /// its run's name.
+        name: String,
+        /// The bytes.
+        bytes: std::sync::Arc<[u8]>,
+    },
     /// A table in memory; its columns keep their types as Parquet's do.
     Frame {
         /// How messages name it (for example `trades table 1`).
@@ -251,7 +260,7 @@ impl Source {
     pub fn path(&self) -> PathBuf {
         match self {
             Source::File(p) => p.clone(),
-            Source::Frame { name, .. } => PathBuf::from(name),
+            Source::Frame { name, .. } | Source::Bytes { name, .. } => PathBuf::from(name),
         }
     }
 
@@ -293,8 +302,13 @@ impl Table {
                 problems: Vec::new(),
             });
         }
+        Table::read_bytes(std::fs::read(path)?, delimiter)
+    }
+
+    /// Reads delimited text already in memory, as [`Table::read`] reads a
+    /// CSV file.
+    pub fn read_bytes(mut bytes: Vec<u8>, delimiter: Option<u8>) -> Result<Table, TableError> {
         use crate::import::csvchunks::{self, Parsed, Record, Records, ScanError};
-        let mut bytes = std::fs::read(path)?;
         if bytes.is_empty() {
             return Err(ScanError::Empty.into());
         }

@@ -448,7 +448,7 @@ pub fn load_sources(
         let path = source.path();
         sink.summary.files.push(path.display().to_string());
         let file_run = run_per_file.then(|| match source {
-            Source::Frame { name, .. } => name.clone(),
+            Source::Frame { name, .. } | Source::Bytes { name, .. } => name.clone(),
             Source::File(_) => path
                 .file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
@@ -467,6 +467,24 @@ pub fn load_sources(
                 read_parquet(path, opts, &mut sink)?
             }
             Source::File(path) => read_csv(path, opts, &mut sink)?,
+            Source::Bytes { bytes, .. } if bytes.starts_with(b"PAR1") => {
+                return Err(TradeError::Read {
+                    path,
+                    message: "Parquet is read from a file, not from standard input: name the file"
+                        .into(),
+                });
+            }
+            Source::Bytes { bytes, .. } => {
+                let reader = std::io::Cursor::new(bytes.clone());
+                read_delimited(
+                    &path,
+                    Box::new(reader),
+                    &bytes[..bytes.len().min(64 * 1024)],
+                    None,
+                    opts,
+                    &mut sink,
+                )?
+            }
         }
     }
     let Sink {
@@ -1280,31 +1298,49 @@ fn read_table(
 
 /// A delimited text file, in blocks parsed on every core.
 fn read_csv(path: &Path, opts: &TradeOptions, sink: &mut Sink) -> Result<(), TradeError> {
+    let io = |e: std::io::Error| TradeError::Read {
+        path: path.to_path_buf(),
+        message: e.to_string(),
+    };
+    let mut head = Vec::with_capacity(64 * 1024);
+    if opts.delimiter.is_none() {
+        std::fs::File::open(path)
+            .and_then(|f| f.take(64 * 1024).read_to_end(&mut head))
+            .map_err(io)?;
+    }
+    let file = std::fs::File::open(path).map_err(io)?;
+    // Room for the whole file (the memory budget's row estimate): the
+    // columns then grow once instead of doubling (which can leave up to half
+    // of each column as unused capacity on a large input).
+    let rows = crate::import::budget::estimate_rows(path).ok();
+    read_delimited(path, Box::new(file), &head, rows, opts, sink)
+}
+
+/// Delimited text from `input` (a file, or standard input's bytes) in
+/// blocks parsed on every core; `head` is its start, for guessing the
+/// delimiter when none is set; `rows` an estimate of its row count.
+fn read_delimited(
+    path: &Path,
+    input: Box<dyn std::io::Read + Send>,
+    head: &[u8],
+    rows: Option<u64>,
+    opts: &TradeOptions,
+    sink: &mut Sink,
+) -> Result<(), TradeError> {
     let err = |message: String| TradeError::Read {
         path: path.to_path_buf(),
         message,
     };
-    let io = |e: std::io::Error| err(e.to_string());
-    let sep = match opts.delimiter {
-        Some(d) => d,
-        None => {
-            let mut head = Vec::with_capacity(64 * 1024);
-            std::fs::File::open(path)
-                .and_then(|f| f.take(64 * 1024).read_to_end(&mut head))
-                .map_err(io)?;
-            csvchunks::sniff_delimiter(&head)
-        }
-    };
-    let mut reader = csvchunks::BlockReader::open(path, sep).map_err(io)?;
+    let sep = opts
+        .delimiter
+        .unwrap_or_else(|| csvchunks::sniff_delimiter(head));
+    let mut reader = csvchunks::BlockReader::from_reader(input, sep);
     let mut first = reader
         .next_block(None)
         .map_err(|e| err(e.to_string()))?
         .ok_or_else(|| err(ScanError::Empty.to_string()))?;
     let header = csvchunks::take_header(&mut first, sep).map_err(|e| err(e.to_string()))?;
-    // Room for the whole file (the memory budget's row estimate): the
-    // columns then grow once instead of doubling (which can leave up to half
-    // of each column as unused capacity on a large input).
-    if let Ok(rows) = crate::import::budget::estimate_rows(path) {
+    if let Some(rows) = rows {
         sink.trades.reserve((rows as f64 * 1.02) as usize);
     }
     let names = &header.names;

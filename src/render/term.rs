@@ -1,12 +1,32 @@
 //! Terminal emphasis: bold for the one-sentence answer, bold blue for
-//! warnings — only on a terminal and never when NO_COLOR is set
-//! (<https://no-color.org> convention: any non-empty value).
+//! warnings. By default only on a terminal and never when NO_COLOR is set
+//! (<https://no-color.org> convention: any non-empty value); `--color`
+//! overrides both.
 
 use std::io::IsTerminal;
 
-/// Whether stdout gets colour.
-pub fn use_colour() -> bool {
-    std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()) && std::io::stdout().is_terminal()
+/// When the terminal text gets emphasis (`--color`).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub enum Colour {
+    /// On a terminal, unless NO_COLOR is set to a non-empty value.
+    #[default]
+    Auto,
+    /// Always, even into a pipe or with NO_COLOR set.
+    Always,
+    /// Never.
+    Never,
+}
+
+/// Whether stdout gets colour under `choice`.
+pub fn use_colour(choice: Colour) -> bool {
+    match choice {
+        Colour::Always => true,
+        Colour::Never => false,
+        Colour::Auto => {
+            std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty())
+                && std::io::stdout().is_terminal()
+        }
+    }
 }
 
 /// The terminal's width in columns: `COLUMNS` when set to a number, else

@@ -244,6 +244,24 @@ pub fn load_sources(sources: &[Source], opts: &CalendarOptions) -> Result<Calend
                 ics::read(path, opts, &mut releases, &mut summary)?
             }
             Source::File(path) => csv::read(path, opts, &mut releases, &mut summary)?,
+            Source::Bytes { name, bytes } if looks_like_ics(bytes) => {
+                ics::read_bytes(bytes, name, opts, &mut releases, &mut summary).map_err(
+                    |message| CalendarError::Format {
+                        path: path.clone(),
+                        message: message.to_string(),
+                    },
+                )?
+            }
+            Source::Bytes { bytes, .. } => {
+                let table =
+                    Table::read_bytes(bytes.to_vec(), opts.delimiter).map_err(|message| {
+                        CalendarError::Format {
+                            path: path.clone(),
+                            message: message.to_string(),
+                        }
+                    })?;
+                csv::read_table(&table, &path, opts, &mut releases, &mut summary)?
+            }
             Source::Frame { frame, .. } => csv::read_table(
                 &Table::from_frame(frame.clone()),
                 &path,
@@ -270,6 +288,20 @@ pub fn load_sources(sources: &[Source], opts: &CalendarOptions) -> Result<Calend
     let releases = merge_duplicates(releases, &mut summary);
     summary.releases = releases.len();
     Ok(Calendar { releases, summary })
+}
+
+/// Whether bytes without a file name (standard input) are an iCalendar
+/// file: its first line, after a byte-order mark and blank space, is
+/// `BEGIN:VCALENDAR` (RFC 5545 §3.4; names are case-insensitive, §2).
+pub fn looks_like_ics(bytes: &[u8]) -> bool {
+    let rest = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let start = rest
+        .iter()
+        .position(|b| !b.is_ascii_whitespace())
+        .unwrap_or(rest.len());
+    rest[start..]
+        .get(..15)
+        .is_some_and(|head| head.eq_ignore_ascii_case(b"BEGIN:VCALENDAR"))
 }
 
 /// Whether a calendar file is read as iCalendar (by its extension).
