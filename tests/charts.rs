@@ -74,7 +74,7 @@ fn every_chart_renders_with_its_series() {
     for (label, colour) in [
         ("baseline", "#1B4F8A"),
         ("removed", "#23947C"),
-        ("capped", "#A34F95"),
+        ("capped", "#A878D8"),
     ] {
         assert!(
             texts(&eq).iter().any(|x| x == label),
@@ -267,4 +267,119 @@ fn stressed_scenario_in_the_charts_and_report() {
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     assert!(summary["tail"]["stressed"]["tcr"].is_number());
     assert!(summary["scenarios"]["stressed"]["net"].is_number());
+}
+
+/// The equity chart's time axis is in dates: its labels are the months
+/// from the demo's first close (January 2021) to its last (2024), in
+/// order, under "close date (UTC)".
+#[test]
+fn equity_time_axis_is_in_dates() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("a");
+    demo("analyze", &out, &["--placebo", "0", "--bootstrap", "0"]);
+    let eq = texts(&svg(&out.join("chart-equity.svg")));
+    assert!(eq.iter().any(|t| t == "close date (UTC)"), "{eq:?}");
+    assert!(!eq.iter().any(|t| t.contains("days since")));
+    let months: Vec<&String> = eq
+        .iter()
+        .filter(|t| {
+            t.len() == 7
+                && t.as_bytes()[4] == b'-'
+                && t[..4].parse::<u32>().is_ok()
+                && t[5..].parse::<u32>().is_ok_and(|m| (1..=12).contains(&m))
+        })
+        .collect();
+    assert!(months.len() >= 4, "{eq:?}");
+    assert!(months.windows(2).all(|w| w[0] < w[1]), "{months:?}");
+    assert!(months[0].as_str() >= "2021-01" && months.last().unwrap().as_str() <= "2025-01");
+}
+
+/// The tune heat map carries its colour scale: a labelled gradient from
+/// the grid's least to its greatest TCR reduction (tune.json's cells).
+#[test]
+fn tune_heat_map_has_a_colour_scale() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("t");
+    demo("tune", &out, &["--pre", "0..30/15", "--post", "0..60/30"]);
+    let hm = svg(&out.join("chart-tune.svg"));
+    let t = texts(&hm);
+    assert!(t.iter().any(|x| x == "TCR reduction"), "{t:?}");
+    let tune: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("tune.json")).unwrap()).unwrap();
+    let reductions: Vec<f64> = tune["cells"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|c| c["tcr_reduction"].as_f64())
+        .collect();
+    let (lo, hi) = reductions
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+            (a.min(v), b.max(v))
+        });
+    // Scale labels are numbers inside [lo, hi] (plus the range's margin).
+    let labels: Vec<f64> = t.iter().filter_map(|x| x.parse::<f64>().ok()).collect();
+    let pad = (hi - lo) * 0.1 + 0.01;
+    let on_scale = labels
+        .iter()
+        .filter(|v| **v >= lo - pad && **v <= hi + pad && v.fract() != 0.0)
+        .count();
+    assert!(
+        on_scale >= 2,
+        "scale labels {labels:?} for range {lo}..{hi}"
+    );
+    // 9 cells + 48 scale steps, all filled rectangles.
+    let doc = roxmltree::Document::parse(&hm).unwrap();
+    let filled = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("rect") && n.attribute("fill").is_some_and(|f| f != "none"))
+        .count();
+    assert!(filled >= 9 + 48, "{filled} filled rectangles");
+}
+
+/// A bar chart shows no row for a group with nothing attributed: one run
+/// (p01) with one-minute windows leaves categories and currencies untouched.
+#[test]
+fn bar_charts_have_no_empty_rows() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("a");
+    demo(
+        "analyze",
+        &out,
+        &[
+            "--placebo",
+            "0",
+            "--bootstrap",
+            "0",
+            "--run",
+            "p01",
+            "--window",
+            "high=0/1",
+            "--window",
+            "medium=0/1",
+        ],
+    );
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let cats = summary["attribution"]["by_category"].as_object().unwrap();
+    let nonzero: Vec<&String> = cats
+        .iter()
+        .filter(|(_, g)| g["attributed_pnl"].as_f64() != Some(0.0))
+        .map(|(k, _)| k)
+        .collect();
+    assert!(nonzero.len() < cats.len(), "the case has an empty group");
+    let bars = svg(&out.join("chart-by-category.svg"));
+    assert_eq!(
+        count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#70438F"),
+        nonzero.len()
+    );
+    let t = texts(&bars);
+    for (k, g) in cats {
+        let shown = t.iter().any(|x| x == k);
+        assert_eq!(shown, g["attributed_pnl"].as_f64() != Some(0.0), "{k}");
+    }
+    // Only USD has attributed P/L here: one bar, three currencies left out.
+    let curs = texts(&svg(&out.join("chart-by-currency.svg")));
+    assert!(curs.iter().any(|x| x == "USD"));
+    assert!(!curs.iter().any(|x| x == "EUR" || x == "GBP" || x == "JPY"));
 }

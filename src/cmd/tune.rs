@@ -129,8 +129,9 @@ pub fn execute(args: &TuneArgs, files: bool) -> Result<Outcome> {
                 &|a, b| cell(a, b).tcr_reduction,
                 &|a, b| cell(a, b).frontier,
                 "Tail reduction by window (frontier outlined)",
+                "TCR reduction",
             )?;
-            vec![crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more; outlined cells are on the cost/benefit frontier.".into(), svg }]
+            vec![crate::render::Figure { id: "tune", caption: "Darker cells cut the tail concentration more (the scale on the right gives the reduction); outlined cells are on the cost/benefit frontier; grey cells have no value.".into(), svg }]
         };
         #[cfg(not(feature = "charts"))]
         let figures: Vec<crate::render::Figure> = Vec::new();

@@ -6,14 +6,14 @@ use plotters::prelude::*;
 
 /// Our palette, named by us: harbour (baseline), kelp (removed), heather
 /// (capped), marigold (exposed trades), plum (negative bars), and grey
-/// release ticks. The hues are spread so that the three scenarios stay
-/// apart under the common colour-vision deficiencies (checked by eye in a
-/// deuteranopia/protanopia simulation, not against a published palette);
-/// each scenario also has its own line pattern, so charts read in
-/// greyscale. Tiers are never colour-coded.
+/// release ticks. The four scenario colours stay at least 15 CAM02-UCS
+/// units apart under simulated protan, deutan and tritan vision (Machado et
+/// al. 2009, computed with colorspacious: tests/palette.rs and its
+/// fixture script); each scenario also has its own line pattern, so charts
+/// read in greyscale. Tiers are never colour-coded.
 pub const BASELINE: RGBColor = RGBColor(0x1b, 0x4f, 0x8a);
 pub const REMOVED: RGBColor = RGBColor(0x23, 0x94, 0x7c);
-pub const CAPPED: RGBColor = RGBColor(0xa3, 0x4f, 0x95);
+pub const CAPPED: RGBColor = RGBColor(0xa8, 0x78, 0xd8);
 pub const EXPOSED: RGBColor = RGBColor(0xdc, 0x9a, 0x26);
 pub const TICK: RGBColor = RGBColor(0xbb, 0xbb, 0xbb);
 pub const NEGATIVE: RGBColor = RGBColor(0x70, 0x43, 0x8f);
@@ -63,11 +63,12 @@ fn scenario_line<'a, DB, X, Y>(
     c: &mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
     i: usize,
     name: &str,
-    pts: Vec<(f64, f64)>,
+    pts: Vec<(X::ValueType, f64)>,
 ) -> Result<(), ChartError>
 where
     DB: DrawingBackend + 'a,
-    X: plotters::coord::ranged1d::Ranged<ValueType = f64>,
+    X: plotters::coord::ranged1d::Ranged,
+    X::ValueType: Clone + 'static,
     Y: plotters::coord::ranged1d::Ranged<ValueType = f64>,
 {
     let col = [BASELINE, REMOVED, CAPPED, EXPOSED][i % 4];
@@ -213,14 +214,22 @@ pub fn tail_curve(baseline: &[(f64, bool)], removed: &[f64], caption: &str) -> R
     Ok(s)
 }
 
-/// Equity curves (cumulative P/L against days since the first open), with
-/// faint vertical ticks at top-tier releases.
-pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &str) -> Res {
+/// Equity curves (cumulative P/L against the close date, UTC), with faint
+/// vertical ticks at top-tier releases. Points are (instant in ms, P/L).
+pub fn equity(curves: &[(&str, Vec<(i64, f64)>)], ticks_ms: &[i64], caption: &str) -> Res {
+    use chrono::{DateTime, Utc};
+    let at = |ms: i64| DateTime::<Utc>::from_timestamp_millis(ms).unwrap_or_default();
     let mut s = String::new();
     {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
-        let (x0, x1) = range(curves.iter().flat_map(|c| c.1.iter().map(|p| p.0)));
+        let instants = curves.iter().flat_map(|c| c.1.iter().map(|p| p.0));
+        let (x0, x1) = (
+            instants.clone().min().unwrap_or(0),
+            instants.max().unwrap_or(0),
+        );
+        // At least a day wide, so that one day's trades still draw.
+        let x1 = x1.max(x0 + crate::report::types::DAY_MS);
         let (y0, y1) = range(
             curves
                 .iter()
@@ -232,27 +241,40 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
             .margin(12)
             .x_label_area_size(36)
             .y_label_area_size(70)
-            .build_cartesian_2d(x0..x1, y0..y1)
+            .build_cartesian_2d(at(x0)..at(x1), y0..y1)
             .map_err(err)?;
+        let span_days = (x1 - x0) / crate::report::types::DAY_MS;
+        let date_label = move |d: &DateTime<Utc>| {
+            if span_days > 730 {
+                d.format("%Y-%m").to_string()
+            } else {
+                d.format("%Y-%m-%d").to_string()
+            }
+        };
         c.configure_mesh()
-            .x_desc("days since first open")
-            .x_label_formatter(&axis_number)
+            .x_desc("close date (UTC)")
+            .x_labels(7)
+            .x_label_formatter(&date_label)
             .y_desc("cumulative P/L")
             .y_label_formatter(&axis_number)
             .light_line_style(WHITE)
             .draw()
             .map_err(err)?;
         c.draw_series(
-            thin(ticks_days, 400)
+            thin(ticks_ms, 400)
                 .into_iter()
-                .filter(|d| *d >= x0 && *d <= x1)
-                .map(|d| PathElement::new(vec![(d, y0), (d, y1)], TICK.mix(0.5))),
+                .filter(|t| *t >= x0 && *t <= x1)
+                .map(|t| PathElement::new(vec![(at(t), y0), (at(t), y1)], TICK.mix(0.5))),
         )
         .map_err(err)?
         .label("top-tier release")
         .legend(|(x, y)| PathElement::new(vec![(x + 9, y - 6), (x + 9, y + 6)], TICK));
         for (i, (name, pts)) in curves.iter().enumerate() {
-            scenario_line(&mut c, i, name, thin(pts, 1500))?;
+            let pts: Vec<(DateTime<Utc>, f64)> = thin(pts, 1500)
+                .into_iter()
+                .map(|(t, v)| (at(t), v))
+                .collect();
+            scenario_line(&mut c, i, name, pts)?;
         }
         c.configure_series_labels()
             .position(SeriesLabelPosition::UpperLeft)
@@ -265,8 +287,11 @@ pub fn equity(curves: &[(&str, Vec<(f64, f64)>)], ticks_days: &[f64], caption: &
     Ok(s)
 }
 
-/// Signed horizontal bars (attributed P/L by group).
+/// Signed horizontal bars (attributed P/L by group). Groups with nothing
+/// attributed get no row (an empty row reads as a missing bar); with none
+/// left the chart says so.
 pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
+    let items: Vec<(String, f64)> = items.iter().filter(|x| x.1 != 0.0).cloned().collect();
     let mut s = String::new();
     {
         let h = (80 + 28 * items.len().max(1)) as u32;
@@ -306,6 +331,14 @@ pub fn bars(items: &[(String, f64)], caption: &str) -> Res {
             r
         }))
         .map_err(err)?;
+        if items.is_empty() {
+            root.draw(&Text::new(
+                "no P/L attributed to releases",
+                (SIZE.0 as i32 / 2 - 110, 100),
+                (FONT, 15),
+            ))
+            .map_err(err)?;
+        }
         root.present().map_err(err)?;
     }
     Ok(s)
@@ -378,20 +411,37 @@ pub fn scatter(
     Ok(s)
 }
 
-/// Heat map of tail reduction over the pre × post grid, frontier cells outlined.
+/// The heat map's colour for a value's position `shade` (0 = lowest, 1 =
+/// highest) between the grid's least and greatest value: white to dark
+/// blue.
+fn heat_colour(shade: f64) -> RGBColor {
+    let shade = shade.clamp(0.0, 1.0);
+    let mix = |w: u8, d: u8| (w as f64 + (d as f64 - w as f64) * shade) as u8;
+    RGBColor(
+        mix(0xf4, BASELINE.0),
+        mix(0xf7, BASELINE.1),
+        mix(0xfb, BASELINE.2),
+    )
+}
+
+/// Heat map of tail reduction over the pre × post grid, frontier cells
+/// outlined, with a colour scale (`scale_label` names the value); cells
+/// without a value are grey.
 pub fn heatmap(
     pre: &[i64],
     post: &[i64],
     value: &dyn Fn(usize, usize) -> Option<f64>,
     frontier: &dyn Fn(usize, usize) -> bool,
     caption: &str,
+    scale_label: &str,
 ) -> Res {
     let mut s = String::new();
     {
         let root = SVGBackend::with_string(&mut s, SIZE).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
-        let mut c = ChartBuilder::on(&root)
-            .caption(caption, (FONT, 18))
+        let root = root.titled(caption, (FONT, 18)).map_err(err)?;
+        let (grid_area, scale_area) = root.split_horizontally(SIZE.0 - 120);
+        let mut c = ChartBuilder::on(&grid_area)
             .margin(12)
             .x_label_area_size(36)
             .y_label_area_size(50)
@@ -414,16 +464,7 @@ pub fn heatmap(
         let (lo, hi) = range(vals.into_iter());
         for a in 0..pre.len() {
             for b in 0..post.len() {
-                let shade = value(a, b)
-                    .map(|v| ((v - lo) / (hi - lo)).clamp(0.0, 1.0))
-                    .unwrap_or(0.0);
-                // White to dark blue.
-                let mix = |w: u8, d: u8| (w as f64 + (d as f64 - w as f64) * shade) as u8;
-                let col = RGBColor(
-                    mix(0xf4, BASELINE.0),
-                    mix(0xf7, BASELINE.1),
-                    mix(0xfb, BASELINE.2),
-                );
+                let col = value(a, b).map_or(TICK, |v| heat_colour((v - lo) / (hi - lo)));
                 c.draw_series(std::iter::once(Rectangle::new(
                     [(b, a), (b + 1, a + 1)],
                     col.filled(),
@@ -438,6 +479,33 @@ pub fn heatmap(
                 }
             }
         }
+        // The scale: the same colours from the least to the greatest value.
+        let mut k = ChartBuilder::on(&scale_area)
+            .margin_top(12)
+            .margin_bottom(48)
+            .margin_right(8)
+            .y_label_area_size(62)
+            .build_cartesian_2d(0.0..1.0, lo..hi)
+            .map_err(err)?;
+        k.configure_mesh()
+            .disable_mesh()
+            .disable_x_axis()
+            .y_labels(6)
+            .y_label_formatter(&axis_number)
+            .y_label_style((FONT, 12))
+            .axis_desc_style((FONT, 13))
+            .y_desc(scale_label)
+            .draw()
+            .map_err(err)?;
+        const STEPS: usize = 48;
+        k.draw_series((0..STEPS).map(|i| {
+            let (f0, f1) = (i as f64 / STEPS as f64, (i + 1) as f64 / STEPS as f64);
+            Rectangle::new(
+                [(0.0, lo + (hi - lo) * f0), (1.0, lo + (hi - lo) * f1)],
+                heat_colour((f0 + f1) / 2.0).filled(),
+            )
+        }))
+        .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(s)
@@ -624,7 +692,6 @@ pub struct AnalyzeCharts<'a> {
 pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::Figure>, ChartError> {
     use super::Figure;
     let s = d.summary;
-    let day = crate::report::types::DAY_MS as f64;
     let t = &s.tail;
     let what = match t.tcr_basis {
         crate::report::types::TailBasis::Amount => "|P/L|",
@@ -638,22 +705,17 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::Figure>, ChartErr
     );
     let eq = |c: &[(i64, f64)]| {
         let mut acc = 0.0;
-        std::iter::once((0.0, 0.0))
+        std::iter::once((d.span_start, 0.0))
             .chain(c.iter().map(|&(t, p)| {
                 acc += p;
-                ((t - d.span_start) as f64 / day, acc)
+                (t, acc)
             }))
             .collect::<Vec<_>>()
     };
-    let curves: Vec<(&str, Vec<(f64, f64)>)> = ["baseline", "removed", "capped", "stressed"]
+    let curves: Vec<(&str, Vec<(i64, f64)>)> = ["baseline", "removed", "capped", "stressed"]
         .into_iter()
         .zip(d.curves)
         .map(|(name, c)| (name, eq(c)))
-        .collect();
-    let ticks: Vec<f64> = d
-        .high_releases
-        .iter()
-        .map(|&t| (t - d.span_start) as f64 / day)
         .collect();
     let cats: Vec<(String, f64)> = s
         .attribution
@@ -695,7 +757,7 @@ pub fn analyze_figures(d: &AnalyzeCharts) -> Result<Vec<super::Figure>, ChartErr
             },
             svg: equity(
                 &curves,
-                &ticks,
+                &d.high_releases,
                 if d.summary.account_figures == crate::report::types::AccountFigures::PerRun {
                     "Summed P/L of all runs: baseline, removed, capped"
                 } else {
