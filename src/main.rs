@@ -32,7 +32,7 @@ enum Command {
 
 fn main() -> ExitCode {
     eventfence::render::output::mark_process_start();
-    let cli = Cli::parse();
+    let cli = parse();
     let result = match cli.command {
         Command::Analyze(a) => cmd::analyze::run(*a),
         Command::Check(a) => cmd::check::run(*a),
@@ -40,18 +40,16 @@ fn main() -> ExitCode {
         Command::Schedule(a) => cmd::schedule::run(*a),
         Command::Tune(a) => cmd::tune::run(*a),
         Command::Man => {
-            use clap::CommandFactory;
             let mut buf = Vec::new();
-            clap_mangen::Man::new(Cli::command())
+            clap_mangen::Man::new(command())
                 .render(&mut buf)
                 .map_err(anyhow::Error::from)
                 .and_then(|_| eventfence::render::output::stdout(&buf).map_err(anyhow::Error::from))
                 .map(|_| ExitCode::SUCCESS)
         }
         Command::Completions { shell } => {
-            use clap::CommandFactory;
             let mut buf = Vec::new();
-            clap_complete::generate(shell, &mut Cli::command(), "eventfence", &mut buf);
+            clap_complete::generate(shell, &mut command(), "eventfence", &mut buf);
             eventfence::render::output::stdout(&buf)
                 .map(|_| ExitCode::SUCCESS)
                 .map_err(anyhow::Error::from)
@@ -72,11 +70,35 @@ fn main() -> ExitCode {
     }
 }
 
+/// The command line, with the shared flags that do nothing in a subcommand
+/// kept out of its help: `schedule` reads trades only for their
+/// instruments, so `--keep` (columns for per-trade outputs) is hidden
+/// there, and refused with a message if given.
+fn command() -> clap::Command {
+    use clap::CommandFactory;
+    Cli::command().mut_subcommand("schedule", |s| s.mut_arg("keep", |a| a.hide(true)))
+}
+
+fn parse() -> Cli {
+    use clap::FromArgMatches;
+    Cli::from_arg_matches(&command().get_matches()).unwrap_or_else(|e| e.exit())
+}
+
 #[cfg(test)]
 mod tests {
     #[test]
     fn cli_definition_is_consistent() {
         use clap::CommandFactory;
         super::Cli::command().debug_assert();
+    }
+
+    #[test]
+    fn schedule_help_leaves_out_keep() {
+        let help = super::command()
+            .find_subcommand_mut("schedule")
+            .unwrap()
+            .render_long_help()
+            .to_string();
+        assert!(!help.contains("--keep") && help.contains("--instruments"));
     }
 }

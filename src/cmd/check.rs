@@ -44,7 +44,10 @@ pub fn run(args: CheckArgs) -> Result<std::process::ExitCode> {
     let loaded = if args.input.trades.trades.is_empty() {
         None
     } else {
-        Some(common::load_trades(&args.input.trades, &trade_opts)?)
+        let spin = common::spinner(&args.terminal, "reading trades");
+        let read = common::load_trades(&args.input.trades, &trade_opts)?;
+        spin.finish_and_clear();
+        Some(read)
     };
     let span = loaded.as_ref().and_then(|(t, _)| t.span());
     let cal_opts = common::calendar_options(
