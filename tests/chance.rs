@@ -4,6 +4,7 @@
 //!   make_bootstrap_fixture.py, numpy 2.4.6) on the same resample indices.
 //! - Placebo p-values are roughly uniform when exposure carries no effect,
 //!   and small when an effect is planted.
+//! - The seeded bootstrap does not depend on the order of the input rows.
 
 use eventfence::analysis::evidence::{self, PlaceboSettings};
 use eventfence::analysis::metrics::Context;
@@ -15,6 +16,8 @@ use eventfence::import::trades::Trades;
 use eventfence::import::zones::{DAY_MS, MINUTE_MS, Zone};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
+
+mod common;
 
 fn trades_from(opened: Vec<i64>, closed: Vec<i64>, pnl: Vec<f64>) -> Trades {
     let n = pnl.len();
@@ -198,4 +201,37 @@ fn placebo_finds_a_planted_release_effect() {
         let p = placebo_p(seed, 30.0, 299);
         assert!(p < 0.01, "seed {seed}: p = {p}");
     }
+}
+
+/// Resample counts are laid out by close order, not by input row: the demo
+/// with its rows reversed gives the same intervals for the same seed.
+#[test]
+fn bootstrap_intervals_ignore_row_order() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = std::fs::read_to_string(common::root().join("demo/trades.csv")).unwrap();
+    let mut lines: Vec<&str> = demo.lines().collect();
+    lines[1..].reverse();
+    let reversed = dir.path().join("reversed.csv");
+    std::fs::write(&reversed, lines.join("\n") + "\n").unwrap();
+    let run = |trades: &std::path::Path| -> serde_json::Value {
+        let r = common::root();
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_eventfence"))
+            .arg("analyze")
+            .arg("--trades")
+            .arg(trades)
+            .args(["--trades-tz", "America/New_York+07:00", "--calendar"])
+            .arg(r.join("calendars/demo-usd.ics"))
+            .arg(r.join("calendars/demo-eur.csv"))
+            .arg(r.join("calendars/demo-gbp-jpy.ics"))
+            .args(["--calendar-tz", "Europe/Berlin", "--instrument-map-file"])
+            .arg(r.join("demo/instruments.json"))
+            .args(["--placebo", "0", "--bootstrap", "60", "--json", "--quiet"])
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        serde_json::from_slice::<serde_json::Value>(&o.stdout).unwrap()["bootstrap"].clone()
+    };
+    let (a, b) = (run(&common::root().join("demo/trades.csv")), run(&reversed));
+    assert_eq!(a["intervals"]["net"]["replicates"], 60);
+    assert_eq!(a, b);
 }

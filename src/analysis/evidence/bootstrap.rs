@@ -3,7 +3,7 @@
 use crate::analysis::metrics::{self, Context, quantile_type7};
 use crate::analysis::scenarios::{self, ScenarioSettings, TradeView};
 use crate::import::trades::Trades;
-use rand::{Rng, RngExt, SeedableRng};
+use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -112,21 +112,156 @@ pub fn percentile_interval(
     (quantile_type7(&v, a), quantile_type7(&v, 1.0 - a), v.len())
 }
 
-/// Resample `r` of a seeded bootstrap: n indices drawn with replacement
-/// from ChaCha8 stream `r` of `seed`, so each resample is drawn on its own
-/// (in any order, on any thread) and only the ones being evaluated are held
-/// in memory — 2 000 resamples of 10 million trades would otherwise take
+/// Resample `r` of a seeded bootstrap as trade indices: each trade's
+/// count from [`draw_counts`] (by position in `order`, the close order),
+/// that trade repeated as often. Each resample is drawn on its own (in any
+/// order, on any thread) and only the ones being evaluated are held in
+/// memory — 2 000 resamples of 10 million trades would otherwise take
 /// 80 GB.
-pub fn resample(n: usize, seed: u64, r: usize) -> Vec<u32> {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    rng.set_stream(r as u64);
-    (0..n).map(|_| rng.random_range(0..n as u32)).collect()
+pub fn resample(order: &[u32], seed: u64, r: usize) -> Vec<u32> {
+    let mut counts: Vec<u32> = Vec::new();
+    let fits = draw_counts(order.len(), seed, r, &mut counts);
+    debug_assert!(fits, "u32 counts hold any resample");
+    let mut out = Vec::with_capacity(order.len());
+    for (&i, &c) in order.iter().zip(&counts) {
+        out.extend(std::iter::repeat_n(i, c as usize));
+    }
+    out
+}
+
+/// A per-trade draw count: one byte in the weighted pass (a resample that
+/// draws a trade 256 times or more goes to the slow path), four elsewhere.
+pub trait DrawCount: Copy {
+    /// No draw.
+    const ZERO: Self;
+    /// A count of at most 64 (a Poisson step count), which every count
+    /// type holds.
+    fn small(k: u32) -> Self;
+    /// Adds `by` draws; false when the count would not fit.
+    fn bump(&mut self, by: u32) -> bool;
+}
+
+impl DrawCount for u8 {
+    const ZERO: u8 = 0;
+    #[inline(always)]
+    fn small(k: u32) -> u8 {
+        k as u8
+    }
+    #[inline(always)]
+    fn bump(&mut self, by: u32) -> bool {
+        match u8::try_from(by).ok().and_then(|b| self.checked_add(b)) {
+            Some(v) => {
+                *self = v;
+                true
+            }
+            None => false,
+        }
+    }
+}
+
+impl DrawCount for u32 {
+    const ZERO: u32 = 0;
+    #[inline(always)]
+    fn small(k: u32) -> u32 {
+        k
+    }
+    #[inline(always)]
+    fn bump(&mut self, by: u32) -> bool {
+        match self.checked_add(by) {
+            Some(v) => {
+                *self = v;
+                true
+            }
+            None => false,
+        }
+    }
+}
+
+/// How many times resample `r` of `seed` draws each of `n` trades, into
+/// `counts` (index: position in close order); false when a count does not
+/// fit its type.
+///
+/// The counts are those of n draws with replacement, each of the n trades
+/// equally likely (a multinomial count vector), made without n random
+/// writes: every position gets a Poisson(λ) count in turn, λ = 1 − 4/√n
+/// (at least ½), read off one 32-bit word of ChaCha8 stream `r` of `seed`
+/// against the Poisson distribution function scaled to 2⁶⁴ (a second word
+/// settles the ~2 % of words near a step or past the fourth); when the
+/// counts add up to more than n (probability ≈ 3·10⁻⁵ for large n) all are
+/// drawn again from the same stream; then the n − total missing draws go
+/// to uniformly drawn positions. Given their total s, independent Poisson
+/// counts are multinomial with s draws, equally likely trades (whatever λ);
+/// adding n − s independent uniform draws makes n. λ below 1 makes the
+/// redraw rare; the number of positions drawn one by one is about 4√n.
+/// Thresholds are computed in double precision (the probabilities are
+/// exact to about 10⁻¹⁶).
+pub fn draw_counts<C: DrawCount>(n: usize, seed: u64, r: usize, counts: &mut Vec<C>) -> bool {
+    counts.clear();
+    counts.resize(n, C::ZERO);
+    if n == 0 {
+        return true;
+    }
+    let steps = poisson_steps(n);
+    let hi: [u32; 4] = std::array::from_fn(|k| (steps[k] >> 32) as u32);
+    let mut words = Words::new(seed, r as u64);
+    let total = loop {
+        let mut total = 0u64;
+        for c in counts.iter_mut() {
+            let w = words.next_word();
+            // Below the fourth step and on no step's high word (98 % of
+            // words): the steps below w, counted without a branch.
+            let k = if w < hi[3] && w != hi[0] && w != hi[1] && w != hi[2] {
+                (w > hi[0]) as u32 + (w > hi[1]) as u32 + (w > hi[2]) as u32
+            } else {
+                // On a step's high word, or past the fourth: the full
+                // 64-bit value decides.
+                let u = (w as u64) << 32 | words.next_word() as u64;
+                steps.iter().take_while(|&&t| u >= t).count() as u32
+            };
+            // At most `steps.len()` ≤ 64: fits every count type.
+            *c = C::small(k);
+            total += k as u64;
+        }
+        if total <= n as u64 {
+            break total as usize;
+        }
+    };
+    for _ in total..n {
+        if !counts[words.index(n as u32) as usize].bump(1) {
+            return false;
+        }
+    }
+    true
+}
+
+/// The Poisson(λ) distribution function at 0, 1, 2, … scaled to 2⁶⁴ (a
+/// count is the number of steps at or below a uniform 64-bit value), for
+/// the λ of [`draw_counts`]; it stops where the rest is below 2⁻⁶⁴.
+fn poisson_steps(n: usize) -> Vec<u64> {
+    let lambda = (1.0 - 4.0 / (n as f64).sqrt()).max(0.5);
+    let scale = 2f64.powi(64);
+    let (mut term, mut cdf) = ((-lambda).exp(), 0.0f64);
+    let mut steps = Vec::new();
+    for k in 0..64 {
+        cdf += term;
+        let step = cdf * scale;
+        if step >= scale {
+            break;
+        }
+        steps.push(step as u64);
+        if (1.0 - cdf) * scale < 1.0 {
+            break;
+        }
+        term *= lambda / (k + 1) as f64;
+    }
+    steps
 }
 
 /// The resamples a bootstrap evaluates.
 #[derive(Debug, Clone, Copy)]
 pub enum Resamples<'a> {
-    /// `count` resamples of all trades, resample r as [`resample`] draws it.
+    /// `count` resamples of all trades, resample r's counts as
+    /// [`draw_counts`] draws them.
     Seeded {
         /// Number of resamples.
         count: usize,
@@ -151,10 +286,11 @@ impl Resamples<'_> {
         self.len() == 0
     }
 
-    /// The trade indices of resample `r` out of `n` trades.
-    pub fn indices(&self, n: usize, r: usize) -> Vec<u32> {
+    /// The trade indices of resample `r`; `order` is the trades' close
+    /// order, by which seeded counts are laid out.
+    pub fn indices(&self, order: &[u32], r: usize) -> Vec<u32> {
         match self {
-            Resamples::Seeded { seed, .. } => resample(n, *seed, r),
+            Resamples::Seeded { seed, .. } => resample(order, *seed, r),
             Resamples::Given(sets) => sets[r].clone(),
         }
     }
@@ -177,10 +313,11 @@ pub fn bootstrap_intervals(
     progress: &(dyn Fn() + Sync),
 ) -> BTreeMap<&'static str, Interval> {
     let n = trades.len();
-    let all: Vec<u32> = (0..n as u32).collect();
-    let observed = changes(&all, trades, exposed, settings, ctx);
-    drop(all);
-    let slow = |r: usize| changes(&resamples.indices(n, r), trades, exposed, settings, ctx);
+    let mut order: Vec<u32> = (0..n as u32).collect();
+    let observed = changes(&order, trades, exposed, settings, ctx);
+    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
+    let order = &order;
+    let slow = |r: usize| changes(&resamples.indices(order, r), trades, exposed, settings, ctx);
     let count = resamples.len();
     let fixed = settings.sizing == scenarios::Sizing::Fixed;
     let reps: Vec<[Option<f64>; 5]> = if fixed && observed[0].is_none() {
@@ -515,31 +652,32 @@ impl Weighted {
         r: usize,
     ) -> Option<[Option<f64>; 5]> {
         let n = self.pnl.len();
-        sc.counts.fill(0);
-        let mut overflow = false;
-        let counts = &mut sc.counts;
-        // Counted by input index: the counts (one byte a trade) are the only
-        // memory touched at random; a lookup of each draw's position would
-        // be a second random read, from memory four times larger.
-        let mut draw = |i: u32| {
-            let c = &mut counts[i as usize];
-            *c = c.wrapping_add(1);
-            overflow |= *c == 0;
-        };
+        // Counted by position in close order: seeded counts are drawn that
+        // way, one position after the other; given index sets are counted
+        // through each trade's position.
         let m = match resamples {
             Resamples::Seeded { seed, .. } => {
-                let mut words = Words::new(*seed, r as u64);
-                for _ in 0..n {
-                    draw(words.index(n as u32));
+                if !draw_counts(n, *seed, r, &mut sc.counts) {
+                    return None;
                 }
                 n
             }
             Resamples::Given(sets) => {
-                sets[r].iter().for_each(|&i| draw(i));
+                let mut position = vec![0u32; n];
+                for (j, &i) in self.order.iter().enumerate() {
+                    position[i as usize] = j as u32;
+                }
+                sc.counts.clear();
+                sc.counts.resize(n, 0);
+                for &i in &sets[r] {
+                    if !sc.counts[position[i as usize] as usize].bump(1) {
+                        return None;
+                    }
+                }
                 sets[r].len()
             }
         };
-        if overflow || m == 0 {
+        if m == 0 {
             return None;
         }
         // The copies in close order: position j written count[j] times
@@ -547,8 +685,8 @@ impl Weighted {
         sc.copies.resize(m + 3, 0);
         let copies = &mut sc.copies;
         let mut w = 0;
-        for (j, &i) in self.order.iter().enumerate() {
-            let (j, c) = (j as u32, sc.counts[i as usize] as usize);
+        for (j, &c) in sc.counts.iter().enumerate() {
+            let (j, c) = (j as u32, c as usize);
             if c <= 3 {
                 copies[w..w + 3].fill(j);
             } else {
@@ -556,7 +694,9 @@ impl Weighted {
             }
             w += c;
         }
-        let (base, kept) = self.walk::<true>(&copies[..m], &mut sc.daily, &self.exposed);
+        let [day_base, day_kept] = &mut sc.daily;
+        let base = self.walk::<true>(&copies[..m], day_base, &self.exposed);
+        let kept = self.walk::<false>(&copies[..m], day_kept, &self.exposed);
         let b = self.figures(&base, &sc.daily[0], &sc.counts, None)?;
         let k = self.figures(&kept, &sc.daily[1], &sc.counts, Some(&self.exposed))?;
         Some(std::array::from_fn(|f| match (b[f], k[f]) {
@@ -603,63 +743,59 @@ impl Weighted {
         sc.counts.fill(1);
         sc.copies.clear();
         sc.copies.extend(0..n as u32);
-        let (_, kept) = self.walk::<false>(&sc.copies, &mut sc.daily, exposed);
+        let kept = self.walk::<false>(&sc.copies, &mut sc.daily[1], exposed);
         self.figures(&kept, &sc.daily[1], &sc.counts, Some(exposed))
     }
 
-    /// The baseline's and the removed scenario's sums over the copies (in
-    /// close order), and their P/L per day into `daily`.
-    /// `BASE` false: the removed scenario only (the baseline's sums and
-    /// days stay at their start).
-    fn walk<const BASE: bool>(
-        &self,
-        copies: &[u32],
-        daily: &mut [Vec<f64>; 2],
-        exposed: &[bool],
-    ) -> (Sums, Sums) {
-        let (mut base, mut kept) = (Sums::new(self.start), Sums::new(self.start));
-        let [day_base, day_kept] = daily;
-        day_base.fill(0.0);
-        day_kept.fill(0.0);
+    /// One scenario's sums over the copies (in close order), and its P/L
+    /// per day into `daily`: the baseline's (`ALL`: every copy) or the
+    /// removed scenario's (the copies not `exposed`). One scenario a pass
+    /// keeps its sums in registers. The removed pass adds +0.0 (and counts
+    /// nothing) for an exposed copy instead of branching on it: on sums
+    /// that are never −0.0 (see [`Sums::add`]) that leaves every sum, bit
+    /// for bit, as if the copy had been skipped.
+    fn walk<const ALL: bool>(&self, copies: &[u32], daily: &mut [f64], exposed: &[bool]) -> Sums {
+        let mut sums = Sums::new(self.start);
+        daily.fill(0.0);
         let (pnl, slot) = (&self.pnl[..], &self.slot[..]);
         let tail = self.tail.as_deref();
         let mut cur = slot[copies[0] as usize];
         // A day's sum starts at 0.0 as `walk_closes` starts it; closes come
         // in order, so each day is one run of copies.
-        let (mut sum_base, mut sum_kept) = (0.0f64, 0.0f64);
+        let mut day = 0.0f64;
+        let mut kept = 0usize;
         for &j in copies {
             let j = j as usize;
-            let (p, s) = (pnl[j], slot[j]);
+            let (mut p, s) = (pnl[j], slot[j]);
             if s != cur {
-                day_base[cur as usize] = sum_base;
-                day_kept[cur as usize] = sum_kept;
-                (sum_base, sum_kept, cur) = (0.0, 0.0, s);
+                daily[cur as usize] = day;
+                (day, cur) = (0.0, s);
             }
-            let t = tail.map_or(p.abs(), |t| t[j]);
-            if BASE {
-                base.add(p, t);
-                sum_base += p;
+            let mut t = tail.map_or(p.abs(), |t| t[j]);
+            if !ALL {
+                let keep = !exposed[j];
+                let mask = 0u64.wrapping_sub(keep as u64);
+                p = f64::from_bits(p.to_bits() & mask);
+                t = f64::from_bits(t.to_bits() & mask);
+                kept += keep as usize;
             }
-            if !exposed[j] {
-                kept.add(p, t);
-                kept.n += 1;
-                sum_kept += p;
-            }
+            sums.add(p, t);
+            day += p;
         }
-        day_base[cur as usize] = sum_base;
-        day_kept[cur as usize] = sum_kept;
-        base.n = copies.len();
-        (base, kept)
+        daily[cur as usize] = day;
+        sums.n = if ALL { copies.len() } else { kept };
+        sums
     }
 
-    /// Sum of the k largest tail values among the drawn copies (without the
-    /// exposed ones when asked), largest first as `metrics::tcr` sums them;
-    /// `None` when the ranked prefix runs out first.
+    /// Sum of the k largest tail values among the drawn copies (`counts`
+    /// by position; without the exposed ones when asked), largest first as
+    /// `metrics::tcr` sums them; `None` when the ranked prefix runs out
+    /// first.
     fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: Option<&[bool]>) -> Option<f64> {
         let (mut left, mut top) = (k, 0.0f64);
         for &j in &self.by_tail {
             let j = j as usize;
-            let c = counts[self.order[j] as usize] as usize;
+            let c = counts[j] as usize;
             if c == 0 || drop_exposed.is_some_and(|e| e[j]) {
                 continue;
             }
@@ -684,9 +820,10 @@ mod tests {
     use super::*;
     use crate::analysis::scenarios::{CapRule, Sizing};
     use crate::import::zones::{MINUTE_MS, Zone};
+    use rand::RngExt;
 
     #[test]
-    fn block_words_draw_the_reference_resample() {
+    fn block_words_draw_what_rand_draws() {
         for (n, seed, r) in [
             (1usize, 3u64, 0usize),
             (7, 3, 1),
@@ -695,8 +832,90 @@ mod tests {
         ] {
             let mut w = Words::new(seed, r as u64);
             let got: Vec<u32> = (0..n).map(|_| w.index(n as u32)).collect();
-            assert_eq!(got, resample(n, seed, r), "n {n} r {r}");
+            let mut rng = ChaCha8Rng::seed_from_u64(seed);
+            rng.set_stream(r as u64);
+            let want: Vec<u32> = (0..n).map(|_| rng.random_range(0..n as u32)).collect();
+            assert_eq!(got, want, "n {n} r {r}");
         }
+    }
+
+    /// Every resample draws n copies; one-byte and four-byte counts are the
+    /// same draw; `resample` lays them out by the order given.
+    #[test]
+    fn drawn_counts_add_up_to_n() {
+        for n in [0usize, 1, 2, 16, 17, 1000, 50_001] {
+            for r in 0..4 {
+                let (mut small, mut wide) = (Vec::<u8>::new(), Vec::<u32>::new());
+                assert!(draw_counts(n, 7, r, &mut small) && draw_counts(n, 7, r, &mut wide));
+                assert_eq!(small.len(), n);
+                assert_eq!(wide.iter().map(|&c| c as usize).sum::<usize>(), n, "n {n}");
+                assert!(small.iter().zip(&wide).all(|(&a, &b)| a as u32 == b));
+            }
+        }
+        let order = [2u32, 0, 1];
+        let mut wide = Vec::<u32>::new();
+        draw_counts(3, 4, 9, &mut wide);
+        let mut want = Vec::new();
+        for (j, &c) in wide.iter().enumerate() {
+            want.extend(std::iter::repeat_n(order[j], c as usize));
+        }
+        assert_eq!(resample(&order, 4, 9), want);
+    }
+
+    /// The counts follow the multinomial law of n draws with replacement,
+    /// checked against its exact probabilities: for n = 3, the ten count
+    /// vectors' frequencies over 30 000 resamples by Pearson's chi-square
+    /// (9 degrees of freedom; 27.88 is its 0.999 quantile, recalled from
+    /// standard tables: a correct draw fails one run in a thousand); for
+    /// n = 20 000 (λ = 0.97 < 1, where the redraw and the added draws
+    /// matter), the share of trades never drawn, (1 − 1/n)ⁿ = 0.36787, and
+    /// the counts' variance, 1 − 1/n.
+    #[test]
+    fn drawn_counts_are_multinomial() {
+        let mut freq = BTreeMap::<Vec<u32>, usize>::new();
+        let runs = 30_000;
+        let mut c = Vec::<u32>::new();
+        for r in 0..runs {
+            draw_counts(3, 11, r, &mut c);
+            *freq.entry(c.clone()).or_default() += 1;
+        }
+        let mut chi2 = 0.0;
+        let mut cells = 0;
+        for a in 0..=3u32 {
+            for b in 0..=3 - a {
+                let v = vec![a, b, 3 - a - b];
+                let fact = |k: u32| (1..=k).product::<u32>() as f64;
+                let p = 6.0 / (fact(a) * fact(b) * fact(3 - a - b)) / 27.0;
+                let expected = p * runs as f64;
+                let seen = freq.get(&v).copied().unwrap_or(0) as f64;
+                chi2 += (seen - expected).powi(2) / expected;
+                cells += 1;
+            }
+        }
+        assert_eq!(cells, 10);
+        assert_eq!(freq.values().sum::<usize>(), runs);
+        assert!(freq.len() == 10, "only count vectors adding up to 3");
+        assert!(chi2 < 27.88, "chi-square {chi2}");
+        let n = 20_000;
+        let (mut zeros, mut sq, mut total) = (0usize, 0.0f64, 0usize);
+        for r in 0..30 {
+            draw_counts(n, 12, r, &mut c);
+            zeros += c.iter().filter(|&&k| k == 0).count();
+            sq += c.iter().map(|&k| (k as f64 - 1.0).powi(2)).sum::<f64>();
+            total += n;
+        }
+        let never = zeros as f64 / total as f64;
+        let want_never = (1.0 - 1.0 / n as f64).powi(n as i32);
+        // Standard errors: about 0.0006 and 0.004 over 600 000 counts.
+        assert!(
+            (never - want_never).abs() < 0.003,
+            "{never} vs {want_never}"
+        );
+        let var = sq / total as f64;
+        assert!(
+            (var - (1.0 - 1.0 / n as f64)).abs() < 0.02,
+            "variance {var}"
+        );
     }
 
     /// Random trades: ties in close (and open) instants, weekend closes,
@@ -793,7 +1012,7 @@ mod tests {
                 .map(|r| (seeded, r))
                 .chain((0..2).map(|r| (given, r)))
             {
-                let want = changes(&res.indices(3000, r), &t, &exposed, &settings, &ctx);
+                let want = changes(&res.indices(&w.order, r), &t, &exposed, &settings, &ctx);
                 match w.changes(&mut sc, &res, r) {
                     Some(got) => assert_eq!(bits(&got), bits(&want), "case {case} resample {r}"),
                     None => assert_eq!(r, 1, "only the 300-fold set takes the slow path"),
@@ -860,7 +1079,7 @@ mod tests {
         let res = Resamples::Seeded { count: 5, seed: 8 };
         for r in 0..5 {
             let got = w.changes(&mut sc, &res, r).expect("weighted pass");
-            let want = changes(&res.indices(t.len(), r), &t, &exposed, &settings, &ctx);
+            let want = changes(&res.indices(&w.order, r), &t, &exposed, &settings, &ctx);
             assert_eq!(bits(&got), bits(&want), "resample {r}");
         }
     }
