@@ -50,7 +50,8 @@ __all__ = [
 # Flags whose output the Python results replace: refused, never ignored.
 _REFUSED = {
     "json": "results always carry the JSON (.summary)",
-    "format": "the schedule is returned in every form (.windows, .summary, .csv, .ics)",
+    "format": "results come in every form: .summary (the JSON), .text, and the tables as Arrow"
+    " (.runs, .cells, .windows; a schedule also as .csv and .ics)",
     "output": "write .csv or .ics of the result yourself",
     "trades_format": "the per-trade table is returned as Arrow (.trades)",
     "runs_format": "the per-run table is returned as Arrow (.runs)",

@@ -44,6 +44,8 @@ def test_flags_whose_output_python_replaces_are_refused():
         eventfence.analyze("demo/trades.csv", CALENDARS, json=True)
     with pytest.raises(eventfence.EventfenceError, match="format="):
         eventfence.schedule("calendars/demo-usd.ics", currencies="USD", next=7, format="ics")
+    with pytest.raises(eventfence.EventfenceError, match="format="):
+        eventfence.rank("demo/trades.csv", CALENDARS, format="jsonl")
 
 
 def test_something_that_is_no_table():
