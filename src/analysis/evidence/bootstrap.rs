@@ -313,19 +313,38 @@ pub fn bootstrap_intervals(
     progress: &(dyn Fn() + Sync),
 ) -> BTreeMap<&'static str, Interval> {
     let n = trades.len();
-    let mut order: Vec<u32> = (0..n as u32).collect();
-    let observed = changes(&order, trades, exposed, settings, ctx);
-    scenarios::close_order(&mut order, &trades.opened, &trades.closed);
-    let order = &order;
-    let slow = |r: usize| changes(&resamples.indices(order, r), trades, exposed, settings, ctx);
+    let all: Vec<u32> = (0..n as u32).collect();
+    let observed = changes(&all, trades, exposed, settings, ctx);
     let count = resamples.len();
     let fixed = settings.sizing == scenarios::Sizing::Fixed;
-    let reps: Vec<[Option<f64>; 5]> = if fixed && observed[0].is_none() {
-        // The scenarios cannot be built (a cap needs equity the input does
-        // not have); no resample of the same trades can build them either.
+    // The scenarios cannot be built (a cap needs equity the input does not
+    // have): no resample of the same trades can build them either.
+    let unbuildable = fixed && observed[0].is_none();
+    let weighted = if unbuildable {
+        None
+    } else {
+        Weighted::new(trades, exposed, settings, ctx, false)
+    };
+    // The close order seeded counts are laid out by: the weighted pass's
+    // own, or (where there is none) made here from the identity above.
+    let own_order: Vec<u32>;
+    let order: &[u32] = match &weighted {
+        Some(w) => {
+            drop(all);
+            &w.order
+        }
+        None => {
+            let mut all = all;
+            scenarios::close_order(&mut all, &trades.opened, &trades.closed);
+            own_order = all;
+            &own_order
+        }
+    };
+    let slow = |r: usize| changes(&resamples.indices(order, r), trades, exposed, settings, ctx);
+    let reps: Vec<[Option<f64>; 5]> = if unbuildable {
         (0..count).for_each(|_| progress());
         vec![[None; 5]; count]
-    } else if let Some(w) = Weighted::new(trades, exposed, settings, ctx, false) {
+    } else if let Some(w) = &weighted {
         let pool = std::sync::Mutex::new(Vec::new());
         (0..count)
             .into_par_iter()
