@@ -80,8 +80,12 @@ pub fn run(args: ScheduleArgs) -> Result<std::process::ExitCode> {
     );
     let (outcome, windows) = execute(args)?;
     // On standard error, so that a piped schedule stays clean data.
+    let colour = crate::render::term::use_colour_on_stderr(terminal.color);
     for w in &outcome.warnings {
-        eprintln!("WARNING {w}");
+        eprint!(
+            "{}",
+            crate::render::term::emphasise(&format!("WARNING {w}\n"), colour)
+        );
     }
     let bytes = match format {
         Format::Table => outcome.text.as_bytes(),
