@@ -12,8 +12,8 @@ use std::path::{Path, PathBuf};
 pub struct Outcome {
     /// The JSON the command prints with `--json` (analyze: summary.json).
     pub json: String,
-    /// One JSON object per line, one per row (`--format jsonl`: rank's
-    /// runs, tune's cells); empty where a command has no rows to stream.
+    /// One JSON object per line, one per row, made only when `--format
+    /// jsonl` asks for it (rank's runs, tune's cells); else empty.
     pub jsonl: String,
     /// The terminal table, without colour.
     pub text: String,

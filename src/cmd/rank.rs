@@ -252,7 +252,9 @@ pub fn execute(args: &RankArgs, files: bool) -> Result<Outcome> {
         caution: CAUTION,
     };
     outcome.json = serde_json::to_string_pretty(&report)?;
-    outcome.jsonl = super::outcome::json_lines(&report.runs)?;
+    if args.format.chosen(args.json) == common::PrintFormat::Jsonl {
+        outcome.jsonl = super::outcome::json_lines(&report.runs)?;
+    }
     outcome.text = crate::render::table::rank(&report, crate::render::term::width());
     Ok(outcome)
 }

@@ -170,6 +170,8 @@ pub fn execute(args: &TuneArgs, files: bool) -> Result<Outcome> {
             .collect();
     }
     outcome.json = json;
-    outcome.jsonl = super::outcome::json_lines(&report.result.cells)?;
+    if args.format.chosen(args.json) == common::PrintFormat::Jsonl {
+        outcome.jsonl = super::outcome::json_lines(&report.result.cells)?;
+    }
     Ok(outcome)
 }
