@@ -22,6 +22,11 @@ fn svg(path: &Path) -> String {
     text
 }
 
+/// A JSON file the run wrote.
+fn json_file(path: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+}
+
 fn texts(svg: &str) -> Vec<String> {
     let doc = roxmltree::Document::parse(svg).unwrap();
     doc.descendants()
@@ -85,8 +90,7 @@ fn every_chart_renders_with_its_series() {
             "equity lacks the {label} curve"
         );
     }
-    let summary: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let summary = json_file(&out.join("summary.json"));
     let cats = summary["attribution"]["by_category"].as_object().unwrap();
     let bars = svg(&out.join("chart-by-category.svg"));
     let bar_count = count(&bars, "rect", "#1B4F8A") + count(&bars, "rect", "#70438F");
@@ -162,8 +166,7 @@ fn every_chart_renders_with_its_series() {
     let out = dir.path().join("t");
     demo("tune", &out, &["--pre", "0..30/15", "--post", "0..60/30"]);
     let hm = svg(&out.join("chart-tune.svg"));
-    let tune: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("tune.json")).unwrap()).unwrap();
+    let tune = json_file(&out.join("tune.json"));
     let frontier = tune["cells"]
         .as_array()
         .unwrap()
@@ -263,8 +266,7 @@ fn stressed_scenario_in_the_charts_and_report() {
     assert!(count(&eq, "polyline", "#DC9A26") + count(&eq, "path", "#DC9A26") >= 2);
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
     assert!(html.contains("<th>stressed</th>") && html.contains("<th>Δ stressed</th>"));
-    let summary: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let summary = json_file(&out.join("summary.json"));
     assert!(summary["tail"]["stressed"]["tcr"].is_number());
     assert!(summary["scenarios"]["stressed"]["net"].is_number());
 }
@@ -304,8 +306,7 @@ fn tune_heat_map_has_a_colour_scale() {
     let hm = svg(&out.join("chart-tune.svg"));
     let t = texts(&hm);
     assert!(t.iter().any(|x| x == "TCR reduction"), "{t:?}");
-    let tune: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("tune.json")).unwrap()).unwrap();
+    let tune = json_file(&out.join("tune.json"));
     let reductions: Vec<f64> = tune["cells"]
         .as_array()
         .unwrap()
@@ -359,8 +360,7 @@ fn bar_charts_have_no_empty_rows() {
             "medium=0/1",
         ],
     );
-    let summary: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let summary = json_file(&out.join("summary.json"));
     let cats = summary["attribution"]["by_category"].as_object().unwrap();
     let nonzero: Vec<&String> = cats
         .iter()

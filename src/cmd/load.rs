@@ -46,22 +46,16 @@ pub fn load_trades(t: &TradeArgs, opts: &TradeOptions) -> Result<(Trades, TradeS
         .as_deref()
         .map(crate::import::budget::parse_size)
         .transpose()?;
-    let mut sources = Vec::new();
+    let (mut sources, mut paths) = (Vec::new(), Vec::new());
     for spec in &t.trades {
         if spec == STDIN {
             sources.push(stdin_source()?);
         } else {
-            let paths = trades::expand_paths(std::slice::from_ref(spec))?;
-            sources.extend(Source::files(&paths));
+            let files = trades::expand_paths(std::slice::from_ref(spec))?;
+            sources.extend(Source::files(&files));
+            paths.extend(files);
         }
     }
-    let paths: Vec<PathBuf> = sources
-        .iter()
-        .filter_map(|s| match s {
-            Source::File(p) => Some(p.clone()),
-            _ => None,
-        })
-        .collect();
     crate::import::budget::check(&paths, limit)?;
     sources.extend(t.tables.iter().cloned());
     let (trades, mut summary) = trades::load_sources(&sources, opts)?;

@@ -119,15 +119,16 @@ fn sweep_stale_temps(dir: &Path, started: SystemTime) {
             .metadata()
             .and_then(|m| m.modified())
             .is_ok_and(|t| t < started);
-        if older && !writer_alive(pid) {
+        if older && !another_writer_runs(pid) {
             let _ = std::fs::remove_file(e.path());
         }
     }
 }
 
-/// Whether process `pid` is running, where `/proc` tells (Linux); where it
-/// cannot tell, the file's age alone decides.
-fn writer_alive(pid: u32) -> bool {
+/// Whether `pid` is another process that is running, where `/proc` tells
+/// (Linux); where it cannot tell, the file's age alone decides. This
+/// process's own old temp files cannot exist (they are newer than its start).
+fn another_writer_runs(pid: u32) -> bool {
     pid != std::process::id()
         && Path::new("/proc/self").exists()
         && Path::new(&format!("/proc/{pid}")).exists()
@@ -140,10 +141,10 @@ fn temp_pid(name: &str) -> Option<u32> {
         return None;
     }
     let (_, pid) = name.rsplit_once(".tmp-")?;
-    if pid.is_empty() || !pid.bytes().all(|b| b.is_ascii_digit()) {
-        return None;
-    }
-    pid.parse().ok()
+    // Digits only (`parse` alone would take a leading `+`).
+    pid.bytes()
+        .all(|b| b.is_ascii_digit())
+        .then(|| pid.parse().ok())?
 }
 
 /// Writes to stdout, returning an error (not panicking) when the reader has

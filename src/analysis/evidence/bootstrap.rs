@@ -137,8 +137,8 @@ pub trait DrawCount: Copy {
     /// A count of at most 64 (a Poisson step count), which every count
     /// type holds.
     fn small(k: u32) -> Self;
-    /// Adds `by` draws; false when the count would not fit.
-    fn bump(&mut self, by: u32) -> bool;
+    /// Adds one draw; false when the count would not fit.
+    fn add_one(&mut self) -> bool;
 }
 
 impl DrawCount for u8 {
@@ -148,14 +148,8 @@ impl DrawCount for u8 {
         k as u8
     }
     #[inline(always)]
-    fn bump(&mut self, by: u32) -> bool {
-        match u8::try_from(by).ok().and_then(|b| self.checked_add(b)) {
-            Some(v) => {
-                *self = v;
-                true
-            }
-            None => false,
-        }
+    fn add_one(&mut self) -> bool {
+        self.checked_add(1).map(|v| *self = v).is_some()
     }
 }
 
@@ -166,14 +160,8 @@ impl DrawCount for u32 {
         k
     }
     #[inline(always)]
-    fn bump(&mut self, by: u32) -> bool {
-        match self.checked_add(by) {
-            Some(v) => {
-                *self = v;
-                true
-            }
-            None => false,
-        }
+    fn add_one(&mut self) -> bool {
+        self.checked_add(1).map(|v| *self = v).is_some()
     }
 }
 
@@ -227,7 +215,7 @@ pub fn draw_counts<C: DrawCount>(n: usize, seed: u64, r: usize, counts: &mut Vec
         }
     };
     for _ in total..n {
-        if !counts[words.index(n as u32) as usize].bump(1) {
+        if !counts[words.index(n as u32) as usize].add_one() {
             return false;
         }
     }
@@ -422,8 +410,8 @@ impl Words {
     /// it for u32 (`UniformInt::sample_single_inclusive`, its default biased
     /// variant of Canon's method): the high word of w·n, corrected by a
     /// second word when the low word is within n of overflowing. Written out
-    /// so that the words can come from a block; [`resample`] is the
-    /// reference and a test holds the two equal.
+    /// so that the words can come from a block; a test holds the two
+    /// equal.
     #[inline]
     fn index(&mut self, n: u32) -> u32 {
         let m = self.next_word() as u64 * n as u64;
@@ -689,7 +677,7 @@ impl Weighted {
                 sc.counts.clear();
                 sc.counts.resize(n, 0);
                 for &i in &sets[r] {
-                    if !sc.counts[position[i as usize] as usize].bump(1) {
+                    if !sc.counts[position[i as usize] as usize].add_one() {
                         return None;
                     }
                 }
@@ -768,8 +756,7 @@ impl Weighted {
 
     /// One scenario's sums over the copies (in close order), and its P/L
     /// per day into `daily`: the baseline's (`ALL`: every copy) or the
-    /// removed scenario's (the copies not `exposed`). One scenario a pass
-    /// keeps its sums in registers. The removed pass adds +0.0 (and counts
+    /// removed scenario's (the copies not `exposed`). The removed pass adds +0.0 (and counts
     /// nothing) for an exposed copy instead of branching on it: on sums
     /// that are never −0.0 (see [`Sums::add`]) that leaves every sum, bit
     /// for bit, as if the copy had been skipped.
@@ -884,8 +871,9 @@ mod tests {
     /// The counts follow the multinomial law of n draws with replacement,
     /// checked against its exact probabilities: for n = 3, the ten count
     /// vectors' frequencies over 30 000 resamples by Pearson's chi-square
-    /// (9 degrees of freedom; 27.88 is its 0.999 quantile, recalled from
-    /// standard tables: a correct draw fails one run in a thousand); for
+    /// (9 degrees of freedom; 27.88 is its 0.999 quantile, scipy 1.17.1
+    /// `stats.chi2.ppf(0.999, 9)` = 27.877: a correct draw fails one run
+    /// in a thousand); for
     /// n = 20 000 (λ = 0.97 < 1, where the redraw and the added draws
     /// matter), the share of trades never drawn, (1 − 1/n)ⁿ = 0.36787, and
     /// the counts' variance, 1 − 1/n.
