@@ -84,6 +84,7 @@ fn bootstrap_percentiles_match_numpy() {
         &settings,
         &ctx,
         0.95,
+        true,
         &|| {},
     );
     for name in ["net", "profit_factor", "max_drawdown", "tcr"] {

@@ -163,7 +163,9 @@ pub fn chance(
             initial_equity,
             tcr_p: settings.tcr_p,
         };
-        let mut intervals = bootstrap_intervals(
+        let account_path = crate::analysis::run::AccountFigures::of(trades, settings.pool)
+            != crate::analysis::run::AccountFigures::PerRun;
+        let intervals = bootstrap_intervals(
             Resamples::Seeded {
                 count: c.bootstrap,
                 seed: c.seed,
@@ -173,14 +175,10 @@ pub fn chance(
             &settings.scenario,
             &ctx,
             0.95,
+            account_path,
             &|| progress.step(),
         );
         progress.end();
-        if crate::analysis::run::AccountFigures::of(trades, settings.pool)
-            == crate::analysis::run::AccountFigures::PerRun
-        {
-            intervals.retain(|name, _| !ACCOUNT_PATH_FIGURES.contains(name));
-        }
         BootstrapResult {
             resamples: c.bootstrap,
             seed: c.seed,
