@@ -70,6 +70,7 @@ impl Slots {
         }
         for s in &mut slots {
             s.sort_by_key(|x| x.0);
+            merge_overlapping(s);
         }
         Slots { slots, dropped: 0 }
     }
@@ -164,8 +165,28 @@ impl ShiftedCalendar {
         // Nearly sorted already (a rotation): the stable sort merges runs.
         for s in &mut out.slots {
             s.sort_by_key(|x| x.0);
+            merge_overlapping(s);
         }
     }
+}
+
+/// Joins slots (sorted by start) that share an instant into one: a query
+/// meets the joined slot exactly when it meets one of them (closed
+/// intervals; a query past the first's end but within the second's
+/// starts at or after the second's start), so the flags are unchanged and
+/// the trades under both are not looked at twice.
+fn merge_overlapping(slots: &mut Vec<(i64, i64)>) {
+    let mut kept = 0;
+    for i in 0..slots.len() {
+        let (s, e) = slots[i];
+        if kept > 0 && s <= slots[kept - 1].1 {
+            slots[kept - 1].1 = slots[kept - 1].1.max(e);
+        } else {
+            slots[kept] = (s, e);
+            kept += 1;
+        }
+    }
+    slots.truncate(kept);
 }
 
 /// Trades of one currency whose query lasts about as long: sorted by query start.
@@ -262,21 +283,57 @@ impl TradeIndex {
     pub fn mark(&self, slots: &Slots, bits: &mut [u64]) {
         bits.fill(0);
         for (classes, slots) in self.by_currency.iter().zip(&slots.slots) {
+            // After `merge_overlapping` the slots are disjoint: their ends
+            // grow with their starts.
+            let ends: Vec<i64> = slots.iter().map(|s| s.1).collect();
             for c in classes {
-                let mut hint = 0;
-                for &(s, e) in slots {
-                    let from = first_at_least(&c.query_start, hint, s.saturating_sub(c.longest));
-                    hint = from;
-                    for j in from..c.query_start.len() {
-                        if c.query_start[j] > e {
-                            break;
-                        }
-                        // Without a branch: about half the candidates
-                        // are near misses, in no predictable pattern.
-                        let t = c.trade[j] as usize;
-                        bits[t / 64] |= ((c.query_end[j] >= s) as u64) << (t % 64);
-                    }
+                if c.trade.len() * TRADE_SIDE < slots.len() {
+                    c.mark_from_trades(slots, &ends, bits);
+                } else {
+                    c.mark_from_slots(slots, bits);
                 }
+            }
+        }
+    }
+}
+
+/// A class with this many times fewer trades than slots is marked trade by
+/// trade (a search among the slots for each) rather than slot by slot (a
+/// search among the trades for each): small runs in `rank`.
+const TRADE_SIDE: usize = 4;
+
+impl Class {
+    /// Window by window: the trades whose query start lies in
+    /// `[s − longest, e]`, flagged when their query end is ≥ s.
+    fn mark_from_slots(&self, slots: &[(i64, i64)], bits: &mut [u64]) {
+        let mut hint = 0;
+        for &(s, e) in slots {
+            let from = first_at_least(&self.query_start, hint, s.saturating_sub(self.longest));
+            hint = from;
+            for j in from..self.query_start.len() {
+                if self.query_start[j] > e {
+                    break;
+                }
+                // Without a branch: about half the candidates
+                // are near misses, in no predictable pattern.
+                let t = self.trade[j] as usize;
+                bits[t / 64] |= ((self.query_end[j] >= s) as u64) << (t % 64);
+            }
+        }
+    }
+
+    /// Trade by trade: the first slot ending at or after the query start
+    /// (slots disjoint and sorted, `ends` their ends) is the only one that
+    /// can meet the query first; it does when it starts by the query end.
+    fn mark_from_trades(&self, slots: &[(i64, i64)], ends: &[i64], bits: &mut [u64]) {
+        let mut hint = 0;
+        for j in 0..self.trade.len() {
+            // Query starts grow within a class, so the slot only moves on.
+            let at = first_at_least(ends, hint, self.query_start[j]);
+            hint = at;
+            if slots.get(at).is_some_and(|&(s, _)| s <= self.query_end[j]) {
+                let t = self.trade[j] as usize;
+                bits[t / 64] |= 1 << (t % 64);
             }
         }
     }
@@ -378,95 +435,121 @@ mod tests {
             vec!["JPY".to_string(), "USD".to_string()],
             vec!["GBP".to_string()],
         ];
-        let (mut opened, mut closed, mut instrument) = (Vec::new(), Vec::new(), Vec::new());
-        let mut x: u64 = 7;
-        for i in 0..4000u32 {
-            x = x
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            let o = (20_000 * day + (x >> 20) as i64 % (42 * day)) * MINUTE_MS;
-            let len = [0, 1, 5, 60, 600, 3000, 20_000][(x >> 8) as usize % 7] * MINUTE_MS
-                + (x >> 40) as i64 % MINUTE_MS;
-            opened.push(o);
-            closed.push(o + len);
-            instrument.push(i % 3);
-        }
-        for rule in [
-            ExposureRule::Overlap,
-            ExposureRule::Held,
-            ExposureRule::Entered,
-        ] {
-            let cal = ShiftedCalendar::new(&releases, &windows, rule);
-            let index = TradeIndex::new(
-                cal.currencies(),
-                &opened,
-                &closed,
-                &instrument,
-                &currencies,
-                rule,
-            );
-            let mut moved = Slots::default();
-            let mut bits = vec![0; index.words()];
-            let mut exposed_seen = 0;
-            for d in [0, 1, 3, 7, cal.span() - 1] {
-                cal.shift(d, &mut moved);
-                index.mark(&moved, &mut bits);
-                // The same move done window by window, through the engine.
-                let first = windows
-                    .iter()
-                    .map(|w| weekday_index(w.at.div_euclid(DAY_MS)))
-                    .min()
-                    .unwrap();
-                let mut kept = Vec::new();
-                let mut dropped = 0;
-                for w in &windows {
-                    let wd = weekday_index(w.at.div_euclid(DAY_MS));
-                    let new_at =
-                        day_of_weekday_index(first + (wd - first + d).rem_euclid(cal.span()))
-                            * DAY_MS
-                            + w.at.rem_euclid(DAY_MS);
-                    let r = &releases[w.release as usize];
-                    let near = releases.iter().any(|q| {
-                        q.currency == r.currency
-                            && normalise_title(&q.title) == normalise_title(&r.title)
-                            && (q.at - new_at).abs() <= DAY_MS
-                    });
-                    if near {
-                        dropped += 1;
-                        continue;
+        // Many trades and few.
+        for n_trades in [4000u32, 30] {
+            let (mut opened, mut closed, mut instrument) = (Vec::new(), Vec::new(), Vec::new());
+            let mut x: u64 = 7;
+            for i in 0..n_trades {
+                x = x
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
+                let o = (20_000 * day + (x >> 20) as i64 % (42 * day)) * MINUTE_MS;
+                let len = [0, 1, 5, 60, 600, 3000, 20_000][(x >> 8) as usize % 7] * MINUTE_MS
+                    + (x >> 40) as i64 % MINUTE_MS;
+                opened.push(o);
+                closed.push(o + len);
+                instrument.push(i % 3);
+            }
+            for rule in [
+                ExposureRule::Overlap,
+                ExposureRule::Held,
+                ExposureRule::Entered,
+            ] {
+                let cal = ShiftedCalendar::new(&releases, &windows, rule);
+                let index = TradeIndex::new(
+                    cal.currencies(),
+                    &opened,
+                    &closed,
+                    &instrument,
+                    &currencies,
+                    rule,
+                );
+                let mut moved = Slots::default();
+                let mut bits = vec![0; index.words()];
+                let mut exposed_seen = 0;
+                for d in [0, 1, 3, 7, cal.span() - 1] {
+                    cal.shift(d, &mut moved);
+                    index.mark(&moved, &mut bits);
+                    // The same move done window by window, through the engine.
+                    let first = windows
+                        .iter()
+                        .map(|w| weekday_index(w.at.div_euclid(DAY_MS)))
+                        .min()
+                        .unwrap();
+                    let mut kept = Vec::new();
+                    let mut dropped = 0;
+                    for w in &windows {
+                        let wd = weekday_index(w.at.div_euclid(DAY_MS));
+                        let new_at =
+                            day_of_weekday_index(first + (wd - first + d).rem_euclid(cal.span()))
+                                * DAY_MS
+                                + w.at.rem_euclid(DAY_MS);
+                        let r = &releases[w.release as usize];
+                        let near = releases.iter().any(|q| {
+                            q.currency == r.currency
+                                && normalise_title(&q.title) == normalise_title(&r.title)
+                                && (q.at - new_at).abs() <= DAY_MS
+                        });
+                        if near {
+                            dropped += 1;
+                            continue;
+                        }
+                        let delta = new_at - w.at;
+                        kept.push(UsedWindow {
+                            start: w.start + delta,
+                            end: w.end + delta,
+                            at: new_at,
+                            ..w.clone()
+                        });
                     }
-                    let delta = new_at - w.at;
-                    kept.push(UsedWindow {
-                        start: w.start + delta,
-                        end: w.end + delta,
-                        at: new_at,
-                        ..w.clone()
-                    });
+                    assert_eq!(moved.dropped, dropped, "{rule:?} shift {d}");
+                    // Trade by trade and slot by slot mark the same trades,
+                    // whichever `mark` picks for a class.
+                    for (classes, slots) in index.by_currency.iter().zip(&moved.slots) {
+                        let ends: Vec<i64> = slots.iter().map(|s| s.1).collect();
+                        for c in classes {
+                            let mut by_trade = vec![0; index.words()];
+                            let mut by_slot = vec![0; index.words()];
+                            c.mark_from_trades(slots, &ends, &mut by_trade);
+                            c.mark_from_slots(slots, &mut by_slot);
+                            assert_eq!(by_trade, by_slot, "{rule:?} shift {d}");
+                        }
+                    }
+                    let want = Engine::from_windows(&kept, rule, releases.len())
+                        .run_matches(&opened, &closed, &instrument, &currencies)
+                        .k;
+                    for (i, &k) in want.iter().enumerate() {
+                        assert_eq!(is_set(&bits, i), k > 0, "{rule:?} shift {d} trade {i}");
+                    }
+                    exposed_seen += want.iter().filter(|&&k| k > 0).count();
                 }
-                assert_eq!(moved.dropped, dropped, "{rule:?} shift {d}");
-                let want = Engine::from_windows(&kept, rule, releases.len())
+                // Unmoved, as a window grid cell marks them.
+                index.mark(
+                    &Slots::of_windows(cal.currencies(), &windows, rule),
+                    &mut bits,
+                );
+                let want = Engine::from_windows(&windows, rule, releases.len())
                     .run_matches(&opened, &closed, &instrument, &currencies)
                     .k;
                 for (i, &k) in want.iter().enumerate() {
-                    assert_eq!(is_set(&bits, i), k > 0, "{rule:?} shift {d} trade {i}");
+                    assert_eq!(is_set(&bits, i), k > 0, "{rule:?} unmoved trade {i}");
                 }
-                exposed_seen += want.iter().filter(|&&k| k > 0).count();
+                assert!(
+                    exposed_seen > n_trades as usize / 40,
+                    "{rule:?}: the check needs exposed trades ({exposed_seen})"
+                );
             }
-            // Unmoved, as a window grid cell marks them.
-            index.mark(
-                &Slots::of_windows(cal.currencies(), &windows, rule),
-                &mut bits,
-            );
-            let want = Engine::from_windows(&windows, rule, releases.len())
-                .run_matches(&opened, &closed, &instrument, &currencies)
-                .k;
-            for (i, &k) in want.iter().enumerate() {
-                assert_eq!(is_set(&bits, i), k > 0, "{rule:?} unmoved trade {i}");
-            }
-            assert!(
-                exposed_seen > 100,
-                "{rule:?}: the check needs exposed trades ({exposed_seen})"
-            );
         }
+    }
+
+    /// Slots that share an instant are joined; others kept as they are.
+    #[test]
+    fn overlapping_slots_are_joined() {
+        let mut s = vec![(0, 10), (5, 8), (10, 12), (13, 20), (14, 30), (31, 31)];
+        merge_overlapping(&mut s);
+        assert_eq!(s, vec![(0, 12), (13, 30), (31, 31)]);
+        let mut none: Vec<(i64, i64)> = Vec::new();
+        merge_overlapping(&mut none);
+        assert!(none.is_empty());
     }
 }
