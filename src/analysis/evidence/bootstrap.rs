@@ -959,7 +959,8 @@ impl Weighted {
         for l in 0..lanes {
             usable[l] &= drawn[l] > 0;
         }
-        let sums = self.sum_side_by_side(sc, account_path);
+        let mut sums = self.sum_side_by_side(sc, account_path);
+        sums[0].n = drawn.map(|d| d as f64);
         let totals: [[Totals; LANES]; 2] = std::array::from_fn(|k| {
             std::array::from_fn(|l| Totals::of_lane(&sums[k], l, self.tail.is_some()))
         });
@@ -1055,11 +1056,42 @@ impl Weighted {
     #[inline(always)]
     fn sum_dispatch(&self, sc: &mut LaneScratch, account_path: bool) -> [LaneSums; 2] {
         match (account_path, self.tail.is_some()) {
-            (false, false) => self.lane_pass::<false, false>(sc),
+            (false, false) => self.lane_sums(sc),
             (false, true) => self.lane_pass::<false, true>(sc),
             (true, false) => self.lane_pass::<true, false>(sc),
             (true, true) => self.lane_pass::<true, true>(sc),
         }
+    }
+
+    /// The pass without account path and with the tail on |P/L| (the
+    /// common case: runs read as alternatives): five sums per lane, written
+    /// out in AVX2 instructions where the CPU has them ([`sums_avx2`]),
+    /// else in the same operations lane by lane ([`sums_portable`]; the
+    /// same bits, tested).
+    fn lane_sums(&self, sc: &LaneScratch) -> [LaneSums; 2] {
+        let n = self.pnl.len();
+        let (pnl, exposed, counts) = (&self.pnl[..n], &self.exposed[..n], &sc.counts[..n * LANES]);
+        #[cfg(target_arch = "x86_64")]
+        let s = if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, just checked.
+            unsafe { sums_avx2(pnl, exposed, counts) }
+        } else {
+            sums_portable(pnl, exposed, counts)
+        };
+        #[cfg(not(target_arch = "x86_64"))]
+        let s = sums_portable(pnl, exposed, counts);
+        let [base_gp, base_gl, kept_gp, kept_gl, kept_n] = s;
+        let sums = |n: [f64; LANES], gp, gl| LaneSums {
+            n,
+            gross_profit: gp,
+            gross_loss: gl,
+            ..LaneSums::new(self.start)
+        };
+        // The baseline's copies: every drawn one (set by the caller).
+        [
+            sums([0.0; LANES], base_gp, base_gl),
+            sums(kept_n, kept_gp, kept_gl),
+        ]
     }
 
     /// The pass itself. `PATH`: equity path and daily P/L; `RETURNS`: the
@@ -1243,6 +1275,77 @@ impl Weighted {
         }
         self.ranked_all.then_some(top)
     }
+}
+
+/// Per lane of the interleaved `counts` (position j's count in lane l at
+/// `j · LANES + l`): the baseline's gross profit and gross loss, the
+/// removed scenario's (exposed trades weighed 0) and its number of copies.
+/// Each lane adds, position by position, count × max(P/L, 0), count ×
+/// min(P/L, 0), then the same with the count weighed by 0 or 1, and that
+/// weighed count.
+fn sums_portable(pnl: &[f64], exposed: &[bool], counts: &[u8]) -> [[f64; LANES]; 5] {
+    let mut acc = [[0.0f64; LANES]; 5];
+    for (j, c) in counts.chunks_exact(LANES).enumerate() {
+        let p = pnl[j];
+        let (pos, neg) = (p.max(0.0), p.min(0.0));
+        let keep = if exposed[j] { 0.0 } else { 1.0 };
+        for l in 0..LANES {
+            let w = c[l] as f64;
+            let wk = w * keep;
+            acc[0][l] += w * pos;
+            acc[1][l] += w * neg;
+            acc[2][l] += wk * pos;
+            acc[3][l] += wk * neg;
+            acc[4][l] += wk;
+        }
+    }
+    acc
+}
+
+/// [`sums_portable`] in AVX2: the eight lanes in two registers of four
+/// doubles, the same multiplications and additions (no fused ones) in the
+/// same order, so the same bits.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn sums_avx2(pnl: &[f64], exposed: &[bool], counts: &[u8]) -> [[f64; LANES]; 5] {
+    use std::arch::x86_64::*;
+    let n = pnl.len();
+    assert!(exposed.len() >= n && counts.len() >= n * LANES);
+    let mut acc = [[_mm256_setzero_pd(); 2]; 5];
+    for j in 0..n {
+        let p = pnl[j];
+        let (pos, neg) = (p.max(0.0), p.min(0.0));
+        let keep = if exposed[j] { 0.0 } else { 1.0 };
+        let (vp, vn, vk) = (
+            _mm256_set1_pd(pos),
+            _mm256_set1_pd(neg),
+            _mm256_set1_pd(keep),
+        );
+        // SAFETY: bytes j·8 .. j·8 + 8 lie in `counts` (asserted above);
+        // the load has no alignment requirement.
+        let c8 = unsafe { _mm_loadl_epi64(counts.as_ptr().add(j * LANES) as *const __m128i) };
+        let halves = [
+            _mm256_cvtepi32_pd(_mm_cvtepu8_epi32(c8)),
+            _mm256_cvtepi32_pd(_mm_cvtepu8_epi32(_mm_srli_si128::<4>(c8))),
+        ];
+        for (h, &w) in halves.iter().enumerate() {
+            let wk = _mm256_mul_pd(w, vk);
+            acc[0][h] = _mm256_add_pd(acc[0][h], _mm256_mul_pd(w, vp));
+            acc[1][h] = _mm256_add_pd(acc[1][h], _mm256_mul_pd(w, vn));
+            acc[2][h] = _mm256_add_pd(acc[2][h], _mm256_mul_pd(wk, vp));
+            acc[3][h] = _mm256_add_pd(acc[3][h], _mm256_mul_pd(wk, vn));
+            acc[4][h] = _mm256_add_pd(acc[4][h], wk);
+        }
+    }
+    acc.map(|[lo, hi]| {
+        let mut out = [0.0f64; LANES];
+        // SAFETY: `out` holds eight doubles; unaligned stores.
+        unsafe {
+            _mm256_storeu_pd(out.as_mut_ptr(), lo);
+            _mm256_storeu_pd(out.as_mut_ptr().add(4), hi);
+        }
+        out
+    })
 }
 
 /// The bootstrap method in words (shown with the result).
@@ -1513,6 +1616,33 @@ mod tests {
             );
             assert!(got[1].is_none() && got[2].is_none(), "slow path");
             assert!(got[3..].iter().all(Option::is_none));
+        }
+    }
+
+    /// The AVX2 sums are the portable ones, bit for bit (on a CPU without
+    /// AVX2 there is nothing to compare).
+    #[test]
+    fn avx2_sums_equal_portable_sums() {
+        let (t, exposed) = random_trades(2000, 12, false);
+        let mut counts = Vec::new();
+        for l in 0..LANES {
+            let mut c = Vec::<u8>::new();
+            draw_counts(t.len(), 3, l, &mut c);
+            counts.resize(t.len() * LANES, 0);
+            for (j, &k) in c.iter().enumerate() {
+                counts[j * LANES + l] = k;
+            }
+        }
+        let portable = sums_portable(&t.pnl, &exposed, &counts);
+        assert!(portable[0].iter().all(|&g| g > 0.0) && portable[1].iter().all(|&g| g < 0.0));
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, just checked.
+            let avx2 = unsafe { sums_avx2(&t.pnl, &exposed, &counts) };
+            assert_eq!(
+                avx2.map(|a| a.map(f64::to_bits)),
+                portable.map(|a| a.map(f64::to_bits))
+            );
         }
     }
 
