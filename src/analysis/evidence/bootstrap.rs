@@ -139,10 +139,16 @@ pub trait DrawCount: Copy {
     fn small(k: u32) -> Self;
     /// Adds one draw; false when the count would not fit.
     fn add_one(&mut self) -> bool;
+    /// The count.
+    fn get(self) -> u32;
 }
 
 impl DrawCount for u8 {
     const ZERO: u8 = 0;
+    #[inline(always)]
+    fn get(self) -> u32 {
+        self as u32
+    }
     #[inline(always)]
     fn small(k: u32) -> u8 {
         k as u8
@@ -155,6 +161,10 @@ impl DrawCount for u8 {
 
 impl DrawCount for u32 {
     const ZERO: u32 = 0;
+    #[inline(always)]
+    fn get(self) -> u32 {
+        self
+    }
     #[inline(always)]
     fn small(k: u32) -> u32 {
         k
@@ -172,32 +182,34 @@ impl DrawCount for u32 {
 /// The counts are those of n draws with replacement, each of the n trades
 /// equally likely (a multinomial count vector), made without n random
 /// writes: every position gets a Poisson(λ) count in turn, λ = 1 − 4/√n
-/// (at least ½), read off one 32-bit word of ChaCha8 stream `r` of `seed`
-/// against the Poisson distribution function scaled to 2⁶⁴ (a second word
-/// settles the ~2 % of words near a step or past the fourth); when the
-/// counts add up to more than n (probability ≈ 3·10⁻⁵ for large n) all are
-/// drawn again from the same stream; then the n − total missing draws go
-/// to uniformly drawn positions. Given their total s, independent Poisson
-/// counts are multinomial with s draws, equally likely trades (whatever λ);
-/// adding n − s independent uniform draws makes n. λ below 1 makes the
-/// redraw rare; the number of positions drawn one by one is about 4√n.
-/// Thresholds are computed in double precision (the probabilities are
-/// exact to about 10⁻¹⁶).
+/// (at least ½), by a uniform 64-bit value against the Poisson distribution
+/// function scaled to 2⁶⁴. The value's top 16 bits are the position's
+/// 16-bit word of ChaCha8 stream `r` of `seed`; they settle the count
+/// unless they equal a step's top 16 bits or reach the seventh step's
+/// (about 2 positions in 10 000), when its other 48 bits come from stream
+/// `r + 2⁶³` of the same seed. When the counts add up to more than n
+/// (probability ≈ 3·10⁻⁵ for large n) all are drawn again, the streams
+/// going on; then the n − total missing draws go to uniformly drawn
+/// positions (from the second stream). Given their total s, independent
+/// Poisson counts are multinomial with s draws, equally likely trades
+/// (whatever λ); adding n − s independent uniform draws makes n. λ below 1
+/// makes the redraw rare; the number of positions drawn one by one is
+/// about 4√n. Thresholds are computed in double precision (the
+/// probabilities are exact to about 10⁻¹⁶).
 pub fn draw_counts<C: DrawCount>(n: usize, seed: u64, r: usize, counts: &mut Vec<C>) -> bool {
     counts.clear();
     counts.resize(n, C::ZERO);
-    draw_into(n, seed, r, counts, 1)
+    draw_into(n, seed, r, counts)
 }
 
-/// [`draw_counts`] into `out[j · stride]` for position j (the other
-/// entries untouched).
-fn draw_into<C: DrawCount>(n: usize, seed: u64, r: usize, out: &mut [C], stride: usize) -> bool {
+/// [`draw_counts`] into `out` (n long).
+fn draw_into<C: DrawCount>(n: usize, seed: u64, r: usize, out: &mut [C]) -> bool {
     if n == 0 {
         return true;
     }
     let mut draw = CountDraw::new(n, seed, r);
-    let mut total = draw.block(out, stride, 0..n);
-    draw.finish(out, stride, &mut total)
+    let mut total = draw.block(&mut out[..n]);
+    draw.finish(out, 1, &mut total)
 }
 
 /// The first draw of every position for resamples side by side, into
@@ -223,10 +235,20 @@ fn draw_side_by_side_avx2(draws: &mut [CountDraw], counts: &mut [u8], totals: &m
 #[inline(always)]
 fn draw_blocks(draws: &mut [CountDraw], counts: &mut [u8], totals: &mut [u64; LANES]) {
     let n = counts.len() / LANES;
+    let mut lane = [[0u8; COUNT_BLOCK]; LANES];
     for start in (0..n).step_by(COUNT_BLOCK) {
-        let range = start..n.min(start + COUNT_BLOCK);
+        let len = COUNT_BLOCK.min(n - start);
         for (l, d) in draws.iter_mut().enumerate() {
-            totals[l] += d.block(&mut counts[l..], LANES, range.clone());
+            totals[l] += d.block(&mut lane[l][..len]);
+        }
+        // Interleaved: position j's eight counts side by side.
+        for (i, out) in counts[start * LANES..(start + len) * LANES]
+            .chunks_exact_mut(LANES)
+            .enumerate()
+        {
+            for (l, c) in out.iter_mut().enumerate() {
+                *c = lane[l][i];
+            }
         }
     }
 }
@@ -238,81 +260,70 @@ fn draw_blocks(draws: &mut [CountDraw], counts: &mut [u8], totals: &mut [u64; LA
 struct CountDraw {
     n: usize,
     steps: Vec<u64>,
-    hi: [u32; 4],
-    words: Words,
+    /// The top 16 bits of the first six steps (past `steps`: u16::MAX).
+    tops: [u16; 6],
+    /// The top 16 bits of the seventh step (or of the last, if fewer): a
+    /// word at or past it is settled by its full value.
+    last: u16,
+    /// Stream r: a 16-bit word per position.
+    main: HalfWords,
+    /// Stream r + 2⁶³: the low 48 bits of the few unsettled values, and the
+    /// added draws.
+    side: Words,
 }
 
 impl CountDraw {
     fn new(n: usize, seed: u64, r: usize) -> CountDraw {
         let steps = poisson_steps(n);
-        let hi = std::array::from_fn(|k| (steps[k] >> 32) as u32);
+        let top = |k: usize| (steps[k] >> 48) as u16;
+        let fast = steps.len().min(7);
+        let tops = std::array::from_fn(|k| if k + 1 < fast { top(k) } else { u16::MAX });
+        let last = top(fast - 1);
         CountDraw {
             n,
+            tops,
+            last,
             steps,
-            hi,
-            words: Words::new(seed, r as u64),
+            main: HalfWords::new(seed, r as u64),
+            side: Words::new(seed, r as u64 | 1 << 63),
         }
     }
 
-    /// The Poisson counts of the positions `range` (in order) into
-    /// `out[j · stride]`; returns their sum.
+    /// The Poisson counts of the next `out.len()` positions, in order,
+    /// into `out`; returns their sum.
     #[inline(always)]
-    fn block<C: DrawCount>(
-        &mut self,
-        out: &mut [C],
-        stride: usize,
-        range: std::ops::Range<usize>,
-    ) -> u64 {
-        let hi = self.hi;
-        // On a step's high word, or past the fourth step (2 % of words):
-        // the full 64-bit value decides. Otherwise the count is the steps
-        // below w, counted without a branch.
-        let rare = |w: u32| (w >= hi[3]) | (w == hi[0]) | (w == hi[1]) | (w == hi[2]);
-        let steps_below = |w: u32| (w > hi[0]) as u32 + (w > hi[1]) as u32 + (w > hi[2]) as u32;
+    fn block<C: DrawCount>(&mut self, out: &mut [C]) -> u64 {
+        let (tops, last) = (self.tops, self.last);
         let mut total = 0u64;
-        let mut j = range.start;
-        while j < range.end {
-            let ready = self.words.ready();
-            let take = ready.len().min(range.end - j);
-            let mut used = 0;
-            // Eight words at a time while none of them is rare.
-            while used + 8 <= take {
-                let group: &[u32; 8] = ready[used..used + 8].try_into().expect("8 words");
-                if group.iter().fold(false, |a, &w| a | rare(w)) {
-                    break;
-                }
-                let k = group.map(steps_below);
-                for (i, &k) in k.iter().enumerate() {
-                    out[(j + used + i) * stride] = C::small(k);
-                }
-                total += k.iter().sum::<u32>() as u64;
-                used += 8;
+        let mut done = 0;
+        while done < out.len() {
+            let ready = self.main.ready();
+            let take = ready.len().min(out.len() - done);
+            let (dst, words) = (&mut out[done..done + take], &ready[..take]);
+            // Every word's count from its top bits, without a branch: the
+            // steps below it, or UNSETTLED on a step's top bits or at or
+            // past the seventh step's.
+            let mut any = false;
+            for (c, &w) in dst.iter_mut().zip(words) {
+                let k = settled_count(w, &tops, last);
+                any |= k == UNSETTLED;
+                *c = C::small(k);
             }
-            // Then one by one, up to a rare word or the group's end.
-            let until = take.min(used + 8);
-            let mut hit = false;
-            while used < until {
-                let w = ready[used];
-                if rare(w) {
-                    hit = true;
-                    break;
+            if any {
+                // The other 48 bits decide, in position order.
+                for (c, &w) in dst.iter_mut().zip(words) {
+                    if c.get() == UNSETTLED {
+                        let high = self.side.next_word() as u64;
+                        let low = (high << 16) | (self.side.next_word() >> 16) as u64;
+                        let u = (w as u64) << 48 | low;
+                        // At most `steps.len()` ≤ 64: fits every count type.
+                        *c = C::small(self.steps.iter().take_while(|&&t| u >= t).count() as u32);
+                    }
                 }
-                let k = steps_below(w);
-                out[(j + used) * stride] = C::small(k);
-                total += k as u64;
-                used += 1;
             }
-            self.words.consume(used);
-            j += used;
-            if hit {
-                let w = self.words.next_word();
-                let u = (w as u64) << 32 | self.words.next_word() as u64;
-                // At most `steps.len()` ≤ 64: fits every count type.
-                let k = self.steps.iter().take_while(|&&t| u >= t).count() as u32;
-                out[j * stride] = C::small(k);
-                total += k as u64;
-                j += 1;
-            }
+            total += dst.iter().map(|c| c.get() as u64).sum::<u64>();
+            self.main.consume(take);
+            done += take;
         }
         total
     }
@@ -323,14 +334,83 @@ impl CountDraw {
     fn finish<C: DrawCount>(&mut self, out: &mut [C], stride: usize, total: &mut u64) -> bool {
         let n = self.n;
         while *total > n as u64 {
-            *total = self.block(out, stride, 0..n);
+            let mut again = vec![C::ZERO; n];
+            *total = self.block(&mut again);
+            for (j, c) in again.into_iter().enumerate() {
+                out[j * stride] = c;
+            }
         }
         for _ in *total as usize..n {
-            if !out[self.words.index(n as u32) as usize * stride].add_one() {
+            if !out[self.side.index(n as u32) as usize * stride].add_one() {
                 return false;
             }
         }
         true
+    }
+}
+
+/// What [`settled_count`] gives for a word that does not settle its count
+/// (no count reaches it: at most 64 steps).
+const UNSETTLED: u32 = u8::MAX as u32;
+
+/// The count of a uniform 64-bit value whose top 16 bits are `w`, when
+/// they settle it: the steps whose top 16 bits are below w (`tops`: the
+/// first six steps' top bits, u16::MAX past the steps; `last`: the
+/// seventh's, or the last step's if fewer). [`UNSETTLED`] when w equals a
+/// step's top bits or reaches `last`. Without a branch.
+#[inline(always)]
+fn settled_count(w: u16, tops: &[u16; 6], last: u16) -> u32 {
+    let mut k = 0u32;
+    let mut unsettled = w >= last;
+    for &t in tops {
+        k += (w > t) as u32;
+        unsettled |= w == t;
+    }
+    if unsettled { UNSETTLED } else { k }
+}
+
+/// 16-bit words in a [`HalfWords`] buffer.
+const HALF_WORDS: usize = 2048;
+
+/// ChaCha8 stream `stream` of `seed` as little-endian 16-bit words, a
+/// block at a time.
+struct HalfWords {
+    rng: ChaCha8Rng,
+    buf: [u8; 2 * HALF_WORDS],
+    words: [u16; HALF_WORDS],
+    /// Words of `words` read.
+    at: usize,
+}
+
+impl HalfWords {
+    fn new(seed: u64, stream: u64) -> HalfWords {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        rng.set_stream(stream);
+        HalfWords {
+            rng,
+            buf: [0; 2 * HALF_WORDS],
+            words: [0; HALF_WORDS],
+            at: HALF_WORDS,
+        }
+    }
+
+    /// The buffered words not yet read (refilled when none are left).
+    #[inline]
+    fn ready(&mut self) -> &[u16] {
+        if self.at == HALF_WORDS {
+            self.rng.fill_bytes(&mut self.buf);
+            self.at = 0;
+            for (w, b) in self.words.iter_mut().zip(self.buf.chunks_exact(2)) {
+                *w = u16::from_le_bytes([b[0], b[1]]);
+            }
+        }
+        &self.words[self.at..]
+    }
+
+    /// Marks `k` words of [`HalfWords::ready`] read.
+    #[inline]
+    fn consume(&mut self, k: usize) {
+        self.at += k;
     }
 }
 
@@ -507,9 +587,6 @@ pub fn bootstrap_intervals(
 struct Words {
     rng: ChaCha8Rng,
     buf: [u8; 4096],
-    /// `buf` as little-endian words.
-    words: [u32; 1024],
-    /// Bytes of `buf` read.
     at: usize,
 }
 
@@ -520,32 +597,16 @@ impl Words {
         Words {
             rng,
             buf: [0; 4096],
-            words: [0; 1024],
             at: 4096,
         }
     }
 
-    /// The buffered words not yet read (refilled when none are left).
-    #[inline]
-    fn ready(&mut self) -> &[u32] {
+    fn next_word(&mut self) -> u32 {
         if self.at == self.buf.len() {
             self.rng.fill_bytes(&mut self.buf);
             self.at = 0;
-            for (w, b) in self.words.iter_mut().zip(self.buf.chunks_exact(4)) {
-                *w = u32::from_le_bytes(b.try_into().expect("4 bytes"));
-            }
         }
-        &self.words[self.at / 4..]
-    }
-
-    /// Marks `k` words of [`Words::ready`] read.
-    #[inline]
-    fn consume(&mut self, k: usize) {
-        self.at += 4 * k;
-    }
-
-    fn next_word(&mut self) -> u32 {
-        let w = self.ready()[0];
+        let w = u32::from_le_bytes(self.buf[self.at..self.at + 4].try_into().expect("4 bytes"));
         self.at += 4;
         w
     }
@@ -1396,6 +1457,31 @@ mod tests {
             want.extend(std::iter::repeat_n(order[j], c as usize));
         }
         assert_eq!(resample(&order, 4, 9), want);
+    }
+
+    /// A word that settles its count gives the count of every 64-bit value
+    /// with those top bits (the lowest and the highest), for all 65 536
+    /// words, at the λ of several n; and the words that do not settle are
+    /// few (equal to a step's top bits, or at or past the seventh step).
+    #[test]
+    fn settled_words_give_the_full_values_count() {
+        for n in [1usize, 3, 50, 20_000, 10_000_000] {
+            let d = CountDraw::new(n, 1, 0);
+            let full = |u: u64| d.steps.iter().take_while(|&&t| u >= t).count() as u32;
+            let mut unsettled = 0;
+            for w in 0..=u16::MAX {
+                let k = settled_count(w, &d.tops, d.last);
+                let (lo, hi) = ((w as u64) << 48, (w as u64) << 48 | ((1 << 48) - 1));
+                if k == UNSETTLED {
+                    unsettled += 1;
+                } else {
+                    assert_eq!((k, k), (full(lo), full(hi)), "n {n} w {w}");
+                }
+            }
+            // At most six step tops plus the words from the seventh up
+            // (under 3·10⁻⁴ of all at these λ).
+            assert!(unsettled < 20, "n {n}: {unsettled}");
+        }
     }
 
     /// The counts follow the multinomial law of n draws with replacement,
