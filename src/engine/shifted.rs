@@ -273,6 +273,26 @@ impl TradeIndex {
         }
     }
 
+    /// The same index with the trades numbered by open instant (ties in
+    /// input order), and that numbering: entry k is the input index of
+    /// trade k. Flags marked on it then follow time, so that a window's
+    /// trades set neighbouring bits (in input order, the runs of an
+    /// optimisation export scatter them over the whole flag set).
+    pub fn in_open_order(mut self, opened: &[i64]) -> (TradeIndex, Vec<u32>) {
+        let mut order: Vec<u32> = (0..opened.len() as u32).collect();
+        order.sort_by_key(|&i| (opened[i as usize], i));
+        let mut number = vec![0u32; opened.len()];
+        for (k, &i) in order.iter().enumerate() {
+            number[i as usize] = k as u32;
+        }
+        for c in self.by_currency.iter_mut().flatten() {
+            for t in &mut c.trade {
+                *t = number[*t as usize];
+            }
+        }
+        (self, order)
+    }
+
     /// Words of a flag set for these trades (bit i of word i / 64 = trade i).
     pub fn words(&self) -> usize {
         self.trades.div_ceil(64)
@@ -470,6 +490,26 @@ mod tests {
                 for d in [0, 1, 3, 7, cal.span() - 1] {
                     cal.shift(d, &mut moved);
                     index.mark(&moved, &mut bits);
+                    // Numbered by open instant: the same trades, renumbered.
+                    let (by_open, order) = TradeIndex::new(
+                        cal.currencies(),
+                        &opened,
+                        &closed,
+                        &instrument,
+                        &currencies,
+                        rule,
+                    )
+                    .in_open_order(&opened);
+                    assert!(
+                        order
+                            .windows(2)
+                            .all(|w| opened[w[0] as usize] <= opened[w[1] as usize])
+                    );
+                    let mut renumbered = vec![0; by_open.words()];
+                    by_open.mark(&moved, &mut renumbered);
+                    for (k, &i) in order.iter().enumerate() {
+                        assert_eq!(is_set(&renumbered, k), is_set(&bits, i as usize));
+                    }
                     // The same move done window by window, through the engine.
                     let first = windows
                         .iter()

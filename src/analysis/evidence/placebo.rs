@@ -178,7 +178,8 @@ pub fn placebo_groups(
         }
     }
     // Each group's trades indexed on their own (a run's placebo marks
-    // only its trades), with their P/L in the group's order and its net.
+    // only its trades), numbered by open instant, with their P/L in that
+    // order and its net summed in it.
     struct Group {
         index: TradeIndex,
         pnl: Vec<f64>,
@@ -187,9 +188,8 @@ pub fn placebo_groups(
     let prepared: Vec<Group> = groups
         .par_iter()
         .map(|g| {
-            let pnl = group_pnl(g);
-            let net = pnl.iter().fold(0.0, |net, p| net + p);
-            let index = match g.trades {
+            let in_group = group_pnl(g);
+            let (index, order) = match g.trades {
                 None => TradeIndex::new(
                     calendar.currencies(),
                     &trades.opened,
@@ -197,22 +197,27 @@ pub fn placebo_groups(
                     &trades.instrument,
                     currencies,
                     rule,
-                ),
+                )
+                .in_open_order(&trades.opened),
                 Some(idx) => {
                     let pick =
                         |v: &[i64]| -> Vec<i64> { idx.iter().map(|&i| v[i as usize]).collect() };
+                    let opened = pick(&trades.opened);
                     let instrument: Vec<u32> =
                         idx.iter().map(|&i| trades.instrument[i as usize]).collect();
                     TradeIndex::new(
                         calendar.currencies(),
-                        &pick(&trades.opened),
+                        &opened,
                         &pick(&trades.closed),
                         &instrument,
                         currencies,
                         rule,
                     )
+                    .in_open_order(&opened)
                 }
             };
+            let pnl: Vec<f64> = order.iter().map(|&k| in_group[k as usize]).collect();
+            let net = pnl.iter().fold(0.0, |net, p| net + p);
             Group { index, pnl, net }
         })
         .collect();
