@@ -196,6 +196,62 @@ struct Class {
     query_start: Vec<i64>,
     query_end: Vec<i64>,
     trade: Vec<u32>,
+    /// Where to start looking for a query start: see [`StartIndex`].
+    starts: StartIndex,
+}
+
+/// A coarse index of a sorted list of instants: the span cut into buckets
+/// of 2^shift ms, about four entries each, and each bucket's first position.
+/// The first position at or after an instant is then its bucket's first
+/// plus a few steps, instead of a search.
+#[derive(Debug, Default)]
+struct StartIndex {
+    first_instant: i64,
+    shift: u32,
+    first: Vec<u32>,
+}
+
+impl StartIndex {
+    fn new(sorted: &[i64]) -> StartIndex {
+        let (Some(&lo), Some(&hi)) = (sorted.first(), sorted.last()) else {
+            return StartIndex::default();
+        };
+        let buckets = (sorted.len() / 4).max(1) as u64;
+        let width = ((hi - lo) as u64 / buckets).max(1);
+        let shift = 64 - (width - 1).leading_zeros();
+        let count = (((hi - lo) as u64) >> shift) as usize + 1;
+        let mut first = Vec::with_capacity(count + 1);
+        let mut j = 0;
+        for b in 0..=count {
+            let at = lo + ((b as i64) << shift);
+            while j < sorted.len() && sorted[j] < at {
+                j += 1;
+            }
+            first.push(j as u32);
+        }
+        StartIndex {
+            first_instant: lo,
+            shift,
+            first,
+        }
+    }
+
+    /// The first position of `sorted` (the list indexed) at or after
+    /// `from` whose instant is ≥ `at`.
+    #[inline]
+    fn first_at_least(&self, sorted: &[i64], from: usize, at: i64) -> usize {
+        let mut j = if at <= self.first_instant {
+            0
+        } else {
+            let b = ((at - self.first_instant) as u64 >> self.shift) as usize;
+            self.first.get(b).map_or(sorted.len(), |&f| f as usize)
+        };
+        j = j.max(from);
+        while j < sorted.len() && sorted[j] < at {
+            j += 1;
+        }
+        j
+    }
 }
 
 /// The trades, indexed once per currency of a [`ShiftedCalendar`] for
@@ -257,9 +313,11 @@ impl TradeIndex {
                     .filter(|c| !c.is_empty())
                     .map(|mut c| {
                         c.sort_unstable_by_key(|x| (x.0, x.2));
+                        let query_start: Vec<i64> = c.iter().map(|x| x.0).collect();
                         Class {
                             longest: c.iter().map(|x| x.1 - x.0).max().unwrap_or(0).max(0),
-                            query_start: c.iter().map(|x| x.0).collect(),
+                            starts: StartIndex::new(&query_start),
+                            query_start,
                             query_end: c.iter().map(|x| x.1).collect(),
                             trade: c.iter().map(|x| x.2).collect(),
                         }
@@ -328,7 +386,9 @@ impl Class {
     fn mark_from_slots(&self, slots: &[(i64, i64)], bits: &mut [u64]) {
         let mut hint = 0;
         for &(s, e) in slots {
-            let from = first_at_least(&self.query_start, hint, s.saturating_sub(self.longest));
+            let from =
+                self.starts
+                    .first_at_least(&self.query_start, hint, s.saturating_sub(self.longest));
             hint = from;
             for j in from..self.query_start.len() {
                 if self.query_start[j] > e {
@@ -578,6 +638,30 @@ mod tests {
                     exposed_seen > n_trades as usize / 40,
                     "{rule:?}: the check needs exposed trades ({exposed_seen})"
                 );
+            }
+        }
+    }
+
+    /// The coarse index finds what a binary search finds, from any start
+    /// at or before it, on lists with ties, gaps and one entry.
+    #[test]
+    fn start_index_equals_partition_point() {
+        let lists: Vec<Vec<i64>> = vec![
+            vec![5],
+            (0..300).map(|i| i / 3 * 2).collect(),
+            (0..500)
+                .map(|i| if i < 250 { i } else { 1_000_000 + i * 7 })
+                .collect(),
+        ];
+        for v in &lists {
+            let ix = StartIndex::new(v);
+            for at in (v[0] - 3..v[v.len() - 1] + 3)
+                .step_by(((v[v.len() - 1] - v[0]) / 700).max(1) as usize)
+            {
+                let want = v.partition_point(|&x| x < at);
+                for from in [0, want / 2, want] {
+                    assert_eq!(ix.first_at_least(v, from, at), want, "at {at} from {from}");
+                }
             }
         }
     }
