@@ -314,7 +314,7 @@ fn random_removal_with(
         }
         let is_drawn = |i: usize| drawn[i];
         let value = match (&pass, slot) {
-            (Some(p), Some(k)) => p.figures(&is_drawn)[k],
+            (Some(p), Some(k)) => p.figure(&drawn, k),
             _ => {
                 let result = run_result(
                     run.to_string(),

@@ -691,6 +691,71 @@ impl RemovedPass {
         w.removed(&mut w.scratch(), &by_position)
             .expect("every trade is ranked")
     }
+
+    /// One of [`RemovedPass::figures`] (0 net, 1 profit factor, 2 Sharpe,
+    /// 3 max drawdown, 4 TCR), bit for bit, for flags by input index: all
+    /// but TCR from their own sums alone (the same additions in the same
+    /// order, the exposed trades skipped), TCR through `figures`. For draws that each need one figure (rank's
+    /// random-removal reference).
+    pub fn figure(&self, exposed: &[bool], which: usize) -> Option<f64> {
+        let w = &self.weighted;
+        // Each trade's P/L in close order, +0.0 for an exposed one: adding
+        // +0.0 leaves every sum here as it is (see `walk`), without a branch.
+        let kept = || {
+            w.order.iter().zip(&w.pnl).map(|(&i, &p)| {
+                let keep = 0u64.wrapping_sub(!exposed[i as usize] as u64);
+                f64::from_bits(p.to_bits() & keep)
+            })
+        };
+        match which {
+            0 => Some(kept().fold(0.0, |net, p| net + p)),
+            1 => {
+                let (mut gain, mut loss, mut losses) = (0.0f64, 0.0f64, 0usize);
+                for p in kept() {
+                    if p > 0.0 {
+                        gain += p;
+                    } else if p < 0.0 {
+                        loss += p;
+                        losses += 1;
+                    }
+                }
+                (losses > 0).then(|| gain / loss.abs())
+            }
+            2 => {
+                // A day's sum starts at 0.0 as `walk` starts it.
+                let mut daily = vec![0.0; w.days];
+                let (mut cur, mut day) = (w.slot[0], 0.0f64);
+                for (p, &s) in kept().zip(&w.slot) {
+                    if s != cur {
+                        daily[cur as usize] = day;
+                        (day, cur) = (0.0, s);
+                    }
+                    day += p;
+                }
+                daily[cur as usize] = day;
+                metrics::sharpe(
+                    &metrics::daily_values(daily, w.initial_equity),
+                    metrics::DAYS_PER_YEAR,
+                )
+            }
+            3 => {
+                let (mut equity, mut drawdown) = (w.start, 0.0f64);
+                let mut peak = w.start;
+                for p in kept() {
+                    equity += p;
+                    if equity > peak {
+                        peak = equity;
+                    }
+                    let fall = peak - equity;
+                    if fall > drawdown {
+                        drawdown = fall;
+                    }
+                }
+                Some(drawdown)
+            }
+            _ => self.figures(&|i| exposed[i])[which],
+        }
+    }
 }
 
 /// Buffers of [`Weighted::removed`].
@@ -1759,6 +1824,14 @@ mod tests {
                     bits(&want),
                     "case {case}, every {every}"
                 );
+                let flags: Vec<bool> = (0..t.len()).map(exposed).collect();
+                for (f, w) in want.iter().enumerate() {
+                    assert_eq!(
+                        pass.figure(&flags, f).map(f64::to_bits),
+                        w.map(f64::to_bits),
+                        "case {case}, every {every}, figure {f}"
+                    );
+                }
             }
         }
     }
