@@ -232,6 +232,9 @@ pub fn tune(
         currencies,
         settings.exposure_rule,
     );
+    // The P/L in close order, read in turn by every cell (through the
+    // order, each cell's sum would wait on scattered reads).
+    let pnl_in_order: Vec<f64> = order.iter().map(|&i| trades.pnl[i as usize]).collect();
     let grid: Vec<(i64, i64)> = pre
         .iter()
         .flat_map(|&a| post.iter().map(move |&b| (a, b)))
@@ -252,11 +255,12 @@ pub fn tune(
             let mut bits = vec![0u64; index.words()];
             index.mark(&slots, &mut bits);
             drop(slots);
+            // In close order; −0.0 for a trade not exposed: the identity
+            // of addition, so the sum is the exposed trades' alone.
             let exposed_pnl: f64 = order
                 .iter()
-                .map(|&i| i as usize)
-                .filter(|&i| is_set(&bits, i))
-                .map(|i| trades.pnl[i])
+                .zip(&pnl_in_order)
+                .map(|(&i, &p)| if is_set(&bits, i as usize) { p } else { -0.0 })
                 .sum();
             let is_exposed = |i: usize| is_set(&bits, i);
             // The stressed scenario keeps every trade and charges the
@@ -288,7 +292,7 @@ pub fn tune(
                 (stressed.map(|s| s.0), stressed.and_then(|s| s.1));
             let after = if per_run.is_empty() {
                 let [tcr, sharpe, max_drawdown] = match &pooled_pass {
-                    Some(pass) => path_figures(pass.figures(&is_exposed)),
+                    Some(pass) => pass.tail_and_path(is_exposed),
                     None => removed_by_build(&order, trades, &is_exposed, settings, &ctx_of)?,
                 };
                 After {
@@ -300,7 +304,7 @@ pub fn tune(
                     runs_sharpe_improved: None,
                 }
             } else {
-                runs_after(&per_run, trades, &is_exposed, settings, &ctx_of)?
+                runs_after(&per_run, trades, &bits, settings, &ctx_of)?
             };
             let blocked = metrics::union_within(
                 used.iter()
@@ -369,13 +373,14 @@ fn median(mut v: Vec<f64>) -> Option<f64> {
     metrics::quantile_type7_unsorted(&mut v, 0.5)
 }
 
-/// Medians over runs of each run's figures without the exposed trades
-/// (the reduction is each run's own, then the median), and the shares of
-/// runs whose TCR falls and whose Sharpe rises.
+/// Medians over runs of each run's figures without the `exposed` trades
+/// (flags by input index, as [`TradeIndex::mark`] sets them; the reduction
+/// is each run's own, then the median), and the shares of runs whose TCR
+/// falls and whose Sharpe rises.
 fn runs_after(
     runs: &[RunBase],
     trades: &Trades,
-    exposed: &(dyn Fn(usize) -> bool + Sync),
+    exposed: &[u64],
     settings: &AnalysisSettings,
     ctx_of: &(dyn Fn(&scenarios::Scenarios) -> Context + Sync),
 ) -> Result<After, scenarios::ScenarioError> {
@@ -386,11 +391,15 @@ fn runs_after(
         .iter()
         .map(|r| -> Result<_, scenarios::ScenarioError> {
             let [tcr, sharpe, max_drawdown] = match &r.pass {
-                Some(pass) => path_figures(pass.figures(&|s| exposed(r.order[s] as usize))),
-                None => removed_by_build(&r.order, trades, exposed, settings, &|sc| Context {
-                    span: r.span,
-                    ..ctx_of(sc)
-                })?,
+                Some(pass) => pass.tail_and_path(|s| is_set(exposed, r.order[s] as usize)),
+                None => {
+                    removed_by_build(&r.order, trades, &|i| is_set(exposed, i), settings, &|sc| {
+                        Context {
+                            span: r.span,
+                            ..ctx_of(sc)
+                        }
+                    })?
+                }
             };
             Ok([
                 tcr,
@@ -414,12 +423,6 @@ fn runs_after(
         runs_tcr_reduced: share(reductions),
         runs_sharpe_improved: share(sharpe_gains),
     })
-}
-
-/// TCR, Sharpe and max drawdown from the weighted pass's five figures
-/// (net, profit factor, Sharpe, max drawdown, TCR).
-fn path_figures(f: [Option<f64>; 5]) -> [Option<f64>; 3] {
-    [f[4], f[2], f[3]]
 }
 
 /// TCR, Sharpe and max drawdown of the removed scenario built over `order`

@@ -692,6 +692,63 @@ impl RemovedPass {
             .expect("every trade is ranked")
     }
 
+    /// TCR, Sharpe and max drawdown of [`RemovedPass::figures`], bit for
+    /// bit, in one pass of their own sums (the exposed trades added as
+    /// +0.0, without a branch) and a walk down the ranked trades for TCR:
+    /// no buffers but the daily P/L, and `exposed` inlined (the window
+    /// grid asks this of every run in every cell).
+    pub fn tail_and_path(&self, exposed: impl Fn(usize) -> bool) -> [Option<f64>; 3] {
+        let w = &self.weighted;
+        // The flags by position first: a call inside the sums' loop would
+        // push its running values out of registers.
+        let dropped: Vec<bool> = w.order.iter().map(|&i| exposed(i as usize)).collect();
+        let mut daily = vec![0.0; w.days];
+        let (mut cur, mut day) = (w.slot[0], 0.0f64);
+        let (mut equity, mut peak, mut drawdown) = (w.start, w.start, 0.0f64);
+        let (mut abs_tail, mut kept) = (0.0f64, 0usize);
+        for (j, &out) in dropped.iter().enumerate() {
+            let keep = !out;
+            let mask = 0u64.wrapping_sub(keep as u64);
+            let p = f64::from_bits(w.pnl[j].to_bits() & mask);
+            let t = f64::from_bits(w.tail_at(j).to_bits() & mask);
+            kept += keep as usize;
+            let s = w.slot[j];
+            if s != cur {
+                daily[cur as usize] = day;
+                (day, cur) = (0.0, s);
+            }
+            day += p;
+            equity += p;
+            if equity > peak {
+                peak = equity;
+            }
+            let fall = peak - equity;
+            if fall > drawdown {
+                drawdown = fall;
+            }
+            abs_tail += t;
+        }
+        daily[cur as usize] = day;
+        let sharpe = metrics::sharpe(
+            &metrics::daily_values(daily, w.initial_equity),
+            metrics::DAYS_PER_YEAR,
+        );
+        let tcr = (kept > 0 && abs_tail > 0.0).then(|| {
+            let k = metrics::tcr_k(kept, w.tcr_p);
+            // Every trade is ranked (`rank_all`): the k largest kept ones,
+            // largest first, as `top_sum` adds them.
+            let top = w
+                .by_tail
+                .iter()
+                .map(|&j| j as usize)
+                .filter(|&j| !dropped[j])
+                .take(k)
+                .fold(0.0f64, |top, j| top + w.tail_at(j));
+            (top / k as f64) / (abs_tail / kept as f64)
+        });
+        [tcr, sharpe, Some(drawdown)]
+    }
+
     /// One of [`RemovedPass::figures`] (0 net, 1 profit factor, 2 Sharpe,
     /// 3 max drawdown, 4 TCR), bit for bit, for flags by input index: all
     /// but TCR from their own sums alone (the same additions in the same
@@ -1825,6 +1882,12 @@ mod tests {
                     "case {case}, every {every}"
                 );
                 let flags: Vec<bool> = (0..t.len()).map(exposed).collect();
+                assert_eq!(
+                    pass.tail_and_path(|i| flags[i])
+                        .map(|v| v.map(f64::to_bits)),
+                    [want[4], want[2], want[3]].map(|v| v.map(f64::to_bits)),
+                    "case {case}, every {every}"
+                );
                 for (f, w) in want.iter().enumerate() {
                     assert_eq!(
                         pass.figure(&flags, f).map(f64::to_bits),
