@@ -241,14 +241,45 @@ fn draw_blocks(draws: &mut [CountDraw], counts: &mut [u8], totals: &mut [u64; LA
         for (l, d) in draws.iter_mut().enumerate() {
             totals[l] += d.block(&mut lane[l][..len]);
         }
-        // Interleaved: position j's eight counts side by side.
-        for (i, out) in counts[start * LANES..(start + len) * LANES]
-            .chunks_exact_mut(LANES)
-            .enumerate()
-        {
-            for (l, c) in out.iter_mut().enumerate() {
-                *c = lane[l][i];
+        interleave(&lane, &mut counts[start * LANES..(start + len) * LANES]);
+    }
+}
+
+/// The lanes' counts of a block (lane l's at `lane[l][i]`) interleaved into
+/// `out`: position i's eight counts side by side at `out[i · 8..]`. On
+/// x86-64, eight positions at a time by an 8 × 8 byte transpose in SSE2
+/// (every x86-64 CPU has it); the rest one by one.
+fn interleave(lane: &[[u8; COUNT_BLOCK]; LANES], out: &mut [u8]) {
+    let len = out.len() / LANES;
+    let mut done = 0;
+    #[cfg(target_arch = "x86_64")]
+    {
+        use std::arch::x86_64::*;
+        while done + 8 <= len {
+            // SAFETY: bytes done..done + 8 of every lane and 64 bytes of
+            // `out` from done · 8 are in bounds (done + 8 ≤ len); the loads
+            // and stores have no alignment requirement; SSE2 is part of
+            // x86-64.
+            unsafe {
+                let row = |l: usize| _mm_loadl_epi64(lane[l][done..].as_ptr() as *const __m128i);
+                let t01 = _mm_unpacklo_epi8(row(0), row(1));
+                let t23 = _mm_unpacklo_epi8(row(2), row(3));
+                let t45 = _mm_unpacklo_epi8(row(4), row(5));
+                let t67 = _mm_unpacklo_epi8(row(6), row(7));
+                let (u0, u1) = (_mm_unpacklo_epi16(t01, t23), _mm_unpackhi_epi16(t01, t23));
+                let (u2, u3) = (_mm_unpacklo_epi16(t45, t67), _mm_unpackhi_epi16(t45, t67));
+                let at = out[done * LANES..].as_mut_ptr() as *mut __m128i;
+                _mm_storeu_si128(at, _mm_unpacklo_epi32(u0, u2));
+                _mm_storeu_si128(at.add(1), _mm_unpackhi_epi32(u0, u2));
+                _mm_storeu_si128(at.add(2), _mm_unpacklo_epi32(u1, u3));
+                _mm_storeu_si128(at.add(3), _mm_unpackhi_epi32(u1, u3));
             }
+            done += 8;
+        }
+    }
+    for (i, c) in out.chunks_exact_mut(LANES).enumerate().skip(done) {
+        for (l, c) in c.iter_mut().enumerate() {
+            *c = lane[l][i];
         }
     }
 }
@@ -1824,6 +1855,27 @@ mod tests {
             );
             assert!(got[1].is_none() && got[2].is_none(), "slow path");
             assert!(got[3..].iter().all(Option::is_none));
+        }
+    }
+
+    /// Interleaving puts lane l's count of position i at i · 8 + l, for
+    /// blocks whose length is and is not a multiple of eight.
+    #[test]
+    fn lanes_interleave_by_position() {
+        let mut lane = [[0u8; COUNT_BLOCK]; LANES];
+        for (l, row) in lane.iter_mut().enumerate() {
+            for (i, c) in row.iter_mut().enumerate() {
+                *c = (i * 8 + l) as u8 ^ 0x5a;
+            }
+        }
+        for len in [0, 1, 8, 13, 64, 67, COUNT_BLOCK] {
+            let mut out = vec![0u8; len * LANES];
+            interleave(&lane, &mut out);
+            for i in 0..len {
+                for l in 0..LANES {
+                    assert_eq!(out[i * LANES + l], lane[l][i], "len {len} i {i} l {l}");
+                }
+            }
         }
     }
 
