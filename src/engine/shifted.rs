@@ -567,22 +567,8 @@ mod tests {
                 ExposureRule::Entered,
             ] {
                 let cal = ShiftedCalendar::new(&releases, &windows, rule);
-                let index = TradeIndex::new(
-                    cal.currencies(),
-                    &opened,
-                    &closed,
-                    &instrument,
-                    &currencies,
-                    rule,
-                );
-                let mut moved = Slots::default();
-                let mut bits = vec![0; index.words()];
-                let mut exposed_seen = 0;
-                for d in [0, 1, 3, 7, cal.span() - 1] {
-                    cal.shift(d, &mut moved);
-                    index.mark(&moved, &mut bits);
-                    // Numbered by open instant: the same trades, renumbered.
-                    let (by_open, order) = TradeIndex::new(
+                let build = || {
+                    TradeIndex::new(
                         cal.currencies(),
                         &opened,
                         &closed,
@@ -590,7 +576,16 @@ mod tests {
                         &currencies,
                         rule,
                     )
-                    .in_open_order(&opened);
+                };
+                let index = build();
+                let mut moved = Slots::default();
+                let mut bits = vec![0; index.words()];
+                let mut exposed_seen = 0;
+                for d in [0, 1, 3, 7, cal.span() - 1] {
+                    cal.shift(d, &mut moved);
+                    index.mark(&moved, &mut bits);
+                    // Numbered by open instant: the same trades, renumbered.
+                    let (by_open, order) = build().in_open_order(&opened);
                     assert!(
                         order
                             .windows(2)

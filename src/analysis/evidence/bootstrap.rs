@@ -297,7 +297,7 @@ struct CountDraw {
     /// word at or past it is settled by its full value.
     last: u16,
     /// Stream r: a 16-bit word per position.
-    main: HalfWords,
+    main: Words,
     /// Stream r + 2⁶³: the low 48 bits of the few unsettled values, and the
     /// added draws.
     side: Words,
@@ -315,7 +315,7 @@ impl CountDraw {
             tops,
             last,
             steps,
-            main: HalfWords::new(seed, r as u64),
+            main: Words::new(seed, r as u64),
             side: Words::new(seed, r as u64 | 1 << 63),
         }
     }
@@ -329,20 +329,23 @@ impl CountDraw {
         let mut done = 0;
         while done < out.len() {
             let ready = self.main.ready();
-            let take = ready.len().min(out.len() - done);
-            let (dst, words) = (&mut out[done..done + take], &ready[..take]);
+            let take = (ready.len() / 2).min(out.len() - done);
+            let dst = &mut out[done..done + take];
+            let words = ready[..2 * take]
+                .chunks_exact(2)
+                .map(|b| u16::from_le_bytes([b[0], b[1]]));
             // Every word's count from its top bits, without a branch: the
             // steps below it, or UNSETTLED on a step's top bits or at or
             // past the seventh step's.
             let mut any = false;
-            for (c, &w) in dst.iter_mut().zip(words) {
+            for (c, w) in dst.iter_mut().zip(words.clone()) {
                 let k = settled_count(w, &tops, last);
                 any |= k == UNSETTLED;
                 *c = C::small(k);
             }
             if any {
                 // The other 48 bits decide, in position order.
-                for (c, &w) in dst.iter_mut().zip(words) {
+                for (c, w) in dst.iter_mut().zip(words) {
                     if c.get() == UNSETTLED {
                         let high = self.side.next_word() as u64;
                         let low = (high << 16) | (self.side.next_word() >> 16) as u64;
@@ -353,7 +356,7 @@ impl CountDraw {
                 }
             }
             total += dst.iter().map(|c| c.get() as u64).sum::<u64>();
-            self.main.consume(take);
+            self.main.consume(2 * take);
             done += take;
         }
         total
@@ -398,51 +401,6 @@ fn settled_count(w: u16, tops: &[u16; 6], last: u16) -> u32 {
         unsettled |= w == t;
     }
     if unsettled { UNSETTLED } else { k }
-}
-
-/// 16-bit words in a [`HalfWords`] buffer.
-const HALF_WORDS: usize = 2048;
-
-/// ChaCha8 stream `stream` of `seed` as little-endian 16-bit words, a
-/// block at a time.
-struct HalfWords {
-    rng: ChaCha8Rng,
-    buf: [u8; 2 * HALF_WORDS],
-    words: [u16; HALF_WORDS],
-    /// Words of `words` read.
-    at: usize,
-}
-
-impl HalfWords {
-    fn new(seed: u64, stream: u64) -> HalfWords {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        rng.set_stream(stream);
-        HalfWords {
-            rng,
-            buf: [0; 2 * HALF_WORDS],
-            words: [0; HALF_WORDS],
-            at: HALF_WORDS,
-        }
-    }
-
-    /// The buffered words not yet read (refilled when none are left).
-    #[inline]
-    fn ready(&mut self) -> &[u16] {
-        if self.at == HALF_WORDS {
-            self.rng.fill_bytes(&mut self.buf);
-            self.at = 0;
-            for (w, b) in self.words.iter_mut().zip(self.buf.chunks_exact(2)) {
-                *w = u16::from_le_bytes([b[0], b[1]]);
-            }
-        }
-        &self.words[self.at..]
-    }
-
-    /// Marks `k` words of [`HalfWords::ready`] read.
-    #[inline]
-    fn consume(&mut self, k: usize) {
-        self.at += k;
-    }
 }
 
 /// The Poisson(λ) distribution function at 0, 1, 2, … scaled to 2⁶⁴ (a
@@ -612,9 +570,11 @@ pub fn bootstrap_intervals(
         .collect()
 }
 
-/// ChaCha8 stream `r` of `seed`, read a block of words at a time: the same
-/// words, in the same order, as `next_u32` gives (tested), at two thirds of
-/// the cost.
+/// ChaCha8 stream `r` of `seed`, read a block at a time: by 32-bit words
+/// ([`Words::next_word`]: the same words, in the same order, as `next_u32`
+/// gives, tested, at two thirds of the cost) or by the buffered bytes
+/// ([`Words::ready`], for 16-bit words). A stream is read one way only,
+/// so that a word never straddles a refill.
 struct Words {
     rng: ChaCha8Rng,
     buf: [u8; 4096],
@@ -630,6 +590,22 @@ impl Words {
             buf: [0; 4096],
             at: 4096,
         }
+    }
+
+    /// The buffered bytes not yet read (refilled when none are left).
+    #[inline]
+    fn ready(&mut self) -> &[u8] {
+        if self.at == self.buf.len() {
+            self.rng.fill_bytes(&mut self.buf);
+            self.at = 0;
+        }
+        &self.buf[self.at..]
+    }
+
+    /// Marks `k` bytes of [`Words::ready`] read.
+    #[inline]
+    fn consume(&mut self, k: usize) {
+        self.at += k;
     }
 
     fn next_word(&mut self) -> u32 {
@@ -735,7 +711,7 @@ impl RemovedPass {
         let dropped: Vec<bool> = w.order.iter().map(|&i| exposed(i as usize)).collect();
         let mut daily = vec![0.0; w.days];
         let (mut cur, mut day) = (w.slot[0], 0.0f64);
-        let (mut equity, mut peak, mut drawdown) = (w.start, w.start, 0.0f64);
+        let mut path = Path::new(w.start);
         let (mut abs_tail, mut kept) = (0.0f64, 0usize);
         for (j, &out) in dropped.iter().enumerate() {
             let keep = !out;
@@ -749,14 +725,7 @@ impl RemovedPass {
                 (day, cur) = (0.0, s);
             }
             day += p;
-            equity += p;
-            if equity > peak {
-                peak = equity;
-            }
-            let fall = peak - equity;
-            if fall > drawdown {
-                drawdown = fall;
-            }
+            path.add(p);
             abs_tail += t;
         }
         daily[cur as usize] = day;
@@ -777,7 +746,7 @@ impl RemovedPass {
                 .fold(0.0f64, |top, j| top + w.tail_at(j));
             (top / k as f64) / (abs_tail / kept as f64)
         });
-        [tcr, sharpe, Some(drawdown)]
+        [tcr, sharpe, Some(path.drawdown)]
     }
 
     /// One of [`RemovedPass::figures`] (0 net, 1 profit factor, 2 Sharpe,
@@ -827,19 +796,9 @@ impl RemovedPass {
                 )
             }
             3 => {
-                let (mut equity, mut drawdown) = (w.start, 0.0f64);
-                let mut peak = w.start;
-                for p in kept() {
-                    equity += p;
-                    if equity > peak {
-                        peak = equity;
-                    }
-                    let fall = peak - equity;
-                    if fall > drawdown {
-                        drawdown = fall;
-                    }
-                }
-                Some(drawdown)
+                let mut path = Path::new(w.start);
+                kept().for_each(|p| path.add(p));
+                Some(path.drawdown)
             }
             _ => self.figures(&|i| exposed[i])[which],
         }
@@ -916,7 +875,7 @@ impl Totals {
             gross_profit: s.gross_profit,
             gross_loss: s.gross_loss,
             losses: s.losses,
-            drawdown: Some(s.drawdown),
+            drawdown: Some(s.path.drawdown),
             abs_tail: s.abs_tail,
         }
     }
@@ -955,6 +914,37 @@ impl Lane<'_> {
     }
 }
 
+/// An equity path's running peak and largest fall from it, as
+/// `metrics::max_drawdown` walks it (see [`Sums::add`] for the maxima).
+#[derive(Clone, Copy)]
+struct Path {
+    equity: f64,
+    peak: f64,
+    drawdown: f64,
+}
+
+impl Path {
+    fn new(start: f64) -> Path {
+        Path {
+            equity: start,
+            peak: start,
+            drawdown: 0.0,
+        }
+    }
+
+    #[inline(always)]
+    fn add(&mut self, p: f64) {
+        self.equity += p;
+        if self.equity > self.peak {
+            self.peak = self.equity;
+        }
+        let fall = self.peak - self.equity;
+        if fall > self.drawdown {
+            self.drawdown = fall;
+        }
+    }
+}
+
 /// The running sums of one scenario over the drawn copies.
 struct Sums {
     n: usize,
@@ -962,9 +952,7 @@ struct Sums {
     gross_profit: f64,
     gross_loss: f64,
     losses: usize,
-    equity: f64,
-    peak: f64,
-    drawdown: f64,
+    path: Path,
     abs_tail: f64,
 }
 
@@ -976,9 +964,7 @@ impl Sums {
             gross_profit: 0.0,
             gross_loss: 0.0,
             losses: 0,
-            equity: start,
-            peak: start,
-            drawdown: 0.0,
+            path: Path::new(start),
             abs_tail: 0.0,
         }
     }
@@ -994,14 +980,7 @@ impl Sums {
         self.gross_profit += if p > 0.0 { p } else { 0.0 };
         self.gross_loss += if p < 0.0 { p } else { 0.0 };
         self.losses += (p < 0.0) as usize;
-        self.equity += p;
-        if self.equity > self.peak {
-            self.peak = self.equity;
-        }
-        let fall = self.peak - self.equity;
-        if fall > self.drawdown {
-            self.drawdown = fall;
-        }
+        self.path.add(p);
         self.abs_tail += t;
     }
 }
