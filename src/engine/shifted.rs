@@ -269,9 +269,12 @@ impl StartIndex {
     }
 
     /// The first position of `sorted` (the list indexed) at or after
-    /// `from` whose instant is ≥ `at`.
+    /// `from` whose instant is ≥ `at`. `FOURS`: step over the list four
+    /// entries at a time (faster where the answer is usually within four of
+    /// the bucket's start: slot ends looked up trade by trade; slower for a
+    /// window's first candidate, measured).
     #[inline]
-    fn first_at_least(&self, sorted: &[i64], from: usize, at: i64) -> usize {
+    fn first_at_least<const FOURS: bool>(&self, sorted: &[i64], from: usize, at: i64) -> usize {
         let mut j = if at <= self.first_instant {
             0
         } else {
@@ -279,6 +282,18 @@ impl StartIndex {
             self.first.get(b).map_or(sorted.len(), |&f| f as usize)
         };
         j = j.max(from);
+        if FOURS {
+            // Four at a time without a branch per entry: in a sorted list
+            // the entries below `at` among four in a row are the steps to
+            // the first at or past it, when there are fewer than four.
+            while let Some(four) = sorted.get(j..j + 4) {
+                let below = four.iter().map(|&x| (x < at) as usize).sum::<usize>();
+                j += below;
+                if below < 4 {
+                    return j;
+                }
+            }
+        }
         while j < sorted.len() && sorted[j] < at {
             j += 1;
         }
@@ -448,9 +463,11 @@ impl Class {
     fn mark_from_slots(&self, slots: &[(i64, i64)], bits: &mut [u64]) {
         let mut hint = 0;
         for &(s, e) in slots {
-            let from =
-                self.starts
-                    .first_at_least(&self.query_start, hint, s.saturating_sub(self.longest));
+            let from = self.starts.first_at_least::<false>(
+                &self.query_start,
+                hint,
+                s.saturating_sub(self.longest),
+            );
             hint = from;
             for j in from..self.query_start.len() {
                 if self.query_start[j] > e {
@@ -477,7 +494,7 @@ impl Class {
         let mut hint = 0;
         for j in 0..self.trade.len() {
             // Query starts grow within a class, so the slot only moves on.
-            let at = ends_index.first_at_least(ends, hint, self.query_start[j]);
+            let at = ends_index.first_at_least::<true>(ends, hint, self.query_start[j]);
             hint = at;
             if slots.get(at).is_some_and(|&(s, _)| s <= self.query_end(j)) {
                 let t = self.trade[j] as usize;
@@ -688,7 +705,16 @@ mod tests {
             {
                 let want = v.partition_point(|&x| x < at);
                 for from in [0, want / 2, want] {
-                    assert_eq!(ix.first_at_least(v, from, at), want, "at {at} from {from}");
+                    assert_eq!(
+                        ix.first_at_least::<false>(v, from, at),
+                        want,
+                        "at {at} from {from}"
+                    );
+                    assert_eq!(
+                        ix.first_at_least::<true>(v, from, at),
+                        want,
+                        "at {at} from {from}"
+                    );
                 }
             }
         }
