@@ -113,6 +113,7 @@ pub fn execute(args: &AnalyzeArgs, files: bool) -> Result<Outcome> {
         let (d, points) = distortion(&loaded, &summary.settings, &args.chance)?;
         summary.distortion = Some(d);
         rank_points = points;
+        crate::import::phases::mark("distortion");
     }
     let json = serde_json::to_string_pretty(&summary)?;
     crate::import::phases::mark("summary");

@@ -336,33 +336,48 @@ impl TradeIndex {
         // Classes by duration, a factor of 4 apart: a class's near misses
         // stay within a small multiple of its hits.
         let class_of = |len: i64| ((64 - (len.max(0) as u64).leading_zeros()) / 2) as usize;
-        // One currency at a time (two at once on two threads): its trades'
-        // queries gathered, sorted and laid out in columns, the gathered
-        // copy dropped before the next. All currencies' copies at once took
-        // 24 B a trade and currency on top of the index (480 MB at 10 M
-        // trades on two currencies).
+        // One currency at a time (two at once on two threads), one class at
+        // a time within it: a class's queries gathered, sorted and laid out
+        // in columns, the gathered copy dropped before the next. All
+        // currencies' copies at once took 24 B a trade and currency on top
+        // of the index (480 MB at 10 M trades on two currencies); a whole
+        // currency's, the peak of the default run at 10 M.
         let by_currency: Vec<Vec<Class>> = (0..currencies.len())
             .into_par_iter()
             .map(|c| {
-                let mut classes: Vec<Vec<(i64, i64, u32)>> = Vec::new();
+                let query = |i: usize| match rule {
+                    ExposureRule::Entered => (opened[i], opened[i]),
+                    _ => (opened[i], closed[i]),
+                };
+                // The currency's trades by class as 4-byte indices; each
+                // class's queries are then gathered, laid out and dropped in
+                // turn.
+                let mut classes: Vec<Vec<u32>> = Vec::new();
                 for i in 0..opened.len() {
                     if !ids[instrument[i] as usize].contains(&c) {
                         continue;
                     }
-                    let (qa, qb) = match rule {
-                        ExposureRule::Entered => (opened[i], opened[i]),
-                        _ => (opened[i], closed[i]),
-                    };
+                    let (qa, qb) = query(i);
                     let k = class_of(qb - qa);
                     if classes.len() <= k {
                         classes.resize_with(k + 1, Vec::new);
                     }
-                    classes[k].push((qa, qb, i as u32));
+                    classes[k].push(i as u32);
                 }
                 classes
                     .into_iter()
                     .filter(|c| !c.is_empty())
-                    .map(Class::new)
+                    .map(|members| {
+                        let gathered = members
+                            .iter()
+                            .map(|&i| {
+                                let (qa, qb) = query(i as usize);
+                                (qa, qb, i)
+                            })
+                            .collect();
+                        drop(members);
+                        Class::new(gathered)
+                    })
                     .collect()
             })
             .collect();

@@ -153,6 +153,7 @@ pub fn chance(
             &|| progress.step(),
         );
         progress.end();
+        crate::import::phases::mark("placebo");
         r
     });
     let bootstrap = (c.bootstrap > 0).then(|| {
@@ -179,6 +180,7 @@ pub fn chance(
             &|| progress.step(),
         );
         progress.end();
+        crate::import::phases::mark("bootstrap");
         BootstrapResult {
             resamples: c.bootstrap,
             seed: c.seed,
