@@ -899,22 +899,6 @@ impl Totals {
     }
 }
 
-/// One resample's counts by position inside a (possibly interleaved)
-/// buffer: position j's at `counts[j · stride + at]`.
-#[derive(Clone, Copy)]
-struct Lane<'a> {
-    counts: &'a [u8],
-    stride: usize,
-    at: usize,
-}
-
-impl Lane<'_> {
-    #[inline]
-    fn at(&self, j: usize) -> usize {
-        self.counts[j * self.stride + self.at] as usize
-    }
-}
-
 /// An equity path's running peak and largest fall from it, as
 /// `metrics::max_drawdown` walks it (see [`Sums::add`] for the maxima).
 #[derive(Clone, Copy)]
@@ -1411,12 +1395,7 @@ impl Weighted {
         sc.copies.clear();
         sc.copies.extend(0..n as u32);
         let kept = self.walk::<false>(&sc.copies, &mut sc.daily, exposed);
-        let lane = Lane {
-            counts: &sc.counts,
-            stride: 1,
-            at: 0,
-        };
-        let top = |k| self.top_sum(lane, k, Some(exposed));
+        let top = |k| self.top_sum(&sc.counts, k, Some(exposed));
         self.figures(&Totals::of(&kept), Some(sc.daily.clone()), top)
     }
 
@@ -1463,11 +1442,11 @@ impl Weighted {
     /// by position; without the exposed ones when asked), largest first as
     /// `metrics::tcr` sums them; `None` when the ranked prefix runs out
     /// first.
-    fn top_sum(&self, counts: Lane, k: usize, drop_exposed: Option<&[bool]>) -> Option<f64> {
+    fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: Option<&[bool]>) -> Option<f64> {
         let (mut left, mut top) = (k, 0.0f64);
         for &j in &self.by_tail {
             let j = j as usize;
-            let c = counts.at(j);
+            let c = counts[j] as usize;
             if c == 0 || drop_exposed.is_some_and(|e| e[j]) {
                 continue;
             }
