@@ -181,6 +181,99 @@ fn placebo_p(seed: u64, effect: f64, n: usize) -> f64 {
     r.p_share.expect("defined")
 }
 
+/// Runs tested together (`rank`): each run's placebo result is the one it
+/// gets tested alone against the same seed's calendars, bit for bit, with
+/// the runs' rows interleaved in the input.
+#[test]
+fn runs_share_the_calendars_and_are_scored_as_if_alone() {
+    let (_, rel) = synthetic(7, 0.0);
+    let w = WindowSettings::default();
+    let windows = used_windows(&rel, &w);
+    let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
+    let settings = PlaceboSettings { n: 49, seed: 11 };
+    let flags_of = |t: &Trades| -> Vec<bool> {
+        let exp = Engine::new(&rel, &w, ExposureRule::Overlap).run(
+            &t.opened,
+            &t.closed,
+            &t.instrument,
+            &cur,
+        );
+        exp.k.iter().map(|&k| k > 0).collect()
+    };
+    // Three runs of different trades (the second with an effect planted on
+    // its own releases, which the shared calendar does not hold), rows
+    // interleaved: row 3i + r is run r's trade i.
+    let runs: Vec<Trades> = [(1, 0.0), (2, 30.0), (3, 0.0)]
+        .iter()
+        .map(|&(seed, effect)| synthetic(seed, effect).0)
+        .collect();
+    let n = runs[0].len();
+    let pick = |f: &dyn Fn(&Trades, usize) -> i64| -> Vec<i64> {
+        (0..3 * n).map(|k| f(&runs[k % 3], k / 3)).collect()
+    };
+    let mut all = trades_from(
+        pick(&|t, i| t.opened[i]),
+        pick(&|t, i| t.closed[i]),
+        (0..3 * n).map(|k| runs[k % 3].pnl[k / 3]).collect(),
+    );
+    all.run = (0..3 * n as u32).map(|k| k % 3).collect();
+    let members: Vec<Vec<u32>> = (0..3u32)
+        .map(|r| (0..n as u32).map(|i| 3 * i + r).collect())
+        .collect();
+    let flags: Vec<Vec<bool>> = runs.iter().map(flags_of).collect();
+    let groups: Vec<evidence::PlaceboGroup> = members
+        .iter()
+        .zip(&flags)
+        .map(|(m, f)| evidence::PlaceboGroup {
+            trades: Some(m),
+            observed_exposed: f,
+        })
+        .collect();
+    let together = evidence::placebo_groups(
+        &all,
+        &rel,
+        &windows,
+        &cur,
+        ExposureRule::Overlap,
+        &groups,
+        settings,
+        &|| {},
+    );
+    let bits = |x: Option<f64>| x.map(f64::to_bits);
+    for (r, got) in together.iter().enumerate() {
+        let alone = evidence::placebo(
+            &runs[r],
+            &rel,
+            &windows,
+            &cur,
+            ExposureRule::Overlap,
+            &flags[r],
+            settings,
+            &|| {},
+        );
+        assert_eq!(
+            bits(got.observed_share),
+            bits(alone.observed_share),
+            "run {r}"
+        );
+        assert_eq!(bits(got.p_share), bits(alone.p_share), "run {r}");
+        assert_eq!(
+            bits(got.observed_mean_diff),
+            bits(alone.observed_mean_diff),
+            "run {r}"
+        );
+        assert_eq!(bits(got.p_mean_diff), bits(alone.p_mean_diff), "run {r}");
+        assert_eq!(got.releases_dropped, alone.releases_dropped, "run {r}");
+        assert!(
+            got.p_share.is_some() && got.releases_dropped > 0,
+            "run {r}: {got:?}"
+        );
+    }
+    // The runs differ, so their p-values are not one value copied.
+    let ps: Vec<Option<u64>> = together.iter().map(|g| bits(g.p_share)).collect();
+    assert!(ps[0] != ps[1] || ps[1] != ps[2], "{ps:?}");
+}
+
 #[test]
 fn placebo_p_values_are_roughly_uniform_without_an_effect() {
     let ps: Vec<f64> = (0..200).map(|s| placebo_p(s, 0.0, 99)).collect();

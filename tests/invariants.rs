@@ -346,7 +346,8 @@ proptest! {
     }
 
     /// The rows shuffled and cut into one to four files give the same
-    /// per-run figures, placebo p-values (seeded by run name) and ranks
+    /// per-run figures, placebo p-values (every run against the same
+    /// calendars, scored on its own trades) and ranks
     /// (ties by run name). Rows with equal open and close keep their
     /// relative order (docs/method.md §5 makes it significant), so the files are
     /// consecutive pieces of the shuffled rows.

@@ -185,16 +185,14 @@ pub fn rank(
         .collect::<Result<Vec<_>, _>>()?;
     let (mut rows, flags): (Vec<RunRow>, Vec<Vec<bool>>) = rows_and_flags.into_iter().unzip();
     if placebo.n > 0 {
-        // All runs' placebo calendars at once: each distinct shift is moved
-        // once and marked on the trades of every run that drew it.
-        let groups: Vec<evidence::PlaceboGroup> = rows
+        // Every run against the same placebo calendars (drawn from the
+        // seed alone): each shift is moved and marked once for all runs.
+        let groups: Vec<evidence::PlaceboGroup> = by_run
             .iter()
-            .zip(&by_run)
             .zip(&flags)
-            .map(|((row, idx), f)| evidence::PlaceboGroup {
+            .map(|(idx, f)| evidence::PlaceboGroup {
                 trades: Some(idx),
                 observed_exposed: f,
-                seed: crate::import::trades::run_seed(placebo.seed, &row.run),
             })
             .collect();
         let results = evidence::placebo_groups(
@@ -204,7 +202,7 @@ pub fn rank(
             currencies,
             settings.exposure_rule,
             &groups,
-            placebo.n,
+            placebo,
             &|| {},
         );
         for (row, res) in rows.iter_mut().zip(results) {

@@ -76,17 +76,15 @@ pub fn placebo_p(observed: Option<f64>, placebo: &[Option<f64>]) -> Option<f64> 
     Some((1 + ge) as f64 / (placebo.len() + 1) as f64)
 }
 
-/// One set of trades tested against placebo calendars of its own seed:
-/// all the trades (`analyze`) or one run's (`rank`).
+/// One set of trades tested against the placebo calendars: all the trades
+/// (`analyze`) or one run's (`rank`).
 #[derive(Debug, Clone, Copy)]
 pub struct PlaceboGroup<'a> {
-    /// The group's trades (input indices) in the order its sums run;
-    /// `None`: every trade, in input order.
+    /// The group's trades (input indices) in the order its observed sums
+    /// run; `None`: every trade, in input order (then the only group).
     pub trades: Option<&'a [u32]>,
     /// Observed exposure of the group's trades, in that order.
     pub observed_exposed: &'a [bool],
-    /// Seed of the group's shifts.
-    pub seed: u64,
 }
 
 /// Runs N placebo calendars over all the trades.
@@ -104,7 +102,6 @@ pub fn placebo(
     let group = PlaceboGroup {
         trades: None,
         observed_exposed,
-        seed: s.seed,
     };
     placebo_groups(
         trades,
@@ -113,18 +110,21 @@ pub fn placebo(
         currencies,
         rule,
         &[group],
-        s.n,
+        s,
         progress,
     )
     .pop()
     .expect("one group")
 }
 
-/// Runs `n` placebo calendars for each group (its shifts drawn from its own
-/// seed), one result per group. Each distinct shift is moved once
-/// ([`ShiftedCalendar`]) and marked once on the trades of each group that
-/// drew it (a [`TradeIndex`] per group); `progress` ticks once per group
-/// and placebo.
+/// Runs the same `s.n` placebo calendars (shifts drawn from `s.seed`) for
+/// each of disjoint groups of trades, one result per group: a group's
+/// result depends on its own trades and the seed only, not on which other
+/// groups are tested beside it. Each distinct shift is moved once
+/// ([`ShiftedCalendar`]) and marked once on one [`TradeIndex`] of all the
+/// groups' trades (numbered by open instant, ties in the groups' order);
+/// each group's statistics then add its trades' P/L in that numbering.
+/// `progress` ticks once per group and placebo.
 #[allow(clippy::too_many_arguments)]
 pub fn placebo_groups(
     trades: &Trades,
@@ -133,9 +133,10 @@ pub fn placebo_groups(
     currencies: &[Vec<String>],
     rule: ExposureRule,
     groups: &[PlaceboGroup],
-    n: usize,
+    s: PlaceboSettings,
     progress: &(dyn Fn() + Sync),
 ) -> Vec<PlaceboResult> {
+    let n = s.n;
     let group_pnl = |g: &PlaceboGroup| -> Vec<f64> {
         match g.trades {
             Some(idx) => idx.iter().map(|&i| trades.pnl[i as usize]).collect(),
@@ -149,7 +150,7 @@ pub fn placebo_groups(
                 effect_statistics(&group_pnl(g), g.observed_exposed);
             PlaceboResult {
                 placebos: n,
-                seed: g.seed,
+                seed: s.seed,
                 observed_share,
                 p_share: None,
                 observed_mean_diff,
@@ -159,123 +160,130 @@ pub fn placebo_groups(
             }
         })
         .collect();
-    if n == 0 || windows.is_empty() {
+    if n == 0 || windows.is_empty() || groups.is_empty() {
         return results;
     }
     let calendar = ShiftedCalendar::new(releases, windows, rule);
     let span = calendar.span();
-    // Every group's shifts, then which (group, placebo) drew each shift.
-    let mut drawn: BTreeMap<i64, Vec<(usize, usize)>> = BTreeMap::new();
-    for (g, group) in groups.iter().enumerate() {
-        let mut rng = ChaCha8Rng::seed_from_u64(group.seed);
-        for j in 0..n {
-            let d = if span > 1 {
-                rng.random_range(1..span)
-            } else {
-                0
-            };
-            drawn.entry(d).or_default().push((g, j));
-        }
+    let mut rng = ChaCha8Rng::seed_from_u64(s.seed);
+    let mut drawn: BTreeMap<i64, Vec<usize>> = BTreeMap::new();
+    for j in 0..n {
+        let d = if span > 1 {
+            rng.random_range(1..span)
+        } else {
+            0
+        };
+        drawn.entry(d).or_default().push(j);
     }
-    // Each group's trades indexed on their own (a run's placebo marks
-    // only its trades), numbered by open instant, with their P/L in that
-    // order and its net summed in it.
-    struct Group {
-        index: TradeIndex,
-        pnl: Vec<f64>,
-        net: f64,
-    }
-    let prepared: Vec<Group> = groups
-        .par_iter()
-        .map(|g| {
-            let in_group = group_pnl(g);
-            let (index, order) = match g.trades {
-                None => TradeIndex::new(
-                    calendar.currencies(),
-                    &trades.opened,
-                    &trades.closed,
-                    &trades.instrument,
-                    currencies,
-                    rule,
-                )
-                .in_open_order(&trades.opened),
-                Some(idx) => {
-                    let pick =
-                        |v: &[i64]| -> Vec<i64> { idx.iter().map(|&i| v[i as usize]).collect() };
-                    let opened = pick(&trades.opened);
-                    let instrument: Vec<u32> =
-                        idx.iter().map(|&i| trades.instrument[i as usize]).collect();
-                    TradeIndex::new(
-                        calendar.currencies(),
-                        &opened,
-                        &pick(&trades.closed),
-                        &instrument,
-                        currencies,
-                        rule,
-                    )
-                    .in_open_order(&opened)
-                }
-            };
-            let pnl: Vec<f64> = order.iter().map(|&k| in_group[k as usize]).collect();
-            let net = pnl.iter().fold(0.0, |net, p| net + p);
-            Group { index, pnl, net }
+    // The index: every trade in input order (one group of all), or the
+    // groups' trades one group after another; then numbered by open
+    // instant, ties in that order.
+    let all = groups.iter().any(|g| g.trades.is_none());
+    assert!(
+        !all || groups.len() == 1,
+        "a group of every trade is the only one"
+    );
+    let listed: Vec<u32> = if all {
+        Vec::new()
+    } else {
+        groups
+            .iter()
+            .flat_map(|g| g.trades.unwrap_or(&[]))
+            .copied()
+            .collect()
+    };
+    let (index, numbered) = if all {
+        TradeIndex::new(
+            calendar.currencies(),
+            &trades.opened,
+            &trades.closed,
+            &trades.instrument,
+            currencies,
+            rule,
+        )
+        .in_open_order(&trades.opened)
+    } else {
+        let pick = |v: &[i64]| -> Vec<i64> { listed.iter().map(|&i| v[i as usize]).collect() };
+        let opened = pick(&trades.opened);
+        let instrument: Vec<u32> = listed
+            .iter()
+            .map(|&i| trades.instrument[i as usize])
+            .collect();
+        TradeIndex::new(
+            calendar.currencies(),
+            &opened,
+            &pick(&trades.closed),
+            &instrument,
+            currencies,
+            rule,
+        )
+        .in_open_order(&opened)
+    };
+    // The trades' P/L by number, each number's group, and each group's
+    // net summed in ascending number.
+    let pnl: Vec<f64> = numbered
+        .iter()
+        .map(|&at| match all {
+            true => trades.pnl[at as usize],
+            false => trades.pnl[listed[at as usize] as usize],
         })
         .collect();
-    let drawn: Vec<(i64, Vec<(usize, usize)>)> = drawn.into_iter().collect();
-    // BATCH shifts at a time: each moved once and marked on the trades of
-    // every group that drew it; a group's marked shifts are scored BATCH at
-    // a time, their sums running side by side in one pass over the group.
-    type Scored = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
-    // A group's marked shifts waiting to be scored: (dropped, the
-    // group's placebos that drew the shift, bits).
-    type Pending = Vec<(usize, Vec<usize>, Vec<u64>)>;
-    let score = |g: usize, pending: &mut Pending, pool: &mut Vec<Vec<u64>>, out: &mut Scored| {
-        let group = &prepared[g];
-        let zero = vec![0u64; group.index.words()];
-        let sets: [&[u64]; BATCH] =
-            std::array::from_fn(|b| pending.get(b).map_or(zero.as_slice(), |p| p.2.as_slice()));
-        let stats = flagged_statistics(&group.pnl, sets, group.net);
-        for ((dropped, js, bits), (a, b)) in pending.drain(..).zip(stats) {
-            for j in js {
-                out.push((g, j, dropped, a, b));
-                progress();
-            }
-            pool.push(bits);
-        }
+    let group_of: Option<Vec<u32>> = (!all).then(|| {
+        let firsts: Vec<usize> = groups
+            .iter()
+            .scan(0, |from, g| {
+                let first = *from;
+                *from += g.trades.map_or(0, <[u32]>::len);
+                Some(first)
+            })
+            .collect();
+        numbered
+            .iter()
+            .map(|&at| (firsts.partition_point(|&f| f <= at as usize) - 1) as u32)
+            .collect()
+    });
+    drop(numbered);
+    let mut nets = vec![0.0f64; groups.len()];
+    let mut sizes = vec![0usize; groups.len()];
+    for (k, &p) in pnl.iter().enumerate() {
+        let g = group_of.as_ref().map_or(0, |of| of[k] as usize);
+        nets[g] += p;
+        sizes[g] += 1;
+    }
+    let scoring = Scoring {
+        pnl,
+        group_of,
+        nets,
+        sizes,
     };
-    let scored: Vec<Scored> = drawn
+    let drawn: Vec<(i64, Vec<usize>)> = drawn.into_iter().collect();
+    // Per chunk of BATCH shifts: each moved and marked, then every group
+    // scored on the chunk's flag sets at once.
+    // (group, placebo, releases dropped, share, mean difference)
+    type Scores = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
+    let scored: Vec<Scores> = drawn
         .par_chunks(BATCH)
-        .map_init(
-            || (Slots::default(), Vec::<Vec<u64>>::new()),
-            |(moved, pool), chunk| {
-                let mut waiting: BTreeMap<usize, Pending> = BTreeMap::new();
-                let mut out = Vec::new();
-                for (d, who) in chunk {
-                    calendar.shift(*d, moved);
-                    // Marked once per group, however often it drew the shift
-                    // (`who` lists a group's placebos together).
-                    for same in who.chunk_by(|a, b| a.0 == b.0) {
-                        let g = same[0].0;
-                        let index = &prepared[g].index;
-                        let mut bits = pool.pop().unwrap_or_default();
-                        bits.resize(index.words(), 0);
-                        index.mark(moved, &mut bits);
-                        let js = same.iter().map(|&(_, j)| j).collect();
-                        let pending = waiting.entry(g).or_default();
-                        pending.push((moved.dropped, js, bits));
-                        if pending.len() == BATCH {
-                            score(g, pending, pool, &mut out);
-                        }
+        .map_init(Slots::default, |moved, chunk| {
+            let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
+            let mut dropped = [0usize; BATCH];
+            for ((d, _), (b, dropped)) in chunk.iter().zip(bits.iter_mut().zip(&mut dropped)) {
+                calendar.shift(*d, moved);
+                index.mark(moved, b);
+                *dropped = moved.dropped;
+            }
+            let sets: [&[u64]; BATCH] =
+                std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
+            let mut out = Vec::new();
+            for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
+                for (b, (_, js)) in chunk.iter().enumerate() {
+                    for &j in js {
+                        out.push((g, j, dropped[b], stats[b].0, stats[b].1));
+                        progress();
                     }
                 }
-                for (g, mut pending) in waiting {
-                    if !pending.is_empty() {
-                        score(g, &mut pending, pool, &mut out);
-                    }
-                }
-                out
-            },
-        )
+            }
+            out
+        })
         .collect();
     let mut shares = vec![vec![None; n]; groups.len()];
     let mut diffs = vec![vec![None; n]; groups.len()];
@@ -289,6 +297,26 @@ pub fn placebo_groups(
         r.p_mean_diff = placebo_p(r.observed_mean_diff, &diffs[g]);
     }
     results
+}
+
+/// The groups, ready to score: the index's trades' P/L by number, and
+/// each number's group (`None`: one group of every trade); each group's net
+/// (summed in ascending number) and size.
+struct Scoring {
+    pnl: Vec<f64>,
+    group_of: Option<Vec<u32>>,
+    nets: Vec<f64>,
+    sizes: Vec<usize>,
+}
+
+impl Scoring {
+    /// Every group's statistics under each of BATCH flag sets of the index.
+    fn statistics(&self, sets: [&[u64]; BATCH]) -> Vec<[(Option<f64>, Option<f64>); BATCH]> {
+        match &self.group_of {
+            None => vec![flagged_statistics(&self.pnl, sets, self.nets[0])],
+            Some(of) => grouped_statistics(&self.pnl, of, &self.nets, &self.sizes, sets),
+        }
+    }
 }
 
 /// Shifts scored together (see [`flagged_statistics`]).
@@ -351,7 +379,55 @@ fn flagged_statistics_in(
             e_n[b] += words[b].count_ones() as usize;
         }
     }
-    let total = pnl.len();
+    from_totals(e_sum, u_sum, e_n, pnl.len(), net)
+}
+
+/// [`flagged_statistics`] of several disjoint groups of the index's trades
+/// at once, in one pass over the numbers in order: number k's P/L
+/// `pnl[k]` goes to group `group_of[k]`'s totals (every number belongs to
+/// one), so each group adds its trades in ascending number, the same sums
+/// as [`flagged_statistics`] over the group alone. `nets` and `sizes`: each
+/// group's net (summed in that order) and number of trades.
+fn grouped_statistics(
+    pnl: &[f64],
+    group_of: &[u32],
+    nets: &[f64],
+    sizes: &[usize],
+    bits: [&[u64]; BATCH],
+) -> Vec<[(Option<f64>, Option<f64>); BATCH]> {
+    let groups = nets.len();
+    let mut e_sum = vec![[0.0f64; BATCH]; groups];
+    let mut u_sum = vec![[0.0f64; BATCH]; groups];
+    let mut e_n = vec![[0usize; BATCH]; groups];
+    for (w, (chunk, of)) in pnl.chunks(64).zip(group_of.chunks(64)).enumerate() {
+        let words: [u64; BATCH] = std::array::from_fn(|b| bits[b][w]);
+        for (bit, (&p, &g)) in chunk.iter().zip(of).enumerate() {
+            let g = g as usize;
+            let p = p.to_bits();
+            let (e, u, c) = (&mut e_sum[g], &mut u_sum[g], &mut e_n[g]);
+            for b in 0..BATCH {
+                let flag = words[b] >> bit & 1;
+                let keep = 0u64.wrapping_sub(flag);
+                e[b] += f64::from_bits(p & keep);
+                u[b] += f64::from_bits(p & !keep);
+                c[b] += flag as usize;
+            }
+        }
+    }
+    (0..groups)
+        .map(|g| from_totals(e_sum[g], u_sum[g], e_n[g], sizes[g], nets[g]))
+        .collect()
+}
+
+/// The two statistics from each flag set's exposed and unexposed totals,
+/// its exposed count, the group's size and net.
+fn from_totals(
+    e_sum: [f64; BATCH],
+    u_sum: [f64; BATCH],
+    e_n: [usize; BATCH],
+    total: usize,
+    net: f64,
+) -> [(Option<f64>, Option<f64>); BATCH] {
     std::array::from_fn(|b| {
         let u_n = total - e_n[b];
         let share = (net != 0.0).then(|| e_sum[b] / net);
