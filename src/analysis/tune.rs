@@ -13,7 +13,7 @@ use crate::analysis::evidence;
 use crate::analysis::metrics::{self, Context};
 use crate::analysis::run::{AccountFigures, AnalysisSettings};
 use crate::analysis::scenarios::{self, TradeView};
-use crate::engine::exposure::used_windows;
+use crate::engine::exposure::slot_of;
 use crate::engine::shifted::{Slots, TradeIndex, is_set};
 use crate::engine::windows::{Window, WindowSettings};
 use crate::import::calendar::{Release, Tier};
@@ -149,6 +149,12 @@ pub fn tune(
     let mut order: Vec<u32> = (0..trades.len() as u32).collect();
     crate::analysis::scenarios::close_order(&mut order, &trades.opened, &trades.closed);
     let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
+    // Each trade's number in close order: the flags a cell marks are by
+    // this number, so that a cell's sums read them in turn.
+    let mut number_of = vec![0u32; order.len()];
+    for (k, &i) in order.iter().enumerate() {
+        number_of[i as usize] = k as u32;
+    }
     // Gross profit and gross loss of all trades (the stressed figures').
     let gross = order
         .iter()
@@ -189,7 +195,14 @@ pub fn tune(
                     &crate::analysis::run::subset(trades, &idx),
                     &settings.scenario,
                     &ctx,
-                );
+                )
+                .map(|p| {
+                    let numbers = p
+                        .order()
+                        .iter()
+                        .map(|&s| number_of[idx[s as usize] as usize]);
+                    (numbers.collect(), p)
+                });
                 Ok(RunBase {
                     order: idx,
                     span,
@@ -203,10 +216,14 @@ pub fn tune(
         Vec::new()
     };
     // One account: its removed scenario by the weighted pass where it applies.
-    let pooled_pass = per_run
+    let pooled_pass: Option<(Vec<u32>, evidence::RemovedPass)> = per_run
         .is_empty()
         .then(|| evidence::RemovedPass::new(trades, &settings.scenario, &ctx_of(&base)))
-        .flatten();
+        .flatten()
+        .map(|p| {
+            let numbers = p.order().iter().map(|&i| number_of[i as usize]);
+            (numbers.collect(), p)
+        });
     let tcr_baseline = if per_run.is_empty() {
         metrics::compute(
             &base.baseline.view().curve(&trades.opened, &trades.closed),
@@ -217,13 +234,22 @@ pub fn tune(
         median(per_run.iter().filter_map(|r| r.tcr).collect())
     };
     drop(base);
-    let traded: Vec<&String> = currencies.iter().flatten().collect();
     let week = weekday_ms(span) as f64;
     // The trades indexed once; each cell marks its windows' slots.
     let mut calendar_currencies: Vec<String> =
         releases.iter().map(|r| r.currency.clone()).collect();
     calendar_currencies.sort();
     calendar_currencies.dedup();
+    // Each release's currency (its number in that list) and whether a
+    // traded instrument has it.
+    let traded: Vec<&String> = currencies.iter().flatten().collect();
+    let release_currency: Vec<(usize, bool)> = releases
+        .iter()
+        .map(|r| {
+            let c = calendar_currencies.binary_search(&r.currency);
+            (c.expect("listed above"), traded.contains(&&r.currency))
+        })
+        .collect();
     let index = TradeIndex::new(
         &calendar_currencies,
         &trades.opened,
@@ -231,7 +257,8 @@ pub fn tune(
         &trades.instrument,
         currencies,
         settings.exposure_rule,
-    );
+    )
+    .numbered_by(&order);
     // The P/L in close order, read in turn by every cell (through the
     // order, each cell's sum would wait on scattered reads).
     let pnl_in_order: Vec<f64> = order.iter().map(|&i| trades.pnl[i as usize]).collect();
@@ -250,19 +277,31 @@ pub fn tune(
                     post_min: b,
                 },
             );
-            let used = used_windows(releases, &ws);
-            let slots = Slots::of_windows(&calendar_currencies, &used, settings.exposure_rule);
+            // Each used release's slot, and its window when its currency is
+            // traded (the time blocked).
+            let mut blocking = Vec::new();
+            let slots = Slots::of_slots(
+                calendar_currencies.len(),
+                releases
+                    .iter()
+                    .zip(&release_currency)
+                    .filter_map(|(r, &(c, traded))| {
+                        let window = ws.span_for(r)?;
+                        if traded {
+                            blocking.push((window.0, window.1));
+                        }
+                        Some((c, slot_of(settings.exposure_rule, r.all_day, window)))
+                    }),
+            );
             let mut bits = vec![0u64; index.words()];
             index.mark(&slots, &mut bits);
             drop(slots);
             // In close order; −0.0 for a trade not exposed: the identity
             // of addition, so the sum is the exposed trades' alone.
-            let exposed_pnl: f64 = order
-                .iter()
-                .zip(&pnl_in_order)
-                .map(|(&i, &p)| if is_set(&bits, i as usize) { p } else { -0.0 })
-                .sum();
-            let is_exposed = |i: usize| is_set(&bits, i);
+            // In close order, the exposed trades alone: the others would add
+            // −0.0, the identity of addition.
+            let exposed_pnl: f64 = set_bits(&bits).map(|k| pnl_in_order[k]).sum();
+            let is_exposed = |i: usize| is_set(&bits, number_of[i] as usize);
             // The stressed scenario keeps every trade and charges the
             // exposed ones: its net is the baseline's less the charges
             // (fixed sizing; compounding would replay the account).
@@ -275,11 +314,7 @@ pub fn tune(
                     // Net less the charges; gross profit and loss with each
                     // exposed trade's P/L replaced by its charged P/L.
                     let (mut charge, mut gp, mut gl) = (0.0, gross.0, gross.1);
-                    for i in order
-                        .iter()
-                        .map(|&i| i as usize)
-                        .filter(|&i| is_set(&bits, i))
-                    {
+                    for i in set_bits(&bits).map(|k| order[k] as usize) {
                         let p = trades.pnl[i];
                         let c = rule.charge(p, size.map(|z| z[i]));
                         charge += c;
@@ -292,7 +327,7 @@ pub fn tune(
                 (stressed.map(|s| s.0), stressed.and_then(|s| s.1));
             let after = if per_run.is_empty() {
                 let [tcr, sharpe, max_drawdown] = match &pooled_pass {
-                    Some(pass) => pass.tail_and_path(is_exposed),
+                    Some((numbers, pass)) => tail_and_path(pass, numbers, &bits),
                     None => removed_by_build(&order, trades, &is_exposed, settings, &ctx_of)?,
                 };
                 After {
@@ -304,15 +339,9 @@ pub fn tune(
                     runs_sharpe_improved: None,
                 }
             } else {
-                runs_after(&per_run, trades, &bits, settings, &ctx_of)?
+                runs_after(&per_run, trades, &number_of, &bits, settings, &ctx_of)?
             };
-            let blocked = metrics::union_within(
-                used.iter()
-                    .filter(|w| traded.contains(&&w.currency))
-                    .map(|w| (w.start, w.end))
-                    .collect(),
-                Some(span),
-            );
+            let blocked = metrics::union_within(blocking, Some(span));
             progress();
             Ok(Cell {
                 pre_min: a,
@@ -349,14 +378,29 @@ pub fn tune(
     })
 }
 
+/// The numbers set in a flag set, ascending.
+fn set_bits(bits: &[u64]) -> impl Iterator<Item = usize> + '_ {
+    bits.iter().enumerate().flat_map(|(w, &word)| {
+        let mut left = word;
+        std::iter::from_fn(move || {
+            (left != 0).then(|| {
+                let bit = left.trailing_zeros() as usize;
+                left &= left - 1;
+                w * 64 + bit
+            })
+        })
+    })
+}
+
 /// One run's trades and its figures with every trade.
 struct RunBase {
     order: Vec<u32>,
     span: (i64, i64),
     tcr: Option<f64>,
     sharpe: Option<f64>,
-    /// Its removed scenario's figures by the weighted pass, where it applies.
-    pass: Option<evidence::RemovedPass>,
+    /// Its removed scenario's figures by the weighted pass, where it
+    /// applies, with the close-order number of each of the pass's trades.
+    pass: Option<(Vec<u32>, evidence::RemovedPass)>,
 }
 
 /// A cell's figures without the exposed trades.
@@ -374,12 +418,13 @@ fn median(mut v: Vec<f64>) -> Option<f64> {
 }
 
 /// Medians over runs of each run's figures without the `exposed` trades
-/// (flags by input index, as [`TradeIndex::mark`] sets them; the reduction
+/// (flags by close-order number, `number_of` a trade's by input index; the reduction
 /// is each run's own, then the median), and the shares of runs whose TCR
 /// falls and whose Sharpe rises.
 fn runs_after(
     runs: &[RunBase],
     trades: &Trades,
+    number_of: &[u32],
     exposed: &[u64],
     settings: &AnalysisSettings,
     ctx_of: &(dyn Fn(&scenarios::Scenarios) -> Context + Sync),
@@ -391,15 +436,17 @@ fn runs_after(
         .iter()
         .map(|r| -> Result<_, scenarios::ScenarioError> {
             let [tcr, sharpe, max_drawdown] = match &r.pass {
-                Some(pass) => pass.tail_and_path(|s| is_set(exposed, r.order[s] as usize)),
-                None => {
-                    removed_by_build(&r.order, trades, &|i| is_set(exposed, i), settings, &|sc| {
-                        Context {
-                            span: r.span,
-                            ..ctx_of(sc)
-                        }
-                    })?
-                }
+                Some((numbers, pass)) => tail_and_path(pass, numbers, exposed),
+                None => removed_by_build(
+                    &r.order,
+                    trades,
+                    &|i| is_set(exposed, number_of[i] as usize),
+                    settings,
+                    &|sc| Context {
+                        span: r.span,
+                        ..ctx_of(sc)
+                    },
+                )?,
             };
             Ok([
                 tcr,
@@ -423,6 +470,22 @@ fn runs_after(
         runs_tcr_reduced: share(reductions),
         runs_sharpe_improved: share(sharpe_gains),
     })
+}
+
+/// TCR, Sharpe and max drawdown without the trades whose close-order
+/// number is set in `exposed`, by the weighted pass (`numbers`: the number
+/// of each of its trades, in its order).
+fn tail_and_path(
+    pass: &evidence::RemovedPass,
+    numbers: &[u32],
+    exposed: &[u64],
+) -> [Option<f64>; 3] {
+    let dropped: Vec<bool> = numbers
+        .iter()
+        .map(|&k| is_set(exposed, k as usize))
+        .collect();
+    let f = pass.figures_at(&dropped);
+    [f[4], f[2], f[3]]
 }
 
 /// TCR, Sharpe and max drawdown of the removed scenario built over `order`

@@ -73,10 +73,16 @@ impl UsedWindow {
     /// instant for `held` (the whole window for an all-day release), else
     /// the window.
     pub fn slot(&self, rule: ExposureRule) -> (i64, i64) {
-        match rule {
-            ExposureRule::Held if !self.all_day => (self.at, self.at),
-            _ => (self.start, self.end),
-        }
+        slot_of(rule, self.all_day, (self.start, self.end, self.at))
+    }
+}
+
+/// [`UsedWindow::slot`] of a release's `(start, end, at)` window (as
+/// `WindowSettings::span_for` gives it).
+pub fn slot_of(rule: ExposureRule, all_day: bool, (start, end, at): (i64, i64, i64)) -> (i64, i64) {
+    match rule {
+        ExposureRule::Held if !all_day => (at, at),
+        _ => (start, end),
     }
 }
 

@@ -67,11 +67,23 @@ impl Slots {
     /// The slots of `windows` under `rule`, unmoved, per currency of
     /// `currencies` (sorted; windows of other currencies are left out).
     pub fn of_windows(currencies: &[String], windows: &[UsedWindow], rule: ExposureRule) -> Slots {
-        let mut slots = vec![Vec::new(); currencies.len()];
-        for w in windows {
-            if let Ok(c) = currencies.binary_search(&w.currency) {
-                slots[c].push(w.slot(rule));
-            }
+        Slots::of_slots(
+            currencies.len(),
+            windows.iter().filter_map(|w| {
+                let c = currencies.binary_search(&w.currency).ok()?;
+                Some((c, w.slot(rule)))
+            }),
+        )
+    }
+
+    /// The slots given as (currency, slot), for `currencies` currencies.
+    pub fn of_slots(
+        currencies: usize,
+        given: impl IntoIterator<Item = (usize, (i64, i64))>,
+    ) -> Slots {
+        let mut slots = vec![Vec::new(); currencies];
+        for (c, slot) in given {
+            slots[c].push(slot);
         }
         let mut out = Slots {
             slots,
@@ -392,10 +404,18 @@ impl TradeIndex {
     /// trade k. Flags marked on it then follow time, so that a window's
     /// trades set neighbouring bits (in input order, the runs of an
     /// optimisation export scatter them over the whole flag set).
-    pub fn in_open_order(mut self, opened: &[i64]) -> (TradeIndex, Vec<u32>) {
+    pub fn in_open_order(self, opened: &[i64]) -> (TradeIndex, Vec<u32>) {
         let mut order: Vec<u32> = (0..opened.len() as u32).collect();
         order.sort_by_key(|&i| (opened[i as usize], i));
-        let mut number = vec![0u32; opened.len()];
+        (self.numbered_by(&order), order)
+    }
+
+    /// The same index with trade `order[k]` numbered k (`order`: a
+    /// permutation of the input indices), so that flags marked on it are in
+    /// that order.
+    pub fn numbered_by(mut self, order: &[u32]) -> TradeIndex {
+        assert_eq!(order.len(), self.trades, "a number for every trade");
+        let mut number = vec![0u32; order.len()];
         for (k, &i) in order.iter().enumerate() {
             number[i as usize] = k as u32;
         }
@@ -404,7 +424,7 @@ impl TradeIndex {
                 *t = number[*t as usize];
             }
         }
-        (self, order)
+        self
     }
 
     /// Words of a flag set for these trades (bit i of word i / 64 = trade i).

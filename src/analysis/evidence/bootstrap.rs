@@ -690,127 +690,46 @@ impl RemovedPass {
         Some(RemovedPass { weighted })
     }
 
+    /// Position in close order → index of the trade (in the trades given
+    /// to [`RemovedPass::new`]): the order of the flags
+    /// [`RemovedPass::figures_at`] takes.
+    pub fn order(&self) -> &[u32] {
+        &self.weighted.order
+    }
+
     /// Net, profit factor, Sharpe, max drawdown and TCR of the trades not
     /// `exposed` (by input index), bit for bit those of the removed
     /// scenario's metrics.
-    pub fn figures(&self, exposed: &dyn Fn(usize) -> bool) -> [Option<f64>; 5] {
-        let w = &self.weighted;
-        let by_position: Vec<bool> = w.order.iter().map(|&i| exposed(i as usize)).collect();
-        w.removed(&mut w.scratch(), &by_position)
-            .expect("every trade is ranked")
+    pub fn figures(&self, exposed: impl Fn(usize) -> bool) -> [Option<f64>; 5] {
+        self.figures_at(&self.by_position(exposed))
     }
 
-    /// TCR, Sharpe and max drawdown of [`RemovedPass::figures`], bit for
-    /// bit, in one pass of their own sums (the exposed trades added as
-    /// +0.0, without a branch) and a walk down the ranked trades for TCR:
-    /// no buffers but the daily P/L, and `exposed` inlined (the window
-    /// grid asks this of every run in every cell).
-    pub fn tail_and_path(&self, exposed: impl Fn(usize) -> bool) -> [Option<f64>; 3] {
-        let w = &self.weighted;
-        // The flags by position first: a call inside the sums' loop would
-        // push its running values out of registers.
-        let dropped: Vec<bool> = w.order.iter().map(|&i| exposed(i as usize)).collect();
-        let mut daily = vec![0.0; w.days];
-        let (mut cur, mut day) = (w.slot[0], 0.0f64);
-        let mut path = Path::new(w.start);
-        let (mut abs_tail, mut kept) = (0.0f64, 0usize);
-        for (j, &out) in dropped.iter().enumerate() {
-            let keep = !out;
-            let mask = 0u64.wrapping_sub(keep as u64);
-            let p = f64::from_bits(w.pnl[j].to_bits() & mask);
-            let t = f64::from_bits(w.tail_at(j).to_bits() & mask);
-            kept += keep as usize;
-            let s = w.slot[j];
-            if s != cur {
-                daily[cur as usize] = day;
-                (day, cur) = (0.0, s);
-            }
-            day += p;
-            path.add(p);
-            abs_tail += t;
-        }
-        daily[cur as usize] = day;
-        let sharpe = metrics::sharpe(
-            &metrics::daily_values(daily, w.initial_equity),
-            metrics::DAYS_PER_YEAR,
-        );
-        let tcr = (kept > 0 && abs_tail > 0.0).then(|| {
-            let k = metrics::tcr_k(kept, w.tcr_p);
-            // Every trade is ranked (`rank_all`): the k largest kept ones,
-            // largest first, as `top_sum` adds them.
-            let top = w
-                .by_tail
-                .iter()
-                .map(|&j| j as usize)
-                .filter(|&j| !dropped[j])
-                .take(k)
-                .fold(0.0f64, |top, j| top + w.tail_at(j));
-            (top / k as f64) / (abs_tail / kept as f64)
-        });
-        [tcr, sharpe, Some(path.drawdown)]
+    /// [`RemovedPass::figures`] with the left-out trades flagged by position
+    /// in [`RemovedPass::order`] (the window grid asks this of every run in
+    /// every cell).
+    pub fn figures_at(&self, dropped: &[bool]) -> [Option<f64>; 5] {
+        self.weighted.kept(dropped, true, true)
     }
 
     /// One of [`RemovedPass::figures`] (0 net, 1 profit factor, 2 Sharpe,
-    /// 3 max drawdown, 4 TCR), bit for bit, for flags by input index: all
-    /// but TCR from their own sums alone (the same additions in the same
-    /// order, the exposed trades skipped), TCR through `figures`. For draws that each need one figure (rank's
-    /// random-removal reference).
+    /// 3 max drawdown, 4 TCR), bit for bit, for flags by input index: the
+    /// same pass, with only the daily P/L or the top-k walk that figure
+    /// needs. For draws that each need one figure (rank's random-removal
+    /// reference).
     pub fn figure(&self, exposed: &[bool], which: usize) -> Option<f64> {
         let w = &self.weighted;
-        // Each trade's P/L in close order, +0.0 for an exposed one: adding
-        // +0.0 leaves every sum here as it is (see `walk`), without a branch.
-        let kept = || {
-            w.order.iter().zip(&w.pnl).map(|(&i, &p)| {
-                let keep = 0u64.wrapping_sub(!exposed[i as usize] as u64);
-                f64::from_bits(p.to_bits() & keep)
-            })
-        };
+        let dropped = self.by_position(|i| exposed[i]);
         match which {
-            0 => Some(kept().fold(0.0, |net, p| net + p)),
-            1 => {
-                let (mut gain, mut loss, mut losses) = (0.0f64, 0.0f64, 0usize);
-                for p in kept() {
-                    if p > 0.0 {
-                        gain += p;
-                    } else if p < 0.0 {
-                        loss += p;
-                        losses += 1;
-                    }
-                }
-                (losses > 0).then(|| gain / loss.abs())
-            }
-            2 => {
-                // A day's sum starts at 0.0 as `walk` starts it.
-                let mut daily = vec![0.0; w.days];
-                let (mut cur, mut day) = (w.slot[0], 0.0f64);
-                for (p, &s) in kept().zip(&w.slot) {
-                    if s != cur {
-                        daily[cur as usize] = day;
-                        (day, cur) = (0.0, s);
-                    }
-                    day += p;
-                }
-                daily[cur as usize] = day;
-                metrics::sharpe(
-                    &metrics::daily_values(daily, w.initial_equity),
-                    metrics::DAYS_PER_YEAR,
-                )
-            }
-            3 => {
-                let mut path = Path::new(w.start);
-                kept().for_each(|p| path.add(p));
-                Some(path.drawdown)
-            }
-            _ => self.figures(&|i| exposed[i])[which],
+            2 => w.kept(&dropped, true, false)[2],
+            4 => w.kept(&dropped, false, true)[4],
+            _ => w.kept(&dropped, false, false)[which],
         }
     }
-}
 
-/// Buffers of [`Weighted::removed`].
-struct Scratch {
-    counts: Vec<u8>,
-    copies: Vec<u32>,
-    daily: Vec<f64>,
+    fn by_position(&self, exposed: impl Fn(usize) -> bool) -> Vec<bool> {
+        let w = &self.weighted;
+        w.order.iter().map(|&i| exposed(i as usize)).collect()
+    }
 }
 
 /// Resamples evaluated side by side in one pass over the trades
@@ -1065,14 +984,6 @@ impl Weighted {
             initial_equity: settings.initial_equity,
             tcr_p: ctx.tcr_p,
         })
-    }
-
-    fn scratch(&self) -> Scratch {
-        Scratch {
-            counts: vec![0; self.pnl.len()],
-            copies: Vec::new(),
-            daily: vec![0.0; self.days],
-        }
     }
 
     fn lane_scratch(&self) -> LaneScratch {
@@ -1388,78 +1299,69 @@ impl Weighted {
     }
 
     /// The removed scenario's five figures (as [`Weighted::figures`]) with
-    /// every trade once and those `exposed` (by position) left out.
-    fn removed(&self, sc: &mut Scratch, exposed: &[bool]) -> Option<[Option<f64>; 5]> {
+    /// every trade once and those `dropped` (by position) left out, in one
+    /// pass over the trades in close order. The pass adds +0.0 (and counts
+    /// nothing) for a dropped trade instead of branching on it: on sums that
+    /// are never −0.0 (see [`Sums::add`]) that leaves every sum, bit for bit,
+    /// as if the trade had been skipped. `daily`: the P/L per day, for
+    /// Sharpe; `tail`: the walk down the ranked trades, for TCR (each
+    /// `None` without; the sums the caller does not read are left to the
+    /// compiler to drop).
+    #[inline(always)]
+    fn kept(&self, dropped: &[bool], daily: bool, tail: bool) -> [Option<f64>; 5] {
         let n = self.pnl.len();
-        sc.counts.fill(1);
-        sc.copies.clear();
-        sc.copies.extend(0..n as u32);
-        let kept = self.walk::<false>(&sc.copies, &mut sc.daily, exposed);
-        let top = |k| self.top_sum(&sc.counts, k, Some(exposed));
-        self.figures(&Totals::of(&kept), Some(sc.daily.clone()), top)
-    }
-
-    /// One scenario's sums over the copies (in close order), and its P/L
-    /// per day into `daily`: the baseline's (`ALL`: every copy) or the
-    /// removed scenario's (the copies not `exposed`). The removed pass adds +0.0 (and counts
-    /// nothing) for an exposed copy instead of branching on it: on sums
-    /// that are never −0.0 (see [`Sums::add`]) that leaves every sum, bit
-    /// for bit, as if the copy had been skipped.
-    fn walk<const ALL: bool>(&self, copies: &[u32], daily: &mut [f64], exposed: &[bool]) -> Sums {
+        let (pnl, dropped) = (&self.pnl[..n], &dropped[..n]);
         let mut sums = Sums::new(self.start);
-        daily.fill(0.0);
-        let (pnl, slot) = (&self.pnl[..], &self.slot[..]);
-        let tail = self.tail.as_deref();
-        let mut cur = slot[copies[0] as usize];
+        let mut by_day = if daily {
+            vec![0.0; self.days]
+        } else {
+            Vec::new()
+        };
+        let slot = if daily { &self.slot[..n] } else { &[][..] };
         // A day's sum starts at 0.0 as `walk_closes` starts it; closes come
-        // in order, so each day is one run of copies.
-        let mut day = 0.0f64;
-        let mut kept = 0usize;
-        for &j in copies {
-            let j = j as usize;
-            let (mut p, s) = (pnl[j], slot[j]);
-            if s != cur {
-                daily[cur as usize] = day;
-                (day, cur) = (0.0, s);
-            }
-            let mut t = tail.map_or(p.abs(), |t| t[j]);
-            if !ALL {
-                let keep = !exposed[j];
-                let mask = 0u64.wrapping_sub(keep as u64);
-                p = f64::from_bits(p.to_bits() & mask);
-                t = f64::from_bits(t.to_bits() & mask);
-                kept += keep as usize;
-            }
+        // in order, so each day is one run of trades.
+        let (mut cur, mut day) = (slot.first().copied().unwrap_or(0), 0.0f64);
+        for j in 0..n {
+            let keep = !dropped[j];
+            let mask = 0u64.wrapping_sub(keep as u64);
+            let p = f64::from_bits(pnl[j].to_bits() & mask);
+            let t = f64::from_bits(self.tail_at(j).to_bits() & mask);
+            sums.n += keep as usize;
             sums.add(p, t);
-            day += p;
-        }
-        daily[cur as usize] = day;
-        sums.n = if ALL { copies.len() } else { kept };
-        sums
-    }
-
-    /// Sum of the k largest tail values among the drawn copies (`counts`
-    /// by position; without the exposed ones when asked), largest first as
-    /// `metrics::tcr` sums them; `None` when the ranked prefix runs out
-    /// first.
-    fn top_sum(&self, counts: &[u8], k: usize, drop_exposed: Option<&[bool]>) -> Option<f64> {
-        let (mut left, mut top) = (k, 0.0f64);
-        for &j in &self.by_tail {
-            let j = j as usize;
-            let c = counts[j] as usize;
-            if c == 0 || drop_exposed.is_some_and(|e| e[j]) {
-                continue;
-            }
-            let v = self.tail_at(j);
-            for _ in 0..c.min(left) {
-                top += v;
-            }
-            left -= c.min(left);
-            if left == 0 {
-                return Some(top);
+            if daily {
+                let s = slot[j];
+                if s != cur {
+                    by_day[cur as usize] = day;
+                    (day, cur) = (0.0, s);
+                }
+                day += p;
             }
         }
-        self.ranked_all.then_some(top)
+        if daily {
+            by_day[cur as usize] = day;
+        }
+        let totals = Totals::of(&sums);
+        // Every trade is ranked (`rank_all`): the k largest kept ones,
+        // largest first, as `metrics::tcr` adds them.
+        // Without the walk, a stand-in sum: the TCR it makes is dropped below.
+        let top = |k: usize| {
+            let kept = self.by_tail.iter().map(|&j| j as usize);
+            Some(match tail {
+                true => kept
+                    .filter(|&j| !dropped[j])
+                    .take(k)
+                    .fold(0.0f64, |top, j| top + self.tail_at(j)),
+                false => 0.0,
+            })
+        };
+        let mut f = self
+            .figures(&totals, daily.then_some(by_day), top)
+            .expect("every trade is ranked");
+        f[3] = Some(sums.path.drawdown);
+        if !tail {
+            f[4] = None;
+        }
+        f
     }
 }
 
@@ -1902,15 +1804,16 @@ mod tests {
                     m.tcr,
                 ];
                 assert_eq!(
-                    bits(&pass.figures(&exposed)),
+                    bits(&pass.figures(exposed)),
                     bits(&want),
                     "case {case}, every {every}"
                 );
                 let flags: Vec<bool> = (0..t.len()).map(exposed).collect();
+                let by_position: Vec<bool> =
+                    pass.order().iter().map(|&i| flags[i as usize]).collect();
                 assert_eq!(
-                    pass.tail_and_path(|i| flags[i])
-                        .map(|v| v.map(f64::to_bits)),
-                    [want[4], want[2], want[3]].map(|v| v.map(f64::to_bits)),
+                    bits(&pass.figures_at(&by_position)),
+                    bits(&want),
                     "case {case}, every {every}"
                 );
                 for (f, w) in want.iter().enumerate() {
