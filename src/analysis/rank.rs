@@ -303,17 +303,32 @@ fn random_removal_with(
         draws.seed ^ RANDOM_REMOVAL_SALT,
         run,
     ));
+    // Where the pass applies, the drawn trades are flagged by its position
+    // (the same trades: each index's position, looked up once).
+    let position: Vec<u32> = pass.as_ref().map_or_else(Vec::new, |p| {
+        let mut at = vec![0u32; t.len()];
+        for (j, &i) in p.order().iter().enumerate() {
+            at[i as usize] = j as u32;
+        }
+        at
+    });
     let mut drawn = vec![false; t.len()];
     let mut out = Vec::with_capacity(draws.draws);
     for _ in 0..draws.draws {
         drawn.fill(false);
-        for i in rand::seq::index::sample(&mut rng, t.len(), exposed) {
-            drawn[i] = true;
-        }
-        let is_drawn = |i: usize| drawn[i];
+        let sample = rand::seq::index::sample(&mut rng, t.len(), exposed);
         let value = match (&pass, slot) {
-            (Some(p), Some(k)) => p.figure(&drawn, k),
+            (Some(p), Some(k)) => {
+                for i in sample {
+                    drawn[position[i] as usize] = true;
+                }
+                p.figure_at(&drawn, k)
+            }
             _ => {
+                for i in sample {
+                    drawn[i] = true;
+                }
+                let is_drawn = |i: usize| drawn[i];
                 let result = run_result(
                     run.to_string(),
                     all_idx.clone(),

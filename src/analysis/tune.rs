@@ -484,8 +484,7 @@ fn tail_and_path(
         .iter()
         .map(|&k| is_set(exposed, k as usize))
         .collect();
-    let f = pass.figures_at(&dropped);
-    [f[4], f[2], f[3]]
+    pass.tail_and_path_at(&dropped)
 }
 
 /// TCR, Sharpe and max drawdown of the removed scenario built over `order`

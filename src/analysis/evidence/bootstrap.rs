@@ -701,34 +701,38 @@ impl RemovedPass {
     /// `exposed` (by input index), bit for bit those of the removed
     /// scenario's metrics.
     pub fn figures(&self, exposed: impl Fn(usize) -> bool) -> [Option<f64>; 5] {
-        self.figures_at(&self.by_position(exposed))
+        let by_position: Vec<bool> = self.order().iter().map(|&i| exposed(i as usize)).collect();
+        self.figures_at(&by_position)
     }
 
     /// [`RemovedPass::figures`] with the left-out trades flagged by position
     /// in [`RemovedPass::order`] (the window grid asks this of every run in
     /// every cell).
     pub fn figures_at(&self, dropped: &[bool]) -> [Option<f64>; 5] {
-        self.weighted.kept(dropped, true, true)
+        self.weighted.kept::<ALL_FIGURES>(dropped)
     }
 
-    /// One of [`RemovedPass::figures`] (0 net, 1 profit factor, 2 Sharpe,
-    /// 3 max drawdown, 4 TCR), bit for bit, for flags by input index: the
-    /// same pass, with only the daily P/L or the top-k walk that figure
-    /// needs. For draws that each need one figure (rank's random-removal
+    /// TCR, Sharpe and max drawdown of [`RemovedPass::figures_at`] (what a
+    /// window grid's cell asks of every run), without the net and profit
+    /// factor sums.
+    pub fn tail_and_path_at(&self, dropped: &[bool]) -> [Option<f64>; 3] {
+        let f = self.weighted.kept::<{ SHARPE | DRAWDOWN | TCR }>(dropped);
+        [f[4], f[2], f[3]]
+    }
+
+    /// One of [`RemovedPass::figures_at`] (0 net, 1 profit factor, 2
+    /// Sharpe, 3 max drawdown, 4 TCR), bit for bit: the same pass, with
+    /// only the sums, the daily P/L or the top-k walk that figure needs.
+    /// For draws that each need one figure (rank's random-removal
     /// reference).
-    pub fn figure(&self, exposed: &[bool], which: usize) -> Option<f64> {
+    pub fn figure_at(&self, dropped: &[bool], which: usize) -> Option<f64> {
         let w = &self.weighted;
-        let dropped = self.by_position(|i| exposed[i]);
         match which {
-            2 => w.kept(&dropped, true, false)[2],
-            4 => w.kept(&dropped, false, true)[4],
-            _ => w.kept(&dropped, false, false)[which],
+            0 | 1 => w.kept::<NET_PF>(dropped)[which],
+            2 => w.kept::<SHARPE>(dropped)[2],
+            3 => w.kept::<DRAWDOWN>(dropped)[3],
+            _ => w.kept::<TCR>(dropped)[4],
         }
-    }
-
-    fn by_position(&self, exposed: impl Fn(usize) -> bool) -> Vec<bool> {
-        let w = &self.weighted;
-        w.order.iter().map(|&i| exposed(i as usize)).collect()
     }
 }
 
@@ -873,21 +877,38 @@ impl Sums {
         }
     }
 
-    /// One copy, with the sums of `metrics::compute`, `max_drawdown` and
-    /// `tcr` in their order. The maxima are plain comparisons: on finite
-    /// values that are never −0.0 (no sum here starts at or can reach −0.0)
-    /// they pick what `f64::max` picks, and adding a clipped 0.0 where the
-    /// original adds ±0.0 leaves a sum that is never −0.0 unchanged.
+    /// One trade's P/L `p` and tail value `t` (a kept trade's, or +0.0
+    /// for a dropped one), into the sums `WANT` asks for (see
+    /// [`Weighted::kept`]), with the sums of `metrics::compute`,
+    /// `max_drawdown` and `tcr` in their order. The maxima are plain
+    /// comparisons: on finite values that are never −0.0 (no sum here
+    /// starts at or can reach −0.0) they pick what `f64::max` picks, and
+    /// adding a clipped 0.0 where the original adds ±0.0 leaves a sum that
+    /// is never −0.0 unchanged.
     #[inline(always)]
-    fn add(&mut self, p: f64, t: f64) {
-        self.net += p;
-        self.gross_profit += if p > 0.0 { p } else { 0.0 };
-        self.gross_loss += if p < 0.0 { p } else { 0.0 };
-        self.losses += (p < 0.0) as usize;
-        self.path.add(p);
-        self.abs_tail += t;
+    fn add<const WANT: u8>(&mut self, p: f64, t: f64) {
+        if WANT & NET_PF != 0 {
+            self.net += p;
+            self.gross_profit += if p > 0.0 { p } else { 0.0 };
+            self.gross_loss += if p < 0.0 { p } else { 0.0 };
+            self.losses += (p < 0.0) as usize;
+        }
+        if WANT & DRAWDOWN != 0 {
+            self.path.add(p);
+        }
+        if WANT & TCR != 0 {
+            self.abs_tail += t;
+        }
     }
 }
+
+/// What a pass of [`Weighted::kept`] computes: net and profit factor,
+/// Sharpe, max drawdown, TCR (bits of `WANT`).
+const NET_PF: u8 = 1;
+const SHARPE: u8 = 2;
+const DRAWDOWN: u8 = 4;
+const TCR: u8 = 8;
+const ALL_FIGURES: u8 = NET_PF | SHARPE | DRAWDOWN | TCR;
 
 impl Weighted {
     /// `rank_all`: rank every trade by tail value (for exposure flags that
@@ -1298,17 +1319,17 @@ impl Weighted {
         ])
     }
 
-    /// The removed scenario's five figures (as [`Weighted::figures`]) with
-    /// every trade once and those `dropped` (by position) left out, in one
-    /// pass over the trades in close order. The pass adds +0.0 (and counts
-    /// nothing) for a dropped trade instead of branching on it: on sums that
-    /// are never −0.0 (see [`Sums::add`]) that leaves every sum, bit for bit,
-    /// as if the trade had been skipped. `daily`: the P/L per day, for
-    /// Sharpe; `tail`: the walk down the ranked trades, for TCR (each
-    /// `None` without; the sums the caller does not read are left to the
-    /// compiler to drop).
+    /// The removed scenario's figures (as [`Weighted::figures`]) with every
+    /// trade once and those `dropped` (by position) left out, in one pass
+    /// over the trades in close order; only the figures `WANT` asks for
+    /// (bits [`NET_PF`], [`SHARPE`], [`DRAWDOWN`], [`TCR`]), the others
+    /// `None`. The pass adds +0.0 (and counts nothing) for a dropped trade
+    /// instead of branching on it: on sums that are never −0.0 (see
+    /// [`Sums::add`]) that leaves every sum, bit for bit, as if the trade
+    /// had been skipped.
     #[inline(always)]
-    fn kept(&self, dropped: &[bool], daily: bool, tail: bool) -> [Option<f64>; 5] {
+    fn kept<const WANT: u8>(&self, dropped: &[bool]) -> [Option<f64>; 5] {
+        let daily = WANT & SHARPE != 0;
         let n = self.pnl.len();
         let (pnl, dropped) = (&self.pnl[..n], &dropped[..n]);
         let mut sums = Sums::new(self.start);
@@ -1325,9 +1346,13 @@ impl Weighted {
             let keep = !dropped[j];
             let mask = 0u64.wrapping_sub(keep as u64);
             let p = f64::from_bits(pnl[j].to_bits() & mask);
-            let t = f64::from_bits(self.tail_at(j).to_bits() & mask);
-            sums.n += keep as usize;
-            sums.add(p, t);
+            let t = if WANT & TCR != 0 {
+                sums.n += keep as usize;
+                f64::from_bits(self.tail_at(j).to_bits() & mask)
+            } else {
+                0.0
+            };
+            sums.add::<WANT>(p, t);
             if daily {
                 let s = slot[j];
                 if s != cur {
@@ -1340,13 +1365,12 @@ impl Weighted {
         if daily {
             by_day[cur as usize] = day;
         }
-        let totals = Totals::of(&sums);
         // Every trade is ranked (`rank_all`): the k largest kept ones,
-        // largest first, as `metrics::tcr` adds them.
-        // Without the walk, a stand-in sum: the TCR it makes is dropped below.
+        // largest first, as `metrics::tcr` adds them. Without TCR, a
+        // stand-in sum whose figure is dropped below.
         let top = |k: usize| {
             let kept = self.by_tail.iter().map(|&j| j as usize);
-            Some(match tail {
+            Some(match WANT & TCR != 0 {
                 true => kept
                     .filter(|&j| !dropped[j])
                     .take(k)
@@ -1354,14 +1378,17 @@ impl Weighted {
                 false => 0.0,
             })
         };
-        let mut f = self
-            .figures(&totals, daily.then_some(by_day), top)
+        let f = self
+            .figures(&Totals::of(&sums), daily.then_some(by_day), top)
             .expect("every trade is ranked");
-        f[3] = Some(sums.path.drawdown);
-        if !tail {
-            f[4] = None;
-        }
-        f
+        let wanted = |bit: u8, v: Option<f64>| if WANT & bit != 0 { v } else { None };
+        [
+            wanted(NET_PF, f[0]),
+            wanted(NET_PF, f[1]),
+            f[2],
+            wanted(DRAWDOWN, Some(sums.path.drawdown)),
+            wanted(TCR, f[4]),
+        ]
     }
 }
 
@@ -1818,11 +1845,17 @@ mod tests {
                 );
                 for (f, w) in want.iter().enumerate() {
                     assert_eq!(
-                        pass.figure(&flags, f).map(f64::to_bits),
+                        pass.figure_at(&by_position, f).map(f64::to_bits),
                         w.map(f64::to_bits),
                         "case {case}, every {every}, figure {f}"
                     );
                 }
+                assert_eq!(
+                    pass.tail_and_path_at(&by_position)
+                        .map(|v| v.map(f64::to_bits)),
+                    [want[4], want[2], want[3]].map(|v| v.map(f64::to_bits)),
+                    "case {case}, every {every}"
+                );
             }
         }
     }
