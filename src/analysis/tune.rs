@@ -266,103 +266,124 @@ pub fn tune(
         .iter()
         .flat_map(|&a| post.iter().map(move |&b| (a, b)))
         .collect();
-    let mut cells: Vec<Cell> = grid
-        .par_iter()
-        .map(|&(a, b)| -> Result<Cell, scenarios::ScenarioError> {
-            let ws = cell_windows(
-                &settings.windows,
-                tier,
-                Window {
-                    pre_min: a,
-                    post_min: b,
-                },
-            );
-            // Each used release's slot, and its window when its currency is
-            // traded (the time blocked).
-            let mut blocking = Vec::new();
-            let slots = Slots::of_slots(
-                calendar_currencies.len(),
-                releases
-                    .iter()
-                    .zip(&release_currency)
-                    .filter_map(|(r, &(c, traded))| {
-                        let window = ws.span_for(r)?;
-                        if traded {
-                            blocking.push((window.0, window.1));
-                        }
-                        Some((c, slot_of(settings.exposure_rule, r.all_day, window)))
-                    }),
-            );
-            let mut bits = vec![0u64; index.words()];
-            index.mark(&slots, &mut bits);
-            drop(slots);
-            // In close order; −0.0 for a trade not exposed: the identity
-            // of addition, so the sum is the exposed trades' alone.
-            // In close order, the exposed trades alone: the others would add
-            // −0.0, the identity of addition.
-            let exposed_pnl: f64 = set_bits(&bits).map(|k| pnl_in_order[k]).sum();
-            let is_exposed = |i: usize| is_set(&bits, number_of[i] as usize);
-            // The stressed scenario keeps every trade and charges the
-            // exposed ones: its net is the baseline's less the charges
-            // (fixed sizing; compounding would replay the account).
-            let stressed = settings
-                .scenario
-                .stress
-                .filter(|_| settings.scenario.sizing == scenarios::Sizing::Fixed)
-                .map(|rule| {
-                    let size = trades.size.as_deref();
-                    // Net less the charges; gross profit and loss with each
-                    // exposed trade's P/L replaced by its charged P/L.
-                    let (mut charge, mut gp, mut gl) = (0.0, gross.0, gross.1);
-                    for i in set_bits(&bits).map(|k| order[k] as usize) {
-                        let p = trades.pnl[i];
-                        let c = rule.charge(p, size.map(|z| z[i]));
-                        charge += c;
-                        gp += (p - c).max(0.0) - p.max(0.0);
-                        gl += (p - c).min(0.0) - p.min(0.0);
-                    }
-                    (net - charge, (gl < 0.0).then(|| gp / -gl))
-                });
-            let (net_stressed, profit_factor_stressed) =
-                (stressed.map(|s| s.0), stressed.and_then(|s| s.1));
-            let after = if per_run.is_empty() {
-                let [tcr, sharpe, max_drawdown] = match &pooled_pass {
-                    Some((numbers, pass)) => tail_and_path(pass, numbers, &bits),
-                    None => removed_by_build(&order, trades, &is_exposed, settings, &ctx_of)?,
-                };
-                After {
-                    tcr,
-                    tcr_reduction: tcr_baseline.zip(tcr).map(|(x, y)| x - y),
-                    sharpe,
-                    max_drawdown,
-                    runs_tcr_reduced: None,
-                    runs_sharpe_improved: None,
-                }
-            } else {
-                runs_after(&per_run, trades, &number_of, &bits, settings, &ctx_of)?
-            };
-            let blocked = metrics::union_within(blocking, Some(span));
-            progress();
-            Ok(Cell {
+    // The slots of a cell's windows, and its windows on traded currencies
+    // (the time blocked).
+    let windows_of = |(a, b): (i64, i64)| {
+        let ws = cell_windows(
+            &settings.windows,
+            tier,
+            Window {
                 pre_min: a,
                 post_min: b,
-                trades_removed: bits.iter().map(|w| w.count_ones() as usize).sum(),
-                share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
-                tcr_after: after.tcr,
-                tcr_reduction: after.tcr_reduction,
-                sharpe_after: after.sharpe,
-                max_drawdown_after: after.max_drawdown,
-                runs_tcr_reduced: after.runs_tcr_reduced,
-                runs_sharpe_improved: after.runs_sharpe_improved,
-                net_stressed,
-                profit_factor_stressed,
-                blocked_share: if week > 0.0 {
-                    blocked as f64 / week
-                } else {
-                    0.0
-                },
-                frontier: false,
-            })
+            },
+        );
+        let mut blocking = Vec::new();
+        let slots = Slots::of_slots(
+            calendar_currencies.len(),
+            releases
+                .iter()
+                .zip(&release_currency)
+                .filter_map(|(r, &(c, traded))| {
+                    let window = ws.span_for(r)?;
+                    if traded {
+                        blocking.push((window.0, window.1));
+                    }
+                    Some((c, slot_of(settings.exposure_rule, r.all_day, window)))
+                }),
+        );
+        (slots, blocking)
+    };
+    // A cell's figures from its flags (by close-order number) and blocked
+    // windows.
+    let cell_of = |(a, b): (i64, i64),
+                   bits: &[u64],
+                   blocking: Vec<(i64, i64)>|
+     -> Result<Cell, scenarios::ScenarioError> {
+        // In close order, the exposed trades alone: the others would add
+        // −0.0, the identity of addition.
+        let exposed_pnl: f64 = set_bits(bits).map(|k| pnl_in_order[k]).sum();
+        let is_exposed = |i: usize| is_set(bits, number_of[i] as usize);
+        // The stressed scenario keeps every trade and charges the
+        // exposed ones: its net is the baseline's less the charges
+        // (fixed sizing; compounding would replay the account).
+        let stressed = settings
+            .scenario
+            .stress
+            .filter(|_| settings.scenario.sizing == scenarios::Sizing::Fixed)
+            .map(|rule| {
+                let size = trades.size.as_deref();
+                // Net less the charges; gross profit and loss with each
+                // exposed trade's P/L replaced by its charged P/L.
+                let (mut charge, mut gp, mut gl) = (0.0, gross.0, gross.1);
+                for i in set_bits(bits).map(|k| order[k] as usize) {
+                    let p = trades.pnl[i];
+                    let c = rule.charge(p, size.map(|z| z[i]));
+                    charge += c;
+                    gp += (p - c).max(0.0) - p.max(0.0);
+                    gl += (p - c).min(0.0) - p.min(0.0);
+                }
+                (net - charge, (gl < 0.0).then(|| gp / -gl))
+            });
+        let (net_stressed, profit_factor_stressed) =
+            (stressed.map(|s| s.0), stressed.and_then(|s| s.1));
+        let after = if per_run.is_empty() {
+            let [tcr, sharpe, max_drawdown] = match &pooled_pass {
+                Some((numbers, pass)) => tail_and_path(pass, numbers, bits),
+                None => removed_by_build(&order, trades, &is_exposed, settings, &ctx_of)?,
+            };
+            After {
+                tcr,
+                tcr_reduction: tcr_baseline.zip(tcr).map(|(x, y)| x - y),
+                sharpe,
+                max_drawdown,
+                runs_tcr_reduced: None,
+                runs_sharpe_improved: None,
+            }
+        } else {
+            runs_after(&per_run, trades, &number_of, bits, settings, &ctx_of)?
+        };
+        let blocked = metrics::union_within(blocking, Some(span));
+        progress();
+        Ok(Cell {
+            pre_min: a,
+            post_min: b,
+            trades_removed: bits.iter().map(|w| w.count_ones() as usize).sum(),
+            share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
+            tcr_after: after.tcr,
+            tcr_reduction: after.tcr_reduction,
+            sharpe_after: after.sharpe,
+            max_drawdown_after: after.max_drawdown,
+            runs_tcr_reduced: after.runs_tcr_reduced,
+            runs_sharpe_improved: after.runs_sharpe_improved,
+            net_stressed,
+            profit_factor_stressed,
+            blocked_share: if week > 0.0 {
+                blocked as f64 / week
+            } else {
+                0.0
+            },
+            frontier: false,
+        })
+    };
+    // Eight cells at a time: their windows marked together (the index is
+    // read once for the eight), then each cell's figures.
+    let mut cells: Vec<Cell> = grid
+        .par_chunks(8)
+        .flat_map_iter(|chunk| {
+            let (slots, blocking): (Vec<Slots>, Vec<Vec<(i64, i64)>>) =
+                chunk.iter().map(|&cell| windows_of(cell)).unzip();
+            let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
+            let calendars: Vec<&Slots> = slots.iter().collect();
+            let mut flags: Vec<&mut [u64]> = bits.iter_mut().map(|b| b.as_mut_slice()).collect();
+            index.mark_each(&calendars, &mut flags);
+            drop(slots);
+            let cells: Vec<Result<Cell, scenarios::ScenarioError>> = chunk
+                .iter()
+                .zip(&bits)
+                .zip(blocking)
+                .map(|((&cell, bits), blocking)| cell_of(cell, bits, blocking))
+                .collect();
+            cells
         })
         .collect::<Result<_, _>>()?;
     mark_frontier(&mut cells);

@@ -435,19 +435,40 @@ impl TradeIndex {
     /// Sets in `bits` (cleared first; [`TradeIndex::words`] long) the trades
     /// that meet at least one of the slots.
     pub fn mark(&self, slots: &Slots, bits: &mut [u64]) {
-        bits.fill(0);
+        self.mark_each(&[slots], &mut [bits]);
+    }
+
+    /// [`TradeIndex::mark`] for several calendars at once: `bits[b]` gets
+    /// the trades that meet a slot of `slots[b]`. The same flags as one by
+    /// one; a class's trades are read once for all the calendars, a tile
+    /// at a time (the index is far larger than the caches, and marking one
+    /// calendar after another read all of it from memory each time).
+    pub fn mark_each(&self, slots: &[&Slots], bits: &mut [&mut [u64]]) {
+        assert_eq!(slots.len(), bits.len(), "a flag set per calendar");
+        bits.iter_mut().for_each(|b| b.fill(0));
         for (c, classes) in self.by_currency.iter().enumerate() {
-            let list = &slots.slots[c];
             for class in classes {
-                if class.trade.len() < list.len() * TRADE_SIDE {
-                    class.mark_from_trades(list, &slots.ends[c], &slots.ends_index[c], bits);
-                } else {
-                    class.mark_from_slots(list, bits);
+                let mut by_slots: Vec<SlotsAndFlags> = Vec::new();
+                for (s, b) in slots.iter().zip(bits.iter_mut()) {
+                    let list = &s.slots[c];
+                    if class.trade.len() < list.len() * TRADE_SIDE {
+                        class.mark_from_trades(list, &s.ends[c], &s.ends_index[c], b);
+                    } else {
+                        by_slots.push((list, b));
+                    }
                 }
+                class.mark_from_slots(&mut by_slots, TILE);
             }
         }
     }
 }
+
+/// One calendar's slots of a currency, and the flags they set.
+type SlotsAndFlags<'a> = (&'a [(i64, i64)], &'a mut [u64]);
+
+/// Query starts of a class read per tile of [`Class::mark_from_slots`]:
+/// 16 bytes of index each, 256 KiB a tile, within the second-level cache.
+const TILE: usize = 16_384;
 
 /// A class with fewer trades than this many times its currency's slots is
 /// marked trade by trade (a lookup among the slots for each) rather than
@@ -495,25 +516,51 @@ impl Class {
     }
 
     /// Window by window: the trades whose query start lies in
-    /// `[s − longest, e]`, flagged when their query end is ≥ s.
-    fn mark_from_slots(&self, slots: &[(i64, i64)], bits: &mut [u64]) {
-        let mut hint = 0;
-        for &(s, e) in slots {
-            let from = self.starts.first_at_least::<false>(
-                &self.query_start,
-                hint,
-                s.saturating_sub(self.longest),
-            );
-            hint = from;
-            for j in from..self.query_start.len() {
-                if self.query_start[j] > e {
-                    break;
+    /// `[s − longest, e]`, flagged when their query end is ≥ s; for each
+    /// calendar's (slots, flags) in `each`. A tile of the class's trades at a
+    /// time: every calendar's windows whose candidates begin in the tile,
+    /// in turn, so the tile is read from memory once (a window's candidates
+    /// may run on into the next tile; each window is taken once, in order).
+    fn mark_from_slots(&self, each: &mut [SlotsAndFlags], tile: usize) {
+        if each.is_empty() {
+            return;
+        }
+        let n = self.query_start.len();
+        // Per calendar: its next window, and where its last one's
+        // candidates began.
+        let mut next = vec![0usize; each.len()];
+        let mut hint = vec![0usize; each.len()];
+        let mut tile_start = 0;
+        while tile_start < n {
+            let tile_end = (tile_start + tile).min(n);
+            // Windows whose first candidate lies before this instant
+            // belong to the tile (the last tile takes all that are left).
+            let before = self.query_start.get(tile_end).copied().unwrap_or(i64::MAX);
+            for (b, (slots, bits)) in each.iter_mut().enumerate() {
+                while let Some(&(s, e)) = slots.get(next[b]) {
+                    let from_instant = s.saturating_sub(self.longest);
+                    if from_instant >= before && tile_end < n {
+                        break;
+                    }
+                    next[b] += 1;
+                    let from = self.starts.first_at_least::<false>(
+                        &self.query_start,
+                        hint[b],
+                        from_instant,
+                    );
+                    hint[b] = from;
+                    for j in from..n {
+                        if self.query_start[j] > e {
+                            break;
+                        }
+                        // Without a branch: about half the candidates
+                        // are near misses, in no predictable pattern.
+                        let t = self.trade[j] as usize;
+                        bits[t / 64] |= ((self.query_end(j) >= s) as u64) << (t % 64);
+                    }
                 }
-                // Without a branch: about half the candidates
-                // are near misses, in no predictable pattern.
-                let t = self.trade[j] as usize;
-                bits[t / 64] |= ((self.query_end(j) >= s) as u64) << (t % 64);
             }
+            tile_start = tile_end;
         }
     }
 
@@ -683,18 +730,55 @@ mod tests {
                     }
                     assert_eq!(moved.dropped, dropped, "{rule:?} shift {d}");
                     // Trade by trade and slot by slot mark the same trades,
-                    // whichever `mark` picks for a class.
+                    // whichever `mark` picks for a class; slot by slot also
+                    // with this calendar and two others marked at once, in
+                    // tiles of a few trades.
+                    let mut others = [Slots::default(), Slots::default()];
+                    cal.shift(d + 2, &mut others[0]);
+                    cal.shift(d + 5, &mut others[1]);
                     for (k, classes) in index.by_currency.iter().enumerate() {
                         let slots = &moved.slots[k];
                         let (ends, ends_index) = (&moved.ends[k], &moved.ends_index[k]);
                         assert!(ends.windows(2).all(|e| e[0] <= e[1]), "joined slots");
                         for c in classes {
+                            let alone = |cal: &Slots| {
+                                let mut by_trade = vec![0; index.words()];
+                                let (ends, at) = (&cal.ends[k], &cal.ends_index[k]);
+                                c.mark_from_trades(&cal.slots[k], ends, at, &mut by_trade);
+                                by_trade
+                            };
                             let mut by_trade = vec![0; index.words()];
-                            let mut by_slot = vec![0; index.words()];
                             c.mark_from_trades(slots, ends, ends_index, &mut by_trade);
-                            c.mark_from_slots(slots, &mut by_slot);
-                            assert_eq!(by_trade, by_slot, "{rule:?} shift {d}");
+                            assert_eq!(by_trade, alone(&moved));
+                            for tile in [1, 7, TILE] {
+                                let mut by_slot = vec![vec![0; index.words()]; 3];
+                                let [a, b, e] = &mut by_slot[..] else {
+                                    unreachable!()
+                                };
+                                c.mark_from_slots(
+                                    &mut [
+                                        (slots, a),
+                                        (&others[0].slots[k], b),
+                                        (&others[1].slots[k], e),
+                                    ],
+                                    tile,
+                                );
+                                assert_eq!(by_trade, by_slot[0], "{rule:?} shift {d} tile {tile}");
+                                assert_eq!(alone(&others[0]), by_slot[1], "tile {tile}");
+                                assert_eq!(alone(&others[1]), by_slot[2], "tile {tile}");
+                            }
                         }
+                    }
+                    // All classes and currencies: marked together as one by one.
+                    let mut each = vec![vec![0; index.words()]; 3];
+                    let mut flags: Vec<&mut [u64]> =
+                        each.iter_mut().map(|b| b.as_mut_slice()).collect();
+                    index.mark_each(&[&moved, &others[0], &others[1]], &mut flags);
+                    assert_eq!(each[0], bits, "{rule:?} shift {d}");
+                    for (other, got) in others.iter().zip(&each[1..]) {
+                        let mut one = vec![0; index.words()];
+                        index.mark(other, &mut one);
+                        assert_eq!(&one, got, "{rule:?} shift {d}");
                     }
                     let want = Engine::from_windows(&kept, rule, releases.len())
                         .run_matches(&opened, &closed, &instrument, &currencies)

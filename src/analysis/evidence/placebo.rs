@@ -263,27 +263,36 @@ pub fn placebo_groups(
     type Scores = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
     let scored: Vec<Scores> = drawn
         .par_chunks(BATCH)
-        .map_init(Slots::default, |moved, chunk| {
-            let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
-            let mut dropped = [0usize; BATCH];
-            for ((d, _), (b, dropped)) in chunk.iter().zip(bits.iter_mut().zip(&mut dropped)) {
-                calendar.shift(*d, moved);
-                index.mark(moved, b);
-                *dropped = moved.dropped;
-            }
-            let sets: [&[u64]; BATCH] =
-                std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
-            let mut out = Vec::new();
-            for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
-                for (b, (_, js)) in chunk.iter().enumerate() {
-                    for &j in js {
-                        out.push((g, j, dropped[b], stats[b].0, stats[b].1));
-                        progress();
+        .map_init(
+            || std::array::from_fn::<Slots, BATCH, _>(|_| Slots::default()),
+            |moved, chunk| {
+                let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
+                let mut dropped = [0usize; BATCH];
+                for (((d, _), moved), dropped) in
+                    chunk.iter().zip(moved.iter_mut()).zip(&mut dropped)
+                {
+                    calendar.shift(*d, moved);
+                    *dropped = moved.dropped;
+                }
+                // The chunk's calendars marked together: the index read once.
+                let calendars: Vec<&Slots> = moved[..chunk.len()].iter().collect();
+                let mut flags: Vec<&mut [u64]> =
+                    bits.iter_mut().map(|b| b.as_mut_slice()).collect();
+                index.mark_each(&calendars, &mut flags);
+                let sets: [&[u64]; BATCH] =
+                    std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
+                let mut out = Vec::new();
+                for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
+                    for (b, (_, js)) in chunk.iter().enumerate() {
+                        for &j in js {
+                            out.push((g, j, dropped[b], stats[b].0, stats[b].1));
+                            progress();
+                        }
                     }
                 }
-            }
-            out
-        })
+                out
+            },
+        )
         .collect();
     let mut shares = vec![vec![None; n]; groups.len()];
     let mut diffs = vec![vec![None; n]; groups.len()];
