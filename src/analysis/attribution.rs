@@ -257,11 +257,7 @@ pub fn attribute(
     };
     let h = &mut a.headline;
     let ratio = |x: f64, y: f64| (y != 0.0).then(|| x / y);
-    // A net within the rounding of its sum is zero: its share would be
-    // rounding residue over rounding residue, different for every order
-    // of the same trades.
-    let net_is_zero = h.net.abs() <= sums.abs_total * 1e-12;
-    h.share_of_net = ratio(h.exposed_pnl, h.net).filter(|_| !net_is_zero);
+    h.share_of_net = crate::analysis::metrics::share_of_net(h.exposed_pnl, h.net, sums.abs_total);
     h.share_of_gross_profit = ratio(sums.exposed_gross_profit, sums.gross_profit);
     h.share_of_gross_loss = ratio(sums.exposed_gross_loss, sums.gross_loss);
     h.share_of_count = ratio(exp.exposed_count() as f64, pnl.len() as f64);

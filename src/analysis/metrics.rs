@@ -115,6 +115,15 @@ impl Curve<'_> {
     }
 }
 
+/// `part` ÷ `net`: a share of net P/L; undefined when net is zero within
+/// the rounding of its sum, |net| ≤ 10⁻¹² × Σ|P/L| (`abs_total`), where it
+/// would be rounding residue over rounding residue, different for every
+/// order of the same trades (docs/method.md §3). Every share of net goes
+/// through here.
+pub fn share_of_net(part: f64, net: f64, abs_total: f64) -> Option<f64> {
+    (net.abs() > abs_total * 1e-12).then(|| part / net)
+}
+
 /// Sample mean and standard deviation (ddof 1).
 pub fn mean_sd(x: &[f64]) -> (Option<f64>, Option<f64>) {
     let n = x.len();

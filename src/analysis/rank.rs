@@ -7,7 +7,7 @@
 //! with runs × trades beyond the input itself.
 
 use crate::analysis::evidence::{self, PlaceboSettings};
-use crate::analysis::metrics::{Context, Metrics};
+use crate::analysis::metrics::{self, Context, Metrics};
 use crate::analysis::run::AnalysisSettings;
 use crate::analysis::run::{run_result, split_by_run};
 use crate::analysis::scenarios;
@@ -475,7 +475,11 @@ fn run_row(
         exposed_pnl,
         exposed_share_of_trades: (!t.is_empty())
             .then(|| result.exposed_trades as f64 / t.len() as f64),
-        exposed_share_of_net: (b.net != 0.0).then(|| exposed_pnl / b.net),
+        exposed_share_of_net: metrics::share_of_net(
+            exposed_pnl,
+            b.net,
+            b.gross_profit - b.gross_loss,
+        ),
         net_baseline: b.net,
         net_removed: rm.net,
         profit_factor_baseline: b.profit_factor,

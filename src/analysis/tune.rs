@@ -348,7 +348,7 @@ pub fn tune(
             pre_min: a,
             post_min: b,
             trades_removed: bits.iter().map(|w| w.count_ones() as usize).sum(),
-            share_of_net_removed: (net != 0.0).then(|| exposed_pnl / net),
+            share_of_net_removed: metrics::share_of_net(exposed_pnl, net, gross.0 - gross.1),
             tcr_after: after.tcr,
             tcr_reduction: after.tcr_reduction,
             sharpe_after: after.sharpe,

@@ -2,6 +2,7 @@
 //! random whole number of weekdays, and how often the moved calendar shows
 //! an effect at least as large as the real one.
 
+use crate::analysis::metrics;
 use crate::engine::exposure::{ExposureRule, UsedWindow};
 use crate::engine::shifted::{ShiftedCalendar, Slots, TradeIndex};
 use crate::import::calendar::Release;
@@ -48,9 +49,8 @@ pub const PLACEBO_METHOD: &str = "every used release moved by the same random wh
 
 /// The two statistics of docs/method.md §7 for a set of exposure flags.
 pub fn effect_statistics(pnl: &[f64], exposed: &[bool]) -> (Option<f64>, Option<f64>) {
-    let (mut net, mut e_sum, mut e_n, mut u_sum, mut u_n) = (0.0, 0.0, 0usize, 0.0, 0usize);
+    let (mut e_sum, mut e_n, mut u_sum, mut u_n) = (0.0, 0usize, 0.0, 0usize);
     for (&p, &x) in pnl.iter().zip(exposed) {
-        net += p;
         if x {
             e_sum += p;
             e_n += 1;
@@ -59,9 +59,35 @@ pub fn effect_statistics(pnl: &[f64], exposed: &[bool]) -> (Option<f64>, Option<
             u_n += 1;
         }
     }
-    let share = (net != 0.0).then(|| e_sum / net);
+    let share = Net::of(pnl).share(e_sum);
     let diff = (e_n > 0 && u_n > 0).then(|| e_sum / e_n as f64 - u_sum / u_n as f64);
     (share, diff)
+}
+
+/// A group's net P/L (summed in its order) and Σ|P/L|, which decides
+/// whether the net is zero within the rounding of its sum.
+#[derive(Debug, Clone, Copy, Default)]
+struct Net {
+    net: f64,
+    abs_total: f64,
+}
+
+impl Net {
+    fn of(pnl: &[f64]) -> Net {
+        pnl.iter().fold(Net::default(), |n, &p| n.add(p))
+    }
+
+    fn add(self, p: f64) -> Net {
+        Net {
+            net: self.net + p,
+            abs_total: self.abs_total + p.abs(),
+        }
+    }
+
+    /// `part` ÷ net ([`metrics::share_of_net`]).
+    fn share(self, part: f64) -> Option<f64> {
+        metrics::share_of_net(part, self.net, self.abs_total)
+    }
 }
 
 /// Placebo p-value: (1 + #(placebo ≥ observed)) ÷ (N + 1), Phipson & Smyth
@@ -243,11 +269,11 @@ pub fn placebo_groups(
             .collect()
     });
     drop(numbered);
-    let mut nets = vec![0.0f64; groups.len()];
+    let mut nets = vec![Net::default(); groups.len()];
     let mut sizes = vec![0usize; groups.len()];
     for (k, &p) in pnl.iter().enumerate() {
         let g = group_of.as_ref().map_or(0, |of| of[k] as usize);
-        nets[g] += p;
+        nets[g] = nets[g].add(p);
         sizes[g] += 1;
     }
     let scoring = Scoring {
@@ -314,7 +340,7 @@ pub fn placebo_groups(
 struct Scoring {
     pnl: Vec<f64>,
     group_of: Option<Vec<u32>>,
-    nets: Vec<f64>,
+    nets: Vec<Net>,
     sizes: Vec<usize>,
 }
 
@@ -343,7 +369,7 @@ const BATCH: usize = 8;
 fn flagged_statistics(
     pnl: &[f64],
     bits: [&[u64]; BATCH],
-    net: f64,
+    net: Net,
 ) -> [(Option<f64>, Option<f64>); BATCH] {
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
@@ -358,7 +384,7 @@ fn flagged_statistics(
 fn flagged_statistics_avx2(
     pnl: &[f64],
     bits: [&[u64]; BATCH],
-    net: f64,
+    net: Net,
 ) -> [(Option<f64>, Option<f64>); BATCH] {
     flagged_statistics_in(pnl, bits, net)
 }
@@ -367,7 +393,7 @@ fn flagged_statistics_avx2(
 fn flagged_statistics_in(
     pnl: &[f64],
     bits: [&[u64]; BATCH],
-    net: f64,
+    net: Net,
 ) -> [(Option<f64>, Option<f64>); BATCH] {
     let mut e_sum = [0.0f64; BATCH];
     let mut u_sum = [0.0f64; BATCH];
@@ -400,7 +426,7 @@ fn flagged_statistics_in(
 fn grouped_statistics(
     pnl: &[f64],
     group_of: &[u32],
-    nets: &[f64],
+    nets: &[Net],
     sizes: &[usize],
     bits: [&[u64]; BATCH],
 ) -> Vec<[(Option<f64>, Option<f64>); BATCH]> {
@@ -435,11 +461,11 @@ fn from_totals(
     u_sum: [f64; BATCH],
     e_n: [usize; BATCH],
     total: usize,
-    net: f64,
+    net: Net,
 ) -> [(Option<f64>, Option<f64>); BATCH] {
     std::array::from_fn(|b| {
         let u_n = total - e_n[b];
-        let share = (net != 0.0).then(|| e_sum[b] / net);
+        let share = net.share(e_sum[b]);
         let diff =
             (e_n[b] > 0 && u_n > 0).then(|| e_sum[b] / e_n[b] as f64 - u_sum[b] / u_n as f64);
         (share, diff)
@@ -449,6 +475,25 @@ fn from_totals(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// P/L that cancel exactly leave a net of rounding residue (0.1 + 0.2 −
+    /// 0.3 = 5.55e-17 in doubles): the share of net is undefined there, for
+    /// the observed and the placebo statistic alike; the mean difference
+    /// is not affected.
+    #[test]
+    fn share_is_undefined_when_net_cancels() {
+        let pnl = [0.1, 0.2, -0.3];
+        assert!(pnl.iter().sum::<f64>() != 0.0, "residue, not zero");
+        let flags = [true, false, false];
+        let (share, diff) = effect_statistics(&pnl, &flags);
+        assert_eq!(share, None);
+        assert_eq!(diff, Some(0.1 - (0.2 + -0.3) / 2.0));
+        let bits = [1u64];
+        let got = flagged_statistics(&pnl, [&bits[..]; BATCH], Net::of(&pnl));
+        assert!(got.iter().all(|&(s, d)| s.is_none() && d == diff));
+        // A real net keeps its share: 1.0 of 2.5.
+        assert_eq!(effect_statistics(&[1.0, 1.5], &[true, false]).0, Some(0.4));
+    }
 
     /// The bit-set statistics equal [`effect_statistics`] bit for bit, in
     /// input order and in a group's own order, with zeros of both signs,
@@ -487,7 +532,7 @@ mod tests {
             })
             .collect();
         let sets: [&[u64]; BATCH] = std::array::from_fn(|b| bit_sets[b].as_slice());
-        let net = pnl.iter().fold(0.0, |a, p| a + p);
+        let net = Net::of(&pnl);
         let all = flagged_statistics(&pnl, sets, net);
         // The loop as compiled for AVX2 (when the CPU has it) and without.
         let bitwise_all = |v: [(Option<f64>, Option<f64>); BATCH]| {
@@ -500,7 +545,7 @@ mod tests {
         // A group: every third trade, backwards, flagged by group position.
         let order: Vec<u32> = (0..n as u32).rev().filter(|i| i % 3 == 0).collect();
         let g_pnl: Vec<f64> = order.iter().map(|&i| pnl[i as usize]).collect();
-        let g_net = g_pnl.iter().fold(0.0, |a, p| a + p);
+        let g_net = Net::of(&g_pnl);
         let g_bit_sets: Vec<Vec<u64>> = flag_sets
             .iter()
             .map(|flags| {
