@@ -141,6 +141,11 @@ pub trait DrawCount: Copy {
     fn add_one(&mut self) -> bool;
     /// The count.
     fn get(self) -> u32;
+    /// The first position at or after `from` holding [`UNSETTLED`].
+    fn next_unsettled(counts: &[Self], from: usize) -> Option<usize> {
+        let at = counts[from..].iter().position(|c| c.get() == UNSETTLED)?;
+        Some(from + at)
+    }
 }
 
 impl DrawCount for u8 {
@@ -156,6 +161,10 @@ impl DrawCount for u8 {
     #[inline(always)]
     fn add_one(&mut self) -> bool {
         self.checked_add(1).map(|v| *self = v).is_some()
+    }
+    /// A byte search (SIMD, `memchr`): the block seldom holds one.
+    fn next_unsettled(counts: &[u8], from: usize) -> Option<usize> {
+        Some(from + memchr::memchr(UNSETTLED as u8, &counts[from..])?)
     }
 }
 
@@ -345,14 +354,15 @@ impl CountDraw {
             }
             if any {
                 // The other 48 bits decide, in position order.
-                for (c, w) in dst.iter_mut().zip(words) {
-                    if c.get() == UNSETTLED {
-                        let high = self.side.next_word() as u64;
-                        let low = (high << 16) | (self.side.next_word() >> 16) as u64;
-                        let u = (w as u64) << 48 | low;
-                        // At most `steps.len()` ≤ 64: fits every count type.
-                        *c = C::small(self.steps.iter().take_while(|&&t| u >= t).count() as u32);
-                    }
+                let mut from = 0;
+                while let Some(i) = C::next_unsettled(dst, from) {
+                    let w = u16::from_le_bytes([ready[2 * i], ready[2 * i + 1]]);
+                    let high = self.side.next_word() as u64;
+                    let low = (high << 16) | (self.side.next_word() >> 16) as u64;
+                    let u = (w as u64) << 48 | low;
+                    // At most `steps.len()` ≤ 64: fits every count type.
+                    dst[i] = C::small(self.steps.iter().take_while(|&&t| u >= t).count() as u32);
+                    from = i + 1;
                 }
             }
             total += dst.iter().map(|c| c.get() as u64).sum::<u64>();
