@@ -675,6 +675,10 @@ struct Weighted {
     /// (`ranked_all` false) a prefix of it deep enough for the top-k walk of
     /// any likely resample (a resample that runs past it takes the slow path).
     by_tail: Vec<u32>,
+    /// For the resamples' walk (built with `rank_all` false): each ranked
+    /// trade's tail value and exposure, in `by_tail`'s order, so the walk
+    /// reads them in turn rather than at scattered positions.
+    ranked: Vec<(f64, bool)>,
     ranked_all: bool,
     /// Built without day slots (no account path): the positions are four
     /// segments, each in close order — unexposed trades with P/L ≥ 0, then
@@ -1023,6 +1027,11 @@ impl Weighted {
             }
             depth = n.min(depth.saturating_mul(2));
         };
+        let ranked = if rank_all {
+            Vec::new()
+        } else {
+            by_tail.iter().map(|&j| (tail_of(j), exposed[j as usize])).collect()
+        };
         Some(Weighted {
             order,
             pnl,
@@ -1030,6 +1039,7 @@ impl Weighted {
             slot,
             tail,
             ranked_all: depth == n,
+            ranked,
             by_tail,
             segments,
             days: slots.len(),
@@ -1152,9 +1162,24 @@ impl Weighted {
         let mut left = ks;
         let mut top = [[0.0f64; LANES]; 2];
         let mut open = left.iter().flatten().filter(|&&k| k > 0).count();
-        for &j in &self.by_tail {
+        assert_eq!(self.ranked.len(), self.by_tail.len(), "built for resamples");
+        // The counts of a ranked trade lie at a scattered position: fetched
+        // this many trades ahead.
+        const AHEAD: usize = 16;
+        for (i, (&j, &(v, exposed))) in self.by_tail.iter().zip(&self.ranked).enumerate() {
             if open == 0 {
                 break;
+            }
+            #[cfg(target_arch = "x86_64")]
+            if let Some(&ahead) = self.by_tail.get(i + AHEAD) {
+                // SAFETY: a prefetch is a hint; the address lies in `counts`
+                // (every position's LANES counts are there) and is never read
+                // through this pointer.
+                unsafe {
+                    use std::arch::x86_64::{_MM_HINT_T0, _mm_prefetch};
+                    let at = counts.as_ptr().add(ahead as usize * LANES);
+                    _mm_prefetch::<_MM_HINT_T0>(at as *const i8);
+                }
             }
             let j = j as usize;
             let c: &[u8; LANES] = counts[j * LANES..][..LANES]
@@ -1163,8 +1188,7 @@ impl Weighted {
             if c.iter().all(|&c| c == 0) {
                 continue;
             }
-            let v = self.tail_at(j);
-            let scenarios = if self.exposed[j] { 1 } else { 2 };
+            let scenarios = if exposed { 1 } else { 2 };
             for k in 0..scenarios {
                 for l in 0..LANES {
                     let take = (c[l] as usize).min(left[k][l]);
