@@ -153,6 +153,8 @@ pub fn chance(
             &|| progress.step(),
         );
         progress.end();
+        // The bootstrap's peak must not stack on the index just freed.
+        crate::import::budget::release_freed_memory();
         crate::import::phases::mark("placebo");
         r
     });
