@@ -113,7 +113,8 @@ pub fn percentile_interval(
 }
 
 /// Resample `r` of a seeded bootstrap as trade indices: each trade's
-/// count from [`draw_counts`] (by position in `order`, the close order),
+/// count from [`draw_counts`] (by position in `order`, the weighted pass's
+/// layout: close order, or its segments by exposure and sign),
 /// that trade repeated as often. Each resample is drawn on its own (in any
 /// order, on any thread) and only the ones being evaluated are held in
 /// memory — 2 000 resamples of 10 million trades would otherwise take
@@ -478,7 +479,8 @@ impl Resamples<'_> {
 /// Bootstrap intervals of removed − baseline over `resamples`.
 ///
 /// Under fixed sizing resamples are evaluated by `Weighted`, eight at a
-/// time: one pass over the trades in close order weighted by how often
+/// time: one pass over the trades (in close order, or in segments by
+/// exposure and sign without the account path) weighted by how often
 /// each resample drew each trade, equal to [`changes`] on the same indices
 /// to the rounding of the sums. Compounding sizing replays equity per
 /// resample and goes through [`changes`]. `account_path`: whether the
@@ -508,8 +510,9 @@ pub fn bootstrap_intervals(
     } else {
         Weighted::new(trades, exposed, settings, ctx, false, account_path)
     };
-    // The close order seeded counts are laid out by: the weighted pass's
-    // own, or (where there is none) made here from the identity above.
+    // The layout seeded counts are drawn in: the weighted pass's own, or
+    // (where there is none) the close order, made here from the identity
+    // above.
     let own_order: Vec<u32>;
     let order: &[u32] = match &weighted {
         Some(w) => {
@@ -649,19 +652,20 @@ impl Words {
 }
 
 /// The trades laid out once in close order (ties by open, then input
-/// order, as [`changes`] orders a resample), so that a resample is a count
-/// per trade and every figure one pass over the trades: no gather of the
-/// resample's columns and no sort per resample (SPEC §7). Resamples go
-/// eight at a time through [`Weighted::changes_side_by_side`] (equal to
-/// [`changes`] to the rounding of the sums); the removed scenario of one
-/// set of trades under changing flags ([`RemovedPass`]) goes through
-/// [`Weighted::walk`], bit for bit the built scenario.
+/// order, as [`changes`] orders a resample; without day slots, in the four
+/// segments of `segments`), so that a resample is a count per trade and
+/// every figure one pass over the trades: no gather of the resample's
+/// columns and no sort per resample (SPEC §7). Resamples go eight at a
+/// time through [`Weighted::changes_side_by_side`] (equal to [`changes`]
+/// to the rounding of the sums); the removed scenario of one set of trades
+/// under changing flags ([`RemovedPass`]) goes through [`Weighted::kept`],
+/// bit for bit the built scenario.
 ///
 /// Only for fixed sizing, and only when every resample measures its tail
 /// on the same basis as the whole input (amounts when no equity is
 /// recorded, returns when every trade's is).
 struct Weighted {
-    /// Position in close order → input index.
+    /// Position → input index.
     order: Vec<u32>,
     /// By position: P/L, exposed, daily slot (empty when built without
     /// `daily`).
@@ -1030,7 +1034,10 @@ impl Weighted {
         let ranked = if rank_all {
             Vec::new()
         } else {
-            by_tail.iter().map(|&j| (tail_of(j), exposed[j as usize])).collect()
+            by_tail
+                .iter()
+                .map(|&j| (tail_of(j), exposed[j as usize]))
+                .collect()
         };
         Some(Weighted {
             order,
