@@ -1480,6 +1480,17 @@ fn sums_portable(pnl: &[f64], ends: [usize; 4], counts: &[u8]) -> [[f64; LANES];
         }
         (sum, n)
     };
+    by_segments(ends, segment)
+}
+
+/// The five sums of [`sums_portable`] from each segment's (sum of count ×
+/// P/L, sum of counts), `segment(from, to, count)` giving them (the counts
+/// only where `count`).
+#[inline(always)]
+fn by_segments(
+    ends: [usize; 4],
+    segment: impl Fn(usize, usize, bool) -> ([f64; LANES], [f64; LANES]),
+) -> [[f64; LANES]; 5] {
     let (kept_gp, n_gp) = segment(0, ends[0], true);
     let (kept_gl, n_gl) = segment(ends[0], ends[1], true);
     let (exposed_gp, _) = segment(ends[1], ends[2], false);
@@ -1547,18 +1558,7 @@ fn sums_avx2(pnl: &[f64], ends: [usize; 4], counts: &[u8]) -> [[f64; LANES]; 5] 
         };
         (to_lanes([s_lo, s_hi]), to_lanes([n_lo, n_hi]))
     };
-    let (kept_gp, n_gp) = segment(0, ends[0], true);
-    let (kept_gl, n_gl) = segment(ends[0], ends[1], true);
-    let (exposed_gp, _) = segment(ends[1], ends[2], false);
-    let (exposed_gl, _) = segment(ends[2], ends[3], false);
-    let add = |a: [f64; LANES], b: [f64; LANES]| std::array::from_fn(|l| a[l] + b[l]);
-    [
-        add(kept_gp, exposed_gp),
-        add(kept_gl, exposed_gl),
-        kept_gp,
-        kept_gl,
-        add(n_gp, n_gl),
-    ]
+    by_segments(ends, segment)
 }
 
 /// The bootstrap method in words (shown with the result).
