@@ -204,7 +204,9 @@ pub fn tune(
                     (numbers.collect(), p)
                 });
                 Ok(RunBase {
-                    order: idx,
+                    // Kept for the scenarios built where the pass does not
+                    // apply (with it, its numbers stand for the trades).
+                    order: if pass.is_some() { Vec::new() } else { idx },
                     span,
                     tcr: m.tcr,
                     sharpe: m.sharpe,
@@ -234,6 +236,10 @@ pub fn tune(
         median(per_run.iter().filter_map(|r| r.tcr).collect())
     };
     drop(base);
+    // The index and the cells must not stack on what building the runs
+    // (and then the index) freed.
+    crate::import::budget::release_freed_memory();
+    crate::import::phases::mark("tune: baselines and passes");
     let week = weekday_ms(span) as f64;
     // The trades indexed once; each cell marks its windows' slots.
     let mut calendar_currencies: Vec<String> =
@@ -258,7 +264,16 @@ pub fn tune(
         currencies,
         settings.exposure_rule,
     )
-    .numbered_by(&order);
+    .renumbered(&number_of);
+    // Numbers by input index are read only where a scenario is built (no
+    // weighted pass): else dropped, 4 bytes a trade (40 MB at 10 M).
+    let built = match per_run.is_empty() {
+        true => pooled_pass.is_none(),
+        false => per_run.iter().any(|r| r.pass.is_none()),
+    };
+    let number_of = if built { number_of } else { Vec::new() };
+    crate::import::budget::release_freed_memory();
+    crate::import::phases::mark("tune: index");
     // The P/L in close order, read in turn by every cell (through the
     // order, each cell's sum would wait on scattered reads).
     let pnl_in_order: Vec<f64> = order.iter().map(|&i| trades.pnl[i as usize]).collect();
@@ -266,8 +281,8 @@ pub fn tune(
         .iter()
         .flat_map(|&a| post.iter().map(move |&b| (a, b)))
         .collect();
-    // The slots of a cell's windows, and its windows on traded currencies
-    // (the time blocked).
+    // The slots of a cell's windows, and the time its windows on traded
+    // currencies block (their union within the span, ms).
     let windows_of = |(a, b): (i64, i64)| {
         let ws = cell_windows(
             &settings.windows,
@@ -291,13 +306,13 @@ pub fn tune(
                     Some((c, slot_of(settings.exposure_rule, r.all_day, window)))
                 }),
         );
-        (slots, blocking)
+        (slots, metrics::union_within(blocking, Some(span)))
     };
-    // A cell's figures from its flags (by close-order number) and blocked
-    // windows.
+    // A cell's figures from its flags (by close-order number) and the time
+    // it blocks.
     let cell_of = |(a, b): (i64, i64),
                    bits: &[u64],
-                   blocking: Vec<(i64, i64)>|
+                   blocked: i64|
      -> Result<Cell, scenarios::ScenarioError> {
         // In close order, the exposed trades alone: the others would add
         // −0.0, the identity of addition.
@@ -342,7 +357,6 @@ pub fn tune(
         } else {
             runs_after(&per_run, trades, &number_of, bits, settings, &ctx_of)?
         };
-        let blocked = metrics::union_within(blocking, Some(span));
         progress();
         Ok(Cell {
             pre_min: a,
@@ -370,7 +384,7 @@ pub fn tune(
     let mut cells: Vec<Cell> = grid
         .par_chunks(8)
         .flat_map_iter(|chunk| {
-            let (slots, blocking): (Vec<Slots>, Vec<Vec<(i64, i64)>>) =
+            let (slots, blocked): (Vec<Slots>, Vec<i64>) =
                 chunk.iter().map(|&cell| windows_of(cell)).unzip();
             let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
             let calendars: Vec<&Slots> = slots.iter().collect();
@@ -380,12 +394,13 @@ pub fn tune(
             let cells: Vec<Result<Cell, scenarios::ScenarioError>> = chunk
                 .iter()
                 .zip(&bits)
-                .zip(blocking)
-                .map(|((&cell, bits), blocking)| cell_of(cell, bits, blocking))
+                .zip(blocked)
+                .map(|((&cell, bits), blocked)| cell_of(cell, bits, blocked))
                 .collect();
             cells
         })
         .collect::<Result<_, _>>()?;
+    crate::import::phases::mark("tune: cells");
     mark_frontier(&mut cells);
     Ok(TuneResult {
         account_figures,
@@ -415,12 +430,15 @@ fn set_bits(bits: &[u64]) -> impl Iterator<Item = usize> + '_ {
 
 /// One run's trades and its figures with every trade.
 struct RunBase {
+    /// The run's trades (input indices) in close order; empty where the
+    /// weighted pass applies.
     order: Vec<u32>,
     span: (i64, i64),
     tcr: Option<f64>,
     sharpe: Option<f64>,
     /// Its removed scenario's figures by the weighted pass, where it
-    /// applies, with the close-order number of each of the pass's trades.
+    /// applies, with the close-order number of each of the pass's trades
+    /// (then `order` is left empty).
     pass: Option<(Vec<u32>, evidence::RemovedPass)>,
 }
 

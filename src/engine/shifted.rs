@@ -413,12 +413,18 @@ impl TradeIndex {
     /// The same index with trade `order[k]` numbered k (`order`: a
     /// permutation of the input indices), so that flags marked on it are in
     /// that order.
-    pub fn numbered_by(mut self, order: &[u32]) -> TradeIndex {
-        assert_eq!(order.len(), self.trades, "a number for every trade");
+    pub fn numbered_by(self, order: &[u32]) -> TradeIndex {
         let mut number = vec![0u32; order.len()];
         for (k, &i) in order.iter().enumerate() {
             number[i as usize] = k as u32;
         }
+        self.renumbered(&number)
+    }
+
+    /// The same index with trade i numbered `number[i]` (a permutation:
+    /// [`TradeIndex::numbered_by`]'s inverse, for a caller that has it).
+    pub fn renumbered(mut self, number: &[u32]) -> TradeIndex {
+        assert_eq!(number.len(), self.trades, "a number for every trade");
         for c in self.by_currency.iter_mut().flatten() {
             for t in &mut c.trade {
                 *t = number[*t as usize];
