@@ -4,10 +4,11 @@
 //! blocked).
 //!
 //! The trades are read, sorted into close order and indexed once
-//! (`engine::shifted::TradeIndex`); a cell marks its windows on that index
-//! and takes each run's figures without the exposed trades from the
-//! weighted pass (`evidence::RemovedPass`), or from built scenarios where
-//! the pass does not apply.
+//! (`engine::shifted::TradeIndex`, numbered by close order); cells mark
+//! their windows on that index eight at a time and take each run's figures
+//! without the exposed trades from the weighted pass
+//! (`evidence::RemovedPass`), or from built scenarios where the pass does
+//! not apply.
 
 use crate::analysis::evidence;
 use crate::analysis::metrics::{self, Context};
