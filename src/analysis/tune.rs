@@ -15,7 +15,7 @@ use crate::analysis::metrics::{self, Context};
 use crate::analysis::run::{AccountFigures, AnalysisSettings};
 use crate::analysis::scenarios::{self, TradeView};
 use crate::engine::exposure::slot_of;
-use crate::engine::shifted::{Slots, TradeIndex, is_set};
+use crate::engine::shifted::{Slots, TradeIndex, is_set, set_bits};
 use crate::engine::windows::{Window, WindowSettings};
 use crate::import::calendar::{Release, Tier};
 use crate::import::trades::Trades;
@@ -412,20 +412,6 @@ pub fn tune(
         tcr_baseline,
         tcr_basis,
         cells,
-    })
-}
-
-/// The numbers set in a flag set, ascending.
-fn set_bits(bits: &[u64]) -> impl Iterator<Item = usize> + '_ {
-    bits.iter().enumerate().flat_map(|(w, &word)| {
-        let mut left = word;
-        std::iter::from_fn(move || {
-            (left != 0).then(|| {
-                let bit = left.trailing_zeros() as usize;
-                left &= left - 1;
-                w * 64 + bit
-            })
-        })
     })
 }
 

@@ -593,6 +593,20 @@ impl Class {
     }
 }
 
+/// The trades set in a flag set from [`TradeIndex::mark`], ascending.
+pub fn set_bits(bits: &[u64]) -> impl Iterator<Item = usize> + '_ {
+    bits.iter().enumerate().flat_map(|(w, &word)| {
+        let mut left = word;
+        std::iter::from_fn(move || {
+            (left != 0).then(|| {
+                let bit = left.trailing_zeros() as usize;
+                left &= left - 1;
+                w * 64 + bit
+            })
+        })
+    })
+}
+
 /// Whether trade `i` is set in a flag set from [`TradeIndex::mark`].
 pub fn is_set(bits: &[u64], i: usize) -> bool {
     bits[i / 64] >> (i % 64) & 1 == 1
@@ -847,6 +861,18 @@ mod tests {
     }
 
     /// Slots that share an instant are joined; others kept as they are.
+    /// The set trades listed are exactly those `is_set` says, ascending,
+    /// across word boundaries and in a full word.
+    #[test]
+    fn set_bits_lists_what_is_set() {
+        let bits = [0b1001u64, 0, u64::MAX, 1 << 63];
+        let listed: Vec<usize> = set_bits(&bits).collect();
+        let want: Vec<usize> = (0..256).filter(|&i| is_set(&bits, i)).collect();
+        assert_eq!(listed, want);
+        assert_eq!(listed.len(), 2 + 64 + 1);
+        assert_eq!((listed[0], listed[1], listed[66]), (0, 3, 255));
+    }
+
     #[test]
     fn overlapping_slots_are_joined() {
         let mut s = vec![(0, 10), (5, 8), (10, 12), (13, 20), (14, 30), (31, 31)];
