@@ -23,13 +23,13 @@ use std::collections::HashMap;
 
 /// One used window, ready to move.
 #[derive(Debug, Clone, Copy)]
-struct Prepared {
-    currency: u32,
+pub(super) struct Prepared {
+    pub(super) currency: u32,
     weekday: i64,
-    time_of_day: i64,
+    pub(super) time_of_day: i64,
     /// Slot start and end under the rule, minus the release instant.
-    start_offset: i64,
-    end_offset: i64,
+    pub(super) start_offset: i64,
+    pub(super) end_offset: i64,
     /// Index into `ShiftedCalendar::series`.
     series: u32,
 }
@@ -191,20 +191,48 @@ impl ShiftedCalendar {
         for s in &mut out.slots {
             s.clear();
         }
-        out.dropped = 0;
-        for w in &self.windows {
+        out.dropped = self.each_moved(days, |_, w, _, at| {
+            out.slots[w.currency as usize].push((at + w.start_offset, at + w.end_offset));
+        });
+        out.finish();
+    }
+
+    /// Every window moved by `days` weekdays (wrapping within the span,
+    /// time of day kept) and not dropped, in calendar order: `keep` gets its
+    /// index among the used windows, the window, its new weekday number and
+    /// its new instant. Returns how many were dropped (within a day of a real
+    /// release of their series). The one rule of the move, for [`Self::shift`]
+    /// and [`super::daytimes::DayTimeIndex`].
+    pub(super) fn each_moved(
+        &self,
+        days: i64,
+        mut keep: impl FnMut(usize, &Prepared, i64, i64),
+    ) -> usize {
+        let mut dropped = 0;
+        for (i, w) in self.windows.iter().enumerate() {
             let weekday =
                 self.first_weekday + (w.weekday - self.first_weekday + days).rem_euclid(self.span);
             let at = day_of_weekday_index(weekday) * DAY_MS + w.time_of_day;
             let real = &self.series[w.series as usize];
             let p = real.partition_point(|&t| t < at - DAY_MS);
             if real.get(p).is_some_and(|&t| t <= at + DAY_MS) {
-                out.dropped += 1;
+                dropped += 1;
                 continue;
             }
-            out.slots[w.currency as usize].push((at + w.start_offset, at + w.end_offset));
+            keep(i, w, weekday, at);
         }
-        out.finish();
+        dropped
+    }
+
+    /// The used windows as prepared, in calendar order.
+    pub(super) fn prepared(&self) -> &[Prepared] {
+        &self.windows
+    }
+
+    /// First weekday number of the used windows (moved ones stay within
+    /// it and the next `span − 1`).
+    pub(super) fn first_weekday(&self) -> i64 {
+        self.first_weekday
     }
 }
 
@@ -715,6 +743,35 @@ mod tests {
                     by_open.mark(&moved, &mut renumbered);
                     for (k, &i) in order.iter().enumerate() {
                         assert_eq!(is_set(&renumbered, k), is_set(&bits, i as usize));
+                    }
+                    // By the windows' times of day, three moves at once: the
+                    // same trades as marked slot by slot, and the same drops.
+                    let by_day = super::super::daytimes::DayTimeIndex::new(
+                        &cal,
+                        &opened,
+                        &closed,
+                        &instrument,
+                        &currencies,
+                        rule,
+                        &order,
+                    );
+                    let mut table = super::super::daytimes::MovedTable::default();
+                    for _ in 0..2 {
+                        let mut three = vec![vec![u64::MAX; by_day.words()]; 3];
+                        let mut flags: Vec<&mut [u64]> =
+                            three.iter_mut().map(|b| b.as_mut_slice()).collect();
+                        let dropped =
+                            by_day.mark_each(&cal, &[d, d + 2, d + 5], &mut table, &mut flags);
+                        assert_eq!(three[0], renumbered, "{rule:?} shift {d}");
+                        for (j, extra) in [2, 5].into_iter().enumerate() {
+                            let mut other = Slots::default();
+                            cal.shift(d + extra, &mut other);
+                            let mut want = vec![0; by_open.words()];
+                            by_open.mark(&other, &mut want);
+                            assert_eq!(three[j + 1], want, "{rule:?} shift {}", d + extra);
+                            assert_eq!(dropped[j + 1], other.dropped);
+                        }
+                        assert_eq!(dropped[0], moved.dropped);
                     }
                     // The same move done window by window, through the engine.
                     let first = windows

@@ -3,8 +3,9 @@
 //! an effect at least as large as the real one.
 
 use crate::analysis::metrics;
+use crate::engine::daytimes::{DayTimeIndex, LANES, MovedTable};
 use crate::engine::exposure::{ExposureRule, UsedWindow};
-use crate::engine::shifted::{ShiftedCalendar, Slots, TradeIndex};
+use crate::engine::shifted::ShiftedCalendar;
 use crate::import::calendar::Release;
 use crate::import::trades::Trades;
 use rand::{RngExt, SeedableRng};
@@ -146,9 +147,9 @@ pub fn placebo(
 /// Runs the same `s.n` placebo calendars (shifts drawn from `s.seed`) for
 /// each of disjoint groups of trades, one result per group: a group's
 /// result depends on its own trades and the seed only, not on which other
-/// groups are tested beside it. Each distinct shift is moved once
-/// ([`ShiftedCalendar`]) and marked once on one [`TradeIndex`] of all the
-/// groups' trades (numbered by open instant, ties in the groups' order);
+/// groups are tested beside it. Each distinct shift is marked once, eight
+/// at a time, on one [`DayTimeIndex`] of all the groups' trades (numbered
+/// by open instant, ties in the groups' order);
 /// each group's statistics then add its trades' P/L in that numbering.
 /// `progress` ticks once per group and placebo.
 #[allow(clippy::too_many_arguments)]
@@ -218,33 +219,30 @@ pub fn placebo_groups(
             .copied()
             .collect()
     };
-    let (index, numbered) = if all {
-        TradeIndex::new(
-            calendar.currencies(),
-            &trades.opened,
-            &trades.closed,
-            &trades.instrument,
-            currencies,
-            rule,
-        )
-        .in_open_order(&trades.opened)
-    } else {
+    // The trades numbered by open instant (ties in that order), so that a
+    // window's trades set neighbouring bits.
+    let picked: Option<(Vec<i64>, Vec<i64>, Vec<u32>)> = (!all).then(|| {
         let pick = |v: &[i64]| -> Vec<i64> { listed.iter().map(|&i| v[i as usize]).collect() };
-        let opened = pick(&trades.opened);
-        let instrument: Vec<u32> = listed
+        let instrument = listed
             .iter()
             .map(|&i| trades.instrument[i as usize])
             .collect();
-        TradeIndex::new(
-            calendar.currencies(),
-            &opened,
-            &pick(&trades.closed),
-            &instrument,
-            currencies,
-            rule,
-        )
-        .in_open_order(&opened)
+        (pick(&trades.opened), pick(&trades.closed), instrument)
+    });
+    let (opened, closed, instrument) = match &picked {
+        Some((o, c, i)) => (&o[..], &c[..], &i[..]),
+        None => (
+            &trades.opened[..],
+            &trades.closed[..],
+            &trades.instrument[..],
+        ),
     };
+    let mut numbered: Vec<u32> = (0..opened.len() as u32).collect();
+    numbered.sort_by_key(|&i| (opened[i as usize], i));
+    let index = DayTimeIndex::new(
+        &calendar, opened, closed, instrument, currencies, rule, &numbered,
+    );
+    drop(picked);
     // The trades' P/L by number, each number's group, and each group's
     // net summed in ascending number.
     let pnl: Vec<f64> = numbered
@@ -289,36 +287,24 @@ pub fn placebo_groups(
     type Scores = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
     let scored: Vec<Scores> = drawn
         .par_chunks(BATCH)
-        .map_init(
-            || std::array::from_fn::<Slots, BATCH, _>(|_| Slots::default()),
-            |moved, chunk| {
-                let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
-                let mut dropped = [0usize; BATCH];
-                for (((d, _), moved), dropped) in
-                    chunk.iter().zip(moved.iter_mut()).zip(&mut dropped)
-                {
-                    calendar.shift(*d, moved);
-                    *dropped = moved.dropped;
-                }
-                // The chunk's calendars marked together: the index read once.
-                let calendars: Vec<&Slots> = moved[..chunk.len()].iter().collect();
-                let mut flags: Vec<&mut [u64]> =
-                    bits.iter_mut().map(|b| b.as_mut_slice()).collect();
-                index.mark_each(&calendars, &mut flags);
-                let sets: [&[u64]; BATCH] =
-                    std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
-                let mut out = Vec::new();
-                for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
-                    for (b, (_, js)) in chunk.iter().enumerate() {
-                        for &j in js {
-                            out.push((g, j, dropped[b], stats[b].0, stats[b].1));
-                            progress();
-                        }
+        .map_init(MovedTable::default, |table, chunk| {
+            let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
+            let shifts: Vec<i64> = chunk.iter().map(|(d, _)| *d).collect();
+            let mut flags: Vec<&mut [u64]> = bits.iter_mut().map(|b| b.as_mut_slice()).collect();
+            let dropped = index.mark_each(&calendar, &shifts, table, &mut flags);
+            let sets: [&[u64]; BATCH] =
+                std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
+            let mut out = Vec::new();
+            for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
+                for (b, (_, js)) in chunk.iter().enumerate() {
+                    for &j in js {
+                        out.push((g, j, dropped[b], stats[b].0, stats[b].1));
+                        progress();
                     }
                 }
-                out
-            },
-        )
+            }
+            out
+        })
         .collect();
     let mut shares = vec![vec![None; n]; groups.len()];
     let mut diffs = vec![vec![None; n]; groups.len()];
@@ -355,10 +341,10 @@ impl Scoring {
 }
 
 /// Shifts scored together (see [`flagged_statistics`]).
-const BATCH: usize = 8;
+const BATCH: usize = LANES;
 
 /// [`effect_statistics`] of a group's trades under each of BATCH
-/// [`TradeIndex::mark`] bit sets, `net` being the group's net P/L summed
+/// [`DayTimeIndex::mark_each`] bit sets, `net` being the group's net P/L summed
 /// in the group's order. Bit for bit the same sums: each total adds the
 /// same values in the same order, the others' turn adding +0.0, which
 /// leaves a total unchanged (a total that starts at +0.0 is never −0.0).

@@ -1,0 +1,421 @@
+//! Exposure flags of moved calendars (the placebo calendars of
+//! docs/method.md §7), eight calendars at a time, from what a move keeps.
+//!
+//! A move changes only a window's weekday: its currency, time of day and
+//! offsets from the release instant (together, its *shape*) stay. So the
+//! question "which windows could meet this trade" is asked once per trade,
+//! not once per calendar: [`DayTimeIndex`] keeps, for each trade, the
+//! weekdays on which a window could meet its query and, for each, the set of
+//! shapes that would (a few bits). A moved calendar is then a table of the
+//! shapes it puts on each weekday; a trade is exposed when one of its
+//! (weekday, shapes) meets that table. Weekdays on which every possible
+//! window lies within a trade's query are kept as a range instead: any moved
+//! window of one of its currencies there meets it.
+//!
+//! The same flags as [`super::shifted::TradeIndex::mark`] on
+//! [`ShiftedCalendar::shift`]'s slots (tested): the same closed-interval
+//! rule (a query `[qs, qe]` meets a slot `[s, e]` when `qs ≤ e` and
+//! `qe ≥ s`), decided per shape. That index marks a calendar window by
+//! window, at a cost per window and nearby trade; this one costs a few
+//! operations per trade for eight calendars, and needs no search per
+//! calendar. Written here: no crate indexes intervals by time of day.
+
+use super::shifted::ShiftedCalendar;
+use crate::engine::exposure::ExposureRule;
+use crate::import::zones::{DAY_MS, weekday_index};
+use rayon::prelude::*;
+use std::collections::HashMap;
+
+/// Calendars marked together by [`DayTimeIndex::mark_each`].
+pub const LANES: usize = 8;
+
+/// The trades, by number, and what each moved calendar could expose them to.
+#[derive(Debug)]
+pub struct DayTimeIndex {
+    trades: usize,
+    /// The shape of each used window of the calendar (by its index).
+    shape_of: Vec<u32>,
+    /// Words of one weekday's set of shapes.
+    words: usize,
+    first_weekday: i64,
+    /// Weekdays a moved window can land on.
+    span: usize,
+    currencies: usize,
+    /// Trade k's first entry `(row, mask)`: the shapes of word `row %
+    /// words` (bits of `mask`; none: no entry) would meet it on weekday
+    /// `first_weekday + row / words`. One per trade, so that the pass over
+    /// them has no branch; the few further entries are in `more`.
+    first: Vec<(u32, u64)>,
+    /// Further entries: (trade, row, mask).
+    more: Vec<(u32, u32, u64)>,
+    /// Trades with whole weekdays inside their query.
+    inside: Vec<Inside>,
+    /// The currency sets of the trades (calendar currency numbers, sorted).
+    sets: Vec<Vec<u32>>,
+}
+
+/// Weekdays `first..=last` (from the index's first weekday) on which every
+/// window lies within trade `trade`'s query; `set`: its currencies.
+#[derive(Debug, Clone, Copy)]
+struct Inside {
+    trade: u32,
+    set: u32,
+    first: u32,
+    last: u32,
+}
+
+/// A window's place in its day: currency, then start and end (time of day
+/// plus offsets; either may leave the day).
+type Shape = (u32, i64, i64);
+
+/// Scratch of [`DayTimeIndex::mark_each`], kept between calls.
+#[derive(Debug, Default)]
+pub struct MovedTable {
+    /// Per (weekday, shape word): the shapes each calendar puts there.
+    cells: Vec<[u64; LANES]>,
+    /// Cells set by the last calendars, to clear.
+    touched: Vec<u32>,
+    /// Per (currency, weekday word): the weekdays each calendar puts a
+    /// window of that currency on.
+    occupied: Vec<[u64; LANES]>,
+}
+
+impl DayTimeIndex {
+    /// Indexes the trades under `rule` (query `[open, open]` for `entered`,
+    /// `[open, close]` otherwise) against the moves of `calendar`; trade
+    /// number k is input trade `order[k]`.
+    pub fn new(
+        calendar: &ShiftedCalendar,
+        opened: &[i64],
+        closed: &[i64],
+        instrument: &[u32],
+        instrument_currencies: &[Vec<String>],
+        rule: ExposureRule,
+        order: &[u32],
+    ) -> DayTimeIndex {
+        let windows = calendar.prepared();
+        let shape = |w: &super::shifted::Prepared| -> Shape {
+            (
+                w.currency,
+                w.time_of_day + w.start_offset,
+                w.time_of_day + w.end_offset,
+            )
+        };
+        let mut shapes: Vec<Shape> = windows.iter().map(shape).collect();
+        shapes.sort_unstable();
+        shapes.dedup();
+        let shape_of: Vec<u32> = windows
+            .iter()
+            .map(|w| shapes.binary_search(&shape(w)).expect("listed") as u32)
+            .collect();
+        let words = shapes.len().div_ceil(64).max(1);
+        let currencies = calendar.currencies();
+        // Each currency's shapes (sorted by start) and its longest.
+        let ranges: Vec<(usize, usize, i64)> = (0..currencies.len() as u32)
+            .map(|c| {
+                let lo = shapes.partition_point(|s| s.0 < c);
+                let hi = shapes.partition_point(|s| s.0 <= c);
+                let longest = shapes[lo..hi].iter().map(|s| s.2 - s.1).max().unwrap_or(0);
+                (lo, hi, longest.max(0))
+            })
+            .collect();
+        // Bounds over all shapes: a day can hold a meeting window only if
+        // the earliest start and latest end allow it; every window lies
+        // within the query if the latest start and earliest end do.
+        let min_start = shapes.iter().map(|s| s.1).min().unwrap_or(0);
+        let max_start = shapes.iter().map(|s| s.1).max().unwrap_or(0);
+        let min_end = shapes.iter().map(|s| s.2).min().unwrap_or(0);
+        let max_end = shapes.iter().map(|s| s.2).max().unwrap_or(0);
+        // Each instrument's currency set.
+        let mut set_ids: HashMap<Vec<u32>, u32> = HashMap::new();
+        let mut sets: Vec<Vec<u32>> = Vec::new();
+        let set_of: Vec<Option<u32>> = instrument_currencies
+            .iter()
+            .map(|cs| {
+                let mut v: Vec<u32> = cs
+                    .iter()
+                    .filter_map(|c| currencies.binary_search(c).ok())
+                    .map(|c| c as u32)
+                    .collect();
+                v.sort_unstable();
+                v.dedup();
+                (!v.is_empty()).then(|| {
+                    *set_ids.entry(v.clone()).or_insert_with(|| {
+                        sets.push(v);
+                        (sets.len() - 1) as u32
+                    })
+                })
+            })
+            .collect();
+        let first_weekday = calendar.first_weekday();
+        let span = calendar.span().max(0) as usize;
+        let in_span = |u: i64| u >= first_weekday && u < first_weekday + span as i64;
+        // Trade k's entries and inside range, in parallel by blocks.
+        const BLOCK: usize = 1 << 15;
+        type Block = (Vec<(u32, u64)>, Vec<(u32, u32, u64)>, Vec<Inside>);
+        let blocks: Vec<Block> = order
+            .par_chunks(BLOCK)
+            .enumerate()
+            .map(|(blk, chunk)| {
+                let (mut first, mut more, mut inside) =
+                    (Vec::with_capacity(chunk.len()), Vec::new(), Vec::new());
+                let mut day: Vec<(u32, u64)> = Vec::new();
+                for (j, &i) in chunk.iter().enumerate() {
+                    let i = i as usize;
+                    let k = (blk * BLOCK + j) as u32;
+                    let mut entry = (0u32, 0u64);
+                    let set = set_of[instrument[i] as usize];
+                    if let (Some(set), false) = (set, shapes.is_empty()) {
+                        let (qs, qe) = match rule {
+                            ExposureRule::Entered => (opened[i], opened[i]),
+                            _ => (opened[i], closed[i]),
+                        };
+                        let in_lo = ceil_div(qs.saturating_sub(min_end), DAY_MS);
+                        let in_hi = qe.saturating_sub(max_start).div_euclid(DAY_MS);
+                        let lo = ceil_div(qs.saturating_sub(max_end), DAY_MS);
+                        let hi = qe.saturating_sub(min_start).div_euclid(DAY_MS);
+                        if in_lo <= in_hi {
+                            // Weekday numbers of the first and last
+                            // weekdays in the range, within the span.
+                            let first = weekday_index(in_lo).max(first_weekday);
+                            let last =
+                                (weekday_index(in_hi + 1) - 1).min(first_weekday + span as i64 - 1);
+                            if first <= last {
+                                inside.push(Inside {
+                                    trade: k,
+                                    set,
+                                    first: (first - first_weekday) as u32,
+                                    last: (last - first_weekday) as u32,
+                                });
+                            }
+                        }
+                        let mut d = lo;
+                        while d <= hi {
+                            if in_lo <= in_hi && d == in_lo {
+                                d = in_hi + 1;
+                                continue;
+                            }
+                            let u = weekday_index(d);
+                            // A weekend day (numbered as the next Monday)
+                            // gets no windows; nor a day outside the span.
+                            if (d - 4).rem_euclid(7) < 5 && in_span(u) {
+                                let (a, b) = (qs - d * DAY_MS, qe - d * DAY_MS);
+                                day.clear();
+                                for &c in &sets[set as usize] {
+                                    let (from, to, longest) = ranges[c as usize];
+                                    // Shapes starting by the query's end, back
+                                    // to those that could still reach its start.
+                                    let end = from + shapes[from..to].partition_point(|s| s.1 <= b);
+                                    for x in (from..end).rev() {
+                                        if shapes[x].1.saturating_add(longest) < a {
+                                            break;
+                                        }
+                                        if shapes[x].2 >= a {
+                                            let (w, bit) = ((x / 64) as u32, 1u64 << (x % 64));
+                                            match day.iter_mut().find(|e| e.0 == w) {
+                                                Some(e) => e.1 |= bit,
+                                                None => day.push((w, bit)),
+                                            }
+                                        }
+                                    }
+                                }
+                                let row = (u - first_weekday) as u32 * words as u32;
+                                for &(w, m) in &day {
+                                    if entry.1 == 0 {
+                                        entry = (row + w, m);
+                                    } else {
+                                        more.push((k, row + w, m));
+                                    }
+                                }
+                            }
+                            d += 1;
+                        }
+                    }
+                    first.push(entry);
+                }
+                (first, more, inside)
+            })
+            .collect();
+        let mut first = Vec::with_capacity(order.len());
+        let (mut more, mut inside) = (Vec::new(), Vec::new());
+        for (f, m, ins) in blocks {
+            first.extend(f);
+            more.extend(m);
+            inside.extend(ins);
+        }
+        DayTimeIndex {
+            trades: order.len(),
+            shape_of,
+            words,
+            first_weekday,
+            span,
+            currencies: currencies.len(),
+            first,
+            more,
+            inside,
+            sets,
+        }
+    }
+
+    /// Words of a flag set for these trades (bit k of word k / 64 = trade k).
+    pub fn words(&self) -> usize {
+        self.trades.div_ceil(64)
+    }
+
+    /// Sets in `bits[b]` (every word written; [`Self::words`] long) the
+    /// trades that meet a window of `calendar` moved by `shifts[b]` weekdays
+    /// (at most [`LANES`] shifts); returns how many windows each move
+    /// dropped.
+    pub fn mark_each(
+        &self,
+        calendar: &ShiftedCalendar,
+        shifts: &[i64],
+        table: &mut MovedTable,
+        bits: &mut [&mut [u64]],
+    ) -> [usize; LANES] {
+        assert!(shifts.len() <= LANES && shifts.len() == bits.len());
+        let span_words = self.span.div_ceil(64);
+        table.cells.resize(self.span * self.words, [0; LANES]);
+        table.occupied.clear();
+        table
+            .occupied
+            .resize(self.currencies * span_words, [0; LANES]);
+        let mut dropped = [0; LANES];
+        for (b, &d) in shifts.iter().enumerate() {
+            let (cells, touched, occupied) =
+                (&mut table.cells, &mut table.touched, &mut table.occupied);
+            dropped[b] = calendar.each_moved(d, |i, w, weekday, _| {
+                let u = (weekday - self.first_weekday) as usize;
+                let shape = self.shape_of[i] as usize;
+                let row = u * self.words + shape / 64;
+                cells[row][b] |= 1 << (shape % 64);
+                touched.push(row as u32);
+                occupied[w.currency as usize * span_words + u / 64][b] |= 1 << (u % 64);
+            });
+        }
+        self.mark_trades(&table.cells, bits);
+        for ins in &self.inside {
+            let mut hit = 0u64;
+            let (first, last) = (ins.first as usize, ins.last as usize);
+            for &c in &self.sets[ins.set as usize] {
+                for w in first / 64..=last / 64 {
+                    let lo = if w == first / 64 { first % 64 } else { 0 };
+                    let hi = if w == last / 64 { last % 64 } else { 63 };
+                    let range = (u64::MAX >> (63 - hi)) & (u64::MAX << lo);
+                    let cell = &table.occupied[c as usize * span_words + w];
+                    for (l, &o) in cell.iter().enumerate() {
+                        hit |= ((o & range != 0) as u64) << l;
+                    }
+                }
+            }
+            let t = ins.trade as usize;
+            for (b, out) in bits.iter_mut().enumerate() {
+                out[t / 64] |= (hit >> b & 1) << (t % 64);
+            }
+        }
+        for &row in &table.touched {
+            table.cells[row as usize] = [0; LANES];
+        }
+        table.touched.clear();
+        dropped
+    }
+}
+
+impl DayTimeIndex {
+    /// Every trade's flags from its entries: a bit per calendar, eight
+    /// trades' bits turned into eight calendars' bytes at a time, every
+    /// word of `bits` written. Compiled for AVX2 too, chosen at run time
+    /// (the same operations).
+    fn mark_trades(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, just checked.
+            return unsafe { self.mark_trades_avx2(cells, bits) };
+        }
+        self.mark_trades_in(cells, bits)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn mark_trades_avx2(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
+        self.mark_trades_in(cells, bits)
+    }
+
+    #[inline(always)]
+    fn mark_trades_in(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
+        for (w, first) in self.first.chunks(64).enumerate() {
+            // Byte t: trade t's flag under each calendar (bit l: calendar l).
+            let mut hits = [0u8; 64];
+            for (hit, &(row, mask)) in hits.iter_mut().zip(first) {
+                *hit = meets(&cells[row as usize], mask);
+            }
+            let mut words = [0u64; LANES];
+            for (g, eight) in hits.chunks_exact(8).enumerate() {
+                let by_lane = transpose8(u64::from_le_bytes(eight.try_into().expect("8")));
+                for (l, word) in words.iter_mut().enumerate() {
+                    *word |= (by_lane >> (8 * l) & 0xff) << (8 * g);
+                }
+            }
+            for (out, &word) in bits.iter_mut().zip(&words) {
+                out[w] = word;
+            }
+        }
+        for &(t, row, mask) in &self.more {
+            let hit = meets(&cells[row as usize], mask) as u64;
+            let t = t as usize;
+            for (b, out) in bits.iter_mut().enumerate() {
+                out[t / 64] |= (hit >> b & 1) << (t % 64);
+            }
+        }
+    }
+}
+
+/// Bit l: calendar l puts one of the shapes in `mask` in this cell.
+#[inline(always)]
+fn meets(cell: &[u64; LANES], mask: u64) -> u8 {
+    let mut hit = 0u8;
+    for (l, &c) in cell.iter().enumerate() {
+        hit |= ((c & mask != 0) as u8) << l;
+    }
+    hit
+}
+
+/// The 8 × 8 bit matrix in `x` (bit c of byte r: row r, column c)
+/// transposed (Hacker's Delight, 2nd ed., §7–3: three swaps of blocks).
+fn transpose8(mut x: u64) -> u64 {
+    let mut t = (x ^ (x >> 7)) & 0x00AA_00AA_00AA_00AA;
+    x ^= t ^ (t << 7);
+    t = (x ^ (x >> 14)) & 0x0000_CCCC_0000_CCCC;
+    x ^= t ^ (t << 14);
+    t = (x ^ (x >> 28)) & 0x0000_0000_F0F0_F0F0;
+    x ^ t ^ (t << 28)
+}
+
+/// ⌈a ÷ b⌉ for b > 0 (any sign of a).
+fn ceil_div(a: i64, b: i64) -> i64 {
+    -((-a).div_euclid(b))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Bit c of byte r lands at bit r of byte c, for every (r, c) and on
+    /// a dense matrix.
+    #[test]
+    fn transpose8_swaps_rows_and_columns() {
+        for r in 0..8 {
+            for c in 0..8 {
+                assert_eq!(transpose8(1 << (8 * r + c)), 1 << (8 * c + r), "({r}, {c})");
+            }
+        }
+        let x = 0x0123_4567_89ab_cdefu64;
+        let t = transpose8(x);
+        for r in 0..8 {
+            for c in 0..8 {
+                assert_eq!(x >> (8 * r + c) & 1, t >> (8 * c + r) & 1);
+            }
+        }
+        assert_eq!(transpose8(t), x);
+    }
+}
