@@ -238,7 +238,7 @@ pub fn placebo_groups(
         ),
     };
     let mut numbered: Vec<u32> = (0..opened.len() as u32).collect();
-    numbered.sort_by_key(|&i| (opened[i as usize], i));
+    numbered.par_sort_unstable_by_key(|&i| (opened[i as usize], i));
     let index = DayTimeIndex::new(
         &calendar, opened, closed, instrument, currencies, rule, &numbered,
     );
