@@ -9,8 +9,9 @@
 //! shapes that would (a few bits). A moved calendar is then a table of the
 //! shapes it puts on each weekday; a trade is exposed when one of its
 //! (weekday, shapes) meets that table. Weekdays on which every possible
-//! window lies within a trade's query are kept as a range instead: any moved
-//! window of one of its currencies there meets it.
+//! window would meet a trade's query (those well inside a long holding) are
+//! kept as a range instead: any moved window of one of its currencies there
+//! meets it.
 //!
 //! The same flags as [`super::shifted::TradeIndex::mark`] on
 //! [`ShiftedCalendar::shift`]'s slots (tested): the same closed-interval
@@ -41,11 +42,13 @@ pub struct DayTimeIndex {
     /// Weekdays a moved window can land on.
     span: usize,
     currencies: usize,
-    /// Trade k's first entry `(row, mask)`: the shapes of word `row %
-    /// words` (bits of `mask`; none: no entry) would meet it on weekday
-    /// `first_weekday + row / words`. One per trade, so that the pass over
-    /// them has no branch; the few further entries are in `more`.
-    first: Vec<(u32, u64)>,
+    /// Trade k's first entry, `first_row[k]` and `first_mask[k]`: the
+    /// shapes of word `row % words` (bits of `mask`; none: no entry) would
+    /// meet it on weekday `first_weekday + row / words`. One per trade, so
+    /// that the pass over them has no branch; the few further entries are
+    /// in `more`. Two columns: 12 bytes a trade, where the pair takes 16.
+    first_row: Vec<u32>,
+    first_mask: Vec<u64>,
     /// Further entries: (trade, row, mask).
     more: Vec<(u32, u32, u64)>,
     /// Trades with whole weekdays inside their query.
@@ -55,7 +58,7 @@ pub struct DayTimeIndex {
 }
 
 /// Weekdays `first..=last` (from the index's first weekday) on which every
-/// window lies within trade `trade`'s query; `set`: its currencies.
+/// window would meet trade `trade`'s query; `set`: its currencies.
 #[derive(Debug, Clone, Copy)]
 struct Inside {
     trade: u32,
@@ -120,8 +123,9 @@ impl DayTimeIndex {
             })
             .collect();
         // Bounds over all shapes: a day can hold a meeting window only if
-        // the earliest start and latest end allow it; every window lies
-        // within the query if the latest start and earliest end do.
+        // the earliest start is by the query's end and the latest end at or
+        // after its start; every window meets the query if the latest start
+        // and the earliest end do.
         let min_start = shapes.iter().map(|s| s.1).min().unwrap_or(0);
         let max_start = shapes.iter().map(|s| s.1).max().unwrap_or(0);
         let min_end = shapes.iter().map(|s| s.2).min().unwrap_or(0);
@@ -129,24 +133,18 @@ impl DayTimeIndex {
         // Each instrument's currency set.
         let mut set_ids: HashMap<Vec<u32>, u32> = HashMap::new();
         let mut sets: Vec<Vec<u32>> = Vec::new();
-        let set_of: Vec<Option<u32>> = instrument_currencies
-            .iter()
-            .map(|cs| {
-                let mut v: Vec<u32> = cs
-                    .iter()
-                    .filter_map(|c| currencies.binary_search(c).ok())
-                    .map(|c| c as u32)
-                    .collect();
-                v.sort_unstable();
-                v.dedup();
-                (!v.is_empty()).then(|| {
-                    *set_ids.entry(v.clone()).or_insert_with(|| {
-                        sets.push(v);
-                        (sets.len() - 1) as u32
+        let set_of: Vec<Option<u32>> =
+            super::shifted::currency_numbers(currencies, instrument_currencies)
+                .into_iter()
+                .map(|v| {
+                    (!v.is_empty()).then(|| {
+                        *set_ids.entry(v.clone()).or_insert_with(|| {
+                            sets.push(v);
+                            (sets.len() - 1) as u32
+                        })
                     })
                 })
-            })
-            .collect();
+                .collect();
         let first_weekday = calendar.first_weekday();
         let span = calendar.span().max(0) as usize;
         let in_span = |u: i64| u >= first_weekday && u < first_weekday + span as i64;
@@ -166,10 +164,7 @@ impl DayTimeIndex {
                     let mut entry = (0u32, 0u64);
                     let set = set_of[instrument[i] as usize];
                     if let (Some(set), false) = (set, shapes.is_empty()) {
-                        let (qs, qe) = match rule {
-                            ExposureRule::Entered => (opened[i], opened[i]),
-                            _ => (opened[i], closed[i]),
-                        };
+                        let (qs, qe) = rule.query(opened[i], closed[i]);
                         let in_lo = ceil_div(qs.saturating_sub(min_end), DAY_MS);
                         let in_hi = qe.saturating_sub(max_start).div_euclid(DAY_MS);
                         let lo = ceil_div(qs.saturating_sub(max_end), DAY_MS);
@@ -236,10 +231,12 @@ impl DayTimeIndex {
                 (first, more, inside)
             })
             .collect();
-        let mut first = Vec::with_capacity(order.len());
+        let mut first_row = Vec::with_capacity(order.len());
+        let mut first_mask = Vec::with_capacity(order.len());
         let (mut more, mut inside) = (Vec::new(), Vec::new());
         for (f, m, ins) in blocks {
-            first.extend(f);
+            first_row.extend(f.iter().map(|e| e.0));
+            first_mask.extend(f.iter().map(|e| e.1));
             more.extend(m);
             inside.extend(ins);
         }
@@ -250,7 +247,8 @@ impl DayTimeIndex {
             first_weekday,
             span,
             currencies: currencies.len(),
-            first,
+            first_row,
+            first_mask,
             more,
             inside,
             sets,
@@ -343,10 +341,15 @@ impl DayTimeIndex {
 
     #[inline(always)]
     fn mark_trades_in(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
-        for (w, first) in self.first.chunks(64).enumerate() {
+        for (w, (rows, masks)) in self
+            .first_row
+            .chunks(64)
+            .zip(self.first_mask.chunks(64))
+            .enumerate()
+        {
             // Byte t: trade t's flag under each calendar (bit l: calendar l).
             let mut hits = [0u8; 64];
-            for (hit, &(row, mask)) in hits.iter_mut().zip(first) {
+            for ((hit, &row), &mask) in hits.iter_mut().zip(rows).zip(masks) {
                 *hit = meets(&cells[row as usize], mask);
             }
             let mut words = [0u64; LANES];

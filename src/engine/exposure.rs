@@ -32,6 +32,18 @@ pub enum ExposureRule {
     Entered,
 }
 
+impl ExposureRule {
+    /// The interval of a trade that must meet a release's slot
+    /// ([`UsedWindow::slot`]) under the rule: `[open, open]` for `entered`,
+    /// `[open, close]` otherwise.
+    pub fn query(self, open: i64, close: i64) -> (i64, i64) {
+        match self {
+            ExposureRule::Entered => (open, open),
+            _ => (open, close),
+        }
+    }
+}
+
 /// One used release, as the engine sees it.
 #[derive(Debug, Clone, Copy)]
 struct Slot {
@@ -271,11 +283,8 @@ impl Engine {
                 let mut hints = vec![[0usize; 2]; self.index.len()];
                 for (j, kj) in k.iter_mut().enumerate() {
                     let i = lo + j;
-                    let (o, cl) = (opened[i], closed[i]);
-                    let (qa, qb) = match self.rule {
-                        ExposureRule::Entered => (o, o),
-                        _ => (o, cl),
-                    };
+                    let o = opened[i];
+                    let (qa, qb) = self.rule.query(o, closed[i]);
                     let before = rel.len();
                     let mut best: Option<(i64, u32, i64)> = None;
                     for &ci in &ids[instrument[i] as usize] {

@@ -4,7 +4,8 @@
 //!
 //! [`ShiftedCalendar`] prepares the used windows once: each one's currency,
 //! weekday number, time of day, its slot under the rule as offsets from the
-//! release instant, and the real instants of its series (for the drop test).
+//! release instant, and, per series and time of day, the weekdays on which
+//! a moved window would land within a day of a real release (the drop test).
 //! [`ShiftedCalendar::shift`] then moves every window by whole weekdays into
 //! per-currency arrays sorted by start. [`TradeIndex`] holds the trades once,
 //! per currency, in classes of similar duration sorted by query start, so a
@@ -30,7 +31,7 @@ pub(super) struct Prepared {
     /// Slot start and end under the rule, minus the release instant.
     pub(super) start_offset: i64,
     pub(super) end_offset: i64,
-    /// Index into `ShiftedCalendar::series`.
+    /// Its series (currency + normalised title), numbered while preparing.
     series: u32,
 }
 
@@ -40,12 +41,16 @@ pub struct ShiftedCalendar {
     windows: Vec<Prepared>,
     /// Currencies of the used windows; a window's `currency` indexes this.
     currencies: Vec<String>,
-    /// Real release instants of each series (currency + normalised title), sorted.
-    series: Vec<Vec<i64>>,
     /// First weekday number of the used windows.
     first_weekday: i64,
     /// Weekdays from the first to the last used window, inclusive.
     span: i64,
+    /// Per (series, time of day) of the windows, the weekdays (from the
+    /// first, a bit each, `span` bits in whole words) on which a window
+    /// moved there would land within a day of a real release of its series;
+    /// a window's entry is `near_of`.
+    near: Vec<u64>,
+    near_of: Vec<u32>,
 }
 
 /// The slots of one calendar (moved or not), per currency of a list,
@@ -140,9 +145,6 @@ impl ShiftedCalendar {
                 id
             })
             .collect();
-        for s in &mut series {
-            s.sort_unstable();
-        }
         let mut currencies: Vec<String> = windows.iter().map(|w| w.currency.clone()).collect();
         currencies.sort();
         currencies.dedup();
@@ -163,12 +165,44 @@ impl ShiftedCalendar {
             .collect();
         let first_weekday = prepared.iter().map(|w| w.weekday).min().unwrap_or(0);
         let last = prepared.iter().map(|w| w.weekday).max().unwrap_or(0);
+        let span = last - first_weekday + 1;
+        // The drop test per (series, time of day), for every weekday at
+        // once: a moved instant D·day + time of day lies within a day of a
+        // real release t only on the calendar days around t.
+        let words = (span as usize).div_ceil(64);
+        let mut keys: HashMap<(u32, i64), u32> = HashMap::new();
+        let mut near: Vec<u64> = Vec::new();
+        let near_of = prepared
+            .iter()
+            .map(|w| {
+                let next = keys.len() as u32;
+                *keys.entry((w.series, w.time_of_day)).or_insert_with(|| {
+                    near.resize(near.len() + words, 0);
+                    let bits = &mut near[next as usize * words..];
+                    for &t in &series[w.series as usize] {
+                        let from = (t - DAY_MS - w.time_of_day).div_euclid(DAY_MS);
+                        for day in from..=from + 2 {
+                            let at = day * DAY_MS + w.time_of_day;
+                            let u = weekday_index(day) - first_weekday;
+                            if (at - t).abs() <= DAY_MS
+                                && (day - 4).rem_euclid(7) < 5
+                                && (0..span).contains(&u)
+                            {
+                                bits[u as usize / 64] |= 1 << (u % 64);
+                            }
+                        }
+                    }
+                    next
+                })
+            })
+            .collect();
         ShiftedCalendar {
             windows: prepared,
             currencies,
-            series,
             first_weekday,
-            span: last - first_weekday + 1,
+            span,
+            near,
+            near_of,
         }
     }
 
@@ -208,17 +242,25 @@ impl ShiftedCalendar {
         days: i64,
         mut keep: impl FnMut(usize, &Prepared, i64, i64),
     ) -> usize {
+        if self.windows.is_empty() {
+            return 0;
+        }
+        let words = (self.span as usize).div_ceil(64);
+        let days = days.rem_euclid(self.span);
         let mut dropped = 0;
         for (i, w) in self.windows.iter().enumerate() {
-            let weekday =
-                self.first_weekday + (w.weekday - self.first_weekday + days).rem_euclid(self.span);
-            let at = day_of_weekday_index(weekday) * DAY_MS + w.time_of_day;
-            let real = &self.series[w.series as usize];
-            let p = real.partition_point(|&t| t < at - DAY_MS);
-            if real.get(p).is_some_and(|&t| t <= at + DAY_MS) {
+            // Weekdays from the first, wrapped within the span.
+            let mut u = w.weekday - self.first_weekday + days;
+            if u >= self.span {
+                u -= self.span;
+            }
+            let near = &self.near[self.near_of[i] as usize * words..];
+            if near[u as usize / 64] >> (u % 64) & 1 == 1 {
                 dropped += 1;
                 continue;
             }
+            let weekday = self.first_weekday + u;
+            let at = day_of_weekday_index(weekday) * DAY_MS + w.time_of_day;
             keep(i, w, weekday, at);
         }
         dropped
@@ -361,18 +403,7 @@ impl TradeIndex {
         instrument_currencies: &[Vec<String>],
         rule: ExposureRule,
     ) -> TradeIndex {
-        let ids: Vec<Vec<usize>> = instrument_currencies
-            .iter()
-            .map(|cs| {
-                let mut v: Vec<usize> = cs
-                    .iter()
-                    .filter_map(|c| currencies.binary_search(c).ok())
-                    .collect();
-                v.sort_unstable();
-                v.dedup();
-                v
-            })
-            .collect();
+        let ids = currency_numbers(currencies, instrument_currencies);
         // Classes by duration, a factor of 4 apart: a class's near misses
         // stay within a small multiple of its hits.
         let class_of = |len: i64| ((64 - (len.max(0) as u64).leading_zeros()) / 2) as usize;
@@ -385,16 +416,13 @@ impl TradeIndex {
         let by_currency: Vec<Vec<Class>> = (0..currencies.len())
             .into_par_iter()
             .map(|c| {
-                let query = |i: usize| match rule {
-                    ExposureRule::Entered => (opened[i], opened[i]),
-                    _ => (opened[i], closed[i]),
-                };
+                let query = |i: usize| rule.query(opened[i], closed[i]);
                 // The currency's trades by class as 4-byte indices; each
                 // class's queries are then gathered, laid out and dropped in
                 // turn.
                 let mut classes: Vec<Vec<u32>> = Vec::new();
                 for i in 0..opened.len() {
-                    if !ids[instrument[i] as usize].contains(&c) {
+                    if !ids[instrument[i] as usize].contains(&(c as u32)) {
                         continue;
                     }
                     let (qa, qb) = query(i);
@@ -495,6 +523,27 @@ impl TradeIndex {
             }
         }
     }
+}
+
+/// Each instrument's currencies as numbers in `currencies` (sorted, without
+/// repeats; those not in the list left out).
+pub(super) fn currency_numbers(
+    currencies: &[String],
+    instrument_currencies: &[Vec<String>],
+) -> Vec<Vec<u32>> {
+    instrument_currencies
+        .iter()
+        .map(|cs| {
+            let mut v: Vec<u32> = cs
+                .iter()
+                .filter_map(|c| currencies.binary_search(c).ok())
+                .map(|c| c as u32)
+                .collect();
+            v.sort_unstable();
+            v.dedup();
+            v
+        })
+        .collect()
 }
 
 /// One calendar's slots of a currency, and the flags they set.
