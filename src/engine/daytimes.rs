@@ -320,55 +320,95 @@ impl DayTimeIndex {
 }
 
 impl DayTimeIndex {
-    /// Every trade's flags from its entries: a bit per calendar, eight
-    /// trades' bits turned into eight calendars' bytes at a time, every
-    /// word of `bits` written. Compiled for AVX2 too, chosen at run time
-    /// (the same operations).
+    /// Every trade's flags from its entries: a bit per calendar, every word
+    /// of `bits` written ([`first_flags`]), then the further entries.
     fn mark_trades(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
-            // SAFETY: the CPU has AVX2, just checked.
-            return unsafe { self.mark_trades_avx2(cells, bits) };
-        }
-        self.mark_trades_in(cells, bits)
-    }
-
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    fn mark_trades_avx2(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
-        self.mark_trades_in(cells, bits)
-    }
-
-    #[inline(always)]
-    fn mark_trades_in(&self, cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
-        for (w, (rows, masks)) in self
-            .first_row
-            .chunks(64)
-            .zip(self.first_mask.chunks(64))
-            .enumerate()
-        {
-            // Byte t: trade t's flag under each calendar (bit l: calendar l).
-            let mut hits = [0u8; 64];
-            for ((hit, &row), &mask) in hits.iter_mut().zip(rows).zip(masks) {
-                *hit = meets(&cells[row as usize], mask);
-            }
-            let mut words = [0u64; LANES];
-            for (g, eight) in hits.chunks_exact(8).enumerate() {
-                let by_lane = transpose8(u64::from_le_bytes(eight.try_into().expect("8")));
-                for (l, word) in words.iter_mut().enumerate() {
-                    *word |= (by_lane >> (8 * l) & 0xff) << (8 * g);
-                }
-            }
-            for (out, &word) in bits.iter_mut().zip(&words) {
-                out[w] = word;
-            }
-        }
+        first_flags(&self.first_row, &self.first_mask, cells, bits);
         for &(t, row, mask) in &self.more {
             let hit = meets(&cells[row as usize], mask) as u64;
             let t = t as usize;
             for (b, out) in bits.iter_mut().enumerate() {
                 out[t / 64] |= (hit >> b & 1) << (t % 64);
             }
+        }
+    }
+}
+
+/// Trade k's flag under calendar l (bit k of `bits[l]`, every word
+/// written) from its one entry (`rows[k]`, `masks[k]`) in `cells`. On
+/// x86-64 CPUs with AVX2 in vector instructions, chosen at run time (the
+/// same flags, tested).
+fn first_flags(rows: &[u32], masks: &[u64], cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2, just checked.
+        return unsafe { first_flags_avx2(rows, masks, cells, bits) };
+    }
+    first_flags_portable(rows, masks, cells, bits)
+}
+
+/// [`first_flags`] in plain Rust.
+fn first_flags_portable(
+    rows: &[u32],
+    masks: &[u64],
+    cells: &[[u64; LANES]],
+    bits: &mut [&mut [u64]],
+) {
+    for (w, (rows, masks)) in rows.chunks(64).zip(masks.chunks(64)).enumerate() {
+        // Byte t: trade t's flag under each calendar (bit l: calendar l),
+        // eight trades' bytes turned into eight calendars' at a time.
+        let mut hits = [0u8; 64];
+        for ((hit, &row), &mask) in hits.iter_mut().zip(rows).zip(masks) {
+            *hit = meets(&cells[row as usize], mask);
+        }
+        let mut words = [0u64; LANES];
+        for (g, eight) in hits.chunks_exact(8).enumerate() {
+            let by_lane = transpose8(u64::from_le_bytes(eight.try_into().expect("8")));
+            for (l, word) in words.iter_mut().enumerate() {
+                *word |= (by_lane >> (8 * l) & 0xff) << (8 * g);
+            }
+        }
+        for (out, &word) in bits.iter_mut().zip(&words) {
+            out[w] = word;
+        }
+    }
+}
+
+/// [`first_flags`] in AVX2: a trade's cell is two registers, ANDed with its
+/// mask and compared with zero (one sign bit per calendar); calendar l's
+/// word is then bit l of the 64 trades' bytes, shifted to each byte's top
+/// bit and gathered by `movemask`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn first_flags_avx2(rows: &[u32], masks: &[u64], cells: &[[u64; LANES]], bits: &mut [&mut [u64]]) {
+    use std::arch::x86_64::*;
+    let zero = _mm256_setzero_si256();
+    // SAFETY (every load below): 32 bytes within a 64-byte cell or within
+    // the 64-byte `hits`; unaligned loads are allowed.
+    let load = |p: *const u64| unsafe { _mm256_loadu_si256(p as *const __m256i) };
+    for (w, (rows, masks)) in rows.chunks(64).zip(masks.chunks(64)).enumerate() {
+        let mut hits = [0u8; 64];
+        for ((hit, &row), &mask) in hits.iter_mut().zip(rows).zip(masks) {
+            let cell = cells[row as usize].as_ptr();
+            let m = _mm256_set1_epi64x(mask as i64);
+            // SAFETY: see `load`; the second half starts 4 words in.
+            let (a, b) = (load(cell), load(unsafe { cell.add(4) }));
+            let none_a = _mm256_cmpeq_epi64(_mm256_and_si256(a, m), zero);
+            let none_b = _mm256_cmpeq_epi64(_mm256_and_si256(b, m), zero);
+            let none = _mm256_movemask_pd(_mm256_castsi256_pd(none_a))
+                | _mm256_movemask_pd(_mm256_castsi256_pd(none_b)) << 4;
+            *hit = !(none as u8);
+        }
+        let p = hits.as_ptr() as *const u64;
+        // SAFETY: see `load`.
+        let (lo, hi) = (load(p), load(unsafe { p.add(4) }));
+        for (l, out) in bits.iter_mut().enumerate() {
+            // Bit l of each byte to its top bit (16-bit shifts: the high
+            // byte's top bit comes from its own bit l).
+            let by = _mm_cvtsi32_si128(7 - l as i32);
+            let a = _mm256_movemask_epi8(_mm256_sll_epi16(lo, by)) as u32 as u64;
+            let b = _mm256_movemask_epi8(_mm256_sll_epi16(hi, by)) as u32 as u64;
+            out[w] = a | b << 32;
         }
     }
 }
@@ -402,6 +442,59 @@ fn ceil_div(a: i64, b: i64) -> i64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The AVX2 flags equal the portable ones (which use [`transpose8`]),
+    /// on random cells, masks and rows, a partial last word and fewer
+    /// calendars than lanes (compares nothing on a CPU without AVX2).
+    #[test]
+    fn avx2_flags_equal_portable_flags() {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            let mut x = 99u64;
+            let mut next = || {
+                x = x
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
+                x ^ x >> 29
+            };
+            // Sparse cells and masks, so that hits and misses both occur.
+            let cells: Vec<[u64; LANES]> = (0..50)
+                .map(|_| std::array::from_fn(|_| next() & next() & next()))
+                .collect();
+            for (trades, lanes) in [(1000usize, LANES), (130, 3)] {
+                let rows: Vec<u32> = (0..trades).map(|_| (next() % 50) as u32).collect();
+                let masks: Vec<u64> = (0..trades).map(|_| next() & next()).collect();
+                let words = trades.div_ceil(64);
+                let run = |avx2: bool| {
+                    let mut out = vec![vec![u64::MAX; words]; lanes];
+                    let mut refs: Vec<&mut [u64]> =
+                        out.iter_mut().map(|v| v.as_mut_slice()).collect();
+                    if avx2 {
+                        // SAFETY: the CPU has AVX2, just checked.
+                        unsafe { first_flags_avx2(&rows, &masks, &cells, &mut refs) };
+                    } else {
+                        first_flags_portable(&rows, &masks, &cells, &mut refs);
+                    }
+                    out
+                };
+                let (fast, by_hand) = (run(true), run(false));
+                assert_eq!(fast, by_hand);
+                // And each flag as its definition says.
+                for (l, lane) in by_hand.iter().enumerate() {
+                    for k in 0..trades {
+                        let want = cells[rows[k] as usize][l] & masks[k] != 0;
+                        assert_eq!(lane[k / 64] >> (k % 64) & 1 == 1, want);
+                    }
+                }
+                let set: usize = by_hand
+                    .iter()
+                    .flatten()
+                    .map(|w| w.count_ones() as usize)
+                    .sum();
+                assert!(set > trades / 10 && set < trades * lanes * 9 / 10, "{set}");
+            }
+        }
+    }
 
     /// Bit c of byte r lands at bit r of byte c, for every (r, c) and on
     /// a dense matrix.
