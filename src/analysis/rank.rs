@@ -305,13 +305,9 @@ fn random_removal_with(
     ));
     // Where the pass applies, the drawn trades are flagged by its position
     // (the same trades: each index's position, looked up once).
-    let position: Vec<u32> = pass.as_ref().map_or_else(Vec::new, |p| {
-        let mut at = vec![0u32; t.len()];
-        for (j, &i) in p.order().iter().enumerate() {
-            at[i as usize] = j as u32;
-        }
-        at
-    });
+    let position: Vec<u32> = pass
+        .as_ref()
+        .map_or_else(Vec::new, |p| crate::import::trades::places_in(p.order()));
     let mut drawn = vec![false; t.len()];
     let mut out = Vec::with_capacity(draws.draws);
     for _ in 0..draws.draws {

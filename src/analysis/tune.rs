@@ -152,10 +152,7 @@ pub fn tune(
     let net: f64 = order.iter().map(|&i| trades.pnl[i as usize]).sum();
     // Each trade's number in close order: the flags a cell marks are by
     // this number, so that a cell's sums read them in turn.
-    let mut number_of = vec![0u32; order.len()];
-    for (k, &i) in order.iter().enumerate() {
-        number_of[i as usize] = k as u32;
-    }
+    let number_of = crate::import::trades::places_in(&order);
     // Gross profit and gross loss of all trades (the stressed figures').
     let gross = order
         .iter()

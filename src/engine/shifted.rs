@@ -470,11 +470,7 @@ impl TradeIndex {
     /// permutation of the input indices), so that flags marked on it are in
     /// that order.
     pub fn numbered_by(self, order: &[u32]) -> TradeIndex {
-        let mut number = vec![0u32; order.len()];
-        for (k, &i) in order.iter().enumerate() {
-            number[i as usize] = k as u32;
-        }
-        self.renumbered(&number)
+        self.renumbered(&crate::import::trades::places_in(order))
     }
 
     /// The same index with trade i numbered `number[i]` (a permutation:

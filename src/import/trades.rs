@@ -579,6 +579,16 @@ pub fn run_seed(seed: u64, run: &str) -> u64 {
     z ^ (z >> 31)
 }
 
+/// Each trade's place in `order` (a permutation of the trade indices, as
+/// a close order is): entry i is the k with `order[k] == i`.
+pub fn places_in(order: &[u32]) -> Vec<u32> {
+    let mut place = vec![0u32; order.len()];
+    for (k, &i) in order.iter().enumerate() {
+        place[i as usize] = k as u32;
+    }
+    place
+}
+
 pub(crate) fn names_in_order(map: Interner) -> Vec<String> {
     let mut v: Vec<(String, u32)> = map.into_iter().collect();
     v.sort_by_key(|x| x.1);
@@ -1706,6 +1716,16 @@ pub fn parse_side(s: &str) -> Option<i8> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A trade's place is where the order lists it; placing twice gives the
+    /// order back.
+    #[test]
+    fn places_invert_the_order() {
+        let order = [2u32, 0, 3, 1];
+        assert_eq!(places_in(&order), vec![1, 3, 0, 2]);
+        assert_eq!(places_in(&places_in(&order)), order.to_vec());
+        assert!(places_in(&[]).is_empty());
+    }
 
     #[test]
     fn simple_decimals_read_as_the_standard_parser_does() {

@@ -1205,10 +1205,7 @@ impl Weighted {
                 }
             }
             Resamples::Given(sets) => {
-                let mut position = vec![0u32; n];
-                for (j, &i) in self.order.iter().enumerate() {
-                    position[i as usize] = j as u32;
-                }
+                let position = crate::import::trades::places_in(&self.order);
                 for l in 0..lanes {
                     let set = &sets[first + l];
                     usable[l] = set.len() < u32::MAX as usize
