@@ -147,6 +147,74 @@ pub trait DrawCount: Copy {
         let at = counts[from..].iter().position(|c| c.get() == UNSETTLED)?;
         Some(from + at)
     }
+    /// Every position's [`settled_count`] from its 16-bit word (`bytes`:
+    /// two a position, little-endian) into `dst`; whether any is
+    /// [`UNSETTLED`].
+    fn settle(bytes: &[u8], dst: &mut [Self], tops: &[u16; 6], last: u16) -> bool {
+        settle_portable(bytes, dst, tops, last)
+    }
+}
+
+/// [`DrawCount::settle`] word by word (without a branch a word).
+#[inline(always)]
+fn settle_portable<C: DrawCount>(bytes: &[u8], dst: &mut [C], tops: &[u16; 6], last: u16) -> bool {
+    let mut any = false;
+    for (c, b) in dst.iter_mut().zip(bytes.chunks_exact(2)) {
+        let k = settled_count(u16::from_le_bytes([b[0], b[1]]), tops, last);
+        any |= k == UNSETTLED;
+        *c = C::small(k);
+    }
+    any
+}
+
+/// [`DrawCount::settle`] of one-byte counts in AVX2, sixteen words at a
+/// time: the unsigned comparisons as signed ones of the words with the
+/// top bit flipped (one instruction each), the count as minus the sum of
+/// the comparisons' all-ones masks, packed to bytes. The same counts as
+/// [`settled_count`] (tested on every word).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn settle_avx2(bytes: &[u8], dst: &mut [u8], tops: &[u16; 6], last: u16) -> bool {
+    use std::arch::x86_64::*;
+    let flipped = |x: u16| _mm256_set1_epi16((x ^ 0x8000) as i16);
+    let top_bit = _mm256_set1_epi16(i16::MIN);
+    let tops_flipped: [__m256i; 6] = std::array::from_fn(|k| flipped(tops[k]));
+    let tops_plain: [__m256i; 6] = std::array::from_fn(|k| _mm256_set1_epi16(tops[k] as i16));
+    let last_flipped = flipped(last);
+    let all_ones = _mm256_set1_epi16(-1);
+    let unsettled = _mm256_set1_epi16(UNSETTLED as i16);
+    let mut any = _mm256_setzero_si256();
+    let n = dst.len().min(bytes.len() / 2);
+    let mut i = 0;
+    while i + 16 <= n {
+        // SAFETY: 32 bytes from 2i are within `bytes` (2i + 32 ≤ 2n); 16
+        // bytes from i within `dst` (i + 16 ≤ n); unaligned access is allowed.
+        let w = unsafe { _mm256_loadu_si256(bytes.as_ptr().add(2 * i) as *const __m256i) };
+        let w_flipped = _mm256_xor_si256(w, top_bit);
+        // At or past the last step's top bits: open.
+        let mut open = _mm256_xor_si256(_mm256_cmpgt_epi16(last_flipped, w_flipped), all_ones);
+        let mut k = _mm256_setzero_si256();
+        for (tf, tp) in tops_flipped.iter().zip(&tops_plain) {
+            k = _mm256_sub_epi16(k, _mm256_cmpgt_epi16(w_flipped, *tf));
+            open = _mm256_or_si256(open, _mm256_cmpeq_epi16(w, *tp));
+        }
+        let counts = _mm256_blendv_epi8(k, unsettled, open);
+        // Bytes 0–7 of each 128-bit half hold its eight counts: halves'
+        // low quarters moved together.
+        let packed = _mm256_packus_epi16(counts, counts);
+        let ordered = _mm256_permute4x64_epi64::<0b00_00_10_00>(packed);
+        // SAFETY: see the load.
+        unsafe {
+            _mm_storeu_si128(
+                dst.as_mut_ptr().add(i) as *mut __m128i,
+                _mm256_castsi256_si128(ordered),
+            )
+        };
+        any = _mm256_or_si256(any, open);
+        i += 16;
+    }
+    let rest = settle_portable(&bytes[2 * i..2 * n], &mut dst[i..n], tops, last);
+    rest || _mm256_testz_si256(any, any) == 0
 }
 
 impl DrawCount for u8 {
@@ -166,6 +234,16 @@ impl DrawCount for u8 {
     /// A byte search (SIMD, `memchr`): the block seldom holds one.
     fn next_unsettled(counts: &[u8], from: usize) -> Option<usize> {
         Some(from + memchr::memchr(UNSETTLED as u8, &counts[from..])?)
+    }
+    /// In AVX2 where the CPU has it (chosen at run time).
+    #[inline(always)]
+    fn settle(bytes: &[u8], dst: &mut [u8], tops: &[u16; 6], last: u16) -> bool {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, just checked.
+            return unsafe { settle_avx2(bytes, dst, tops, last) };
+        }
+        settle_portable(bytes, dst, tops, last)
     }
 }
 
@@ -341,19 +419,10 @@ impl CountDraw {
             let ready = self.main.ready();
             let take = (ready.len() / 2).min(out.len() - done);
             let dst = &mut out[done..done + take];
-            let words = ready[..2 * take]
-                .chunks_exact(2)
-                .map(|b| u16::from_le_bytes([b[0], b[1]]));
             // Every word's count from its top bits, without a branch: the
             // steps below it, or UNSETTLED on a step's top bits or at or
             // past the seventh step's.
-            let mut any = false;
-            for (c, w) in dst.iter_mut().zip(words.clone()) {
-                let k = settled_count(w, &tops, last);
-                any |= k == UNSETTLED;
-                *c = C::small(k);
-            }
-            if any {
+            if C::settle(&ready[..2 * take], dst, &tops, last) {
                 // The other 48 bits decide, in position order.
                 let mut from = 0;
                 while let Some(i) = C::next_unsettled(dst, from) {
@@ -1773,6 +1842,44 @@ mod tests {
             want.extend(std::iter::repeat_n(order[j], c as usize));
         }
         assert_eq!(resample(&order, 4, 9), want);
+    }
+
+    /// The AVX2 settling gives every word's count as [`settled_count`]
+    /// does, for all 65 536 words (and a tail past the last sixteen), and
+    /// says whether any is open (compares nothing on a CPU without AVX2).
+    #[test]
+    fn settled_words_in_avx2_count_as_one_by_one() {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            for n in [3usize, 20_000, 10_000_000] {
+                let d = CountDraw::new(n, 1, 0);
+                // Every word once, in an order that mixes them, and a tail
+                // shorter than sixteen.
+                let words: Vec<u16> = (0..=u16::MAX as u32 + 5)
+                    .map(|i| (i.wrapping_mul(40_503) % 65_536) as u16)
+                    .collect();
+                let bytes: Vec<u8> = words.iter().flat_map(|w| w.to_le_bytes()).collect();
+                let mut fast = vec![0u8; words.len()];
+                // SAFETY: the CPU has AVX2, just checked.
+                let any = unsafe { settle_avx2(&bytes, &mut fast, &d.tops, d.last) };
+                let want: Vec<u8> = words
+                    .iter()
+                    .map(|&w| settled_count(w, &d.tops, d.last) as u8)
+                    .collect();
+                assert_eq!(fast, want, "n {n}");
+                assert!(any);
+                let settled = &bytes[..2 * 40];
+                let none = words[..40]
+                    .iter()
+                    .all(|&w| settled_count(w, &d.tops, d.last) != UNSETTLED);
+                let mut few = vec![0u8; 40];
+                // SAFETY: as above.
+                assert_eq!(
+                    unsafe { settle_avx2(settled, &mut few, &d.tops, d.last) },
+                    !none
+                );
+            }
+        }
     }
 
     /// A word that settles its count gives the count of every 64-bit value
