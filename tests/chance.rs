@@ -274,6 +274,93 @@ fn runs_share_the_calendars_and_are_scored_as_if_alone() {
     assert!(ps[0] != ps[1] || ps[1] != ps[2], "{ps:?}");
 }
 
+/// The two ways of marking the moved calendars (by the windows' times of
+/// day, and window by window) give the same results bit for bit: for all
+/// trades as one group and for runs as groups, under each exposure rule.
+#[test]
+fn both_markings_give_the_same_placebo_results() {
+    let w = WindowSettings::default();
+    let cur = vec![vec!["EUR".to_string(), "USD".to_string()]];
+    let settings = PlaceboSettings { n: 99, seed: 5 };
+    let mut mid_range = 0;
+    let bits = |r: &evidence::PlaceboResult| {
+        (
+            r.p_share.map(f64::to_bits),
+            r.p_mean_diff.map(f64::to_bits),
+            r.observed_share.map(f64::to_bits),
+            r.releases_dropped,
+        )
+    };
+    for (seed, rule) in [
+        (3, ExposureRule::Overlap),
+        (4, ExposureRule::Held),
+        (5, ExposureRule::Entered),
+    ] {
+        // No planted effect: the p-values lie mid-range, where a placebo's
+        // statistic moving to either side of the observed one shows.
+        let (t, rel) = synthetic(seed, 0.0);
+        let windows = used_windows(&rel, &w);
+        let flags: Vec<bool> = Engine::new(&rel, &w, rule)
+            .run(&t.opened, &t.closed, &t.instrument, &cur)
+            .k
+            .iter()
+            .map(|&k| k > 0)
+            .collect();
+        // One group of every trade, and three groups of every third trade.
+        let members: Vec<Vec<u32>> = (0..3u32)
+            .map(|r| (r..t.len() as u32).step_by(3).collect())
+            .collect();
+        let group_flags: Vec<Vec<bool>> = members
+            .iter()
+            .map(|m| m.iter().map(|&i| flags[i as usize]).collect())
+            .collect();
+        let as_groups: Vec<evidence::PlaceboGroup> = members
+            .iter()
+            .zip(&group_flags)
+            .map(|(m, f)| evidence::PlaceboGroup {
+                trades: Some(m),
+                observed_exposed: f,
+            })
+            .collect();
+        let one = [evidence::PlaceboGroup {
+            trades: None,
+            observed_exposed: &flags,
+        }];
+        for groups in [&one[..], &as_groups[..]] {
+            let run = |marking| {
+                evidence::placebo_groups_marked(
+                    &t,
+                    &rel,
+                    &windows,
+                    &cur,
+                    rule,
+                    groups,
+                    settings,
+                    marking,
+                    &|| {},
+                )
+            };
+            let (auto, by_window) = (
+                run(evidence::Marking::Auto),
+                run(evidence::Marking::ByWindow),
+            );
+            assert_eq!(auto.len(), groups.len());
+            for (a, b) in auto.iter().zip(&by_window) {
+                assert_eq!(bits(a), bits(b), "{rule:?}");
+                assert!(
+                    a.p_share.is_some() && a.releases_dropped > 0,
+                    "{rule:?}: {a:?}"
+                );
+                let p = a.p_share.unwrap();
+                mid_range += (p > 0.05 && p < 0.95) as usize;
+            }
+        }
+    }
+    // Most p-values mid-range (12 in all): a placebo's statistic moving to
+    // the other side of the observed one would show.
+    assert!(mid_range >= 8, "{mid_range} of 12 mid-range");
+}
+
 #[test]
 fn placebo_p_values_are_roughly_uniform_without_an_effect() {
     let ps: Vec<f64> = (0..200).map(|s| placebo_p(s, 0.0, 99)).collect();

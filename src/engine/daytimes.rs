@@ -30,6 +30,18 @@ use std::collections::HashMap;
 /// Calendars marked together by [`DayTimeIndex::mark_each`].
 pub const LANES: usize = 8;
 
+/// Most window shapes [`DayTimeIndex::new`] indexes (16 words of shapes a
+/// weekday: a moved calendar's table is then at most 1 KiB a weekday).
+pub const MAX_SHAPES: usize = 1024;
+
+/// Most further entries a trade may have on average (past its first) for
+/// [`DayTimeIndex::new`] to build: each is 16 bytes and a lookup per
+/// calendar, where the first costs no branch. On a calendar of 20 000
+/// releases at random minutes (7 445 shapes) there were 5.4 a trade, and
+/// the placebo phase took three times as long as the window-by-window
+/// index's; on the benchmark calendar (82 shapes) 0.13.
+pub const MAX_MORE: f64 = 0.5;
+
 /// The trades, by number, and what each moved calendar could expose them to.
 #[derive(Debug)]
 pub struct DayTimeIndex {
@@ -86,7 +98,13 @@ pub struct MovedTable {
 impl DayTimeIndex {
     /// Indexes the trades under `rule` (query `[open, open]` for `entered`,
     /// `[open, close]` otherwise) against the moves of `calendar`; trade
-    /// number k is input trade `order[k]`.
+    /// number k is input trade `order[k]`. `None` when the calendar's
+    /// windows come in too many shapes for this index to pay: more than
+    /// [`MAX_SHAPES`], or trades that meet more than one word of shapes
+    /// on more than [`MAX_MORE`] of them (release times spread over the
+    /// clock, as a calendar of every minute would): the window-by-window
+    /// index ([`super::shifted::TradeIndex`]) then costs less, in time and
+    /// memory.
     pub fn new(
         calendar: &ShiftedCalendar,
         opened: &[i64],
@@ -95,7 +113,7 @@ impl DayTimeIndex {
         instrument_currencies: &[Vec<String>],
         rule: ExposureRule,
         order: &[u32],
-    ) -> DayTimeIndex {
+    ) -> Option<DayTimeIndex> {
         let windows = calendar.prepared();
         let shape = |w: &super::shifted::Prepared| -> Shape {
             (
@@ -111,6 +129,9 @@ impl DayTimeIndex {
             .iter()
             .map(|w| shapes.binary_search(&shape(w)).expect("listed") as u32)
             .collect();
+        if shapes.len() > MAX_SHAPES {
+            return None;
+        }
         let words = shapes.len().div_ceil(64).max(1);
         let currencies = calendar.currencies();
         // Each currency's shapes (sorted by start) and its longest.
@@ -151,7 +172,7 @@ impl DayTimeIndex {
         // Trade k's entries and inside range, in parallel by blocks.
         const BLOCK: usize = 1 << 15;
         type Block = (Vec<(u32, u64)>, Vec<(u32, u32, u64)>, Vec<Inside>);
-        let blocks: Vec<Block> = order
+        let blocks: Option<Vec<Block>> = order
             .par_chunks(BLOCK)
             .enumerate()
             .map(|(blk, chunk)| {
@@ -227,10 +248,14 @@ impl DayTimeIndex {
                         }
                     }
                     first.push(entry);
+                    if more.len() > (chunk.len() as f64 * MAX_MORE) as usize + 64 {
+                        return None;
+                    }
                 }
-                (first, more, inside)
+                Some((first, more, inside))
             })
             .collect();
+        let blocks = blocks?;
         let mut first_row = Vec::with_capacity(order.len());
         let mut first_mask = Vec::with_capacity(order.len());
         let (mut more, mut inside) = (Vec::new(), Vec::new());
@@ -240,7 +265,7 @@ impl DayTimeIndex {
             more.extend(m);
             inside.extend(ins);
         }
-        DayTimeIndex {
+        Some(DayTimeIndex {
             trades: order.len(),
             shape_of,
             words,
@@ -252,7 +277,7 @@ impl DayTimeIndex {
             more,
             inside,
             sets,
-        }
+        })
     }
 
     /// Words of a flag set for these trades (bit k of word k / 64 = trade k).
@@ -442,6 +467,80 @@ fn ceil_div(a: i64, b: i64) -> i64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::engine::exposure::UsedWindow;
+    use crate::import::calendar::{Release, Tier};
+    use crate::import::zones::MINUTE_MS;
+
+    /// `n` USD releases at distinct minutes of the clock (one a weekday
+    /// from 2024-01-01), each with a window of 5 minutes either side.
+    fn spread_calendar(n: i64) -> (Vec<Release>, Vec<UsedWindow>) {
+        let monday = 19_723 * DAY_MS; // 2024-01-01T00:00Z
+        let releases: Vec<Release> = (0..n)
+            .map(|i| {
+                let at = monday + (i / 5 * 7 + i % 5) * DAY_MS + (i * 7 % 1440) * MINUTE_MS;
+                Release {
+                    id: format!("r{i}"),
+                    at,
+                    end: at,
+                    all_day: false,
+                    title: format!("series {i}"),
+                    currency: "USD".into(),
+                    tier: Tier::High,
+                    category: None,
+                    region: None,
+                }
+            })
+            .collect();
+        let windows = releases
+            .iter()
+            .enumerate()
+            .map(|(i, r)| UsedWindow {
+                release: i as u32,
+                currency: r.currency.clone(),
+                start: r.at - 5 * MINUTE_MS,
+                end: r.at + 5 * MINUTE_MS,
+                at: r.at,
+                all_day: false,
+            })
+            .collect();
+        (releases, windows)
+    }
+
+    /// The index is declined where its shapes would not pay: more than
+    /// [`MAX_SHAPES`] of them, or trades long enough to meet shapes in
+    /// several words each; built for the same calendar's short trades.
+    #[test]
+    fn too_many_shapes_are_declined() {
+        let build = |n: i64, hold_minutes: i64| {
+            let (releases, windows) = spread_calendar(n);
+            let cal = ShiftedCalendar::new(&releases, &windows, ExposureRule::Overlap);
+            let trades = 2000i64;
+            let opened: Vec<i64> = (0..trades)
+                .map(|k| releases[0].at + k * 37 * MINUTE_MS)
+                .collect();
+            let closed: Vec<i64> = opened
+                .iter()
+                .map(|o| o + hold_minutes * MINUTE_MS)
+                .collect();
+            let order: Vec<u32> = (0..trades as u32).collect();
+            DayTimeIndex::new(
+                &cal,
+                &opened,
+                &closed,
+                &vec![0; trades as usize],
+                &[vec!["USD".to_string()]],
+                ExposureRule::Overlap,
+                &order,
+            )
+        };
+        // 1 440 distinct minutes in 1 100 releases: 1 100 shapes.
+        assert!(build(1100, 1).is_none());
+        // 600 shapes (ten words): a 12-hour holding meets most words.
+        assert!(build(600, 720).is_none());
+        // The same calendar and one-minute holdings: one word a trade.
+        assert!(build(600, 1).is_some());
+        assert!(build(1000, 1).is_some());
+    }
 
     /// The AVX2 flags equal the portable ones (which use [`transpose8`]),
     /// on random cells, masks and rows, a partial last word and fewer

@@ -799,7 +799,8 @@ mod tests {
                         &currencies,
                         rule,
                         &order,
-                    );
+                    )
+                    .expect("few shapes: the index is built");
                     let mut table = super::super::daytimes::MovedTable::default();
                     for _ in 0..2 {
                         let mut three = vec![vec![u64::MAX; by_day.words()]; 3];

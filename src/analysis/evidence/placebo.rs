@@ -5,7 +5,7 @@
 use crate::analysis::metrics;
 use crate::engine::daytimes::{DayTimeIndex, LANES, MovedTable};
 use crate::engine::exposure::{ExposureRule, UsedWindow};
-use crate::engine::shifted::ShiftedCalendar;
+use crate::engine::shifted::{ShiftedCalendar, Slots, TradeIndex};
 use crate::import::calendar::Release;
 use crate::import::trades::Trades;
 use rand::{RngExt, SeedableRng};
@@ -148,10 +148,10 @@ pub fn placebo(
 /// each of disjoint groups of trades, one result per group: a group's
 /// result depends on its own trades and the seed only, not on which other
 /// groups are tested beside it. Each distinct shift is marked once, eight
-/// at a time, on one [`DayTimeIndex`] of all the groups' trades (numbered
-/// by open instant, ties in the groups' order);
-/// each group's statistics then add its trades' P/L in that numbering.
-/// `progress` ticks once per group and placebo.
+/// at a time, on one index of all the groups' trades (numbered by open
+/// instant, ties in the groups' order; [`Marking`]); each group's
+/// statistics then add its trades' P/L in that numbering. `progress` ticks
+/// once per group and placebo.
 #[allow(clippy::too_many_arguments)]
 pub fn placebo_groups(
     trades: &Trades,
@@ -161,6 +161,92 @@ pub fn placebo_groups(
     rule: ExposureRule,
     groups: &[PlaceboGroup],
     s: PlaceboSettings,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<PlaceboResult> {
+    placebo_groups_marked(
+        trades,
+        releases,
+        windows,
+        currencies,
+        rule,
+        groups,
+        s,
+        Marking::Auto,
+        progress,
+    )
+}
+
+/// How the moved calendars are marked: the same flags, so the same
+/// results, whichever (tested); only time and memory differ.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Marking {
+    /// By the windows' times of day ([`DayTimeIndex`]) where it pays,
+    /// else window by window.
+    Auto,
+    /// Window by window ([`TradeIndex`]): trades by currency and duration,
+    /// each moved window looked up among them.
+    ByWindow,
+}
+
+/// The index a [`Marking`] chose, with its scratch per thread.
+enum Marker {
+    ByTimeOfDay(DayTimeIndex),
+    ByWindow(TradeIndex),
+}
+
+/// A marker's scratch, kept per thread between chunks of shifts.
+#[derive(Default)]
+struct MarkScratch {
+    table: MovedTable,
+    moved: [Slots; BATCH],
+}
+
+impl Marker {
+    fn words(&self) -> usize {
+        match self {
+            Marker::ByTimeOfDay(ix) => ix.words(),
+            Marker::ByWindow(ix) => ix.words(),
+        }
+    }
+
+    /// `bits[b]`: the trades under `calendar` moved by `shifts[b]`; how
+    /// many windows each move dropped.
+    fn mark(
+        &self,
+        calendar: &ShiftedCalendar,
+        shifts: &[i64],
+        scratch: &mut MarkScratch,
+        bits: &mut [&mut [u64]],
+    ) -> [usize; BATCH] {
+        match self {
+            Marker::ByTimeOfDay(ix) => ix.mark_each(calendar, shifts, &mut scratch.table, bits),
+            Marker::ByWindow(ix) => {
+                let mut dropped = [0; BATCH];
+                for ((&d, moved), dropped) in
+                    shifts.iter().zip(&mut scratch.moved).zip(&mut dropped)
+                {
+                    calendar.shift(d, moved);
+                    *dropped = moved.dropped;
+                }
+                let moved: Vec<&Slots> = scratch.moved[..shifts.len()].iter().collect();
+                ix.mark_each(&moved, bits);
+                dropped
+            }
+        }
+    }
+}
+
+/// [`placebo_groups`] with the marking chosen (the same results).
+#[allow(clippy::too_many_arguments)]
+pub fn placebo_groups_marked(
+    trades: &Trades,
+    releases: &[Release],
+    windows: &[UsedWindow],
+    currencies: &[Vec<String>],
+    rule: ExposureRule,
+    groups: &[PlaceboGroup],
+    s: PlaceboSettings,
+    marking: Marking,
     progress: &(dyn Fn() + Sync),
 ) -> Vec<PlaceboResult> {
     let n = s.n;
@@ -239,9 +325,27 @@ pub fn placebo_groups(
     };
     let mut numbered: Vec<u32> = (0..opened.len() as u32).collect();
     numbered.par_sort_unstable_by_key(|&i| (opened[i as usize], i));
-    let index = DayTimeIndex::new(
-        &calendar, opened, closed, instrument, currencies, rule, &numbered,
-    );
+    let by_time_of_day = (marking == Marking::Auto)
+        .then(|| {
+            DayTimeIndex::new(
+                &calendar, opened, closed, instrument, currencies, rule, &numbered,
+            )
+        })
+        .flatten();
+    let index = match by_time_of_day {
+        Some(ix) => Marker::ByTimeOfDay(ix),
+        None => Marker::ByWindow(
+            TradeIndex::new(
+                calendar.currencies(),
+                opened,
+                closed,
+                instrument,
+                currencies,
+                rule,
+            )
+            .numbered_by(&numbered),
+        ),
+    };
     drop(picked);
     // The trades' P/L by number, each number's group, and each group's
     // net summed in ascending number.
@@ -287,11 +391,11 @@ pub fn placebo_groups(
     type Scores = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
     let scored: Vec<Scores> = drawn
         .par_chunks(BATCH)
-        .map_init(MovedTable::default, |table, chunk| {
+        .map_init(MarkScratch::default, |scratch, chunk| {
             let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
             let shifts: Vec<i64> = chunk.iter().map(|(d, _)| *d).collect();
             let mut flags: Vec<&mut [u64]> = bits.iter_mut().map(|b| b.as_mut_slice()).collect();
-            let dropped = index.mark_each(&calendar, &shifts, table, &mut flags);
+            let dropped = index.mark(&calendar, &shifts, scratch, &mut flags);
             let sets: [&[u64]; BATCH] =
                 std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
             let mut out = Vec::new();
