@@ -100,11 +100,11 @@ impl DayTimeIndex {
     /// `[open, close]` otherwise) against the moves of `calendar`; trade
     /// number k is input trade `order[k]`. `None` when the calendar's
     /// windows come in too many shapes for this index to pay: more than
-    /// [`MAX_SHAPES`], or trades that meet more than one word of shapes
-    /// on more than [`MAX_MORE`] of them (release times spread over the
-    /// clock, as a calendar of every minute would): the window-by-window
-    /// index ([`super::shifted::TradeIndex`]) then costs less, in time and
-    /// memory.
+    /// [`MAX_SHAPES`], or more than [`MAX_MORE`] further entries a trade
+    /// (trades meeting shapes in several words, or on several weekdays: as
+    /// release times spread over the clock, in a calendar of every minute):
+    /// the window-by-window index ([`super::shifted::TradeIndex`]) then
+    /// costs less, in time and memory.
     pub fn new(
         calendar: &ShiftedCalendar,
         opened: &[i64],

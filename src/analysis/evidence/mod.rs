@@ -1,7 +1,8 @@
 //! Is the release effect real? (docs/method.md §6–§7): the Hill tail index of |P/L|,
 //! placebo calendars, and bootstrap intervals of removed − baseline.
 //!
-//! Everything random is seeded (ChaCha8) and reproducible; placebo and
+//! Everything random is seeded (ChaCha8; the bootstrap's words from
+//! xoshiro256++ lanes seeded by it) and reproducible; placebo and
 //! bootstrap replicates run in parallel (rayon) and report progress through
 //! a callback so the engine never touches the terminal.
 
