@@ -125,8 +125,7 @@ pub fn cell_windows(base: &WindowSettings, tier: Option<Tier>, w: Window) -> Win
 fn weekday_ms(span: (i64, i64)) -> i64 {
     let (mut total, mut day) = (0, span.0.div_euclid(DAY_MS));
     while day * DAY_MS < span.1 {
-        // 1970-01-01 was a Thursday: day % 7 of 2 and 3 are Sat/Sun.
-        if !matches!(day.rem_euclid(7), 2 | 3) {
+        if crate::import::zones::is_weekday(day) {
             total += (span.1.min((day + 1) * DAY_MS) - span.0.max(day * DAY_MS)).max(0);
         }
         day += 1;

@@ -23,7 +23,7 @@
 
 use super::shifted::ShiftedCalendar;
 use crate::engine::exposure::ExposureRule;
-use crate::import::zones::{DAY_MS, weekday_index};
+use crate::import::zones::{DAY_MS, is_weekday, weekday_index};
 use rayon::prelude::*;
 use std::collections::HashMap;
 
@@ -61,8 +61,8 @@ pub struct DayTimeIndex {
     /// in `more`. Two columns: 12 bytes a trade, where the pair takes 16.
     first_row: Vec<u32>,
     first_mask: Vec<u64>,
-    /// Further entries: (trade, row, mask).
-    more: Vec<(u32, u32, u64)>,
+    /// Further entries.
+    more: Vec<Further>,
     /// Trades with whole weekdays inside their query.
     inside: Vec<Inside>,
     /// The currency sets of the trades (calendar currency numbers, sorted).
@@ -78,6 +78,9 @@ struct Inside {
     first: u32,
     last: u32,
 }
+
+/// A further entry of a trade: (trade, row, mask), as the first entries'.
+type Further = (u32, u32, u64);
 
 /// A window's place in its day: currency, then start and end (time of day
 /// plus offsets; either may leave the day).
@@ -114,43 +117,8 @@ impl DayTimeIndex {
         rule: ExposureRule,
         order: &[u32],
     ) -> Option<DayTimeIndex> {
-        let windows = calendar.prepared();
-        let shape = |w: &super::shifted::Prepared| -> Shape {
-            (
-                w.currency,
-                w.time_of_day + w.start_offset,
-                w.time_of_day + w.end_offset,
-            )
-        };
-        let mut shapes: Vec<Shape> = windows.iter().map(shape).collect();
-        shapes.sort_unstable();
-        shapes.dedup();
-        let shape_of: Vec<u32> = windows
-            .iter()
-            .map(|w| shapes.binary_search(&shape(w)).expect("listed") as u32)
-            .collect();
-        if shapes.len() > MAX_SHAPES {
-            return None;
-        }
-        let words = shapes.len().div_ceil(64).max(1);
+        let shapes = Shapes::new(calendar)?;
         let currencies = calendar.currencies();
-        // Each currency's shapes (sorted by start) and its longest.
-        let ranges: Vec<(usize, usize, i64)> = (0..currencies.len() as u32)
-            .map(|c| {
-                let lo = shapes.partition_point(|s| s.0 < c);
-                let hi = shapes.partition_point(|s| s.0 <= c);
-                let longest = shapes[lo..hi].iter().map(|s| s.2 - s.1).max().unwrap_or(0);
-                (lo, hi, longest.max(0))
-            })
-            .collect();
-        // Bounds over all shapes: a day can hold a meeting window only if
-        // the earliest start is by the query's end and the latest end at or
-        // after its start; every window meets the query if the latest start
-        // and the earliest end do.
-        let min_start = shapes.iter().map(|s| s.1).min().unwrap_or(0);
-        let max_start = shapes.iter().map(|s| s.1).max().unwrap_or(0);
-        let min_end = shapes.iter().map(|s| s.2).min().unwrap_or(0);
-        let max_end = shapes.iter().map(|s| s.2).max().unwrap_or(0);
         // Each instrument's currency set.
         let mut set_ids: HashMap<Vec<u32>, u32> = HashMap::new();
         let mut sets: Vec<Vec<u32>> = Vec::new();
@@ -166,111 +134,59 @@ impl DayTimeIndex {
                     })
                 })
                 .collect();
-        let first_weekday = calendar.first_weekday();
-        let span = calendar.span().max(0) as usize;
-        let in_span = |u: i64| u >= first_weekday && u < first_weekday + span as i64;
-        // Trade k's entries and inside range, in parallel by blocks.
+        // Trade k's entries and inside range, in parallel by blocks; the
+        // first entries straight into their columns.
         const BLOCK: usize = 1 << 15;
-        type Block = (Vec<(u32, u64)>, Vec<(u32, u32, u64)>, Vec<Inside>);
-        let blocks: Option<Vec<Block>> = order
+        let n = order.len();
+        let (mut first_row, mut first_mask) = (vec![0u32; n], vec![0u64; n]);
+        let blocks: Option<Vec<(Vec<Further>, Vec<Inside>)>> = order
             .par_chunks(BLOCK)
+            .zip(first_row.par_chunks_mut(BLOCK))
+            .zip(first_mask.par_chunks_mut(BLOCK))
             .enumerate()
-            .map(|(blk, chunk)| {
-                let (mut first, mut more, mut inside) =
-                    (Vec::with_capacity(chunk.len()), Vec::new(), Vec::new());
-                let mut day: Vec<(u32, u64)> = Vec::new();
+            .map(|(blk, ((chunk, rows), masks))| {
+                let (mut more, mut inside, mut day) = (Vec::new(), Vec::new(), Vec::new());
                 for (j, &i) in chunk.iter().enumerate() {
                     let i = i as usize;
+                    let Some(set) = set_of[instrument[i] as usize] else {
+                        continue;
+                    };
                     let k = (blk * BLOCK + j) as u32;
-                    let mut entry = (0u32, 0u64);
-                    let set = set_of[instrument[i] as usize];
-                    if let (Some(set), false) = (set, shapes.is_empty()) {
-                        let (qs, qe) = rule.query(opened[i], closed[i]);
-                        let in_lo = ceil_div(qs.saturating_sub(min_end), DAY_MS);
-                        let in_hi = qe.saturating_sub(max_start).div_euclid(DAY_MS);
-                        let lo = ceil_div(qs.saturating_sub(max_end), DAY_MS);
-                        let hi = qe.saturating_sub(min_start).div_euclid(DAY_MS);
-                        if in_lo <= in_hi {
-                            // Weekday numbers of the first and last
-                            // weekdays in the range, within the span.
-                            let first = weekday_index(in_lo).max(first_weekday);
-                            let last =
-                                (weekday_index(in_hi + 1) - 1).min(first_weekday + span as i64 - 1);
-                            if first <= last {
-                                inside.push(Inside {
-                                    trade: k,
-                                    set,
-                                    first: (first - first_weekday) as u32,
-                                    last: (last - first_weekday) as u32,
-                                });
+                    let (qs, qe) = rule.query(opened[i], closed[i]);
+                    let within =
+                        shapes.entries(qs, qe, &sets[set as usize], &mut day, |row, mask| {
+                            if masks[j] == 0 {
+                                (rows[j], masks[j]) = (row, mask);
+                            } else {
+                                more.push((k, row, mask));
                             }
-                        }
-                        let mut d = lo;
-                        while d <= hi {
-                            if in_lo <= in_hi && d == in_lo {
-                                d = in_hi + 1;
-                                continue;
-                            }
-                            let u = weekday_index(d);
-                            // A weekend day (numbered as the next Monday)
-                            // gets no windows; nor a day outside the span.
-                            if (d - 4).rem_euclid(7) < 5 && in_span(u) {
-                                let (a, b) = (qs - d * DAY_MS, qe - d * DAY_MS);
-                                day.clear();
-                                for &c in &sets[set as usize] {
-                                    let (from, to, longest) = ranges[c as usize];
-                                    // Shapes starting by the query's end, back
-                                    // to those that could still reach its start.
-                                    let end = from + shapes[from..to].partition_point(|s| s.1 <= b);
-                                    for x in (from..end).rev() {
-                                        if shapes[x].1.saturating_add(longest) < a {
-                                            break;
-                                        }
-                                        if shapes[x].2 >= a {
-                                            let (w, bit) = ((x / 64) as u32, 1u64 << (x % 64));
-                                            match day.iter_mut().find(|e| e.0 == w) {
-                                                Some(e) => e.1 |= bit,
-                                                None => day.push((w, bit)),
-                                            }
-                                        }
-                                    }
-                                }
-                                let row = (u - first_weekday) as u32 * words as u32;
-                                for &(w, m) in &day {
-                                    if entry.1 == 0 {
-                                        entry = (row + w, m);
-                                    } else {
-                                        more.push((k, row + w, m));
-                                    }
-                                }
-                            }
-                            d += 1;
-                        }
+                        });
+                    if let Some((first, last)) = within {
+                        inside.push(Inside {
+                            trade: k,
+                            set,
+                            first,
+                            last,
+                        });
                     }
-                    first.push(entry);
                     if more.len() > (chunk.len() as f64 * MAX_MORE) as usize + 64 {
                         return None;
                     }
                 }
-                Some((first, more, inside))
+                Some((more, inside))
             })
             .collect();
-        let blocks = blocks?;
-        let mut first_row = Vec::with_capacity(order.len());
-        let mut first_mask = Vec::with_capacity(order.len());
         let (mut more, mut inside) = (Vec::new(), Vec::new());
-        for (f, m, ins) in blocks {
-            first_row.extend(f.iter().map(|e| e.0));
-            first_mask.extend(f.iter().map(|e| e.1));
+        for (m, ins) in blocks? {
             more.extend(m);
             inside.extend(ins);
         }
         Some(DayTimeIndex {
-            trades: order.len(),
-            shape_of,
-            words,
-            first_weekday,
-            span,
+            trades: n,
+            shape_of: shapes.shape_of,
+            words: shapes.words,
+            first_weekday: shapes.first_weekday,
+            span: shapes.span,
             currencies: currencies.len(),
             first_row,
             first_mask,
@@ -457,6 +373,154 @@ fn transpose8(mut x: u64) -> u64 {
     x ^= t ^ (t << 14);
     t = (x ^ (x >> 28)) & 0x0000_0000_F0F0_F0F0;
     x ^ t ^ (t << 28)
+}
+
+/// The distinct shapes of a calendar's windows, sorted by currency, start
+/// and end, and what [`DayTimeIndex::new`] asks of them per trade.
+struct Shapes {
+    shapes: Vec<Shape>,
+    /// The shape of each used window of the calendar (by its index).
+    shape_of: Vec<u32>,
+    /// Words of one weekday's set of shapes.
+    words: usize,
+    /// Per calendar currency: its shapes' range and its longest shape.
+    ranges: Vec<(usize, usize, i64)>,
+    /// Over all shapes: the earliest and latest start and end.
+    min_start: i64,
+    max_start: i64,
+    min_end: i64,
+    max_end: i64,
+    first_weekday: i64,
+    span: usize,
+}
+
+impl Shapes {
+    /// `None` past [`MAX_SHAPES`].
+    fn new(calendar: &ShiftedCalendar) -> Option<Shapes> {
+        let windows = calendar.prepared();
+        let shape = |w: &super::shifted::Prepared| -> Shape {
+            (
+                w.currency,
+                w.time_of_day + w.start_offset,
+                w.time_of_day + w.end_offset,
+            )
+        };
+        let mut shapes: Vec<Shape> = windows.iter().map(shape).collect();
+        shapes.sort_unstable();
+        shapes.dedup();
+        if shapes.len() > MAX_SHAPES {
+            return None;
+        }
+        let shape_of = windows
+            .iter()
+            .map(|w| shapes.binary_search(&shape(w)).expect("listed") as u32)
+            .collect();
+        let ranges = (0..calendar.currencies().len() as u32)
+            .map(|c| {
+                let lo = shapes.partition_point(|s| s.0 < c);
+                let hi = shapes.partition_point(|s| s.0 <= c);
+                let longest = shapes[lo..hi].iter().map(|s| s.2 - s.1).max().unwrap_or(0);
+                (lo, hi, longest.max(0))
+            })
+            .collect();
+        let bound = |f: fn(&Shape) -> i64, max: bool| {
+            let v = shapes.iter().map(f);
+            if max { v.max() } else { v.min() }.unwrap_or(0)
+        };
+        Some(Shapes {
+            words: shapes.len().div_ceil(64).max(1),
+            min_start: bound(|s| s.1, false),
+            max_start: bound(|s| s.1, true),
+            min_end: bound(|s| s.2, false),
+            max_end: bound(|s| s.2, true),
+            shapes,
+            shape_of,
+            ranges,
+            first_weekday: calendar.first_weekday(),
+            span: calendar.span().max(0) as usize,
+        })
+    }
+
+    /// A trade's query `[qs, qe]` against the shapes of the currencies in
+    /// `set`: `entry(row, mask)` for each weekday on which some would meet
+    /// it (row: weekday from the first × words + word), and the weekdays
+    /// (from the first) on which every shape would, if any. A day can hold
+    /// a meeting window only if the earliest start is by the query's end
+    /// and the latest end at or after its start; every window meets the
+    /// query if the latest start and the earliest end do. `day`: scratch.
+    fn entries(
+        &self,
+        qs: i64,
+        qe: i64,
+        set: &[u32],
+        day: &mut Vec<(u32, u64)>,
+        mut entry: impl FnMut(u32, u64),
+    ) -> Option<(u32, u32)> {
+        if self.shapes.is_empty() {
+            return None;
+        }
+        let in_lo = ceil_div(qs.saturating_sub(self.min_end), DAY_MS);
+        let in_hi = qe.saturating_sub(self.max_start).div_euclid(DAY_MS);
+        let lo = ceil_div(qs.saturating_sub(self.max_end), DAY_MS);
+        let hi = qe.saturating_sub(self.min_start).div_euclid(DAY_MS);
+        let mut d = lo;
+        while d <= hi {
+            if in_lo <= in_hi && d == in_lo {
+                d = in_hi + 1;
+                continue;
+            }
+            if let Some(u) = self.weekday_from_first(d) {
+                self.meeting(qs - d * DAY_MS, qe - d * DAY_MS, set, day);
+                for &(w, m) in day.iter() {
+                    entry(u * self.words as u32 + w, m);
+                }
+            }
+            d += 1;
+        }
+        if in_lo > in_hi {
+            return None;
+        }
+        // The first and last weekdays in the range, within the span.
+        let first = weekday_index(in_lo).max(self.first_weekday);
+        let last = (weekday_index(in_hi + 1) - 1).min(self.first_weekday + self.span as i64 - 1);
+        (first <= last).then(|| {
+            (
+                (first - self.first_weekday) as u32,
+                (last - self.first_weekday) as u32,
+            )
+        })
+    }
+
+    /// Day `d`'s weekday number from the first, when it is a weekday
+    /// within the span (no window is moved onto another day).
+    fn weekday_from_first(&self, d: i64) -> Option<u32> {
+        let u = weekday_index(d) - self.first_weekday;
+        (is_weekday(d) && (0..self.span as i64).contains(&u)).then_some(u as u32)
+    }
+
+    /// Into `day`, as (word, bits): the shapes of `set`'s currencies whose
+    /// window, placed on a day, meets a query `[a, b]` from that day's
+    /// start. Per currency, the shapes starting by the query's end, back to
+    /// those that could still reach its start.
+    fn meeting(&self, a: i64, b: i64, set: &[u32], day: &mut Vec<(u32, u64)>) {
+        day.clear();
+        for &c in set {
+            let (from, to, longest) = self.ranges[c as usize];
+            let end = from + self.shapes[from..to].partition_point(|s| s.1 <= b);
+            for x in (from..end).rev() {
+                if self.shapes[x].1.saturating_add(longest) < a {
+                    break;
+                }
+                if self.shapes[x].2 >= a {
+                    let (w, bit) = ((x / 64) as u32, 1u64 << (x % 64));
+                    match day.iter_mut().find(|e| e.0 == w) {
+                        Some(e) => e.1 |= bit,
+                        None => day.push((w, bit)),
+                    }
+                }
+            }
+        }
+    }
 }
 
 /// ⌈a ÷ b⌉ for b > 0 (any sign of a).

@@ -419,12 +419,18 @@ impl<'a> LocalDayCursor<'a> {
     }
 }
 
+/// Whether a day number (days since 1970-01-01, a Thursday) is a Monday
+/// to Friday.
+pub fn is_weekday(day: i64) -> bool {
+    (day - 4).rem_euclid(7) < 5
+}
+
 /// Weekday number of a day number: Mondays to Fridays counted from Monday
 /// 1970-01-05 (day 4); a Saturday or Sunday counts as the following Monday.
 pub fn weekday_index(day: i64) -> i64 {
     let d = day - 4;
     let (week, dow) = (d.div_euclid(7), d.rem_euclid(7));
-    if dow >= 5 {
+    if !is_weekday(day) {
         (week + 1) * 5
     } else {
         week * 5 + dow
