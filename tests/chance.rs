@@ -237,6 +237,7 @@ fn runs_share_the_calendars_and_are_scored_as_if_alone() {
         ExposureRule::Overlap,
         &groups,
         settings,
+        evidence::Marking::Auto,
         &|| {},
     );
     let bits = |x: Option<f64>| x.map(f64::to_bits);
@@ -328,7 +329,7 @@ fn both_markings_give_the_same_placebo_results() {
         }];
         for groups in [&one[..], &as_groups[..]] {
             let run = |marking| {
-                evidence::placebo_groups_marked(
+                evidence::placebo_groups(
                     &t,
                     &rel,
                     &windows,

@@ -203,6 +203,7 @@ pub fn rank(
             settings.exposure_rule,
             &groups,
             placebo,
+            evidence::Marking::Auto,
             &|| {},
         );
         for (row, res) in rows.iter_mut().zip(results) {

@@ -138,42 +138,11 @@ pub fn placebo(
         rule,
         &[group],
         s,
+        Marking::Auto,
         progress,
     )
     .pop()
     .expect("one group")
-}
-
-/// Runs the same `s.n` placebo calendars (shifts drawn from `s.seed`) for
-/// each of disjoint groups of trades, one result per group: a group's
-/// result depends on its own trades and the seed only, not on which other
-/// groups are tested beside it. Each distinct shift is marked once, eight
-/// at a time, on one index of all the groups' trades (numbered by open
-/// instant, ties in the groups' order; [`Marking`]); each group's
-/// statistics then add its trades' P/L in that numbering. `progress` ticks
-/// once per group and placebo.
-#[allow(clippy::too_many_arguments)]
-pub fn placebo_groups(
-    trades: &Trades,
-    releases: &[Release],
-    windows: &[UsedWindow],
-    currencies: &[Vec<String>],
-    rule: ExposureRule,
-    groups: &[PlaceboGroup],
-    s: PlaceboSettings,
-    progress: &(dyn Fn() + Sync),
-) -> Vec<PlaceboResult> {
-    placebo_groups_marked(
-        trades,
-        releases,
-        windows,
-        currencies,
-        rule,
-        groups,
-        s,
-        Marking::Auto,
-        progress,
-    )
 }
 
 /// How the moved calendars are marked: the same flags, so the same
@@ -236,9 +205,17 @@ impl Marker {
     }
 }
 
-/// [`placebo_groups`] with the marking chosen (the same results).
+/// Runs the same `s.n` placebo calendars (shifts drawn from `s.seed`) for
+/// each of disjoint groups of trades, one result per group: a group's
+/// result depends on its own trades and the seed only, not on which other
+/// groups are tested beside it. Each distinct shift is marked once, eight
+/// at a time, on one index of all the groups' trades (numbered by open
+/// instant, ties in the groups' order; [`Marking`]); each group's
+/// statistics then add its trades' P/L in that numbering. `marking`:
+/// [`Marking::Auto`] but in tests (the same results either way).
+/// `progress` ticks once per group and placebo.
 #[allow(clippy::too_many_arguments)]
-pub fn placebo_groups_marked(
+pub fn placebo_groups(
     trades: &Trades,
     releases: &[Release],
     windows: &[UsedWindow],
@@ -391,24 +368,35 @@ pub fn placebo_groups_marked(
     type Scores = Vec<(usize, usize, usize, Option<f64>, Option<f64>)>;
     let scored: Vec<Scores> = drawn
         .par_chunks(BATCH)
-        .map_init(MarkScratch::default, |scratch, chunk| {
-            let mut bits = vec![vec![0u64; index.words()]; chunk.len()];
-            let shifts: Vec<i64> = chunk.iter().map(|(d, _)| *d).collect();
-            let mut flags: Vec<&mut [u64]> = bits.iter_mut().map(|b| b.as_mut_slice()).collect();
-            let dropped = index.mark(&calendar, &shifts, scratch, &mut flags);
-            let sets: [&[u64]; BATCH] =
-                std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
-            let mut out = Vec::new();
-            for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
-                for (b, (_, js)) in chunk.iter().enumerate() {
-                    for &j in js {
-                        out.push((g, j, dropped[b], stats[b].0, stats[b].1));
-                        progress();
+        .map_init(
+            // The flag sets too are kept per thread: each marking writes
+            // every word of them.
+            || {
+                (
+                    MarkScratch::default(),
+                    vec![vec![0u64; index.words()]; BATCH],
+                )
+            },
+            |(scratch, bits), chunk| {
+                let bits = &mut bits[..chunk.len()];
+                let shifts: Vec<i64> = chunk.iter().map(|(d, _)| *d).collect();
+                let mut flags: Vec<&mut [u64]> =
+                    bits.iter_mut().map(|b| b.as_mut_slice()).collect();
+                let dropped = index.mark(&calendar, &shifts, scratch, &mut flags);
+                let sets: [&[u64]; BATCH] =
+                    std::array::from_fn(|b| bits.get(b).unwrap_or(&bits[0]).as_slice());
+                let mut out = Vec::new();
+                for (g, stats) in scoring.statistics(sets).into_iter().enumerate() {
+                    for (b, (_, js)) in chunk.iter().enumerate() {
+                        for &j in js {
+                            out.push((g, j, dropped[b], stats[b].0, stats[b].1));
+                            progress();
+                        }
                     }
                 }
-            }
-            out
-        })
+                out
+            },
+        )
         .collect();
     let mut shares = vec![vec![None; n]; groups.len()];
     let mut diffs = vec![vec![None; n]; groups.len()];
