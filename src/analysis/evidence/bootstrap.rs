@@ -663,11 +663,12 @@ pub fn bootstrap_intervals(
 /// `stream` of `seed` (lane l's s0..s3 the 64-bit words 4l..4l + 3); the
 /// buffer holds their outputs interleaved, little-endian: 64-bit word 4i + l
 /// is lane l's i-th output. Written out rather than taken from
-/// rand_xoshiro (one generator at a time): four lanes advanced together
-/// compile to vector operations (SSE2 on every x86-64) and give the bytes
-/// at a fraction of ChaCha8's cost, which was a sixth of the bootstrap's
-/// time. A test holds every lane equal to rand_xoshiro's generator from the
-/// same state.
+/// rand_xoshiro (one generator at a time): the four lanes advance together
+/// in one AVX2 register ([`xoshiro_lanes_avx2`], chosen at run time; the
+/// lane-by-lane loop is the portable path and does not vectorise) and give
+/// the bytes at a fraction of ChaCha8's cost, which was a sixth of the
+/// bootstrap's time. A test holds every lane equal to rand_xoshiro's
+/// generator from the same state.
 struct Words {
     /// `state[k][l]`: lane l's s_k.
     state: [[u64; 4]; 4],
@@ -753,8 +754,6 @@ impl Words {
 
 /// [`Words::refill`] lane by lane.
 fn xoshiro_lanes(state: &mut [[u64; 4]; 4], buf: &mut [u8; 4096]) {
-    // The state in locals (not behind a reference the stores into the
-    // buffer could alias), so that it can stay in registers.
     let [mut s0, mut s1, mut s2, mut s3] = *state;
     for out in buf.chunks_exact_mut(32) {
         let mut next = [0u64; 4];
@@ -787,12 +786,9 @@ fn xoshiro_lanes_avx2(state: &mut [[u64; 4]; 4], buf: &mut [u8; 4096]) {
     // SAFETY: each load and store reads or writes 32 bytes within a [u64;
     // 4] of `state` or a 32-byte chunk of `buf`; unaligned access is allowed.
     let load = |a: &[u64; 4]| unsafe { _mm256_loadu_si256(a.as_ptr() as *const __m256i) };
-    let rotl = |x: __m256i, k: i32| {
-        // The shifts by a variable count (k is 23 or 45).
-        let left = _mm256_sll_epi64(x, _mm_cvtsi32_si128(k));
-        let right = _mm256_srl_epi64(x, _mm_cvtsi32_si128(64 - k));
-        _mm256_or_si256(left, right)
-    };
+    // Rotations left by 23 and 45: shifts by immediates.
+    let rotl23 = |x| _mm256_or_si256(_mm256_slli_epi64::<23>(x), _mm256_srli_epi64::<41>(x));
+    let rotl45 = |x| _mm256_or_si256(_mm256_slli_epi64::<45>(x), _mm256_srli_epi64::<19>(x));
     let (mut s0, mut s1, mut s2, mut s3) = (
         load(&state[0]),
         load(&state[1]),
@@ -800,7 +796,7 @@ fn xoshiro_lanes_avx2(state: &mut [[u64; 4]; 4], buf: &mut [u8; 4096]) {
         load(&state[3]),
     );
     for out in buf.chunks_exact_mut(32) {
-        let next = _mm256_add_epi64(rotl(_mm256_add_epi64(s0, s3), 23), s0);
+        let next = _mm256_add_epi64(rotl23(_mm256_add_epi64(s0, s3)), s0);
         // SAFETY: see above.
         unsafe { _mm256_storeu_si256(out.as_mut_ptr() as *mut __m256i, next) };
         let t = _mm256_slli_epi64::<17>(s1);
@@ -809,7 +805,7 @@ fn xoshiro_lanes_avx2(state: &mut [[u64; 4]; 4], buf: &mut [u8; 4096]) {
         s1 = _mm256_xor_si256(s1, s2);
         s0 = _mm256_xor_si256(s0, s3);
         s2 = _mm256_xor_si256(s2, t);
-        s3 = rotl(s3, 45);
+        s3 = rotl45(s3);
     }
     for (a, v) in state.iter_mut().zip([s0, s1, s2, s3]) {
         // SAFETY: see above.
